@@ -1,0 +1,4 @@
+//! Published analytic reference solutions (each file names its source) and the verification cases behind
+//! `plumefield verify`.
+
+pub mod reference;

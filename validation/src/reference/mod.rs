@@ -1,0 +1,1 @@
+//! Analytic reference solutions, one file per published result.
