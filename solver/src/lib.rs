@@ -12,4 +12,5 @@
 pub mod flow;
 pub mod linalg;
 pub mod post;
+pub mod problem;
 pub mod transport;
