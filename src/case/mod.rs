@@ -1,0 +1,1 @@
+//! Case file: units, raw TOML, validated case.
