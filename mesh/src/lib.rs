@@ -17,4 +17,7 @@ pub mod layout;
 
 pub use geometry::{BoundaryFacet, EmbeddedGeometry};
 pub use grid::{Axis, Grid};
-pub use layout::{Cell, Layout};
+pub use layout::{
+    lattice, random_sequential_addition, read_csv, Cell, ChamberBox, Layout, LayoutError, LayoutStatistics,
+    RandomLayout, RandomTarget, ResolutionWarning,
+};

@@ -1,7 +1,27 @@
 //! Cell layouts: where the biological cells (spheres) sit in the chamber, their radii and secretion rates.
 //!
 //! Generators (explicit list, CSV file, lattice, random sequential addition) live in the files beside this one;
-//! all of them produce a [`Layout`] that has been checked by [`Layout::validate`].
+//! all of them produce a [`Layout`] that has been checked by [`Layout::validate`] (except [`read_csv`], which
+//! does not know the chamber: its caller validates).
+
+pub mod chamber;
+pub mod csv_import;
+pub mod error;
+pub mod lattice;
+pub mod neighbours;
+pub mod prng;
+pub mod random;
+pub mod resolution;
+pub mod statistics;
+pub mod validate;
+
+pub use chamber::ChamberBox;
+pub use csv_import::read_csv;
+pub use error::LayoutError;
+pub use lattice::lattice;
+pub use random::{random_sequential_addition, RandomLayout, RandomTarget};
+pub use resolution::ResolutionWarning;
+pub use statistics::LayoutStatistics;
 
 /// One biological cell: an impermeable sphere that secretes ligand uniformly from its surface.
 #[derive(Clone, Debug, PartialEq)]
@@ -20,4 +40,9 @@ pub struct Cell {
 #[derive(Clone, Debug, Default, PartialEq)]
 pub struct Layout {
     pub cells: Vec<Cell>,
+}
+
+/// Length in micrometres with two decimals, for messages ("8.00 um").
+pub(crate) fn micrometres(metres: f64) -> String {
+    format!("{:.2} um", metres * 1e6)
 }

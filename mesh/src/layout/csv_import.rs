@@ -1,0 +1,206 @@
+//! Read a layout from a CSV file with a header row: columns `x,y,z` (m) and optionally `radius` (m) and
+//! `secretion_rate` (molecules/s), in any order; an empty radius or secretion field takes the default.
+//! Lines starting with `#` are comments. The per-cell output columns of a previous run's `cells.csv` are
+//! accepted and ignored, so such a file can seed a new case; any other column is an error (most likely a typo).
+
+use std::path::Path;
+
+use super::error::LayoutError;
+use super::validate::check_cell_values;
+use super::{Cell, Layout};
+
+/// Columns of `cells.csv` written by a run (DESIGN.md §6) that carry no layout information.
+const IGNORED_COLUMNS: [&str; 13] = [
+    "id",
+    "mean_surface_concentration",
+    "bound_rate",
+    "anisotropy_x",
+    "anisotropy_y",
+    "anisotropy_z",
+    "anisotropy_along_flow",
+    "front_back_contrast",
+    "direction_error",
+    "drag_x",
+    "drag_y",
+    "drag_z",
+    "local_speed",
+];
+
+/// Read cells from `path`; ids are the data-row order (0-based). The caller checks the layout against its
+/// chamber with [`Layout::validate`].
+pub fn read_csv(
+    path: &Path,
+    default_radius: f64,
+    default_secretion_rate: f64,
+) -> Result<Layout, LayoutError> {
+    let fail =
+        |line: Option<u64>, message: String| LayoutError::Csv { path: path.to_path_buf(), line, message };
+    let text =
+        std::fs::read_to_string(path).map_err(|e| fail(None, format!("cannot read the layout file: {e}")))?;
+    // Line numbers are counted from byte offsets: the reader's own line counter skips blank lines.
+    let line_of = |position: Option<&csv::Position>| position.map(|p| line_at(&text, p.byte() as usize));
+    let mut reader = csv::ReaderBuilder::new()
+        .has_headers(true)
+        .trim(csv::Trim::All)
+        .comment(Some(b'#'))
+        .from_reader(text.as_bytes());
+
+    let headers = reader.headers().map_err(|e| fail(line_of(e.position()), e.to_string()))?.clone();
+    let header_line = line_of(headers.position());
+    if headers.is_empty() || headers.iter().all(str::is_empty) {
+        return Err(fail(
+            header_line,
+            "the header row is missing (expected columns x,y,z[,radius,secretion_rate])".into(),
+        ));
+    }
+    let mut column: [Option<usize>; 5] = [None; 5];
+    const NAMES: [&str; 5] = ["x", "y", "z", "radius", "secretion_rate"];
+    for (n, name) in headers.iter().enumerate() {
+        let key = name.to_ascii_lowercase();
+        if let Some(slot) = NAMES.iter().position(|&known| known == key) {
+            if column[slot].is_some() {
+                return Err(fail(header_line, format!("column '{name}' appears twice")));
+            }
+            column[slot] = Some(n);
+        } else if !IGNORED_COLUMNS.contains(&key.as_str()) {
+            return Err(fail(
+                header_line,
+                format!("unknown column '{name}' (expected x, y, z and optionally radius, secretion_rate)"),
+            ));
+        }
+    }
+    for (slot, name) in NAMES.iter().enumerate().take(3) {
+        if column[slot].is_none() {
+            return Err(fail(header_line, format!("required column '{name}' is missing from the header")));
+        }
+    }
+
+    let mut cells = Vec::new();
+    for record in reader.records() {
+        let record = record.map_err(|e| fail(line_of(e.position()), e.to_string()))?;
+        let line = line_of(record.position());
+        let mut values = [f64::NAN; 5];
+        for slot in 0..5 {
+            let Some(n) = column[slot] else { continue };
+            let field = record.get(n).unwrap_or("");
+            if field.is_empty() {
+                if slot < 3 {
+                    return Err(fail(line, format!("column '{}' is empty", NAMES[slot])));
+                }
+                continue;
+            }
+            values[slot] = field.parse::<f64>().map_err(|_| {
+                fail(line, format!("column '{}' holds '{field}', which is not a number", NAMES[slot]))
+            })?;
+        }
+        let radius = if values[3].is_nan() && column[3].is_none_or(|n| record.get(n).unwrap_or("").is_empty())
+        {
+            default_radius
+        } else {
+            values[3]
+        };
+        let secretion_rate =
+            if values[4].is_nan() && column[4].is_none_or(|n| record.get(n).unwrap_or("").is_empty()) {
+                default_secretion_rate
+            } else {
+                values[4]
+            };
+        let id = cells.len();
+        let centre = [values[0], values[1], values[2]];
+        check_cell_values(id, centre, radius, secretion_rate).map_err(|e| fail(line, e.to_string()))?;
+        cells.push(Cell { id, centre, radius, secretion_rate });
+    }
+    Ok(Layout { cells })
+}
+
+/// 1-based line of the first record byte at or after `offset` (skipping blank and `#` comment lines, which
+/// the reader reports as part of the following record).
+fn line_at(text: &str, offset: usize) -> u64 {
+    let bytes = text.as_bytes();
+    let mut at = offset.min(bytes.len());
+    while at < bytes.len() {
+        match bytes[at] {
+            b'\n' | b'\r' => at += 1,
+            b'#' => {
+                while at < bytes.len() && bytes[at] != b'\n' {
+                    at += 1;
+                }
+            }
+            _ => break,
+        }
+    }
+    1 + bytes[..at].iter().filter(|&&b| b == b'\n').count() as u64
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use std::path::PathBuf;
+
+    /// A file in the system temp dir, removed on drop.
+    struct TempCsv(PathBuf);
+
+    impl TempCsv {
+        fn new(name: &str, text: &str) -> Self {
+            let path = std::env::temp_dir().join(format!("mesh-csv-{}-{name}.csv", std::process::id()));
+            std::fs::write(&path, text).expect("temp dir is writable");
+            TempCsv(path)
+        }
+    }
+
+    impl Drop for TempCsv {
+        fn drop(&mut self) {
+            let _ = std::fs::remove_file(&self.0);
+        }
+    }
+
+    #[test]
+    fn any_column_order_defaults_and_comments() {
+        let file = TempCsv::new(
+            "order",
+            "# cells of a test\nsecretion_rate, z, y, x, radius\n2.5, 3e-5, 2e-5, 1e-5, 7e-6\n, 6e-5, 5e-5, 4e-5,\n",
+        );
+        let layout = read_csv(&file.0, 8e-6, 0.1).unwrap();
+        assert_eq!(layout.cells.len(), 2);
+        assert_eq!(
+            layout.cells[0],
+            Cell { id: 0, centre: [1e-5, 2e-5, 3e-5], radius: 7e-6, secretion_rate: 2.5 }
+        );
+        assert_eq!(
+            layout.cells[1],
+            Cell { id: 1, centre: [4e-5, 5e-5, 6e-5], radius: 8e-6, secretion_rate: 0.1 }
+        );
+    }
+
+    #[test]
+    fn errors_name_the_line() {
+        let cases = [
+            ("badnum", "x,y,z\n1e-5,2e-5,3e-5\n1e-5,abc,3e-5\n", Some(3), "not a number"),
+            ("missing", "x,y,radius\n1e-5,2e-5,3e-5\n", Some(1), "'z' is missing"),
+            ("unknown", "x,y,z,radus\n1e-5,2e-5,3e-5,1e-6\n", Some(1), "unknown column 'radus'"),
+            (
+                "negative",
+                "x,y,z,radius\n1e-5,2e-5,3e-5,1e-6\n\n1e-5,2e-5,3e-5,-1e-6\n",
+                Some(4),
+                "must be positive",
+            ),
+            ("ragged", "x,y,z\n1e-5,2e-5,3e-5\n1e-5,2e-5\n", Some(3), "fields"),
+            ("nan", "x,y,z\nNaN,2e-5,3e-5\n", Some(2), "non-finite"),
+        ];
+        for (name, text, line, needle) in cases {
+            let file = TempCsv::new(name, text);
+            match read_csv(&file.0, 8e-6, 1.0) {
+                Err(e @ LayoutError::Csv { .. }) => {
+                    let LayoutError::Csv { line: got, ref message, .. } = e else { unreachable!() };
+                    assert_eq!(got, line, "{name}: {message}");
+                    assert!(message.contains(needle), "{name}: {message}");
+                    let shown = e.to_string();
+                    assert!(shown.contains(&format!("line {}", line.unwrap_or(0))), "{shown}");
+                }
+                other => panic!("{name}: expected a CSV error, got {other:?}"),
+            }
+        }
+        let missing = read_csv(Path::new("/nonexistent/cells.csv"), 8e-6, 1.0).unwrap_err();
+        assert!(matches!(missing, LayoutError::Csv { line: None, .. }), "{missing}");
+    }
+}
