@@ -75,6 +75,19 @@ impl DarcySphere {
     }
 }
 
+/// Drag (N) `2πμa³U/K` for `viscosity` μ (Pa s), `radius` a (m), `speed` U (m/s), `permeability` K (m²).
+/// Unchecked convenience for trusted inputs (verification constants); use [`DarcySphere::new`] for input
+/// that needs validation.
+pub fn drag(viscosity: f64, radius: f64, speed: f64, permeability: f64) -> f64 {
+    DarcySphere { radius, speed, viscosity, permeability }.drag()
+}
+
+/// Velocity `(u_r, u_θ)` (m/s) at distance `r` (m, ≥ a) and angle `theta` (rad, from downstream) about a sphere
+/// of `radius` a (m) in a stream of `speed` U (m/s). Unchecked convenience, as [`drag`].
+pub fn velocity_polar(speed: f64, radius: f64, r: f64, theta: f64) -> (f64, f64) {
+    DarcySphere { radius, speed, viscosity: 1.0, permeability: 1.0 }.velocity_polar(r, theta)
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -87,6 +100,8 @@ mod tests {
         assert!((s.velocity_polar(1.5, 0.0).0 - 0.703_703_704).abs() < 5e-10);
         assert!((s.velocity_polar(1.5, PI / 2.0).1 + 1.148_148_148).abs() < 5e-10);
         assert!((s.velocity_polar(1.0, PI / 2.0).1 + 1.5).abs() < 1e-15);
+        assert_eq!(velocity_polar(1.0, 1.0, 1.5, 0.3), s.velocity_polar(1.5, 0.3));
+        assert!(rel_diff(drag(2.0, 3.0, 5.0, 7.0), 2.0 * PI * 2.0 * 27.0 * 5.0 / 7.0) < 1e-15);
     }
 
     /// Cartesian form agrees with the polar one, the surface is impermeable, and the drag equals the

@@ -29,7 +29,7 @@ const TOLERANCE: f64 = 1e-12;
 
 /// The flow past the sphere (item B): it sets the radial profile `g(ρ) = v_r/cosθ`.
 #[derive(Clone, Copy, Debug, PartialEq)]
-pub enum SphereFlow {
+pub enum Flow {
     /// Darcy potential flow, `g = 1 − ρ⁻³`.
     Darcy,
     /// Stokes flow, `g = 1 − 3/(2ρ) + 1/(2ρ³)`.
@@ -38,9 +38,9 @@ pub enum SphereFlow {
     Brinkman { alpha: f64 },
 }
 
-impl SphereFlow {
+impl Flow {
     fn validated(self) -> Result<Self, ReferenceError> {
-        if let SphereFlow::Brinkman { alpha } = self {
+        if let Flow::Brinkman { alpha } = self {
             require_positive("alpha", alpha)?;
         }
         Ok(self)
@@ -49,9 +49,9 @@ impl SphereFlow {
     /// Radial profile `g(ρ) = v_r/(U cosθ)` at ρ = r/a ≥ 1 (dimensionless).
     pub fn radial_velocity_profile(self, rho: f64) -> f64 {
         match self {
-            SphereFlow::Darcy => 1.0 - rho.powi(-3),
-            SphereFlow::Stokes => 1.0 - 1.5 / rho + 0.5 * rho.powi(-3),
-            SphereFlow::Brinkman { alpha } => {
+            Flow::Darcy => 1.0 - rho.powi(-3),
+            Flow::Stokes => 1.0 - 1.5 / rho + 0.5 * rho.powi(-3),
+            Flow::Brinkman { alpha } => {
                 BrinkmanSphere { radius: 1.0, speed: 1.0, effective_viscosity: 1.0, screening: alpha }
                     .radial_profiles(rho)
                     .0
@@ -62,11 +62,11 @@ impl SphereFlow {
 
 /// First-order coefficient `J = ∫₁^∞ g(ρ) ρ⁻² dρ` (dimensionless): Darcy 3/4, Stokes 3/8, Brinkman closed
 /// form with `E_n` (REFERENCES.md E.2).
-pub fn first_order_integral(flow: SphereFlow) -> Result<f64, ReferenceError> {
+pub fn first_order_integral(flow: Flow) -> Result<f64, ReferenceError> {
     Ok(match flow.validated()? {
-        SphereFlow::Darcy => 0.75,
-        SphereFlow::Stokes => 0.375,
-        SphereFlow::Brinkman { alpha } => {
+        Flow::Darcy => 0.75,
+        Flow::Stokes => 0.375,
+        Flow::Brinkman { alpha } => {
             let a2 = alpha * alpha;
             // e^{α}E_n(α) is evaluated scaled, so large α neither overflows nor underflows.
             1.0 - (1.0 + 3.0 / alpha + 3.0 / a2) / 4.0
@@ -77,13 +77,13 @@ pub fn first_order_integral(flow: SphereFlow) -> Result<f64, ReferenceError> {
 
 /// First-order coefficient with bulk decay, `J_β = ∫₁^∞ g(t)(1 + βt)² e^{−2β(t−1)} t⁻² dt`
 /// (dimensionless; `decay_number` β = a√(k/D) ≥ 0): Darcy 3/4, Stokes closed form, Brinkman by quadrature.
-pub fn first_order_integral_with_decay(flow: SphereFlow, decay_number: f64) -> Result<f64, ReferenceError> {
+pub fn first_order_integral_with_decay(flow: Flow, decay_number: f64) -> Result<f64, ReferenceError> {
     let beta = require_non_negative("decay_number", decay_number)?;
     match flow.validated()? {
-        SphereFlow::Darcy => Ok(0.75),
-        SphereFlow::Stokes => Ok(0.375 - 0.75 * beta
+        Flow::Darcy => Ok(0.75),
+        Flow::Stokes => Ok(0.375 - 0.75 * beta
             + 1.5 * beta * beta * if beta > 0.0 { scaled_expint(1, 2.0 * beta) } else { 0.0 }),
-        brinkman @ SphereFlow::Brinkman { .. } => {
+        brinkman @ Flow::Brinkman { .. } => {
             if beta == 0.0 {
                 return first_order_integral(brinkman);
             }
@@ -93,7 +93,7 @@ pub fn first_order_integral_with_decay(flow: SphereFlow, decay_number: f64) -> R
 }
 
 /// `J_β` by quadrature for any flow (also the independent check of the closed forms).
-fn decay_weighted_integral(flow: SphereFlow, beta: f64) -> Result<f64, ReferenceError> {
+fn decay_weighted_integral(flow: Flow, beta: f64) -> Result<f64, ReferenceError> {
     integrate_to_infinity(
         |t| {
             let w = 1.0 + beta * t;
@@ -111,7 +111,7 @@ fn escaping_fraction(biot: f64) -> f64 {
 
 /// First-order anisotropy per Péclet number, `A/Pe = J/(3(2 + Bi))` (dimensionless; Pe = Ua/D), for surface
 /// uptake `biot` Bi = κa/D ≥ 0 and no bulk decay (REFERENCES.md E.3).
-pub fn anisotropy_per_peclet(flow: SphereFlow, biot: f64) -> Result<f64, ReferenceError> {
+pub fn anisotropy_per_peclet(flow: Flow, biot: f64) -> Result<f64, ReferenceError> {
     let biot = require_non_negative("biot", biot)?;
     Ok(first_order_integral(flow)? / (3.0 * (2.0 + biot)))
 }
@@ -119,7 +119,7 @@ pub fn anisotropy_per_peclet(flow: SphereFlow, biot: f64) -> Result<f64, Referen
 /// First-order anisotropy per Péclet number with bulk decay, `A/Pe = J_β/(3[2 + 2β + β² + Bi(1 + β)])`
 /// (dimensionless; `biot` Bi ≥ 0, `decay_number` β ≥ 0; REFERENCES.md E.6).
 pub fn anisotropy_per_peclet_with_decay(
-    flow: SphereFlow,
+    flow: Flow,
     biot: f64,
     decay_number: f64,
 ) -> Result<f64, ReferenceError> {
@@ -130,7 +130,7 @@ pub fn anisotropy_per_peclet_with_decay(
 }
 
 /// Front–back contrast per Péclet number `[c(θ=0) − c(θ=π)]/(⟨c⟩_S Pe) = 2J/(2 + Bi) = 6 A/Pe` (dimensionless).
-pub fn front_back_contrast_per_peclet(flow: SphereFlow, biot: f64) -> Result<f64, ReferenceError> {
+pub fn front_back_contrast_per_peclet(flow: Flow, biot: f64) -> Result<f64, ReferenceError> {
     Ok(6.0 * anisotropy_per_peclet(flow, biot)?)
 }
 
@@ -144,22 +144,22 @@ pub fn mean_surface_concentration(peclet: f64, biot: f64) -> Result<f64, Referen
 
 /// Dipole profile `h(ρ)` of the first-order field `C₁ = h(ρ) cosθ + m(ρ)` (dimensionless) at ρ = r/a ≥ 1:
 /// closed forms for Darcy and Stokes (REFERENCES.md E.2), variation of parameters by quadrature for Brinkman.
-pub fn dipole_profile(flow: SphereFlow, biot: f64, rho: f64) -> Result<f64, ReferenceError> {
+pub fn dipole_profile(flow: Flow, biot: f64, rho: f64) -> Result<f64, ReferenceError> {
     let biot = require_non_negative("biot", biot)?;
     let s = escaping_fraction(biot);
     Ok(match flow.validated()? {
-        SphereFlow::Darcy => s / 2.0 + s / (4.0 * rho.powi(3)) - 3.0 / (4.0 * (2.0 + biot) * rho * rho),
-        SphereFlow::Stokes => {
+        Flow::Darcy => s / 2.0 + s / (4.0 * rho.powi(3)) - 3.0 / (4.0 * (2.0 + biot) * rho * rho),
+        Flow::Stokes => {
             s / 2.0 - 0.75 * s / rho - s / (8.0 * rho.powi(3))
                 + 3.0 * s * (3.0 + biot) / (8.0 * (2.0 + biot) * rho * rho)
         }
-        brinkman @ SphereFlow::Brinkman { .. } => dipole_profile_by_quadrature(brinkman, biot, rho)?,
+        brinkman @ Flow::Brinkman { .. } => dipole_profile_by_quadrature(brinkman, biot, rho)?,
     })
 }
 
 /// `h(ρ) = −(ρ/3)∫_ρ^∞ S dt − (1/(3ρ²))∫_1^ρ t³ S dt + F₂/ρ²`, `S = −s g/t²`, `F₂ = I(Bi − 1)/(3(2 + Bi))`,
 /// `I = ∫_1^∞ S dt` (REFERENCES.md E.2).
-fn dipole_profile_by_quadrature(flow: SphereFlow, biot: f64, rho: f64) -> Result<f64, ReferenceError> {
+fn dipole_profile_by_quadrature(flow: Flow, biot: f64, rho: f64) -> Result<f64, ReferenceError> {
     let s = escaping_fraction(biot);
     let source = |t: f64| -s * flow.radial_velocity_profile(t) / (t * t);
     let outer = integrate_to_infinity(source, rho, TOLERANCE)?;
@@ -170,7 +170,7 @@ fn dipole_profile_by_quadrature(flow: SphereFlow, biot: f64, rho: f64) -> Result
 }
 
 /// Surface dipole coefficient `h(1) = s J/(2 + Bi)` (dimensionless); `⟨C cosθ⟩_S = Pe h(1)/3`.
-pub fn surface_dipole(flow: SphereFlow, biot: f64) -> Result<f64, ReferenceError> {
+pub fn surface_dipole(flow: Flow, biot: f64) -> Result<f64, ReferenceError> {
     let biot = require_non_negative("biot", biot)?;
     Ok(escaping_fraction(biot) * first_order_integral(flow)? / (2.0 + biot))
 }
@@ -184,8 +184,8 @@ mod tests {
     /// printed).
     #[test]
     fn values_of_table_e3() {
-        let darcy = SphereFlow::Darcy;
-        let stokes = SphereFlow::Stokes;
+        let darcy = Flow::Darcy;
+        let stokes = Flow::Stokes;
         assert_eq!(first_order_integral(darcy).unwrap(), 0.75);
         assert_eq!(first_order_integral(stokes).unwrap(), 0.375);
         assert!((anisotropy_per_peclet(darcy, 0.0).unwrap() - 1.0 / 8.0).abs() < 1e-16);
@@ -203,7 +203,7 @@ mod tests {
             (100.0, 0.742_716_424_8, 0.123_786_070_8, 0.082_524_047_2, f64::NAN),
         ];
         for (alpha, j, a0, a1, h1) in table {
-            let flow = SphereFlow::Brinkman { alpha };
+            let flow = Flow::Brinkman { alpha };
             assert!((first_order_integral(flow).unwrap() - j).abs() < 6e-11, "J({alpha})");
             assert!((anisotropy_per_peclet(flow, 0.0).unwrap() - a0).abs() < 6e-11, "A/Pe({alpha}, 0)");
             assert!((anisotropy_per_peclet(flow, 1.0).unwrap() - a1).abs() < 6e-11, "A/Pe({alpha}, 1)");
@@ -221,18 +221,18 @@ mod tests {
     #[test]
     fn brinkman_integral_closed_form_quadrature_and_limits() {
         for alpha in [0.01, 0.1, 0.7, 3.0, 25.0, 300.0] {
-            let flow = SphereFlow::Brinkman { alpha };
+            let flow = Flow::Brinkman { alpha };
             let closed = first_order_integral(flow).unwrap();
             let quadrature = decay_weighted_integral(flow, 0.0).unwrap();
             assert!(rel_diff(closed, quadrature) < 1e-10, "α = {alpha}: {closed} vs {quadrature}");
         }
-        let small = first_order_integral(SphereFlow::Brinkman { alpha: 1e-4 }).unwrap();
+        let small = first_order_integral(Flow::Brinkman { alpha: 1e-4 }).unwrap();
         assert!((small - 0.375).abs() < 1e-3, "{small}");
         let alpha: f64 = 1e3;
-        let large = first_order_integral(SphereFlow::Brinkman { alpha }).unwrap();
+        let large = first_order_integral(Flow::Brinkman { alpha }).unwrap();
         let asymptote = 0.75 - 0.75 / alpha + 2.25 / (alpha * alpha);
         assert!((large - asymptote).abs() < 10.0 / alpha.powi(3), "{large} vs {asymptote}");
-        assert!(first_order_integral(SphereFlow::Brinkman { alpha: -1.0 }).is_err());
+        assert!(first_order_integral(Flow::Brinkman { alpha: -1.0 }).is_err());
     }
 
     /// REFERENCES.md E.6: A/Pe with decay at (β, Bi) = (0.5, 0), (0.5, 1), (2, 0), (2, 1) (6 decimals), and
@@ -241,9 +241,9 @@ mod tests {
     fn values_of_section_e6() {
         let cases = [(0.5, 0.0), (0.5, 1.0), (2.0, 0.0), (2.0, 1.0)];
         let expected = [
-            (SphereFlow::Darcy, [0.076_923, 0.052_632, 0.025_000, 0.019_231]),
-            (SphereFlow::Stokes, [0.022_936, 0.015_693, 0.003_769, 0.002_899]),
-            (SphereFlow::Brinkman { alpha: 3.0 }, [0.051_894, 0.035_506, 0.011_081, 0.008_524]),
+            (Flow::Darcy, [0.076_923, 0.052_632, 0.025_000, 0.019_231]),
+            (Flow::Stokes, [0.022_936, 0.015_693, 0.003_769, 0.002_899]),
+            (Flow::Brinkman { alpha: 3.0 }, [0.051_894, 0.035_506, 0.011_081, 0.008_524]),
         ];
         for (flow, values) in expected {
             for ((beta, biot), want) in cases.iter().zip(values) {
@@ -252,7 +252,7 @@ mod tests {
             }
         }
         for beta in [0.1, 0.5, 2.0, 7.0] {
-            for flow in [SphereFlow::Darcy, SphereFlow::Stokes] {
+            for flow in [Flow::Darcy, Flow::Stokes] {
                 let closed = first_order_integral_with_decay(flow, beta).unwrap();
                 let quadrature = decay_weighted_integral(flow, beta).unwrap();
                 assert!(
@@ -261,7 +261,7 @@ mod tests {
                 );
             }
         }
-        let brinkman = SphereFlow::Brinkman { alpha: 3.0 };
+        let brinkman = Flow::Brinkman { alpha: 3.0 };
         assert_eq!(
             first_order_integral_with_decay(brinkman, 0.0).unwrap(),
             first_order_integral(brinkman).unwrap()
@@ -272,9 +272,9 @@ mod tests {
     /// variation-of-parameters quadrature; h → s/2 far away; ⟨C⟩_S = s − Pe s²/2.
     #[test]
     fn dipole_profiles_and_mean() {
-        assert!((dipole_profile(SphereFlow::Darcy, 0.0, 2.0).unwrap() - 0.4375).abs() < 1e-15);
-        assert!((dipole_profile(SphereFlow::Stokes, 0.0, 2.0).unwrap() - 0.25).abs() < 1e-15);
-        for flow in [SphereFlow::Darcy, SphereFlow::Stokes] {
+        assert!((dipole_profile(Flow::Darcy, 0.0, 2.0).unwrap() - 0.4375).abs() < 1e-15);
+        assert!((dipole_profile(Flow::Stokes, 0.0, 2.0).unwrap() - 0.25).abs() < 1e-15);
+        for flow in [Flow::Darcy, Flow::Stokes] {
             for biot in [0.0, 0.6, 3.0] {
                 for rho in [1.0, 1.5, 4.0] {
                     let closed = dipole_profile(flow, biot, rho).unwrap();
@@ -283,16 +283,16 @@ mod tests {
                 }
             }
         }
-        let far = dipole_profile(SphereFlow::Brinkman { alpha: 2.0 }, 1.0, 1e4).unwrap();
+        let far = dipole_profile(Flow::Brinkman { alpha: 2.0 }, 1.0, 1e4).unwrap();
         assert!((far - 0.25).abs() < 1e-4, "h(∞) = s/2: {far}");
         // Robin condition of the dipole: h'(1) = Bi h(1) (second-order one-sided difference).
-        let flow = SphereFlow::Brinkman { alpha: 2.0 };
+        let flow = Flow::Brinkman { alpha: 2.0 };
         let (biot, d) = (0.8, 1e-3);
         let h = |rho: f64| dipole_profile(flow, biot, rho).unwrap();
         let slope = (-3.0 * h(1.0) + 4.0 * h(1.0 + d) - h(1.0 + 2.0 * d)) / (2.0 * d);
         let h1 = surface_dipole(flow, biot).unwrap();
         assert!((slope - biot * h1).abs() < 1e-5, "h'(1) = {slope}, Bi h(1) = {}", biot * h1);
         assert!((mean_surface_concentration(0.02, 1.0).unwrap() - (0.5 - 0.0025)).abs() < 1e-16);
-        assert!((front_back_contrast_per_peclet(SphereFlow::Darcy, 0.0).unwrap() - 0.75).abs() < 1e-15);
+        assert!((front_back_contrast_per_peclet(Flow::Darcy, 0.0).unwrap() - 0.75).abs() < 1e-15);
     }
 }

@@ -94,6 +94,20 @@ impl SecretingSphere {
     }
 }
 
+/// Steady surface concentration c(a) (molecules/m³) = `ν/(4πDa(1 + β + Bi))` for `secretion_rate` ν
+/// (molecules/s), `radius` a (m), `diffusivity` D (m²/s), `uptake_velocity` κ (m/s) and `decay_rate` k (1/s).
+/// Unchecked convenience for trusted inputs; use [`SecretingSphere::new`] for input that needs validation.
+pub fn surface_concentration(
+    secretion_rate: f64,
+    radius: f64,
+    diffusivity: f64,
+    uptake_velocity: f64,
+    decay_rate: f64,
+) -> f64 {
+    SecretingSphere { radius, secretion_rate, diffusivity, uptake_velocity, decay_rate }
+        .steady_surface_concentration()
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -120,6 +134,7 @@ mod tests {
             let got = s.steady_concentration(2.0) / unit;
             assert!((got - c2).abs() < tol2, "C(2), κ = {kappa}, k = {k}: {got:.10} vs {c2}");
             assert!(rel_diff(s.steady_surface_concentration(), s.steady_concentration(1.0)) < 1e-15);
+            assert_eq!(surface_concentration(1.0, 1.0, 1.0, kappa, k), s.steady_surface_concentration());
         }
         let s = SecretingSphere::new(1.0, 1.0, 1.0, 1.0, 1.0).unwrap();
         assert!((s.steady_concentration(2.0) / s.concentration_scale() - 0.061_313_240_2).abs() < 1e-10);
