@@ -1,0 +1,200 @@
+//! Atomic file replacement: every output is written to a temporary file in the destination's own directory,
+//! flushed to disk, then renamed over the destination. A run that is killed part-way therefore leaves either
+//! the previous file or none, never a half-written one that looks complete (DESIGN.md §6).
+//!
+//! The temporary file lives in the same directory because `rename` is only atomic within one file system
+//! (POSIX `rename(2)`, common practice). Its name starts with a dot and ends in `.tmp` so that a leftover from
+//! a power cut is recognisably not an output.
+
+use std::fs;
+use std::io::Write;
+use std::path::{Path, PathBuf};
+use std::sync::atomic::{AtomicU64, Ordering};
+
+/// Writes `bytes` to `path` atomically: temporary file, `fsync`, rename, `fsync` of the directory.
+pub fn write_atomic(path: &Path, bytes: &[u8]) -> std::io::Result<()> {
+    let guard = TempGuard::new(path)?;
+    {
+        let mut file = fs::OpenOptions::new().write(true).create_new(true).open(guard.path())?;
+        file.write_all(bytes)?;
+        file.sync_all()?;
+    }
+    guard.commit(path)
+}
+
+/// Lets `f` write a file at a temporary path of its choosing (for libraries such as HDF5 that open files
+/// themselves), then renames it into `path` only if `f` succeeds. On an error, or a panic inside `f`, the
+/// temporary file is removed and `path` is left untouched.
+pub fn with_atomic_file<T>(path: &Path, f: impl FnOnce(&Path) -> anyhow::Result<T>) -> anyhow::Result<T> {
+    let guard = TempGuard::new(path)?;
+    let value = f(guard.path())?;
+    // The writer has closed the file; flush its contents to disk before the rename makes it visible.
+    fs::File::open(guard.path())?.sync_all()?;
+    guard.commit(path)?;
+    Ok(value)
+}
+
+/// A temporary path beside the destination that is deleted when dropped unless committed.
+struct TempGuard {
+    temp: PathBuf,
+    armed: bool,
+}
+
+impl TempGuard {
+    fn new(destination: &Path) -> std::io::Result<Self> {
+        let file_name = destination.file_name().ok_or_else(|| {
+            std::io::Error::new(
+                std::io::ErrorKind::InvalidInput,
+                format!("output path {} does not name a file", destination.display()),
+            )
+        })?;
+        // Unique within the process (counter) and across processes (pid) writing to the same directory.
+        static COUNTER: AtomicU64 = AtomicU64::new(0);
+        let n = COUNTER.fetch_add(1, Ordering::Relaxed);
+        let mut name = std::ffi::OsString::from(".");
+        name.push(file_name);
+        name.push(format!(".{}.{}.tmp", std::process::id(), n));
+        let temp = destination.with_file_name(name);
+        // A stale temporary with this exact name can only come from an earlier process with a recycled pid.
+        match fs::remove_file(&temp) {
+            Ok(()) => {}
+            Err(e) if e.kind() == std::io::ErrorKind::NotFound => {}
+            Err(e) => return Err(e),
+        }
+        Ok(TempGuard { temp, armed: true })
+    }
+
+    fn path(&self) -> &Path {
+        &self.temp
+    }
+
+    /// Renames the temporary file onto `destination` and makes the rename durable.
+    fn commit(mut self, destination: &Path) -> std::io::Result<()> {
+        fs::rename(&self.temp, destination)?;
+        self.armed = false;
+        sync_parent_directory(destination)
+    }
+}
+
+impl Drop for TempGuard {
+    fn drop(&mut self) {
+        if self.armed {
+            // Nothing useful can be done if removal fails while already unwinding from another error.
+            let _ = fs::remove_file(&self.temp);
+        }
+    }
+}
+
+/// `fsync` of the directory entry, so the rename itself survives a crash (POSIX; common practice).
+#[cfg(unix)]
+fn sync_parent_directory(path: &Path) -> std::io::Result<()> {
+    let parent = match path.parent() {
+        Some(p) if !p.as_os_str().is_empty() => p,
+        _ => Path::new("."),
+    };
+    fs::File::open(parent)?.sync_all()
+}
+
+#[cfg(not(unix))]
+fn sync_parent_directory(_path: &Path) -> std::io::Result<()> {
+    Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn entries(dir: &Path) -> Vec<String> {
+        let mut names: Vec<String> = fs::read_dir(dir)
+            .unwrap()
+            .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+            .collect();
+        names.sort();
+        names
+    }
+
+    #[test]
+    fn write_atomic_creates_and_replaces_without_leftovers() {
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("out.txt");
+        write_atomic(&path, b"first").unwrap();
+        assert_eq!(fs::read(&path).unwrap(), b"first");
+        write_atomic(&path, b"second, longer").unwrap();
+        assert_eq!(fs::read(&path).unwrap(), b"second, longer");
+        assert_eq!(entries(dir.path()), vec!["out.txt".to_string()]);
+    }
+
+    #[test]
+    fn write_atomic_into_missing_directory_fails_cleanly() {
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("missing").join("out.txt");
+        assert!(write_atomic(&path, b"x").is_err());
+        assert!(entries(dir.path()).is_empty());
+    }
+
+    #[test]
+    fn failed_closure_leaves_no_file_and_no_temporary() {
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("fields.h5");
+        let result: anyhow::Result<()> = with_atomic_file(&path, |temp| {
+            fs::write(temp, b"half written")?;
+            anyhow::bail!("solver diverged while writing")
+        });
+        let err = result.unwrap_err();
+        assert!(err.to_string().contains("diverged"), "{err}");
+        assert!(entries(dir.path()).is_empty(), "left behind: {:?}", entries(dir.path()));
+    }
+
+    #[test]
+    fn failed_closure_keeps_previous_complete_file() {
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("summary.json");
+        write_atomic(&path, b"{\"complete\": true}").unwrap();
+        let result: anyhow::Result<()> = with_atomic_file(&path, |temp| {
+            fs::write(temp, b"{\"compl")?;
+            anyhow::bail!("interrupted")
+        });
+        assert!(result.is_err());
+        assert_eq!(fs::read(&path).unwrap(), b"{\"complete\": true}");
+        assert_eq!(entries(dir.path()), vec!["summary.json".to_string()]);
+    }
+
+    #[test]
+    fn panicking_closure_leaves_no_temporary() {
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("cells.csv");
+        let outcome = std::panic::catch_unwind(|| {
+            let _ = with_atomic_file(&path, |temp| -> anyhow::Result<()> {
+                fs::write(temp, b"id,x\n1,")?;
+                panic!("writer bug");
+            });
+        });
+        assert!(outcome.is_err());
+        assert!(entries(dir.path()).is_empty(), "left behind: {:?}", entries(dir.path()));
+    }
+
+    #[test]
+    fn successful_closure_renames_and_returns_value() {
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("fields.xmf");
+        let seen_temp = with_atomic_file(&path, |temp| {
+            assert_ne!(temp, path.as_path());
+            assert_eq!(temp.parent(), path.parent());
+            fs::write(temp, b"<Xdmf/>")?;
+            Ok(temp.to_path_buf())
+        })
+        .unwrap();
+        assert!(!seen_temp.exists());
+        assert_eq!(fs::read(&path).unwrap(), b"<Xdmf/>");
+        assert_eq!(entries(dir.path()), vec!["fields.xmf".to_string()]);
+    }
+
+    #[test]
+    fn closure_that_writes_nothing_is_an_error() {
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("nothing.h5");
+        let result = with_atomic_file(&path, |_temp| Ok(()));
+        assert!(result.is_err());
+        assert!(entries(dir.path()).is_empty());
+    }
+}
