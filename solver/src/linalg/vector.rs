@@ -1,0 +1,94 @@
+//! Parallel vector kernels for the Krylov method. Reductions sum fixed-size chunks in a fixed order, so results
+//! are bit-identical for any number of threads.
+
+use rayon::prelude::*;
+
+/// Cells per reduction chunk and minimum per rayon task.
+pub(crate) const CHUNK: usize = 8192;
+
+/// `Σ a_i b_i`.
+pub(crate) fn dot(a: &[f64], b: &[f64]) -> f64 {
+    assert_eq!(a.len(), b.len());
+    let partial: Vec<f64> = a
+        .par_chunks(CHUNK)
+        .zip(b.par_chunks(CHUNK))
+        .map(|(x, y)| x.iter().zip(y).map(|(u, v)| u * v).sum::<f64>())
+        .collect();
+    partial.iter().sum()
+}
+
+/// Euclidean norm.
+pub(crate) fn norm(a: &[f64]) -> f64 {
+    dot(a, a).sqrt()
+}
+
+/// `y ← y + α x`.
+pub(crate) fn axpy(alpha: f64, x: &[f64], y: &mut [f64]) {
+    y.par_iter_mut().zip(x.par_iter()).with_min_len(CHUNK).for_each(|(yi, &xi)| *yi += alpha * xi);
+}
+
+/// `r ← b − r` (turns `r = A x` into the residual).
+pub(crate) fn residual_from_product(b: &[f64], r: &mut [f64]) {
+    r.par_iter_mut().zip(b.par_iter()).with_min_len(CHUNK).for_each(|(ri, &bi)| *ri = bi - *ri);
+}
+
+/// `r ← r − α v`, returning `‖r‖²` of the result (fused: one pass).
+pub(crate) fn axpy_norm2(alpha: f64, v: &[f64], r: &mut [f64]) -> f64 {
+    let partial: Vec<f64> = r
+        .par_chunks_mut(CHUNK)
+        .zip(v.par_chunks(CHUNK))
+        .map(|(rc, vc)| {
+            let mut s = 0.0;
+            for (ri, &vi) in rc.iter_mut().zip(vc) {
+                *ri -= alpha * vi;
+                s += *ri * *ri;
+            }
+            s
+        })
+        .collect();
+    partial.iter().sum()
+}
+
+/// `(t·s, t·t)` in one pass.
+pub(crate) fn dot2(t: &[f64], s: &[f64]) -> (f64, f64) {
+    let partial: Vec<(f64, f64)> = t
+        .par_chunks(CHUNK)
+        .zip(s.par_chunks(CHUNK))
+        .map(|(tc, sc)| {
+            tc.iter().zip(sc).fold((0.0, 0.0), |(ts, tt), (&ti, &si)| (ts + ti * si, tt + ti * ti))
+        })
+        .collect();
+    partial.iter().fold((0.0, 0.0), |(a, b), &(c, d)| (a + c, b + d))
+}
+
+/// `p ← r + β (p − ω v)`.
+pub(crate) fn update_direction(beta: f64, omega: f64, r: &[f64], v: &[f64], p: &mut [f64]) {
+    p.par_chunks_mut(CHUNK).zip(r.par_chunks(CHUNK)).zip(v.par_chunks(CHUNK)).for_each(|((pc, rc), vc)| {
+        for ((pi, &ri), &vi) in pc.iter_mut().zip(rc).zip(vc) {
+            *pi = ri + beta * (*pi - omega * vi);
+        }
+    });
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn kernels_agree_with_sequential_arithmetic() {
+        let n = 3 * CHUNK + 17;
+        let a: Vec<f64> = (0..n).map(|i| (i as f64 * 0.37).sin()).collect();
+        let b: Vec<f64> = (0..n).map(|i| (i as f64 * 0.11).cos()).collect();
+        let seq: f64 = a.iter().zip(&b).map(|(x, y)| x * y).sum();
+        assert!((dot(&a, &b) - seq).abs() < 1e-9);
+        let (ts, tt) = dot2(&a, &b);
+        assert!((ts - seq).abs() < 1e-9 && (tt - dot(&a, &a)).abs() < 1e-9);
+        let mut r = b.clone();
+        let n2 = axpy_norm2(0.5, &a, &mut r);
+        assert!((r[5] - (b[5] - 0.5 * a[5])).abs() < 1e-15);
+        assert!((n2 - dot(&r, &r)).abs() < 1e-9);
+        let mut p = a.clone();
+        update_direction(2.0, 0.5, &b, &a, &mut p);
+        assert!((p[7] - (b[7] + 2.0 * (a[7] - 0.5 * a[7]))).abs() < 1e-15);
+    }
+}
