@@ -88,8 +88,9 @@ pub(crate) struct MultigridWork {
 
 impl Multigrid {
     pub fn new(op: &FaceCoupledOperator, scheme: AdvectionScheme, params: MultigridParams) -> Self {
-        let max_diag = Stencil7::<f64>::assemble(op, scheme).max_abs_diagonal();
-        let scale = if max_diag > 0.0 && max_diag.is_finite() { 1.0 / max_diag } else { 1.0 };
+        // The finest level fixes the scale 1/max diag of every level.
+        let (finest, scale) = Stencil7::<f32>::assemble_normalised(op, scheme);
+        let mut finest = Some(finest);
         let mut levels = Vec::new();
         let mut coarse_op: Option<FaceCoupledOperator> = None;
         let mut level_scheme = scheme;
@@ -99,7 +100,10 @@ impl Multigrid {
             let cannot_coarsen = current.shape.iter().all(|&s| s == 1);
             let last =
                 n <= params.coarsest_size || cannot_coarsen || levels.len() + 1 >= params.max_levels.max(1);
-            let stencil = Stencil7::<f32>::assemble_scaled(current, level_scheme, scale);
+            let stencil = match finest.take() {
+                Some(s) => s,
+                None => Stencil7::<f32>::assemble_scaled(current, level_scheme, scale),
+            };
             if last {
                 let solve = if n <= MAX_DENSE_ROWS.max(params.coarsest_size) {
                     let exact = Stencil7::<f64>::assemble_scaled(current, level_scheme, scale);

@@ -144,6 +144,27 @@ impl<T: Real> Stencil7<T> {
     /// Assembles `scale · A` in precision T. Faces touching an inactive cell carry no coupling (the operator's
     /// contract); inactive rows become `scale · identity`, so that `scale · A` is exact in every row.
     pub fn assemble_scaled(op: &FaceCoupledOperator, scheme: AdvectionScheme, scale: f64) -> Self {
+        Self::assemble_with(op, scheme, |_| scale).0
+    }
+
+    /// Assembles `A / max|a_PP|` and returns it with the scale `1 / max|a_PP|` used (1 if the diagonal is zero
+    /// or not finite): an O(1) matrix whatever the SI magnitudes, for storage in f32.
+    pub fn assemble_normalised(op: &FaceCoupledOperator, scheme: AdvectionScheme) -> (Self, f64) {
+        Self::assemble_with(op, scheme, |diag| {
+            let max = diag.iter().fold(0.0f64, |m, d| m.max(d.abs()));
+            if max > 0.0 && max.is_finite() {
+                1.0 / max
+            } else {
+                1.0
+            }
+        })
+    }
+
+    fn assemble_with(
+        op: &FaceCoupledOperator,
+        scheme: AdvectionScheme,
+        choose_scale: impl FnOnce(&[f64]) -> f64,
+    ) -> (Self, f64) {
         let shape = op.shape;
         let [nx, ny, nz] = shape;
         let n = nx * ny * nz;
@@ -184,16 +205,25 @@ impl<T: Real> Stencil7<T> {
             }
         }
         for (p, d) in diag.iter_mut().enumerate() {
-            *d = if op.active[p] { *d + op.sink[p] } else { 1.0 };
+            if op.active[p] {
+                *d += op.sink[p];
+            }
+        }
+        let scale = choose_scale(&diag);
+        for (p, d) in diag.iter_mut().enumerate() {
+            if !op.active[p] {
+                *d = 1.0; // identity row of an inactive cell, scaled with the rest below
+            }
         }
         let convert = |v: Vec<f64>| v.into_iter().map(|a| T::from_f64(scale * a)).collect::<Vec<T>>();
-        Stencil7 {
+        let stencil = Stencil7 {
             shape,
             periodic: op.periodic,
             diag: convert(diag),
             lower: lower.map(convert),
             upper: upper.map(convert),
-        }
+        };
+        (stencil, scale)
     }
 
     pub fn shape(&self) -> [usize; 3] {
