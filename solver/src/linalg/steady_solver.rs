@@ -313,4 +313,21 @@ mod tests {
         let (constant, trilinear) = (count(Prolongation::Constant), count(Prolongation::Trilinear));
         assert!(constant <= trilinear + 1, "constant {constant}, trilinear {trilinear}");
     }
+
+    /// Pure diffusion with no-flux walls and a single pinned cell (how the Darcy pressure is fixed when no face
+    /// prescribes it): nearly singular, the coarsest level carries the whole sink, still converges.
+    #[test]
+    fn neumann_problem_with_one_pinned_cell_converges() {
+        let mut op = box_with_holes(48, &few_holes(), 0.0);
+        op.sink.iter_mut().for_each(|s| *s = 0.0);
+        let first = op.active.iter().position(|&a| a).expect("active cell");
+        op.sink[first] = 1.0 / 48.0;
+        let rhs: Vec<f64> = random_vector(op.sink.len(), 5)
+            .iter()
+            .zip(&op.active)
+            .map(|(r, &a)| if a { *r } else { 0.0 })
+            .collect();
+        let (_, info) = solve(op, &rhs, MultigridParams::default());
+        assert!(info.iterations <= 20, "{} iterations", info.iterations);
+    }
 }
