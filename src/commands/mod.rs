@@ -1,1 +1,6 @@
-//! One file per command.
+//! One file (or folder) per command: the command-line shell in `main.rs` parses flags and calls these.
+
+pub mod layout;
+pub mod not_yet;
+pub mod run;
+pub mod verify;

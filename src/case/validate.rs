@@ -1,0 +1,456 @@
+//! From [`RawCase`] to [`Case`]: units to SI, required keys, ranges, and the choices the code does not
+//! implement yet (refused plainly, never ignored). Chamber/grid fitting, boundaries and cells have their own
+//! files beside this one.
+
+use std::fmt::Display;
+use std::ops::Range;
+use std::path::Path;
+
+use toml::Spanned;
+
+use super::raw::{RawCase, RawLigand, RawMedium, RawNumber, RawOutput, RawSensing, RawSolve};
+use super::source_map::line_of;
+use super::units::{parse_quantity, Dimension, UnitError};
+use super::{Case, CaseError, OutputField, OutputSettings, SensingSettings, SolveMode, SolveSettings};
+use solver::problem::{FlowParameters, LigandParameters, MediumModel, SurfaceUptake};
+
+/// The case text and file name, to turn spans into line numbers in errors.
+pub(super) struct Source<'a> {
+    pub path: &'a Path,
+    pub text: &'a str,
+}
+
+/// What a numeric key accepts besides its dimension.
+#[derive(Clone, Copy, PartialEq)]
+pub(super) enum Range0 {
+    /// > 0
+    Positive,
+    /// ≥ 0
+    NonNegative,
+    /// any finite value
+    Any,
+}
+
+impl Source<'_> {
+    pub fn line(&self, span: &Range<usize>) -> usize {
+        line_of(self.text, span.start)
+    }
+
+    /// An error about `key`; `message` is the full sentence (it starts with the key).
+    pub fn error(&self, key: &str, span: Option<&Range<usize>>, message: impl Display) -> CaseError {
+        CaseError::Invalid {
+            path: self.path.to_path_buf(),
+            key: key.to_string(),
+            line: span.map(|s| self.line(s)),
+            message: message.to_string(),
+        }
+    }
+
+    /// A required key that is absent; `section` is the span of its table, if the table exists.
+    pub fn missing(&self, key: &str, section: Option<&Range<usize>>, what: &str) -> CaseError {
+        self.error(key, section, format!("{key} is missing ({what})"))
+    }
+
+    /// Convert a value to SI, checking its dimension, finiteness and sign.
+    pub fn quantity(
+        &self,
+        key: &str,
+        value: &Spanned<RawNumber>,
+        expected: Dimension,
+        range: Range0,
+    ) -> Result<f64, CaseError> {
+        let span = value.span();
+        let raw = value.get_ref();
+        let si = match raw {
+            RawNumber::Si(v) => *v,
+            RawNumber::Text(text) => {
+                let parsed = match parse_quantity(text) {
+                    // A dimensionless key may be given as a plain number in a string.
+                    Err(UnitError::NoUnit) if expected == Dimension::DIMENSIONLESS => text
+                        .trim()
+                        .parse::<f64>()
+                        .map_err(|_| UnitError::NoNumber)
+                        .map(|si| super::units::Quantity { si, dimension: Dimension::DIMENSIONLESS }),
+                    other => other,
+                };
+                let quantity =
+                    parsed.map_err(|e| self.error(key, Some(&span), format!("{key} = {raw} {e}")))?;
+                if quantity.dimension != expected {
+                    return Err(self.error(
+                        key,
+                        Some(&span),
+                        format!(
+                            "{key} = {raw} is {}, expected {}",
+                            quantity.dimension.describe(),
+                            expected.describe()
+                        ),
+                    ));
+                }
+                quantity.si
+            }
+        };
+        if !si.is_finite() {
+            return Err(self.error(key, Some(&span), format!("{key} = {raw} is not a finite number")));
+        }
+        let bad = match range {
+            Range0::Positive => (si <= 0.0).then_some("must be positive"),
+            Range0::NonNegative => (si < 0.0).then_some("must not be negative"),
+            Range0::Any => None,
+        };
+        if let Some(rule) = bad {
+            return Err(self.error(key, Some(&span), format!("{key} = {raw} {rule}")));
+        }
+        Ok(si)
+    }
+
+    /// Like [`Source::quantity`] for an optional key with a default (SI).
+    pub fn quantity_or(
+        &self,
+        key: &str,
+        value: Option<&Spanned<RawNumber>>,
+        expected: Dimension,
+        range: Range0,
+        default: f64,
+    ) -> Result<f64, CaseError> {
+        value.map_or(Ok(default), |v| self.quantity(key, v, expected, range))
+    }
+
+    /// A required quantity.
+    pub fn required(
+        &self,
+        key: &str,
+        value: Option<&Spanned<RawNumber>>,
+        section: Option<&Range<usize>>,
+        expected: Dimension,
+        range: Range0,
+        example: &str,
+    ) -> Result<f64, CaseError> {
+        match value {
+            Some(v) => self.quantity(key, v, expected, range),
+            None => Err(self.missing(key, section, &format!("{}, e.g. {example}", expected.describe()))),
+        }
+    }
+
+    /// A whole number ≥ `min` given as a TOML number (or a plain number in a string).
+    pub fn whole_number(
+        &self,
+        key: &str,
+        value: &Spanned<RawNumber>,
+        min: usize,
+    ) -> Result<usize, CaseError> {
+        let x = self.quantity(key, value, Dimension::DIMENSIONLESS, Range0::Any)?;
+        if x.fract() != 0.0 || x < min as f64 || x > 1e15 {
+            return Err(self.error(
+                key,
+                Some(&value.span()),
+                format!("{key} = {} must be a whole number of at least {min}", value.get_ref()),
+            ));
+        }
+        Ok(x as usize)
+    }
+
+    /// The error for a key that belongs to a feature not implemented yet: refused, never ignored.
+    pub fn not_implemented(&self, key: &str, span: &Range<usize>, what: &str) -> CaseError {
+        self.error(key, Some(span), format!("{key}: {what} is not implemented yet"))
+    }
+}
+
+/// A section table and its span (`None` when the section is absent: then every key takes its default or is
+/// reported missing without a line).
+fn section<T: Default>(value: Option<Spanned<T>>) -> (T, Option<Range<usize>>) {
+    match value {
+        Some(v) => {
+            let span = v.span();
+            (v.into_inner(), Some(span))
+        }
+        None => (T::default(), None),
+    }
+}
+
+pub(super) fn validate(raw: RawCase, text: &str, path: &Path) -> Result<Case, CaseError> {
+    let src = Source { path, text };
+    let title = match raw.title {
+        Some(t) if t.get_ref().trim().is_empty() => {
+            return Err(src.error("title", Some(&t.span()), "title is empty"));
+        }
+        Some(t) => t.into_inner(),
+        None => path.file_stem().map(|s| s.to_string_lossy().into_owned()).unwrap_or_else(|| "case".into()),
+    };
+
+    // The medium comes first: an unimplemented model is the most useful thing to say.
+    let (medium, medium_span) = section(raw.medium);
+    let medium_model = validate_medium(&src, &medium, medium_span.as_ref())?;
+
+    let (flow, flow_span) = section(raw.flow);
+    let mean_velocity = src.required(
+        "flow.mean_velocity",
+        flow.mean_velocity.as_ref(),
+        flow_span.as_ref(),
+        Dimension::VELOCITY,
+        Range0::NonNegative,
+        "\"2 um/s\" (0 for no flow)",
+    )?;
+
+    let (boundaries, boundaries_span) = section(raw.boundaries);
+    let boundaries =
+        super::boundaries::validate_boundaries(&src, &boundaries, boundaries_span.as_ref(), mean_velocity)?;
+
+    let (ligand, ligand_span) = section(raw.ligand);
+    let (cells, cells_span) = section(raw.cells);
+    let cell_defaults = super::cells::validate_cell_defaults(&src, &cells, cells_span.as_ref())?;
+    let ligand = validate_ligand(&src, &ligand, ligand_span.as_ref(), cell_defaults.uptake)?;
+
+    let (chamber, chamber_span) = section(raw.chamber);
+    let (grid, grid_span) = section(raw.grid);
+    let fitted = super::grid_fit::fit_grid(
+        &src,
+        &chamber,
+        chamber_span.as_ref(),
+        &grid,
+        grid_span.as_ref(),
+        cell_defaults.radius,
+    )?;
+
+    let mut warnings = Vec::new();
+    if let MediumModel::Darcy { .. } = medium_model {
+        if let Some(v) = &medium.effective_viscosity {
+            warnings.push(format!(
+                "{} line {}: medium.effective_viscosity is not used by the darcy model (it has no viscous term)",
+                path.display(),
+                src.line(&v.span())
+            ));
+        }
+    }
+
+    let chamber_box = mesh::layout::ChamberBox {
+        lower: [0.0; 3],
+        upper: fitted.size,
+        periodic: boundaries.periodic_axes(),
+    };
+    let placed = super::cells::build_layout(&src, &cells, cells_span.as_ref(), &cell_defaults, &chamber_box)?;
+    let resolution = super::cells::check_resolution(&src, &placed, fitted.grid.spacing)?;
+    warnings.extend(resolution);
+
+    let (solve, solve_span) = section(raw.solve);
+    let solve = validate_solve(&src, &solve, solve_span.as_ref())?;
+    let (sensing, _) = section(raw.sensing);
+    let sensing = validate_sensing(&src, &sensing)?;
+    let (output, _) = section(raw.output);
+    let output = validate_output(&src, &output)?;
+
+    Ok(Case {
+        title,
+        source_path: path.to_path_buf(),
+        source_text: text.to_string(),
+        sha256: String::new(),
+        chamber_size: fitted.size,
+        grid: fitted.grid,
+        boundaries,
+        flow: FlowParameters { medium: medium_model, mean_velocity },
+        ligand,
+        cell_radius: cell_defaults.radius,
+        secretion_rate: cell_defaults.secretion_rate,
+        layout: placed.layout,
+        layout_kind: placed.kind.to_string(),
+        solve,
+        sensing,
+        output,
+        warnings,
+    })
+}
+
+/// `[medium]`: the flow model and its coefficients. Only Darcy is implemented.
+fn validate_medium(
+    src: &Source,
+    medium: &RawMedium,
+    span: Option<&Range<usize>>,
+) -> Result<MediumModel, CaseError> {
+    let Some(model) = &medium.model else {
+        return Err(src.missing("medium.model", span, "\"darcy\", \"brinkman\" or \"stokes\""));
+    };
+    let model_span = model.span();
+    match model.get_ref().as_str() {
+        "darcy" => {}
+        name @ ("brinkman" | "stokes") => {
+            return Err(src.error(
+                "medium.model",
+                Some(&model_span),
+                format!("medium.model = \"{name}\" is not implemented yet (planned; use \"darcy\")"),
+            ))
+        }
+        other => {
+            return Err(src.error(
+                "medium.model",
+                Some(&model_span),
+                format!(
+                "medium.model = \"{other}\" is not a flow model; use \"darcy\", \"brinkman\" or \"stokes\""
+            ),
+            ))
+        }
+    }
+    let viscosity = src.required(
+        "medium.viscosity",
+        medium.viscosity.as_ref(),
+        span,
+        Dimension::VISCOSITY,
+        Range0::Positive,
+        "\"1e-3 Pa s\"",
+    )?;
+    let permeability = src.required(
+        "medium.permeability",
+        medium.permeability.as_ref(),
+        span,
+        Dimension::AREA,
+        Range0::Positive,
+        "\"1e-13 m^2\"",
+    )?;
+    // Parsed even though Darcy does not use it, so that a wrong unit is still reported.
+    src.quantity_or(
+        "medium.effective_viscosity",
+        medium.effective_viscosity.as_ref(),
+        Dimension::VISCOSITY,
+        Range0::Positive,
+        viscosity,
+    )?;
+    Ok(MediumModel::Darcy { viscosity, permeability })
+}
+
+/// `[ligand]`: transport coefficients; the surface uptake comes from `[cells]`.
+fn validate_ligand(
+    src: &Source,
+    ligand: &RawLigand,
+    span: Option<&Range<usize>>,
+    uptake: SurfaceUptake,
+) -> Result<LigandParameters, CaseError> {
+    let diffusivity = src.required(
+        "ligand.diffusivity",
+        ligand.diffusivity.as_ref(),
+        span,
+        Dimension::DIFFUSIVITY,
+        Range0::Positive,
+        "\"1e-10 m^2/s\"",
+    )?;
+    let decay_rate = src.quantity_or(
+        "ligand.decay_rate",
+        ligand.decay_rate.as_ref(),
+        Dimension::RATE,
+        Range0::NonNegative,
+        0.0,
+    )?;
+    let inlet_concentration = src.quantity_or(
+        "ligand.inlet_concentration",
+        ligand.inlet_concentration.as_ref(),
+        Dimension::CONCENTRATION,
+        Range0::NonNegative,
+        0.0,
+    )?;
+    Ok(LigandParameters { diffusivity, decay_rate, inlet_concentration, uptake })
+}
+
+/// `[solve]`: only the steady mode exists; transient keys are refused, not ignored.
+fn validate_solve(
+    src: &Source,
+    solve: &RawSolve,
+    span: Option<&Range<usize>>,
+) -> Result<SolveSettings, CaseError> {
+    let _ = span;
+    if let Some(mode) = &solve.mode {
+        match mode.get_ref().as_str() {
+            "steady" => {}
+            "transient" => {
+                return Err(src.error(
+                    "solve.mode",
+                    Some(&mode.span()),
+                    "solve.mode = \"transient\" is not implemented yet (planned; use \"steady\")",
+                ))
+            }
+            other => {
+                return Err(src.error(
+                    "solve.mode",
+                    Some(&mode.span()),
+                    format!("solve.mode = \"{other}\" is not a solve mode; use \"steady\" or \"transient\""),
+                ))
+            }
+        }
+    }
+    for (key, value) in [
+        ("solve.end_time", &solve.end_time),
+        ("solve.time_step", &solve.time_step),
+        ("solve.output_every", &solve.output_every),
+    ] {
+        if let Some(v) = value {
+            // Check the unit first so that a typo is reported as such.
+            src.quantity(key, v, Dimension::TIME, Range0::Positive)?;
+            return Err(src.not_implemented(key, &v.span(), "transient solving"));
+        }
+    }
+    if let Some(v) = &solve.adaptive {
+        return Err(src.not_implemented("solve.adaptive", &v.span(), "transient solving"));
+    }
+    let tolerance = src.quantity_or(
+        "solve.tolerance",
+        solve.tolerance.as_ref(),
+        Dimension::DIMENSIONLESS,
+        Range0::Positive,
+        1e-8,
+    )?;
+    if tolerance > 1e-2 {
+        let span = solve.tolerance.as_ref().map(|v| v.span());
+        return Err(src.error(
+            "solve.tolerance",
+            span.as_ref(),
+            format!("solve.tolerance = {tolerance} is too loose; use a value in (0, 1e-2]"),
+        ));
+    }
+    let max_iterations = match &solve.max_iterations {
+        Some(v) => src.whole_number("solve.max_iterations", v, 1)?,
+        None => 300,
+    };
+    Ok(SolveSettings { mode: SolveMode::Steady, tolerance, max_iterations })
+}
+
+/// `[sensing]`
+fn validate_sensing(src: &Source, sensing: &RawSensing) -> Result<SensingSettings, CaseError> {
+    let integration_time = src.quantity_or(
+        "sensing.integration_time",
+        sensing.integration_time.as_ref(),
+        Dimension::TIME,
+        Range0::Positive,
+        3600.0,
+    )?;
+    Ok(SensingSettings { integration_time })
+}
+
+/// `[output]`
+fn validate_output(src: &Source, output: &RawOutput) -> Result<OutputSettings, CaseError> {
+    let fields = match &output.fields {
+        None => OutputField::ALL.to_vec(),
+        Some(list) => {
+            let mut fields = Vec::new();
+            for (i, name) in list.get_ref().iter().enumerate() {
+                let key = format!("output.fields[{i}]");
+                let field = OutputField::ALL.into_iter().find(|f| f.name() == name.get_ref()).ok_or_else(|| {
+                    src.error(
+                        &key,
+                        Some(&name.span()),
+                        format!(
+                            "{key} = \"{}\" is not an output field; use \"concentration\", \"velocity\" or \"pressure\"",
+                            name.get_ref()
+                        ),
+                    )
+                })?;
+                if fields.contains(&field) {
+                    return Err(src.error(
+                        &key,
+                        Some(&name.span()),
+                        format!("{key} = \"{}\" is listed twice", field.name()),
+                    ));
+                }
+                fields.push(field);
+            }
+            fields
+        }
+    };
+    let figures = output.figures.as_ref().map_or(true, |f| *f.get_ref());
+    Ok(OutputSettings { fields, figures })
+}
