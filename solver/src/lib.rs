@@ -9,8 +9,10 @@
 //! - [`transport`]: steady advection–diffusion–uptake–decay of the secreted ligand.
 //! - [`post`]: per-cell surface integrals, mass balance, counting noise.
 
+pub mod embedded;
 pub mod flow;
 pub mod linalg;
 pub mod post;
 pub mod problem;
+pub mod solve_case;
 pub mod transport;

@@ -1,1 +1,10 @@
-//! placeholder, filled in by the post implementation
+//! Post-processing of a solved case: what each cell senses, the mass balance, counting noise.
+
+pub mod counting_noise;
+pub mod estimates;
+pub mod integrate_surface;
+pub mod local_flow;
+pub mod mass_balance;
+
+pub use integrate_surface::{cell_sensing, CellSensing, SensingModel};
+pub use mass_balance::{mass_balance, MassBalance};

@@ -1,0 +1,207 @@
+//! Turns a solved case into the output files of DESIGN.md §6: cells.csv, fields.h5 + fields.xmf, summary.json.
+
+use crate::case::{Case, OutputField};
+use crate::io::cells_csv::write_cells_csv;
+use crate::io::fields_h5::{write_fields_h5, FieldData, Provenance};
+use crate::io::provenance::git_revision;
+use crate::io::summary_json::write_summary_json;
+use crate::io::table::{CellTable, Column};
+use crate::io::xdmf::write_fields_xmf;
+use anyhow::Result;
+use serde_json::json;
+use solver::post::estimates::{isolated_darcy_anisotropy, meanfield_outlet_concentration};
+use solver::problem::ChamberFace;
+use solver::solve_case::SteadySolution as SolvedCase;
+use std::path::Path;
+use std::time::Instant;
+
+/// The per-cell table, columns in the order DESIGN.md §6 fixes.
+pub fn cell_table(case: &Case, solved: &SolvedCase) -> CellTable {
+    let cells = &case.layout.cells;
+    let s = &solved.sensing;
+    let real = |name: &str, unit: &str, description: &str, values: Vec<f64>| {
+        Column::real(name, unit, description, values)
+    };
+    CellTable {
+        columns: vec![
+            Column::int("id", "1", "cell identifier (row order of the layout)", cells.iter().map(|c| c.id as u64).collect()),
+            real("x", "m", "centre x", cells.iter().map(|c| c.centre[0]).collect()),
+            real("y", "m", "centre y", cells.iter().map(|c| c.centre[1]).collect()),
+            real("z", "m", "centre z", cells.iter().map(|c| c.centre[2]).collect()),
+            real("radius", "m", "cell radius", cells.iter().map(|c| c.radius).collect()),
+            real("secretion_rate", "molecules/s", "ligand secreted by the cell", cells.iter().map(|c| c.secretion_rate).collect()),
+            real("mean_surface_concentration", "molecules/m^3", "area-mean ligand concentration on the cell surface", s.iter().map(|c| c.mean_surface_concentration).collect()),
+            real("bound_rate", "molecules/s", "ligand bound by the cell's surface uptake", s.iter().map(|c| c.bound_rate).collect()),
+            real("anisotropy_x", "1", "x of the anisotropy vector of the sensed flux (positive: richer downstream)", s.iter().map(|c| c.anisotropy[0]).collect()),
+            real("anisotropy_y", "1", "y of the anisotropy vector", s.iter().map(|c| c.anisotropy[1]).collect()),
+            real("anisotropy_z", "1", "z of the anisotropy vector", s.iter().map(|c| c.anisotropy[2]).collect()),
+            real("anisotropy_along_flow", "1", "anisotropy component along the local flow direction", s.iter().map(|c| c.anisotropy_along_flow).collect()),
+            real("front_back_contrast", "1", "(N_front - N_back)/(N_front + N_back), front = downstream hemisphere", s.iter().map(|c| c.front_back_contrast).collect()),
+            real("direction_error", "1", "Poisson standard error of the contrast over sensing.integration_time, divided by its magnitude", s.iter().map(|c| c.direction_error).collect()),
+            real("drag_x", "N", "x of the force of the fluid on the cell", solved.flow.drag.iter().map(|f| f[0]).collect()),
+            real("drag_y", "N", "y of the force of the fluid on the cell", solved.flow.drag.iter().map(|f| f[1]).collect()),
+            real("drag_z", "N", "z of the force of the fluid on the cell", solved.flow.drag.iter().map(|f| f[2]).collect()),
+            real("local_speed", "m/s", "superficial speed averaged over the fluid shell a < r < 2a around the cell", s.iter().map(|c| c.local_speed).collect()),
+        ],
+    }
+}
+
+fn field_data(case: &Case, solved: &SolvedCase) -> Vec<FieldData> {
+    let mut fields = Vec::new();
+    let f = |group: &str, name: &str, unit: &str, description: &str, values: &[f64]| FieldData {
+        group: group.into(),
+        name: name.into(),
+        unit: unit.into(),
+        description: description.into(),
+        values: values.to_vec(),
+    };
+    for wanted in &case.output.fields {
+        match wanted {
+            OutputField::Velocity => {
+                let v = &solved.flow.velocity;
+                fields.push(f("flow", "u", "m/s", "superficial velocity x, cell-centred", &v[0]));
+                fields.push(f("flow", "v", "m/s", "superficial velocity y, cell-centred", &v[1]));
+                fields.push(f("flow", "w", "m/s", "superficial velocity z, cell-centred", &v[2]));
+            }
+            OutputField::Pressure => fields.push(f(
+                "flow",
+                "pressure",
+                "Pa",
+                "pressure, cell-centred (zero at the outlet)",
+                &solved.flow.pressure,
+            )),
+            OutputField::Concentration => fields.push(f(
+                "ligand",
+                "concentration",
+                "molecules/m^3",
+                "steady ligand concentration, cell-centred (zero inside cells)",
+                &solved.transport.concentration,
+            )),
+        }
+    }
+    fields
+}
+
+/// Flux-weighted concentration leaving through the outlet faces (molecules/m^3), if there is an outlet flux.
+fn measured_outlet_concentration(case: &Case, solved: &SolvedCase) -> Option<f64> {
+    if case.boundaries.faces[0][1] != ChamberFace::Outlet {
+        return None;
+    }
+    let grid = &case.grid;
+    let nx = grid.shape[0];
+    let (mut flux, mut carried) = (0.0, 0.0);
+    for k in 0..grid.shape[2] {
+        for j in 0..grid.shape[1] {
+            let q = solved.flow.face_flux[0][grid.face_index(mesh::Axis::X, nx, j, k)];
+            flux += q;
+            carried += q * solved.transport.concentration[grid.index(nx - 1, j, k)];
+        }
+    }
+    (flux > 0.0).then(|| carried / flux)
+}
+
+pub fn write_outputs(
+    case: &Case,
+    solved: &SolvedCase,
+    warnings: &[String],
+    out_dir: &Path,
+    started: Instant,
+    write_started: Instant,
+) -> Result<()> {
+    let table = cell_table(case, solved);
+    let fields = field_data(case, solved);
+    let provenance = Provenance {
+        version: env!("CARGO_PKG_VERSION").to_string(),
+        git_revision: git_revision(),
+        case_sha256: case.sha256.clone(),
+        case_text: case.source_text.clone(),
+        command_line: std::env::args().collect::<Vec<_>>().join(" "),
+    };
+    write_cells_csv(&out_dir.join("cells.csv"), &table)?;
+    write_fields_h5(
+        &out_dir.join("fields.h5"),
+        &case.grid,
+        &solved.geometry.volume_fraction,
+        &fields,
+        &table,
+        &provenance,
+    )?;
+    write_fields_xmf(&out_dir.join("fields.xmf"), "fields.h5", &case.grid, &fields)?;
+
+    let chamber_volume: f64 = case.chamber_size.iter().product();
+    let fluid_volume: f64 = solved.geometry.volume_fraction.iter().sum::<f64>() * case.grid.cell_volume();
+    let cell_volume_fraction = 1.0 - fluid_volume / chamber_volume;
+    let count = case.layout.cells.len();
+    let number_density = count as f64 / chamber_volume;
+    let d = case.ligand.diffusivity;
+    let isolated = isolated_darcy_anisotropy(
+        case.flow.mean_velocity,
+        case.cell_radius,
+        d,
+        case.ligand.decay_rate,
+        case.ligand.uptake,
+    );
+    let meanfield = meanfield_outlet_concentration(
+        number_density,
+        case.secretion_rate,
+        case.cell_radius,
+        d,
+        case.ligand.decay_rate,
+        case.ligand.uptake,
+        1.0 - cell_volume_fraction,
+        case.flow.mean_velocity,
+        case.chamber_size[0],
+        case.ligand.inlet_concentration,
+    )
+    .filter(|_| case.boundaries.faces[0][0] == ChamberFace::Inlet);
+    let b = &solved.balance;
+    let t = solved.timing;
+    let summary = json!({
+        "version": env!("CARGO_PKG_VERSION"),
+        "git_revision": provenance.git_revision,
+        "title": case.title,
+        "case_sha256": case.sha256,
+        "grid": { "shape": case.grid.shape, "spacing": case.grid.spacing, "origin": case.grid.origin },
+        "timing_s": {
+            "geometry": t[0], "flow": t[1], "transport": t[2], "post": t[3],
+            "write": write_started.elapsed().as_secs_f64(), "total": started.elapsed().as_secs_f64()
+        },
+        "flow": {
+            "model": "darcy",
+            "mean_velocity": case.flow.mean_velocity,
+            "iterations": solved.flow.iterations,
+            "relative_residual": solved.flow.relative_residual,
+            "max_divergence": solved.flow.max_divergence,
+            "pressure_drop": solved.flow.pressure_drop,
+        },
+        "transport": {
+            "iterations": solved.transport.iterations,
+            "outer_iterations": solved.transport.outer_iterations,
+            "relative_residual": solved.transport.relative_residual,
+            "max_cell_peclet": solved.transport.assembly.peclet.max_cell_peclet,
+            "upwinded_faces": solved.transport.assembly.peclet.upwinded_faces,
+        },
+        "mass_balance": {
+            "secreted": b.secreted, "outflow": b.outflow, "uptake": b.uptake, "decay": b.decay,
+            "accumulation": b.accumulation, "relative_error": b.relative_error,
+        },
+        "estimates": {
+            "meanfield_outlet_concentration": meanfield,
+            "measured_outlet_concentration": measured_outlet_concentration(case, solved),
+            "isolated_anisotropy": isolated,
+            "peclet_cell": case.flow.mean_velocity * case.cell_radius / d,
+            "peclet_chamber": case.flow.mean_velocity * case.chamber_size[0] / d,
+        },
+        "cells": { "count": count, "volume_fraction": cell_volume_fraction, "number_density": number_density },
+        "warnings": case.warnings.iter().chain(warnings).collect::<Vec<_>>(),
+        "units": {
+            "grid.spacing": "m", "timing_s": "s", "flow.mean_velocity": "m/s", "flow.max_divergence": "1/s",
+            "flow.pressure_drop": "Pa", "mass_balance": "molecules/s", "estimates.meanfield_outlet_concentration": "molecules/m^3",
+            "estimates.measured_outlet_concentration": "molecules/m^3", "estimates.isolated_anisotropy": "1",
+            "cells.number_density": "1/m^3",
+            "cells.csv": table.columns.iter().map(|c| (c.name.clone(), serde_json::Value::from(c.unit.clone()))).collect::<serde_json::Map<_, _>>(),
+        },
+    });
+    write_summary_json(&out_dir.join("summary.json"), &summary)?;
+    Ok(())
+}
