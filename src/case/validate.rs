@@ -231,8 +231,8 @@ pub(super) fn validate(raw: RawCase, text: &str, path: &Path) -> Result<Case, Ca
     let resolution = super::cells::check_resolution(&src, &placed, fitted.grid.spacing)?;
     warnings.extend(resolution);
 
-    let (solve, solve_span) = section(raw.solve);
-    let solve = validate_solve(&src, &solve, solve_span.as_ref())?;
+    let (solve, _) = section(raw.solve);
+    let solve = validate_solve(&src, &solve)?;
     let (sensing, _) = section(raw.sensing);
     let sensing = validate_sensing(&src, &sensing)?;
     let (output, _) = section(raw.output);
