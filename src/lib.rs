@@ -1,7 +1,9 @@
-//! The plumefield application: case file, command-line commands and output writers. Numerics live in the
-//! `solver` crate, geometry in `mesh`, analytic references in `validation`.
+//! The plumefield application: case file, command-line commands, output writers, figures and sweeps. Numerics
+//! live in the `solver` crate, geometry in `mesh`, analytic references in `validation`.
 
 pub mod case;
 pub mod commands;
 pub mod exit;
+pub mod figures;
 pub mod io;
+pub mod sweep;

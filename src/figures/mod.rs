@@ -1,0 +1,1 @@
+//! Figures (PNG) of a run and of a sweep, drawn with plotters.

@@ -1,0 +1,1 @@
+//! Parameter sweeps: sweep file, expansion into cases, local runs, Slurm arrays, collection.
