@@ -348,12 +348,7 @@ fn validate_ligand(
 }
 
 /// `[solve]`: only the steady mode exists; transient keys are refused, not ignored.
-fn validate_solve(
-    src: &Source,
-    solve: &RawSolve,
-    span: Option<&Range<usize>>,
-) -> Result<SolveSettings, CaseError> {
-    let _ = span;
+fn validate_solve(src: &Source, solve: &RawSolve) -> Result<SolveSettings, CaseError> {
     if let Some(mode) = &solve.mode {
         match mode.get_ref().as_str() {
             "steady" => {}
