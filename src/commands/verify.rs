@@ -41,7 +41,7 @@ pub fn format_table(checks: &[Check]) -> String {
                 format!("{:.6e}", c.computed),
                 format!("{:.6e}", c.reference),
                 format!("{:.2e}", c.relative_error),
-                format!("{:.0e}", c.tolerance),
+                format!("{:e}", c.tolerance),
                 match (c.observed_order, c.minimum_order) {
                     (Some(o), Some(m)) => format!("{o:.2} (>= {m})"),
                     (Some(o), None) => format!("{o:.2}"),
