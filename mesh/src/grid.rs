@@ -102,6 +102,41 @@ impl Grid {
     }
 }
 
+/// One grid face lying on a chamber face.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct BoundaryFace {
+    /// Flat index of the grid cell just inside the chamber.
+    pub grid_cell: usize,
+    /// Flat index of the face in the face array of its axis.
+    pub face: usize,
+    /// Centre of the face (m).
+    pub centre: [f64; 3],
+}
+
+impl Grid {
+    /// The grid faces of the chamber face normal to `axis` on `side` (0: the low side, 1: the high side).
+    pub fn boundary_faces(&self, axis: Axis, side: usize) -> impl Iterator<Item = BoundaryFace> + '_ {
+        let a = axis.index();
+        let (b, c) = ((a + 1) % 3, (a + 2) % 3);
+        let (nb, nc) = (self.shape[b], self.shape[c]);
+        (0..nb * nc).map(move |m| {
+            let mut cell = [0usize; 3];
+            cell[a] = if side == 0 { 0 } else { self.shape[a] - 1 };
+            cell[b] = m % nb;
+            cell[c] = m / nb;
+            let mut face = cell;
+            face[a] = if side == 0 { 0 } else { self.shape[a] };
+            let mut centre = self.cell_centre(cell[0], cell[1], cell[2]);
+            centre[a] += if side == 0 { -0.5 } else { 0.5 } * self.spacing;
+            BoundaryFace {
+                grid_cell: self.index(cell[0], cell[1], cell[2]),
+                face: self.face_index(axis, face[0], face[1], face[2]),
+                centre,
+            }
+        })
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -117,5 +152,21 @@ mod tests {
         assert_eq!(g.face_count(Axis::Y), 3 * 5 * 5);
         assert_eq!(g.face_count(Axis::Z), 3 * 4 * 6);
         assert_eq!(g.face_index(Axis::Y, 2, 4, 4), 2 + 3 * (4 + 5 * 4));
+    }
+
+    #[test]
+    fn boundary_faces_cover_each_chamber_face_once() {
+        let g = Grid::new([0.0; 3], 0.5, [3, 4, 5]);
+        let high_y: Vec<_> = g.boundary_faces(Axis::Y, 1).collect();
+        assert_eq!(high_y.len(), 3 * 5);
+        for f in &high_y {
+            let [i, j, k] = g.ijk(f.grid_cell);
+            assert_eq!(j, 3);
+            assert_eq!(f.face, g.face_index(Axis::Y, i, 4, k));
+            assert_eq!(f.centre[1], 2.0);
+        }
+        let low_x: Vec<_> = g.boundary_faces(Axis::X, 0).collect();
+        assert_eq!(low_x.len(), 4 * 5);
+        assert!(low_x.iter().all(|f| f.centre[0] == 0.0 && g.ijk(f.grid_cell)[0] == 0));
     }
 }

@@ -16,7 +16,7 @@ pub mod grid;
 pub mod layout;
 
 pub use geometry::{BoundaryFacet, EmbeddedGeometry};
-pub use grid::{Axis, Grid};
+pub use grid::{Axis, BoundaryFace, Grid};
 pub use layout::{
     lattice, random_sequential_addition, read_csv, Cell, ChamberBox, Layout, LayoutError, LayoutStatistics,
     RandomLayout, RandomTarget, ResolutionWarning,

@@ -83,56 +83,44 @@ pub fn solve_darcy(
 
     for axis in Axis::ALL {
         let a = axis.index();
-        let (b, c) = ((a + 1) % 3, (a + 2) % 3);
         for side in 0..2 {
             let kind = boundaries.faces[a][side];
             if matches!(kind, ChamberFace::Wall | ChamberFace::Symmetry | ChamberFace::Periodic) {
                 continue;
             }
             let outward = if side == 0 { -1.0 } else { 1.0 };
-            for v in 0..grid.shape[c] {
-                for u in 0..grid.shape[b] {
-                    let mut cell = [0usize; 3];
-                    cell[a] = if side == 0 { 0 } else { grid.shape[a] - 1 };
-                    cell[b] = u;
-                    cell[c] = v;
-                    let mut face = cell;
-                    face[a] = if side == 0 { 0 } else { grid.shape[a] };
-                    let fi = grid.face_index(axis, face[0], face[1], face[2]);
-                    let alpha = geometry.aperture[a][fi];
-                    if alpha == 0.0 {
-                        continue;
+            for face in grid.boundary_faces(axis, side) {
+                let alpha = geometry.aperture[a][face.face];
+                if alpha == 0.0 {
+                    continue;
+                }
+                let gc = face.grid_cell;
+                match kind {
+                    ChamberFace::Inlet => {
+                        // Flux U·A along the inward normal (the inlet sits on x_min).
+                        let q_in = mean_velocity * alpha * h * h;
+                        rhs[gc] += q_in;
+                        inlet_flux[a].push((face.face, -outward * q_in));
                     }
-                    let gc = grid.index(cell[0], cell[1], cell[2]);
-                    match kind {
-                        ChamberFace::Inlet => {
-                            // Flux U·A along the inward normal (the inlet sits on x_min).
-                            let q_in = mean_velocity * alpha * h * h;
-                            rhs[gc] += q_in;
-                            inlet_flux[a].push((fi, -outward * q_in));
-                        }
-                        ChamberFace::Outlet | ChamberFace::FarField => {
-                            let g = 2.0 * mobility * alpha * h;
-                            let mut x = grid.cell_centre(cell[0], cell[1], cell[2]);
-                            x[a] += outward * 0.5 * h;
-                            let pressure = if kind == ChamberFace::Outlet {
-                                0.0
-                            } else {
-                                -(mean_velocity / mobility) * (x[0] - centre_x)
-                            };
-                            sink[gc] += g;
-                            rhs[gc] += g * pressure;
-                            pressure_faces.push(PressureFace {
-                                axis: a,
-                                face: fi,
-                                grid_cell: gc,
-                                outward,
-                                conductance: g,
-                                pressure,
-                            });
-                        }
-                        ChamberFace::Wall | ChamberFace::Symmetry | ChamberFace::Periodic => {}
+                    ChamberFace::Outlet | ChamberFace::FarField => {
+                        let g = 2.0 * mobility * alpha * h;
+                        let pressure = if kind == ChamberFace::Outlet {
+                            0.0
+                        } else {
+                            -(mean_velocity / mobility) * (face.centre[0] - centre_x)
+                        };
+                        sink[gc] += g;
+                        rhs[gc] += g * pressure;
+                        pressure_faces.push(PressureFace {
+                            axis: a,
+                            face: face.face,
+                            grid_cell: gc,
+                            outward,
+                            conductance: g,
+                            pressure,
+                        });
                     }
+                    ChamberFace::Wall | ChamberFace::Symmetry | ChamberFace::Periodic => {}
                 }
             }
         }

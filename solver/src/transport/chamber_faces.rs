@@ -64,64 +64,48 @@ pub fn boundary_exchanges(
     let mut out = Vec::new();
     for axis in Axis::ALL {
         let a = axis.index();
-        // The two in-plane axes of this face.
-        let (b, c) = ((a + 1) % 3, (a + 2) % 3);
         for side in 0..2 {
             let kind = boundaries.faces[a][side];
             if matches!(kind, ChamberFace::Wall | ChamberFace::Symmetry | ChamberFace::Periodic) {
                 continue;
             }
             let outward = if side == 0 { -1.0 } else { 1.0 };
-            let layer = if side == 0 { 0 } else { grid.shape[a] - 1 };
-            let face_layer = if side == 0 { 0 } else { grid.shape[a] };
-            for v in 0..grid.shape[c] {
-                for u in 0..grid.shape[b] {
-                    let mut cell = [0usize; 3];
-                    cell[a] = layer;
-                    cell[b] = u;
-                    cell[c] = v;
-                    let mut face = cell;
-                    face[a] = face_layer;
-                    let fi = grid.face_index(axis, face[0], face[1], face[2]);
-                    let area = geometry.aperture[a][fi] * h * h;
-                    if area == 0.0 {
-                        continue;
-                    }
-                    let grid_cell = grid.index(cell[0], cell[1], cell[2]);
-                    let q_out = outward * face_flux[a][fi];
-                    let exchange = match kind {
-                        ChamberFace::Inlet => {
-                            let g = 2.0 * d * area / h;
-                            BoundaryExchange {
-                                grid_cell,
-                                coefficient: g,
-                                inflow_constant: (g - q_out) * ligand.inlet_concentration,
-                            }
-                        }
-                        ChamberFace::Outlet => {
-                            BoundaryExchange { grid_cell, coefficient: q_out, inflow_constant: 0.0 }
-                        }
-                        ChamberFace::FarField => {
-                            let centre = grid.cell_centre(cell[0], cell[1], cell[2]);
-                            let mut x = centre;
-                            x[a] += outward * 0.5 * h;
-                            let rvec = [0, 1, 2].map(|m| x[m] - centroid[m]);
-                            let r = (rvec[0].powi(2) + rvec[1].powi(2) + rvec[2].powi(2)).sqrt().max(h);
-                            let r_dot_n = outward * rvec[a] / r;
-                            let ex_dot_n = if a == 0 { outward } else { 0.0 };
-                            let beta = far_field_speed / (2.0 * d) * ex_dot_n - (1.0 / r + gamma) * r_dot_n;
-                            // Guard the face extrapolation where β h/2 nears 1 (cell Péclet number ≳ 4 on an outflow face).
-                            let to_face = 1.0 / (1.0 - 0.5 * beta * h).max(0.25);
-                            BoundaryExchange {
-                                grid_cell,
-                                coefficient: (q_out - d * area * beta) * to_face,
-                                inflow_constant: 0.0,
-                            }
-                        }
-                        ChamberFace::Wall | ChamberFace::Symmetry | ChamberFace::Periodic => continue,
-                    };
-                    out.push(exchange);
+            for face in grid.boundary_faces(axis, side) {
+                let area = geometry.aperture[a][face.face] * h * h;
+                if area == 0.0 {
+                    continue;
                 }
+                let grid_cell = face.grid_cell;
+                let q_out = outward * face_flux[a][face.face];
+                let exchange = match kind {
+                    ChamberFace::Inlet => {
+                        let g = 2.0 * d * area / h;
+                        BoundaryExchange {
+                            grid_cell,
+                            coefficient: g,
+                            inflow_constant: (g - q_out) * ligand.inlet_concentration,
+                        }
+                    }
+                    ChamberFace::Outlet => {
+                        BoundaryExchange { grid_cell, coefficient: q_out, inflow_constant: 0.0 }
+                    }
+                    ChamberFace::FarField => {
+                        let rvec = [0, 1, 2].map(|m| face.centre[m] - centroid[m]);
+                        let r = (rvec[0].powi(2) + rvec[1].powi(2) + rvec[2].powi(2)).sqrt().max(h);
+                        let r_dot_n = outward * rvec[a] / r;
+                        let ex_dot_n = if a == 0 { outward } else { 0.0 };
+                        let beta = far_field_speed / (2.0 * d) * ex_dot_n - (1.0 / r + gamma) * r_dot_n;
+                        // Guard the face extrapolation where β h/2 nears 1 (cell Péclet number ≳ 4 on an outflow face).
+                        let to_face = 1.0 / (1.0 - 0.5 * beta * h).max(0.25);
+                        BoundaryExchange {
+                            grid_cell,
+                            coefficient: (q_out - d * area * beta) * to_face,
+                            inflow_constant: 0.0,
+                        }
+                    }
+                    ChamberFace::Wall | ChamberFace::Symmetry | ChamberFace::Periodic => continue,
+                };
+                out.push(exchange);
             }
         }
     }
