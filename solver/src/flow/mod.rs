@@ -1,6 +1,7 @@
 //! Flow through the porous matrix around the cells. Darcy flow now; Brinkman and Stokes plug in here with the
 //! same [`FlowField`] result.
 
+pub mod brinkman;
 pub mod darcy;
 pub mod pressure_drag;
 

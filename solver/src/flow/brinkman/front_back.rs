@@ -1,0 +1,48 @@
+//! Pressure difference across each cell along the local flow: `p(front pole) − p(back pole)`.
+//!
+//! The local flow direction is the shell-averaged velocity around the cell (as for the sensing outputs); the
+//! front and back poles are the facets whose normals point most against and most along it, and the pressure there
+//! is extrapolated from the grid cells to the facet centroid (second order, tangential least squares).
+
+use crate::embedded::FacetStencils;
+use crate::post::local_flow::shell_mean_velocity;
+use mesh::{EmbeddedGeometry, Layout};
+
+/// `p_front − p_back` per cell (Pa); zero where there is no local flow or no facet.
+pub fn pressure_front_back(
+    geometry: &EmbeddedGeometry,
+    stencils: &FacetStencils,
+    layout: &Layout,
+    velocity: &[Vec<f64>; 3],
+    pressure: &[f64],
+) -> Vec<f64> {
+    let mut start = 0;
+    layout
+        .cells
+        .iter()
+        .enumerate()
+        .map(|(owner, cell)| {
+            let facets = geometry.facets_of(owner);
+            let first = start + geometry.facets[start..].partition_point(|f| f.owner < owner);
+            start = first + facets.len();
+            let flow = shell_mean_velocity(geometry, velocity, cell);
+            let speed = flow.iter().map(|v| v * v).sum::<f64>().sqrt();
+            if speed == 0.0 || facets.is_empty() {
+                return 0.0;
+            }
+            let along = |n: &[f64; 3]| (0..3).map(|a| n[a] * flow[a]).sum::<f64>() / speed;
+            let (mut front, mut back) = ((f64::INFINITY, 0usize), (f64::NEG_INFINITY, 0usize));
+            for (m, f) in facets.iter().enumerate() {
+                let c = along(&f.normal);
+                if c < front.0 {
+                    front = (c, m);
+                }
+                if c > back.0 {
+                    back = (c, m);
+                }
+            }
+            let value = |m: usize| FacetStencils::evaluate(&stencils.facets[first + m].tangential, pressure);
+            value(front.1) - value(back.1)
+        })
+        .collect()
+}

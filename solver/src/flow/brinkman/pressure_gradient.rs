@@ -1,0 +1,96 @@
+//! The pressure–velocity coupling of the MAC scheme: the gradient `G` and its transpose.
+//!
+//! Pressure force on the control volume of velocity unknown f (face area h², low cell L, high cell R):
+//! `(G p)_f = h² (p_R − p_L)`, with p = 0 beyond an outlet face. Its transpose is the net volumetric inflow of a
+//! grid cell, `(Gᵀ u)_P = h² (u_low face − u_high face)` over the unknown faces of P, so `Gᵀ u = −(known inflow)`
+//! states `∇·u = 0` cell by cell (staircase fluxes h² u_f through the faces whose centres lie in the fluid).
+//! A grid cell is a pressure unknown when at least one of its faces carries a velocity unknown.
+
+use super::staggered_grid::ComponentGrid;
+use mesh::Grid;
+use rayon::prelude::*;
+
+/// Gradient/divergence pair on the active unknowns.
+#[derive(Clone, Debug)]
+pub struct PressureCoupling {
+    pub grid: Grid,
+    pub components: [ComponentGrid; 3],
+    /// Velocity unknowns per component (rows of the momentum blocks).
+    pub velocity_active: [Vec<bool>; 3],
+    /// Pressure unknowns per grid cell.
+    pub pressure_active: Vec<bool>,
+}
+
+impl PressureCoupling {
+    pub fn new(grid: &Grid, components: [ComponentGrid; 3], velocity_active: [Vec<bool>; 3]) -> Self {
+        let pressure_active: Vec<bool> = (0..grid.len())
+            .into_par_iter()
+            .map(|cell| {
+                let ijk = grid.ijk(cell);
+                (0..3).any(|c| {
+                    let (lo, hi) = components[c].cell_faces(ijk);
+                    velocity_active[c][lo] || velocity_active[c][hi]
+                })
+            })
+            .collect();
+        PressureCoupling { grid: grid.clone(), components, velocity_active, pressure_active }
+    }
+
+    /// `out_c = scale · G_c p` on active unknowns (0 elsewhere).
+    pub fn gradient(&self, c: usize, p: &[f64], scale: f64, out: &mut [f64]) {
+        let comp = &self.components[c];
+        let active = &self.velocity_active[c];
+        let h2 = self.grid.face_area() * scale;
+        out.par_iter_mut().enumerate().with_min_len(4096).for_each(|(f, o)| {
+            if !active[f] {
+                *o = 0.0;
+                return;
+            }
+            let (low, high) = comp.adjacent_cells(&self.grid, comp.ijk(f));
+            let pl = low.map_or(0.0, |l| p[l]);
+            let ph = high.map_or(0.0, |r| p[r]);
+            *o = h2 * (ph - pl);
+        });
+    }
+
+    /// `out = scale · Gᵀ u` on active cells (0 elsewhere); `u` holds the three components.
+    pub fn divergence_transpose(&self, u: [&[f64]; 3], scale: f64, out: &mut [f64]) {
+        let h2 = self.grid.face_area() * scale;
+        out.par_iter_mut().enumerate().with_min_len(4096).for_each(|(cell, o)| {
+            if !self.pressure_active[cell] {
+                *o = 0.0;
+                return;
+            }
+            let ijk = self.grid.ijk(cell);
+            let mut s = 0.0;
+            for ((comp, active), uc) in self.components.iter().zip(&self.velocity_active).zip(u) {
+                let (lo, hi) = comp.cell_faces(ijk);
+                if active[lo] {
+                    s += uc[lo];
+                }
+                if active[hi] {
+                    s -= uc[hi];
+                }
+            }
+            *o = h2 * s;
+        });
+    }
+
+    /// `(Gᵀ u)_P` contributions of prescribed (non-unknown) face velocities: `known[c]` = (unknown index, value).
+    pub fn known_inflow(&self, known: [&[(usize, f64)]; 3]) -> Vec<f64> {
+        let h2 = self.grid.face_area();
+        let mut inflow = vec![0.0; self.grid.len()];
+        for (comp, list) in self.components.iter().zip(known) {
+            for &(f, value) in list {
+                let (low, high) = comp.adjacent_cells(&self.grid, comp.ijk(f));
+                if let Some(l) = low {
+                    inflow[l] -= h2 * value;
+                }
+                if let Some(r) = high {
+                    inflow[r] += h2 * value;
+                }
+            }
+        }
+        inflow
+    }
+}

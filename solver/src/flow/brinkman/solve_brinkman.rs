@@ -1,0 +1,297 @@
+//! Steady Brinkman (or Stokes) flow around the cells: assemble, solve, and hand the transport its face fluxes.
+
+use super::assemble_momentum::{assemble_momentum, MomentumCoefficients};
+use super::chamber_velocity::{ChamberVelocity, VelocityData};
+use super::front_back::pressure_front_back;
+use super::gmres::gmres;
+use super::inlet_profile::fully_developed_profile;
+use super::pressure_gradient::PressureCoupling;
+use super::resolution::{check_resolution, ResolutionWarning};
+use super::saddle_system::SaddleSystem;
+use super::sphere_index::SphereIndex;
+use super::surface_force::{surface_forces, SurfaceForces};
+use super::{BrinkmanError, BrinkmanMedium};
+use crate::embedded::FacetStencils;
+use crate::flow::FlowField;
+use crate::linalg::{KrylovParams, MultigridParams};
+use crate::problem::{ChamberBoundaries, ChamberFace};
+use mesh::{Axis, EmbeddedGeometry, Layout};
+use std::f64::consts::PI;
+use std::sync::Arc;
+
+/// Solver settings; `Default` suits production cases.
+#[derive(Clone)]
+pub struct BrinkmanSettings {
+    /// Relative residual of the coupled system and the iteration cap (default 1e-8, 400).
+    pub krylov: KrylovParams,
+    /// GMRES basis size per restart cycle (default 30).
+    pub restart: usize,
+    pub multigrid: MultigridParams,
+    /// Smallest cut fraction θ of a link to a sphere surface (default 0.05).
+    pub min_wall_fraction: f64,
+    /// Velocity on far-field faces; default the uniform stream `(U, 0, 0)`.
+    pub far_field: Option<VelocityData>,
+}
+
+impl Default for BrinkmanSettings {
+    fn default() -> Self {
+        BrinkmanSettings {
+            krylov: KrylovParams { relative_tolerance: 1e-8, max_iterations: 400 },
+            restart: 30,
+            multigrid: MultigridParams::default(),
+            min_wall_fraction: 0.05,
+            far_field: None,
+        }
+    }
+}
+
+/// A solved Brinkman/Stokes flow.
+#[derive(Clone, Debug)]
+pub struct BrinkmanSolution {
+    /// Face fluxes, pressure, velocities, total drag per cell, iterations, divergence, pressure drop.
+    pub field: FlowField,
+    /// Viscous and pressure parts of the force on each cell (N).
+    pub forces: SurfaceForces,
+    /// `p_front − p_back` per cell along its local flow (Pa).
+    pub pressure_front_back: Vec<f64>,
+    /// Set when the screening length √K is under-resolved.
+    pub resolution: Option<ResolutionWarning>,
+    /// Relative residual before the first and after every GMRES iteration.
+    pub residual_history: Vec<f64>,
+    /// Bytes held by the solver (operators, hierarchies, Krylov basis).
+    pub memory_bytes: usize,
+}
+
+/// Solves `−μ_e∇²u + (μ/K)u + ∇p = 0, ∇·u = 0` with no slip on every cell, mean superficial velocity
+/// `mean_velocity` (m/s) along +x.
+#[allow(clippy::too_many_arguments)]
+pub fn solve_brinkman(
+    geometry: &EmbeddedGeometry,
+    stencils: &FacetStencils,
+    layout: &Layout,
+    boundaries: &ChamberBoundaries,
+    medium: &BrinkmanMedium,
+    mean_velocity: f64,
+    settings: &BrinkmanSettings,
+) -> Result<BrinkmanSolution, BrinkmanError> {
+    medium.validate()?;
+    let grid = &geometry.grid;
+    let cells = layout.cells.len();
+    let resolution = check_resolution(medium, grid.spacing);
+    if mean_velocity == 0.0 {
+        return Ok(BrinkmanSolution {
+            field: FlowField::at_rest(cells, grid),
+            forces: SurfaceForces { viscous: vec![[0.0; 3]; cells], pressure: vec![[0.0; 3]; cells] },
+            pressure_front_back: vec![0.0; cells],
+            resolution,
+            residual_history: vec![0.0],
+            memory_bytes: 0,
+        });
+    }
+    let h = grid.spacing;
+    let periodic = boundaries.periodic_axes();
+    let spheres = SphereIndex::new(grid, layout, periodic);
+    let driven = boundaries.faces[0][0] == ChamberFace::Periodic;
+    let mu_e = medium.effective_viscosity;
+    let sigma = medium.resistivity();
+
+    let mut inlet: [[Option<Vec<f64>>; 2]; 3] = Default::default();
+    for (a, sides) in inlet.iter_mut().enumerate() {
+        for (side, slot) in sides.iter_mut().enumerate() {
+            if boundaries.faces[a][side] == ChamberFace::Inlet {
+                let profile = fully_developed_profile(
+                    grid,
+                    boundaries,
+                    a,
+                    mu_e,
+                    sigma,
+                    mean_velocity,
+                    &settings.krylov,
+                )
+                .map_err(BrinkmanError::from_solve)?;
+                *slot = Some(profile);
+            }
+        }
+    }
+    let far_field: VelocityData =
+        settings.far_field.clone().unwrap_or_else(|| Arc::new(move |_| [mean_velocity, 0.0, 0.0]));
+    let chamber = ChamberVelocity::new(grid, *boundaries, inlet, far_field);
+    let coefficients = MomentumCoefficients {
+        effective_viscosity: mu_e,
+        resistivity: sigma,
+        driving_gradient: if driven { 1.0 } else { 0.0 },
+        min_wall_fraction: settings.min_wall_fraction,
+    };
+    let blocks = [0, 1, 2].map(|c| assemble_momentum(grid, c, &chamber, &spheres, &coefficients));
+    let components = [0, 1, 2].map(|c| blocks[c].component.clone());
+    let velocity_active = [0, 1, 2].map(|c| blocks[c].operator.active.clone());
+    let coupling = PressureCoupling::new(grid, components, velocity_active);
+    if !coupling.pressure_active.iter().any(|&a| a) {
+        return Err(BrinkmanError::Blocked);
+    }
+    let known_inflow = coupling.known_inflow([
+        blocks[0].known.as_slice(),
+        blocks[1].known.as_slice(),
+        blocks[2].known.as_slice(),
+    ]);
+    let system = SaddleSystem::new(blocks, coupling, mu_e, sigma, &settings.multigrid);
+    let ranges = system.ranges();
+    let mut rhs = vec![0.0; system.len()];
+    for c in 0..3 {
+        rhs[ranges[c].clone()].copy_from_slice(&system.blocks[c].rhs);
+    }
+    for (cell, r) in rhs[ranges[3].clone()].iter_mut().enumerate() {
+        if system.coupling.pressure_active[cell] {
+            *r = -system.scale * known_inflow[cell];
+        }
+    }
+    let mut x = vec![0.0; system.len()];
+    let mut work = system.work();
+    let info = gmres(
+        |v, y| system.apply(v, y),
+        |r, z| system.precondition(r, z, &mut work),
+        &rhs,
+        &mut x,
+        settings.restart,
+        &settings.krylov,
+    )
+    .map_err(BrinkmanError::from_solve)?;
+    if x.iter().any(|v| !v.is_finite()) {
+        return Err(BrinkmanError::NonFinite { iteration: info.iterations });
+    }
+    let memory_bytes = system.memory_bytes() + 8 * system.len() * (settings.restart + 5);
+
+    let mut u: [Vec<f64>; 3] = [0, 1, 2].map(|c| x[ranges[c].clone()].to_vec());
+    let mut pressure: Vec<f64> = x[ranges[3].clone()]
+        .iter()
+        .zip(&system.coupling.pressure_active)
+        .map(|(&p, &a)| if a { system.scale * p } else { 0.0 })
+        .collect();
+    let has_outlet = boundaries.faces.iter().flatten().any(|&f| f == ChamberFace::Outlet);
+    if !has_outlet {
+        // The pressure level is free: report it with zero mean over the pressure unknowns.
+        let active = &system.coupling.pressure_active;
+        let count = active.iter().filter(|&&a| a).count().max(1) as f64;
+        let mean = pressure.iter().zip(active).filter(|(_, &a)| a).map(|(p, _)| p).sum::<f64>() / count;
+        pressure.iter_mut().zip(active).filter(|(_, &a)| a).for_each(|(p, _)| *p -= mean);
+    }
+    let mut forces =
+        surface_forces(&system.blocks, &system.coupling, &spheres, [&u[0], &u[1], &u[2]], &pressure, cells);
+    let mut known: [Vec<(usize, f64)>; 3] = [0, 1, 2].map(|c| system.blocks[c].known.clone());
+
+    // A periodic chamber was driven by a unit mean pressure gradient: scale to the requested mean velocity and add
+    // the linear pressure part −G (x − x_c) (whose force on a cell is G V_cell along x).
+    let mut driving_gradient = 0.0;
+    if driven {
+        let comp = &system.blocks[0].component;
+        let mut through = 0.0;
+        for k in 0..grid.shape[2] {
+            for j in 0..grid.shape[1] {
+                through += u[0][comp.index([0, j, k])];
+            }
+        }
+        let cross_section = (grid.shape[1] * grid.shape[2]) as f64;
+        let mean = through / cross_section;
+        if mean <= 0.0 || !mean.is_finite() {
+            return Err(BrinkmanError::Blocked);
+        }
+        let k = mean_velocity / mean;
+        driving_gradient = k;
+        u.iter_mut().for_each(|c| c.iter_mut().for_each(|v| *v *= k));
+        known.iter_mut().for_each(|c| c.iter_mut().for_each(|(_, v)| *v *= k));
+        let centre = grid.origin[0] + 0.5 * grid.extent()[0];
+        for (n, p) in pressure.iter_mut().enumerate() {
+            if system.coupling.pressure_active[n] {
+                let x = grid.cell_centre(n % grid.shape[0], 0, 0)[0];
+                *p = k * *p - k * (x - centre);
+            }
+        }
+        for (owner, cell) in layout.cells.iter().enumerate() {
+            for part in [&mut forces.viscous[owner], &mut forces.pressure[owner]] {
+                part.iter_mut().for_each(|f| *f *= k);
+            }
+            forces.pressure[owner][0] += k * 4.0 / 3.0 * PI * cell.radius.powi(3);
+        }
+    }
+
+    // Face fluxes h² u on every face (unknowns and prescribed values); periodic face n repeats face 0.
+    let face_flux: [Vec<f64>; 3] = Axis::ALL.map(|axis| {
+        let c = axis.index();
+        let comp = &system.blocks[c].component;
+        let mut q = vec![0.0; grid.face_count(axis)];
+        for (n, &value) in u[c].iter().enumerate() {
+            if system.coupling.velocity_active[c][n] {
+                q[comp.face(grid, comp.ijk(n))] = h * h * value;
+            }
+        }
+        for &(n, value) in &known[c] {
+            q[comp.face(grid, comp.ijk(n))] = h * h * value;
+        }
+        if periodic[c] {
+            let s = grid.face_shape(axis);
+            for k in 0..s[2] {
+                for j in 0..s[1] {
+                    for i in 0..s[0] {
+                        let ijk = [i, j, k];
+                        if ijk[c] == grid.shape[c] {
+                            let mut wrap = ijk;
+                            wrap[c] = 0;
+                            q[grid.face_index(axis, i, j, k)] =
+                                q[grid.face_index(axis, wrap[0], wrap[1], wrap[2])];
+                        }
+                    }
+                }
+            }
+        }
+        q
+    });
+    let velocity = FlowField::cell_velocity(grid, &face_flux);
+    let fluid: Vec<bool> = geometry.volume_fraction.iter().map(|&phi| phi > 0.0).collect();
+    let max_divergence = FlowField::max_divergence(grid, &face_flux, &fluid);
+    let pressure_drop = if driven {
+        driving_gradient * grid.extent()[0]
+    } else {
+        layer_difference(grid, &pressure, &system.coupling.pressure_active)
+    };
+    let front_back = pressure_front_back(geometry, stencils, layout, &velocity, &pressure);
+    let field = FlowField {
+        face_flux,
+        pressure,
+        velocity,
+        drag: forces.total(),
+        iterations: info.iterations,
+        relative_residual: info.relative_residual,
+        max_divergence,
+        pressure_drop,
+    };
+    Ok(BrinkmanSolution {
+        field,
+        forces,
+        pressure_front_back: front_back,
+        resolution,
+        residual_history: info.residual_history,
+        memory_bytes,
+    })
+}
+
+/// Mean pressure of the first grid-cell layer minus that of the last along x (pressure unknowns only) (Pa).
+fn layer_difference(grid: &mesh::Grid, p: &[f64], active: &[bool]) -> f64 {
+    let layer_mean = |i: usize| {
+        let (mut sum, mut count) = (0.0, 0usize);
+        for k in 0..grid.shape[2] {
+            for j in 0..grid.shape[1] {
+                let n = grid.index(i, j, k);
+                if active[n] {
+                    sum += p[n];
+                    count += 1;
+                }
+            }
+        }
+        if count > 0 {
+            sum / count as f64
+        } else {
+            0.0
+        }
+    };
+    layer_mean(0) - layer_mean(grid.shape[0] - 1)
+}
