@@ -103,12 +103,12 @@ fn bad_case_files_exit_2_naming_key_and_line() {
             says: "is not a known key",
         },
         BadCase {
-            name: "brinkman",
+            name: "unknown_flow_model",
             from: "model = \"darcy\"",
-            to: "model = \"brinkman\"",
+            to: "model = \"oseen\"",
             key: "medium.model",
-            at: "model = \"brinkman\"",
-            says: "is not implemented yet (planned; use \"darcy\")",
+            at: "model = \"oseen\"",
+            says: "is not a flow model",
         },
         BadCase {
             name: "grid_does_not_fit",

@@ -2,6 +2,10 @@
 //! Used by the `run` command and by the verification cases alike.
 
 use crate::embedded::FacetStencils;
+use crate::flow::brinkman::front_back::pressure_front_back;
+use crate::flow::brinkman::{
+    solve_brinkman, BrinkmanError, BrinkmanMedium, BrinkmanSettings, ResolutionWarning,
+};
 use crate::flow::{solve_darcy, DarcyError, FlowField};
 use crate::linalg::KrylovParams;
 use crate::post::{cell_sensing, mass_balance, CellSensing, MassBalance, SensingModel};
@@ -37,6 +41,10 @@ pub struct SteadySolution {
     pub geometry: EmbeddedGeometry,
     pub stencils: FacetStencils,
     pub flow: FlowField,
+    /// `p_front − p_back` per cell along its local flow (Pa).
+    pub pressure_front_back: Vec<f64>,
+    /// Set when a Brinkman screening length is under-resolved by the grid.
+    pub flow_resolution: Option<ResolutionWarning>,
     pub transport: SteadyTransport,
     pub sensing: Vec<CellSensing>,
     pub balance: MassBalance,
@@ -48,6 +56,8 @@ pub struct SteadySolution {
 pub enum CaseSolveError {
     #[error(transparent)]
     Flow(#[from] DarcyError),
+    #[error(transparent)]
+    Brinkman(#[from] BrinkmanError),
     #[error(transparent)]
     Transport(#[from] TransportError),
     #[error("the {0} flow model is not implemented yet")]
@@ -69,6 +79,7 @@ pub fn solve_steady_case(
     on_stage(Stage::Flow);
     let t1 = Instant::now();
     let cells = case.layout.cells.len();
+    let mut flow_resolution = None;
     let flow = match case.flow.medium {
         MediumModel::Darcy { viscosity, permeability } => solve_darcy(
             &geometry,
@@ -80,9 +91,30 @@ pub fn solve_steady_case(
             case.flow.mean_velocity,
             &case.krylov,
         )?,
-        MediumModel::Brinkman { .. } => return Err(CaseSolveError::FlowModelNotImplemented("brinkman")),
-        MediumModel::Stokes { .. } => return Err(CaseSolveError::FlowModelNotImplemented("stokes")),
+        MediumModel::Brinkman { .. } | MediumModel::Stokes { .. } => {
+            let medium = BrinkmanMedium::from_model(case.flow.medium)
+                .ok_or(CaseSolveError::FlowModelNotImplemented("darcy"))?;
+            let settings = BrinkmanSettings {
+                krylov: KrylovParams {
+                    max_iterations: case.krylov.max_iterations.max(400),
+                    ..case.krylov.clone()
+                },
+                ..BrinkmanSettings::default()
+            };
+            let solved = solve_brinkman(
+                &geometry,
+                &stencils,
+                case.layout,
+                &case.boundaries,
+                &medium,
+                case.flow.mean_velocity,
+                &settings,
+            )?;
+            flow_resolution = solved.resolution;
+            solved.field
+        }
     };
+    let front_back = pressure_front_back(&geometry, &stencils, case.layout, &flow.velocity, &flow.pressure);
     let t_flow = t1.elapsed().as_secs_f64();
 
     on_stage(Stage::Transport);
@@ -121,6 +153,8 @@ pub fn solve_steady_case(
         geometry,
         stencils,
         flow,
+        pressure_front_back: front_back,
+        flow_resolution,
         transport,
         sensing,
         balance,

@@ -265,15 +265,14 @@ fn chamber_must_be_whole_grid_cells_with_a_suggestion() {
 }
 
 #[test]
-fn unimplemented_flow_models_are_refused_plainly() {
+fn brinkman_and_stokes_models_are_accepted_and_unknown_models_refused() {
     for model in ["brinkman", "stokes"] {
         let text = edit("model = \"darcy\"", &format!("model = \"{model}\""));
-        expect_error(
-            &text,
-            "medium.model",
-            Some("model = "),
-            &[&format!("medium.model = \"{model}\" is not implemented yet (planned; use \"darcy\")")],
-        );
+        let case = parse(&text).unwrap_or_else(|e| panic!("{model}: {e}"));
+        match (model, case.flow.medium) {
+            ("brinkman", MediumModel::Brinkman { .. }) | ("stokes", MediumModel::Stokes { .. }) => {}
+            (m, other) => panic!("{m} parsed as {other:?}"),
+        }
     }
     let text = edit("model = \"darcy\"", "model = \"oseen\"");
     expect_error(&text, "medium.model", Some("model = "), &["is not a flow model"]);

@@ -259,7 +259,7 @@ pub(super) fn validate(raw: RawCase, text: &str, path: &Path) -> Result<Case, Ca
     })
 }
 
-/// `[medium]`: the flow model and its coefficients. Only Darcy is implemented.
+/// `[medium]`: the flow model and its coefficients (`permeability` is not needed by Stokes flow).
 fn validate_medium(
     src: &Source,
     medium: &RawMedium,
@@ -269,24 +269,15 @@ fn validate_medium(
         return Err(src.missing("medium.model", span, "\"darcy\", \"brinkman\" or \"stokes\""));
     };
     let model_span = model.span();
-    match model.get_ref().as_str() {
-        "darcy" => {}
-        name @ ("brinkman" | "stokes") => {
-            return Err(src.error(
-                "medium.model",
-                Some(&model_span),
-                format!("medium.model = \"{name}\" is not implemented yet (planned; use \"darcy\")"),
-            ))
-        }
-        other => {
-            return Err(src.error(
-                "medium.model",
-                Some(&model_span),
-                format!(
-                "medium.model = \"{other}\" is not a flow model; use \"darcy\", \"brinkman\" or \"stokes\""
+    let name = model.get_ref().as_str();
+    if !matches!(name, "darcy" | "brinkman" | "stokes") {
+        return Err(src.error(
+            "medium.model",
+            Some(&model_span),
+            format!(
+                "medium.model = \"{name}\" is not a flow model; use \"darcy\", \"brinkman\" or \"stokes\""
             ),
-            ))
-        }
+        ));
     }
     let viscosity = src.required(
         "medium.viscosity",
@@ -296,23 +287,37 @@ fn validate_medium(
         Range0::Positive,
         "\"1e-3 Pa s\"",
     )?;
-    let permeability = src.required(
-        "medium.permeability",
-        medium.permeability.as_ref(),
-        span,
-        Dimension::AREA,
-        Range0::Positive,
-        "\"1e-13 m^2\"",
-    )?;
-    // Parsed even though Darcy does not use it, so that a wrong unit is still reported.
-    src.quantity_or(
+    let permeability = if name == "stokes" {
+        // Not used by Stokes flow; a given value is still checked for its unit.
+        match medium.permeability.as_ref() {
+            Some(v) => Some(src.quantity("medium.permeability", v, Dimension::AREA, Range0::Positive)?),
+            None => None,
+        }
+    } else {
+        Some(src.required(
+            "medium.permeability",
+            medium.permeability.as_ref(),
+            span,
+            Dimension::AREA,
+            Range0::Positive,
+            "\"1e-13 m^2\"",
+        )?)
+    };
+    // Parsed for every model, so that a wrong unit is reported even where the model does not use it.
+    let effective_viscosity = src.quantity_or(
         "medium.effective_viscosity",
         medium.effective_viscosity.as_ref(),
         Dimension::VISCOSITY,
         Range0::Positive,
         viscosity,
     )?;
-    Ok(MediumModel::Darcy { viscosity, permeability })
+    Ok(match (name, permeability) {
+        ("brinkman", Some(permeability)) => {
+            MediumModel::Brinkman { viscosity, permeability, effective_viscosity }
+        }
+        ("darcy", Some(permeability)) => MediumModel::Darcy { viscosity, permeability },
+        _ => MediumModel::Stokes { viscosity },
+    })
 }
 
 /// `[ligand]`: transport coefficients; the surface uptake comes from `[cells]`.

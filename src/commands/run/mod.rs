@@ -41,12 +41,24 @@ pub fn solution_warnings(solution: &SteadySolution) -> Vec<String> {
             peclet.max_cell_peclet, peclet.upwinded_faces
         ));
     }
+    if let Some(resolution) = &solution.flow_resolution {
+        warnings.push(resolution.to_string());
+    }
     warnings
+}
+
+/// The Brinkman resolution guard, told before the solve starts.
+fn flow_resolution_warning(case: &Case) -> Option<String> {
+    let medium = solver::flow::brinkman::BrinkmanMedium::from_model(case.flow.medium)?;
+    solver::flow::brinkman::resolution::check_resolution(&medium, case.grid.spacing).map(|w| w.to_string())
 }
 
 /// Solves `case` and writes `fields.h5`, `fields.xmf`, `cells.csv` and `summary.json` into `out_dir`.
 pub fn execute(case: &Case, out_dir: &Path, _threads: Option<usize>) -> Result<()> {
     for warning in &case.warnings {
+        eprintln!("warning: {warning}");
+    }
+    if let Some(warning) = flow_resolution_warning(case) {
         eprintln!("warning: {warning}");
     }
     let progress = stages::StageProgress::new(5);

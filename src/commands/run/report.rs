@@ -42,6 +42,7 @@ pub fn cell_table(case: &Case, solved: &SolvedCase) -> CellTable {
             real("drag_y", "N", "y of the force of the fluid on the cell", solved.flow.drag.iter().map(|f| f[1]).collect()),
             real("drag_z", "N", "z of the force of the fluid on the cell", solved.flow.drag.iter().map(|f| f[2]).collect()),
             real("local_speed", "m/s", "superficial speed averaged over the fluid shell a < r < 2a around the cell", s.iter().map(|c| c.local_speed).collect()),
+            real("pressure_front_back", "Pa", "pressure at the upstream pole minus the downstream pole along the local flow", solved.pressure_front_back.clone()),
         ],
     }
 }
@@ -167,7 +168,14 @@ pub fn write_outputs(
             "write": write_started.elapsed().as_secs_f64(), "total": started.elapsed().as_secs_f64()
         },
         "flow": {
-            "model": "darcy",
+            "model": match case.flow.medium {
+                solver::problem::MediumModel::Darcy { .. } => "darcy",
+                solver::problem::MediumModel::Brinkman { .. } => "brinkman",
+                solver::problem::MediumModel::Stokes { .. } => "stokes",
+            },
+            "screening_length_resolved": solved.flow_resolution.is_none(),
+            "expected_drag_error": solved.flow_resolution.as_ref().map(|w| w.expected_drag_error),
+            "suggested_spacing": solved.flow_resolution.as_ref().map(|w| w.suggested_spacing),
             "mean_velocity": case.flow.mean_velocity,
             "iterations": solved.flow.iterations,
             "relative_residual": solved.flow.relative_residual,

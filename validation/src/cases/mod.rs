@@ -1,6 +1,7 @@
 //! Verification cases behind `plumefield verify`: the full solver on problems with published analytic answers.
 //! Each case states its source, its expected error and, where it refines the grid, the observed order.
 
+pub mod brinkman_sphere;
 pub mod darcy_sphere;
 pub mod isolated_sphere;
 pub mod low_peclet_darcy;
@@ -102,5 +103,7 @@ pub fn run_all(tier: Tier, progress: &mut dyn FnMut(&str)) -> Result<Vec<Check>,
     checks.extend(low_peclet_darcy::run(tier)?);
     progress("mass balance, dense random layout");
     checks.extend(mass_balance_dense::run(tier)?);
+    progress("Brinkman flow past a sphere");
+    checks.extend(brinkman_sphere::run(tier)?);
     Ok(checks)
 }
