@@ -4,12 +4,13 @@
 //! - [`stencil`]: its assembly into a 7-point stencil ([`Stencil7`], also exported as CSR).
 //! - [`apply_operator`]: the matrix-free product straight from the face arrays (the exact f64 system).
 //! - [`coarsen`], [`transfer`], [`smooth`], [`dense_lu`], [`multigrid`]: the cell-centred multigrid
-//!   preconditioner (f32 levels).
+//!   preconditioner (f32 levels, stored per red–black colour by `coloured_stencil`).
 //! - [`bicgstab`]: right-preconditioned BiCGSTAB; [`steady_solver`]: the two put together.
 
 pub mod apply_operator;
 pub mod bicgstab;
 mod coarsen;
+mod coloured_stencil;
 mod dense_lu;
 pub mod multigrid;
 pub mod operator;

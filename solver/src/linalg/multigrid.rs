@@ -7,10 +7,11 @@
 //! any SI magnitude stays well inside the f32 range; the Krylov method around it works in f64.
 
 use super::coarsen::coarsen_operator;
+use super::coloured_stencil::{ColouredStencil, Split};
 use super::dense_lu::DenseLu;
 use super::operator::{AdvectionScheme, FaceCoupledOperator};
-use super::smooth::{gauss_seidel_colour, BLACK, RED};
-use super::stencil::Stencil7;
+use super::smooth::{colours_to_correct, colours_with_residual, post_smooth, pre_smooth};
+use super::stencil::{min_lines, Stencil7};
 use super::transfer::{prolongate_add, restrict_residual, Prolongation};
 use rayon::prelude::*;
 
@@ -61,7 +62,7 @@ const MAX_DENSE_ROWS: usize = 4096;
 const COARSEST_SWEEPS: usize = 40;
 
 struct Level {
-    stencil: Stencil7<f32>,
+    stencil: ColouredStencil<f32>,
     active: Vec<bool>,
 }
 
@@ -80,16 +81,22 @@ pub(crate) struct Multigrid {
     params: MultigridParams,
 }
 
-/// Per-cycle vectors of every level (f32).
+/// Per-cycle vectors of every level (f32, red–black split layout).
 pub(crate) struct MultigridWork {
-    x: Vec<Vec<f32>>,
-    b: Vec<Vec<f32>>,
+    x: Vec<Split<f32>>,
+    b: Vec<Split<f32>>,
+    /// Scale ρ of the last input (the cycle solves for r/ρ in f32); reused while it keeps r/ρ well inside the
+    /// f32 range, which saves a pass over r.
+    rho: f64,
 }
+
+/// The input scale is refreshed when `max|r|/ρ` leaves [2⁻²⁰, 2²⁰] (f32 spans 2^±126).
+const RHO_RANGE: f64 = 1048576.0;
 
 impl Multigrid {
     pub fn new(op: &FaceCoupledOperator, scheme: AdvectionScheme, params: MultigridParams) -> Self {
         // The finest level fixes the scale 1/max diag of every level.
-        let (finest, scale) = Stencil7::<f32>::assemble_normalised(op, scheme);
+        let (finest, scale) = ColouredStencil::<f32>::assemble_normalised(op, scheme);
         let mut finest = Some(finest);
         let mut levels = Vec::new();
         let mut coarse_op: Option<FaceCoupledOperator> = None;
@@ -102,7 +109,7 @@ impl Multigrid {
                 n <= params.coarsest_size || cannot_coarsen || levels.len() + 1 >= params.max_levels.max(1);
             let stencil = match finest.take() {
                 Some(s) => s,
-                None => Stencil7::<f32>::assemble_scaled(current, level_scheme, scale),
+                None => ColouredStencil::<f32>::assemble(current, level_scheme, scale),
             };
             if last {
                 let solve = if n <= MAX_DENSE_ROWS.max(params.coarsest_size) {
@@ -138,125 +145,157 @@ impl Multigrid {
 
     /// Bytes of one [`MultigridWork`].
     pub fn work_bytes(&self) -> usize {
-        self.levels.iter().map(|l| 8 * l.stencil.len()).sum()
+        self.levels.iter().map(|l| 4 * 4 * l.stencil.half() * l.stencil.lines()).sum()
     }
 
     pub fn work(&self) -> MultigridWork {
         MultigridWork {
-            x: self.levels.iter().map(|l| vec![0.0; l.stencil.len()]).collect(),
-            b: self.levels.iter().map(|l| vec![0.0; l.stencil.len()]).collect(),
+            x: self.levels.iter().map(|l| l.stencil.zeros()).collect(),
+            b: self.levels.iter().map(|l| l.stencil.zeros()).collect(),
+            rho: 0.0,
         }
     }
 
-    /// `z ≈ A⁻¹ r` by one cycle from a zero initial guess.
+    /// `z ≈ A⁻¹ r` by one cycle from a zero initial guess. Inactive cells (identity rows of A) get `z = r`
+    /// exactly and a zero right-hand side inside the cycle, so no level needs an activity mask.
     pub fn precondition(&self, r: &[f64], z: &mut [f64], work: &mut MultigridWork) {
         // Scale the input to O(1) for f32: solve (scale·A) x = r/ρ, then z = scale·ρ·x.
-        let rho = r.par_iter().with_min_len(8192).map(|v| v.abs()).reduce(|| 0.0, f64::max);
-        if rho == 0.0 || !rho.is_finite() {
-            z.par_iter_mut().zip(r.par_iter()).for_each(|(zi, &ri)| *zi = if rho == 0.0 { 0.0 } else { ri });
-            return;
+        let mut rho = work.rho;
+        let mut max = if rho > 0.0 { self.load_input(r, 1.0 / rho, work) } else { f64::NAN };
+        if !(max / rho >= 1.0 / RHO_RANGE && max / rho <= RHO_RANGE) {
+            max = self.load_input(r, 1.0, work);
+            if max == 0.0 || !max.is_finite() {
+                // Zero (or non-finite) input on the active cells: z = 0 there (or r, so that BiCGSTAB sees it).
+                let active = &self.levels[0].active;
+                z.par_iter_mut()
+                    .zip(r.par_iter())
+                    .enumerate()
+                    .with_min_len(8192)
+                    .for_each(|(p, (zi, &ri))| *zi = if active[p] && max == 0.0 { 0.0 } else { ri });
+                return;
+            }
+            // A power of two: scaling by it is exact, so a reused ρ gives the same f32 values as a fresh one.
+            rho = 2f64.powi(max.log2().round() as i32);
+            self.load_input(r, 1.0 / rho, work);
         }
-        let inv = 1.0 / rho;
-        work.b[0]
-            .par_iter_mut()
-            .zip(r.par_iter())
-            .with_min_len(8192)
-            .for_each(|(b, &v)| *b = (v * inv) as f32);
-        work.x[0].par_iter_mut().with_min_len(8192).for_each(|v| *v = 0.0);
+        work.rho = rho;
         self.cycle(0, work);
         let back = self.scale * rho;
-        z.par_iter_mut()
-            .zip(work.x[0].par_iter())
-            .with_min_len(8192)
-            .for_each(|(zi, &x)| *zi = back * x as f64);
+        let level = &self.levels[0];
+        let [nx, ny, _] = level.stencil.shape();
+        let h = level.stencil.half();
+        let [x0, x1] = &work.x[0];
+        z.par_chunks_mut(nx).zip(r.par_chunks(nx)).enumerate().with_min_len(min_lines(nx)).for_each(
+            |(line, (zl, rl))| {
+                let parity = (line % ny + line / ny) % 2;
+                let (seg0, seg1) = (&x0[line * h..(line + 1) * h], &x1[line * h..(line + 1) * h]);
+                let active = &level.active[line * nx..(line + 1) * nx];
+                for i in 0..nx {
+                    let x = if (i + parity) % 2 == 0 { seg0[i / 2] } else { seg1[i / 2] };
+                    zl[i] = if active[i] { back * x as f64 } else { rl[i] };
+                }
+            },
+        );
+    }
+
+    /// Writes `r·inv` (f32, split layout, zero on inactive cells) into the finest right-hand side and returns
+    /// `max|r|` over active cells (NaN if any is not finite).
+    fn load_input(&self, r: &[f64], inv: f64, work: &mut MultigridWork) -> f64 {
+        let level = &self.levels[0];
+        let [nx, ny, _] = level.stencil.shape();
+        let h = level.stencil.half();
+        let [b0, b1] = &mut work.b[0];
+        b0.par_chunks_mut(h)
+            .zip(b1.par_chunks_mut(h))
+            .zip(r.par_chunks(nx))
+            .enumerate()
+            .with_min_len(min_lines(nx))
+            .map(|(line, ((out0, out1), rl))| {
+                let parity = (line % ny + line / ny) % 2;
+                let active = &level.active[line * nx..(line + 1) * nx];
+                let mut max = 0.0f64;
+                for i in 0..nx {
+                    let v = if active[i] { rl[i] } else { 0.0 };
+                    max = if v.abs() > max || v.is_nan() { v.abs() } else { max };
+                    let value = (v * inv) as f32;
+                    if (i + parity) % 2 == 0 {
+                        out0[i / 2] = value;
+                    } else {
+                        out1[i / 2] = value;
+                    }
+                }
+                max
+            })
+            .reduce(|| 0.0, |a, b| if a.is_nan() || b.is_nan() { f64::NAN } else { a.max(b) })
     }
 
     fn cycle(&self, l: usize, work: &mut MultigridWork) {
-        let level = &self.levels[l];
         if l + 1 == self.levels.len() {
             self.solve_coarsest(work);
             return;
         }
-        {
-            let (x, b) = (&mut work.x[l], &work.b[l]);
-            for _ in 0..self.params.pre_smoothing {
-                gauss_seidel_colour(&level.stencil, x, b, RED);
-                gauss_seidel_colour(&level.stencil, x, b, BLACK);
-            }
-        }
+        let level = &self.levels[l];
+        let coarse = &self.levels[l + 1];
+        pre_smooth(&level.stencil, &mut work.x[l], &work.b[l], self.params.pre_smoothing);
         {
             let (fine_b, coarse_b) = work.b.split_at_mut(l + 1);
-            restrict_residual(&level.stencil, &level.active, &work.x[l], &fine_b[l], &mut coarse_b[0]);
+            restrict_residual(
+                &level.stencil,
+                &work.x[l],
+                &fine_b[l],
+                colours_with_residual(&level.stencil, self.params.pre_smoothing),
+                &coarse.stencil,
+                &mut coarse_b[0],
+            );
         }
-        let visits = match self.params.cycle {
-            Cycle::V => 1,
-            Cycle::W => 2,
-        };
-        work.x[l + 1].iter_mut().for_each(|v| *v = 0.0);
-        for visit in 0..visits {
-            if visit > 0 {
-                // Second visit: restrict the residual of the coarse level's own current iterate.
-                self.cycle_again(l + 1, work);
-            } else {
-                self.cycle(l + 1, work);
-            }
+        // The coarse cycle starts from zero by itself.
+        self.cycle(l + 1, work);
+        if self.params.cycle == Cycle::W {
+            // Second visit: a further cycle on the coarse level's own current residual.
+            self.cycle_again(l + 1, work);
         }
         {
-            let coarse = &self.levels[l + 1];
             let (fine_x, coarse_x) = work.x.split_at_mut(l + 1);
             prolongate_add(
-                level.stencil.shape(),
-                level.stencil.periodic(),
-                &level.active,
+                &level.stencil,
+                &coarse.stencil,
                 &coarse.active,
                 &coarse_x[0],
                 &mut fine_x[l],
+                colours_to_correct(&level.stencil, self.params.post_smoothing),
                 self.params.prolongation,
             );
         }
-        let (x, b) = (&mut work.x[l], &work.b[l]);
-        for _ in 0..self.params.post_smoothing {
-            gauss_seidel_colour(&level.stencil, x, b, BLACK);
-            gauss_seidel_colour(&level.stencil, x, b, RED);
-        }
+        post_smooth(&level.stencil, &mut work.x[l], &work.b[l], self.params.post_smoothing);
     }
 
     /// A further cycle on level `l` starting from its current iterate (the second visit of a W-cycle): solve
     /// for a correction of the current residual and add it.
     fn cycle_again(&self, l: usize, work: &mut MultigridWork) {
-        let n = self.levels[l].stencil.len();
-        let mut residual = vec![0.0f32; n];
-        self.levels[l].stencil.apply(&work.x[l], &mut residual);
-        let saved_x = std::mem::replace(&mut work.x[l], vec![0.0; n]);
-        for (r, &b) in residual.iter_mut().zip(&work.b[l]) {
-            *r = b - *r;
-        }
+        let stencil = &self.levels[l].stencil;
+        let mut residual = stencil.zeros();
+        stencil.residual(&work.x[l], &work.b[l], &mut residual);
+        let saved_x = std::mem::replace(&mut work.x[l], stencil.zeros());
         let saved_b = std::mem::replace(&mut work.b[l], residual);
         self.cycle(l, work);
         work.b[l] = saved_b;
-        for (x, &s) in work.x[l].iter_mut().zip(&saved_x) {
-            *x += s;
+        for (x, s) in work.x[l].iter_mut().zip(&saved_x) {
+            x.iter_mut().zip(s).for_each(|(x, &s)| *x += s);
         }
     }
 
     fn solve_coarsest(&self, work: &mut MultigridWork) {
         let l = self.levels.len() - 1;
+        let stencil = &self.levels[l].stencil;
         match &self.coarsest {
             CoarsestSolve::Lu(lu) => {
-                let mut v: Vec<f64> = work.b[l].iter().map(|&b| b as f64).collect();
+                let mut v: Vec<f64> = stencil.to_natural(&work.b[l]).iter().map(|&b| b as f64).collect();
                 lu.solve(&mut v);
-                for (x, v) in work.x[l].iter_mut().zip(v) {
-                    *x = v as f32;
-                }
+                let v: Vec<f32> = v.iter().map(|&v| v as f32).collect();
+                stencil.load_natural(&v, &mut work.x[l]);
             }
             CoarsestSolve::Smoothing => {
-                let stencil = &self.levels[l].stencil;
-                let (x, b) = (&mut work.x[l], &work.b[l]);
-                x.iter_mut().for_each(|v| *v = 0.0);
-                for _ in 0..COARSEST_SWEEPS {
-                    gauss_seidel_colour(stencil, x, b, RED);
-                    gauss_seidel_colour(stencil, x, b, BLACK);
-                }
+                pre_smooth(stencil, &mut work.x[l], &work.b[l], COARSEST_SWEEPS);
             }
         }
     }
@@ -278,6 +317,7 @@ fn dense_row_major(a: &sprs::CsMat<f64>) -> Vec<f64> {
 mod kernel_timing {
     use super::*;
     use crate::linalg::apply_operator::apply_face_coupled;
+    use crate::linalg::smooth::{BLACK, RED};
     use crate::linalg::test_problems::{box_with_holes, random_holes};
     use std::time::Instant;
 
@@ -286,42 +326,40 @@ mod kernel_timing {
     fn kernel_times_128() {
         let n = 128;
         let op = box_with_holes(n, &random_holes(200, 4.5 / n as f64, 11), 0.0);
+        let t = Instant::now();
         let mg = Multigrid::new(&op, AdvectionScheme::Central, MultigridParams::default());
+        println!("setup {:.2} ms", t.elapsed().as_secs_f64() * 1e3);
         let len = op.sink.len();
-        let l0 = &mg.levels[0];
-        let mut x = vec![0.0f32; len];
-        let b = vec![1.0f32; len];
+        let (l0, l1) = (&mg.levels[0], &mg.levels[1]);
+        let mut x = l0.stencil.zeros();
+        let mut b = l0.stencil.zeros();
+        b.iter_mut().for_each(|c| c.iter_mut().for_each(|v| *v = 1.0));
         let reps = 10;
-        let t = Instant::now();
-        for _ in 0..reps {
-            gauss_seidel_colour(&l0.stencil, &mut x, &b, RED);
-        }
-        println!("GS colour sweep {:.2} ms", t.elapsed().as_secs_f64() * 1e3 / reps as f64);
-        let mut cb = vec![0.0f32; mg.levels[1].stencil.len()];
-        let t = Instant::now();
-        for _ in 0..reps {
-            restrict_residual(&l0.stencil, &l0.active, &x, &b, &mut cb);
-        }
-        println!("restrict {:.2} ms", t.elapsed().as_secs_f64() * 1e3 / reps as f64);
+        // The fastest of `reps` (the machine may be shared).
+        let time = |label: &str, f: &mut dyn FnMut()| {
+            let best = (0..reps)
+                .map(|_| {
+                    let t = Instant::now();
+                    f();
+                    t.elapsed().as_secs_f64()
+                })
+                .fold(f64::INFINITY, f64::min);
+            println!("{label} {:.2} ms", best * 1e3);
+        };
+        time("GS colour sweep", &mut || l0.stencil.smooth(RED, &mut x, &b));
+        time("GS first sweep from zero", &mut || l0.stencil.smooth_from_zero(RED, &mut x, &b));
+        let mut cb = l1.stencil.zeros();
+        time("restrict red", &mut || restrict_residual(&l0.stencil, &x, &b, &[RED], &l1.stencil, &mut cb));
         for kind in [Prolongation::Constant, Prolongation::Trilinear] {
-            let t = Instant::now();
-            for _ in 0..reps {
-                prolongate_add(op.shape, op.periodic, &l0.active, &mg.levels[1].active, &cb, &mut x, kind);
-            }
-            println!("prolongate {kind:?} {:.2} ms", t.elapsed().as_secs_f64() * 1e3 / reps as f64);
+            time(&format!("prolongate {kind:?} (red)"), &mut || {
+                prolongate_add(&l0.stencil, &l1.stencil, &l1.active, &cb, &mut x, &[RED], kind)
+            });
         }
         let xd = vec![1.0f64; len];
         let mut yd = vec![0.0f64; len];
-        let t = Instant::now();
-        for _ in 0..reps {
-            apply_face_coupled(&op, AdvectionScheme::Central, &xd, &mut yd);
-        }
-        println!("apply f64 {:.2} ms", t.elapsed().as_secs_f64() * 1e3 / reps as f64);
+        time("apply f64", &mut || apply_face_coupled(&op, AdvectionScheme::Central, &xd, &mut yd));
         let mut work = mg.work();
-        let t = Instant::now();
-        for _ in 0..reps {
-            mg.precondition(&xd, &mut yd, &mut work);
-        }
-        println!("V-cycle {:.2} ms", t.elapsed().as_secs_f64() * 1e3 / reps as f64);
+        time("V-cycle", &mut || mg.precondition(&xd, &mut yd, &mut work));
+        let _ = BLACK;
     }
 }

@@ -268,20 +268,6 @@ impl<T: Real> Stencil7<T> {
         self.shape[1] * self.shape[2]
     }
 
-    /// `Σ_6 neighbours coef·x_N` of cell i of the line, reading x through `get` (plain slice or shared pointer).
-    #[inline(always)]
-    pub(crate) fn off_diagonal<G: Fn(usize) -> T>(&self, get: G, ln: &LineNeighbours, i: usize) -> T {
-        let p = ln.base + i;
-        let xm = if i > 0 { get(p - 1) } else { get(ln.base + ln.x_wrap[0]) };
-        let xp = if i + 1 < ln.nx { get(p + 1) } else { get(ln.base + ln.x_wrap[1]) };
-        self.lower[0][p] * xm
-            + self.upper[0][p] * xp
-            + self.lower[1][p] * get(ln.y[0] + i)
-            + self.upper[1][p] * get(ln.y[1] + i)
-            + self.lower[2][p] * get(ln.z[0] + i)
-            + self.upper[2][p] * get(ln.z[1] + i)
-    }
-
     /// `out = (A x)` on x-line `line` (out has the line's length), written over slices so that it vectorises.
     #[inline]
     pub(crate) fn line_product(&self, x: &[T], line: usize, out: &mut [T]) {

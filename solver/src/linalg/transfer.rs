@@ -7,8 +7,9 @@
 //! renormalised, constant across a non-periodic boundary.
 
 use super::coarsen::coarse_size;
+use super::coloured_stencil::{slots, ColouredStencil, Split};
 use super::real::Real;
-use super::stencil::{min_lines, Stencil7};
+use super::stencil::min_lines;
 use rayon::prelude::*;
 
 /// How a coarse correction is carried to the fine grid.
@@ -20,36 +21,50 @@ pub enum Prolongation {
     Trilinear,
 }
 
-/// `coarse_b[I] = Σ_{active children p of I} (b − A x)_p`.
+/// `coarse_b[I] = Σ_{children p of I} (b − A x)_p`, summing the residuals of the fine cells of `colours` only
+/// (after a sweep of one colour the residual of the other vanishes, up to rounding). Inactive cells carry a
+/// zero residual (zero right-hand side, identity row), so they need no mask.
 pub(crate) fn restrict_residual<T: Real>(
-    a: &Stencil7<T>,
-    active: &[bool],
-    x: &[T],
-    b: &[T],
-    coarse_b: &mut [T],
+    fine: &ColouredStencil<T>,
+    x: &Split<T>,
+    b: &Split<T>,
+    colours: &[usize],
+    coarse: &ColouredStencil<T>,
+    coarse_b: &mut Split<T>,
 ) {
-    let fs = a.shape();
-    let cs = fs.map(coarse_size);
-    assert_eq!(coarse_b.len(), cs[0] * cs[1] * cs[2]);
-    coarse_b.par_chunks_mut(cs[0]).with_min_len(min_lines(cs[0])).enumerate().for_each(|(cline, out)| {
-        out.iter_mut().for_each(|v| *v = T::ZERO);
-        let jc = cline % cs[1];
-        let kc = cline / cs[1];
-        let mut ax = vec![T::ZERO; fs[0]];
-        for k in 2 * kc..(2 * kc + 2).min(fs[2]) {
-            for j in 2 * jc..(2 * jc + 2).min(fs[1]) {
-                let line = j + fs[1] * k;
-                let base = line * fs[0];
-                a.line_product(x, line, &mut ax);
-                let (bl, al) = (&b[base..base + fs[0]], &active[base..base + fs[0]]);
-                for i in 0..fs[0] {
-                    if al[i] {
-                        out[i / 2] += bl[i] - ax[i];
+    let fs = fine.shape();
+    let cs = coarse.shape();
+    assert_eq!(cs, fs.map(coarse_size), "restriction: the coarse level does not match the fine one");
+    let (fh, ch) = (fine.half(), coarse.half());
+    let [cb0, cb1] = coarse_b;
+    cb0.par_chunks_mut(ch)
+        .zip(cb1.par_chunks_mut(ch))
+        .enumerate()
+        .with_min_len(min_lines(cs[0]))
+        .for_each_init(
+            || (vec![T::ZERO; fh], vec![T::ZERO; cs[0]], <[Vec<T>; 4]>::default()),
+            |(r, sum, scratch), (cline, (out0, out1))| {
+                sum.iter_mut().for_each(|v| *v = T::ZERO);
+                let (jc, kc) = (cline % cs[1], cline / cs[1]);
+                for k in 2 * kc..(2 * kc + 2).min(fs[2]) {
+                    for j in 2 * jc..(2 * jc + 2).min(fs[1]) {
+                        let line = j + fs[1] * k;
+                        for &colour in colours {
+                            // Slot m holds fine x index first + 2m, whose coarse x index is m.
+                            let count = fine.line_residual(colour, line, x, b, scratch, r);
+                            for m in 0..count {
+                                sum[m] += r[m];
+                            }
+                        }
                     }
                 }
-            }
-        }
-    });
+                out0.iter_mut().chain(out1.iter_mut()).for_each(|v| *v = T::ZERO);
+                let outs = [out0, out1];
+                for (ic, &v) in sum.iter().enumerate() {
+                    outs[(ic + jc + kc) % 2][ic / 2] = v;
+                }
+            },
+        );
 }
 
 /// Interpolation along one axis for a fine coordinate: parent, optional neighbour, and the parent's weight.
@@ -85,77 +100,88 @@ fn axis_weights(fine: usize, n_fine: usize, n_coarse: usize, periodic: bool) -> 
     AxisWeights { parent, neighbour, parent_weight: 0.75 }
 }
 
-/// `x_fine += P x_coarse` on active fine cells.
-#[allow(clippy::too_many_arguments)]
+/// `x_fine += P x_coarse` on the fine cells of `colours` (a Gauss–Seidel sweep of the other colour would
+/// overwrite them anyway). Trilinear weights use active coarse cells only, renormalised.
 pub(crate) fn prolongate_add<T: Real>(
-    fine_shape: [usize; 3],
-    periodic: [bool; 3],
-    fine_active: &[bool],
+    fine: &ColouredStencil<T>,
+    coarse: &ColouredStencil<T>,
     coarse_active: &[bool],
-    coarse_x: &[T],
-    fine_x: &mut [T],
+    coarse_x: &Split<T>,
+    fine_x: &mut Split<T>,
+    colours: &[usize],
     kind: Prolongation,
 ) {
-    let fs = fine_shape;
-    let cs = fs.map(coarse_size);
-    let cidx = |i: usize, j: usize, k: usize| i + cs[0] * (j + cs[1] * k);
-    fine_x.par_chunks_mut(fs[0]).with_min_len(min_lines(fs[0])).enumerate().for_each(|(line, out)| {
-        let j = line % fs[1];
-        let k = line / fs[1];
-        let base = line * fs[0];
-        match kind {
-            Prolongation::Constant => {
-                for (i, v) in out.iter_mut().enumerate() {
-                    if fine_active[base + i] {
-                        *v += coarse_x[cidx(i / 2, j / 2, k / 2)];
-                    }
-                }
-            }
-            Prolongation::Trilinear => {
-                let wy = axis_weights(j, fs[1], cs[1], periodic[1]);
-                let wz = axis_weights(k, fs[2], cs[2], periodic[2]);
-                for (i, v) in out.iter_mut().enumerate() {
-                    if !fine_active[base + i] {
-                        continue;
-                    }
-                    let wx = axis_weights(i, fs[0], cs[0], periodic[0]);
-                    let mut sum = 0.0;
-                    let mut weight = 0.0;
-                    for (cz, fz) in [(wz.parent, wz.parent_weight), (wz.neighbour, 1.0 - wz.parent_weight)] {
-                        if fz == 0.0 {
-                            continue;
+    let fs = fine.shape();
+    let cs = coarse.shape();
+    let periodic = fine.periodic();
+    let (fh, ch) = (fine.half(), coarse.half());
+    let coarse_value =
+        |ic: usize, jc: usize, kc: usize| coarse_x[(ic + jc + kc) % 2][(jc + cs[1] * kc) * ch + ic / 2];
+    for &colour in colours {
+        fine_x[colour].par_chunks_mut(fh).enumerate().with_min_len(min_lines(fs[0])).for_each_init(
+            || vec![T::ZERO; cs[0]],
+            |parent_line, (line, out)| {
+                let (j, k) = (line % fs[1], line / fs[1]);
+                let first = fine.first(colour, line);
+                let count = slots(fs[0], first);
+                match kind {
+                    Prolongation::Constant => {
+                        let (jc, kc) = (j / 2, k / 2);
+                        for (ic, v) in parent_line.iter_mut().enumerate() {
+                            *v = coarse_value(ic, jc, kc);
                         }
-                        for (cy, fy) in
-                            [(wy.parent, wy.parent_weight), (wy.neighbour, 1.0 - wy.parent_weight)]
-                        {
-                            if fy == 0.0 {
-                                continue;
-                            }
-                            for (cx, fx) in
-                                [(wx.parent, wx.parent_weight), (wx.neighbour, 1.0 - wx.parent_weight)]
+                        for m in 0..count {
+                            out[m] += parent_line[m];
+                        }
+                    }
+                    Prolongation::Trilinear => {
+                        let wy = axis_weights(j, fs[1], cs[1], periodic[1]);
+                        let wz = axis_weights(k, fs[2], cs[2], periodic[2]);
+                        for (m, out) in out.iter_mut().enumerate().take(count) {
+                            let i = first + 2 * m;
+                            let wx = axis_weights(i, fs[0], cs[0], periodic[0]);
+                            let mut sum = 0.0;
+                            let mut weight = 0.0;
+                            for (cz, fz) in
+                                [(wz.parent, wz.parent_weight), (wz.neighbour, 1.0 - wz.parent_weight)]
                             {
-                                let c = cidx(cx, cy, cz);
-                                if fx == 0.0 || !coarse_active[c] {
-                                    continue;
+                                for (cy, fy) in
+                                    [(wy.parent, wy.parent_weight), (wy.neighbour, 1.0 - wy.parent_weight)]
+                                {
+                                    for (cx, fx) in [
+                                        (wx.parent, wx.parent_weight),
+                                        (wx.neighbour, 1.0 - wx.parent_weight),
+                                    ] {
+                                        let w = fx * fy * fz;
+                                        if w == 0.0 || !coarse_active[cx + cs[0] * (cy + cs[1] * cz)] {
+                                            continue;
+                                        }
+                                        sum += w * coarse_value(cx, cy, cz).to_f64();
+                                        weight += w;
+                                    }
                                 }
-                                let w = fx * fy * fz;
-                                sum += w * coarse_x[c].to_f64();
-                                weight += w;
+                            }
+                            if weight > 0.0 {
+                                *out += T::from_f64(sum / weight);
                             }
                         }
                     }
-                    if weight > 0.0 {
-                        *v += T::from_f64(sum / weight);
-                    }
                 }
-            }
-        }
-    });
+            },
+        );
+    }
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::linalg::operator::AdvectionScheme;
+    use crate::linalg::smooth::{BLACK, RED};
+    use crate::linalg::test_problems::random_operator;
+
+    fn level(shape: [usize; 3]) -> ColouredStencil<f64> {
+        ColouredStencil::assemble(&random_operator(shape, [false; 3], 1), AdvectionScheme::Central, 1.0)
+    }
 
     /// Trilinear prolongation reproduces a coarse field that is linear in the cell centres, away from the
     /// boundary cells (where it extrapolates constantly).
@@ -163,6 +189,7 @@ mod tests {
     fn trilinear_is_exact_for_linear_fields_in_the_interior() {
         let fs = [12, 10, 8];
         let cs = fs.map(coarse_size);
+        let (fine, coarse) = (level(fs), level(cs));
         let nc = cs[0] * cs[1] * cs[2];
         let coarse_centre = |i: usize| 2.0 * i as f64 + 1.0; // in fine cell units
         let fine_centre = |i: usize| i as f64 + 0.5;
@@ -176,17 +203,19 @@ mod tests {
                 }
             }
         }
-        let n = fs[0] * fs[1] * fs[2];
-        let mut xf = vec![0.0f64; n];
+        let mut xcs = coarse.zeros();
+        coarse.load_natural(&xc, &mut xcs);
+        let mut xf = fine.zeros();
         prolongate_add(
-            fs,
-            [false; 3],
-            &vec![true; n],
+            &fine,
+            &coarse,
             &vec![true; nc],
-            &xc,
+            &xcs,
             &mut xf,
+            &[RED, BLACK],
             Prolongation::Trilinear,
         );
+        let xf = fine.to_natural(&xf);
         for k in 1..fs[2] - 1 {
             for j in 1..fs[1] - 1 {
                 for i in 1..fs[0] - 1 {
@@ -198,10 +227,39 @@ mod tests {
         }
     }
 
-    /// Restriction of a zero-stencil residual is the sum of the children of every coarse cell (ragged sizes).
+    /// Constant prolongation to one colour gives each of its cells the parent's value and leaves the other
+    /// colour alone (odd sizes included).
     #[test]
-    fn restriction_sums_active_children() {
-        use crate::linalg::operator::{AdvectionScheme, FaceCoupledOperator};
+    fn constant_prolongation_copies_the_parent_into_one_colour() {
+        let fs = [7, 5, 3];
+        let cs = fs.map(coarse_size);
+        let (fine, coarse) = (level(fs), level(cs));
+        let nc = cs[0] * cs[1] * cs[2];
+        let xc: Vec<f64> = (0..nc).map(|p| p as f64 + 1.0).collect();
+        let mut xcs = coarse.zeros();
+        coarse.load_natural(&xc, &mut xcs);
+        let mut xf = fine.zeros();
+        prolongate_add(&fine, &coarse, &vec![true; nc], &xcs, &mut xf, &[RED], Prolongation::Constant);
+        let xf = fine.to_natural(&xf);
+        for k in 0..fs[2] {
+            for j in 0..fs[1] {
+                for i in 0..fs[0] {
+                    let expected = if (i + j + k) % 2 == 0 {
+                        xc[i / 2 + cs[0] * (j / 2 + cs[1] * (k / 2))]
+                    } else {
+                        0.0
+                    };
+                    assert_eq!(xf[i + fs[0] * (j + fs[1] * k)], expected, "({i},{j},{k})");
+                }
+            }
+        }
+    }
+
+    /// Restriction of a zero-stencil residual is the sum of the children of every coarse cell (ragged sizes),
+    /// over both colours or over red cells only.
+    #[test]
+    fn restriction_sums_children() {
+        use crate::linalg::operator::FaceCoupledOperator;
         let shape = [5, 3, 1];
         let n = 15;
         let mut active = vec![true; n];
@@ -212,17 +270,28 @@ mod tests {
             conductance: [vec![0.0; 18], vec![0.0; 20], vec![0.0; 30]],
             flux: [vec![0.0; 18], vec![0.0; 20], vec![0.0; 30]],
             sink: vec![0.0; n],
-            active: active.clone(),
+            active,
         };
-        let a = Stencil7::<f64>::assemble(&op, AdvectionScheme::Central);
-        let b: Vec<f64> = (0..n).map(|p| p as f64 + 1.0).collect();
-        let x = vec![0.0; n];
-        let mut cb = vec![0.0; 3 * 2];
-        restrict_residual(&a, &active, &x, &b, &mut cb);
+        let fine = ColouredStencil::<f64>::assemble(&op, AdvectionScheme::Central, 1.0);
+        let coarse = level([3, 2, 1]);
+        // The multigrid keeps a zero right-hand side on inactive cells.
+        let bn: Vec<f64> = (0..n).map(|p| if p == 0 { 0.0 } else { p as f64 + 1.0 }).collect();
+        let mut b = fine.zeros();
+        fine.load_natural(&bn, &mut b);
+        let x = fine.zeros();
+        let mut cb = coarse.zeros();
+        restrict_residual(&fine, &x, &b, &[RED, BLACK], &coarse, &mut cb);
+        let cb = coarse.to_natural(&cb);
         // coarse (0,0): fine (0,0) inactive, (1,0), (0,1), (1,1) → b = 2 + 6 + 7.
         assert_eq!(cb[0], 15.0);
         // coarse (2,0): fine (4,0), (4,1) → 5 + 10; coarse (2,1): fine (4,2) → 15.
         assert_eq!(cb[2], 15.0);
+        assert_eq!(cb[5], 15.0);
+        let mut cb = coarse.zeros();
+        restrict_residual(&fine, &x, &b, &[RED], &coarse, &mut cb);
+        let cb = coarse.to_natural(&cb);
+        // red children of coarse (0,0): (0,0) (inactive, 0) and (1,1) → 7; of coarse (2,1): (4,2) → 15.
+        assert_eq!(cb[0], 7.0);
         assert_eq!(cb[5], 15.0);
     }
 }

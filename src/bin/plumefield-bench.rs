@@ -1,0 +1,502 @@
+//! Performance figures of the steady transport solve (the `scripts/bench` driver).
+//!
+//! `plumefield-bench solve [CASE] [--threads 1,2] [--reps 3] [--export DIR] [--json FILE]` builds the geometry
+//! and Darcy flow of CASE (default `cases/bench128.toml`), assembles the transport system once, then times
+//! `SteadySolver::new` + `solve` in rayon pools of each thread count (best of `--reps`), one operator
+//! application, and the peak memory of the transport stage. `--export DIR` writes the system as Matrix Market
+//! (`matrix.mtx`, `rhs.mtx`) for the peer solvers; `--json` writes the figures for `compare`.
+//!
+//! `plumefield-bench compare OURS.json PEERS.jsonl` prints our figures beside the peer solvers' (one JSON object
+//! per line, as `peer_solve.py` prints them) with the time ratios.
+
+use anyhow::{bail, Context, Result};
+use clap::{Parser, Subcommand};
+use mesh::EmbeddedGeometry;
+use plumefield::case::Case;
+use serde::{Deserialize, Serialize};
+use solver::embedded::FacetStencils;
+use solver::flow::solve_darcy;
+use solver::linalg::{system_memory_bytes, KrylovParams, LinearSystem, MultigridParams, SteadySolver};
+use solver::problem::MediumModel;
+use solver::transport::{assemble_transport, TransportAssembly, TransportProblem};
+use std::io::{BufWriter, Write};
+use std::path::{Path, PathBuf};
+use std::time::Instant;
+
+#[derive(Parser)]
+#[command(name = "plumefield-bench", about = "Timing and memory of the steady transport solve")]
+struct Cli {
+    #[command(subcommand)]
+    command: Command,
+}
+
+#[derive(Subcommand)]
+enum Command {
+    /// Time our solve of CASE's transport system and optionally export it.
+    Solve {
+        #[arg(default_value = "cases/bench128.toml")]
+        case: PathBuf,
+        /// Rayon pool sizes to time, comma separated.
+        #[arg(long, value_delimiter = ',', default_value = "1,2")]
+        threads: Vec<usize>,
+        /// Timed repetitions per pool size (the best is reported).
+        #[arg(long, default_value_t = 3)]
+        reps: usize,
+        /// Folder to write matrix.mtx and rhs.mtx into (Matrix Market).
+        #[arg(long)]
+        export: Option<PathBuf>,
+        /// File to write the figures into (JSON), for `compare`.
+        #[arg(long)]
+        json: Option<PathBuf>,
+    },
+    /// Print our figures beside the peer solvers' with time ratios.
+    Compare { ours: PathBuf, peers: PathBuf },
+}
+
+/// One pool size: best of the repetitions.
+#[derive(Serialize, Deserialize, Clone, Debug)]
+struct Run {
+    threads: usize,
+    setup_s: f64,
+    solve_s: f64,
+    total_s: f64,
+    iters: usize,
+    relres: f64,
+    /// One application of the full operator (f64, with the sparse correction).
+    apply_s: f64,
+    /// solve_s / apply_s.
+    work_units: f64,
+    /// User + system CPU seconds of the best repetition's solve.
+    solve_cpu_s: f64,
+}
+
+#[derive(Serialize, Deserialize, Debug)]
+struct Figures {
+    case: String,
+    shape: [usize; 3],
+    cells: usize,
+    active_cells: usize,
+    nnz: Option<usize>,
+    levels: usize,
+    runs: Vec<Run>,
+    /// Peak resident memory of the transport stage (assembly, setup, solve) above the resident memory before it.
+    peak_transport_bytes: Option<u64>,
+    bytes_per_cell: Option<f64>,
+    system_bytes: usize,
+    solver_bytes: usize,
+    load_average: String,
+}
+
+fn main() {
+    let cli = Cli::parse();
+    let result = match cli.command {
+        Command::Solve { case, threads, reps, export, json } => {
+            solve(&case, &threads, reps.max(1), export.as_deref(), json.as_deref())
+        }
+        Command::Compare { ours, peers } => compare(&ours, &peers),
+    };
+    if let Err(e) = result {
+        eprintln!("error: {e:#}");
+        std::process::exit(1);
+    }
+}
+
+/// A field of /proc/self/status in bytes (the kernel reports kB), if readable.
+fn status_bytes(key: &str) -> Option<u64> {
+    let status = std::fs::read_to_string("/proc/self/status").ok()?;
+    let line = status.lines().find(|l| l.starts_with(key))?;
+    let kb: u64 = line.split_whitespace().nth(1)?.parse().ok()?;
+    Some(kb * 1024)
+}
+
+/// Resets the peak resident set (VmHWM) to the current one; false where the kernel does not allow it.
+fn reset_peak_memory() -> bool {
+    std::fs::write("/proc/self/clear_refs", "5").is_ok()
+}
+
+/// User + system CPU seconds of this process (0 where /proc is unavailable).
+fn cpu_seconds() -> f64 {
+    let stat = std::fs::read_to_string("/proc/self/stat").unwrap_or_default();
+    let fields: Vec<&str> = stat.rsplit(')').next().unwrap_or("").split_whitespace().collect();
+    let ticks = |i: usize| fields.get(i).and_then(|f| f.parse::<f64>().ok()).unwrap_or(0.0);
+    (ticks(11) + ticks(12)) / 100.0
+}
+
+fn load_average() -> String {
+    std::fs::read_to_string("/proc/loadavg")
+        .map(|s| s.split_whitespace().take(3).collect::<Vec<_>>().join(" "))
+        .unwrap_or_else(|_| "unknown".to_string())
+}
+
+fn pool(threads: usize) -> Result<rayon::ThreadPool> {
+    rayon::ThreadPoolBuilder::new()
+        .num_threads(threads)
+        .build()
+        .with_context(|| format!("cannot build a pool of {threads} threads"))
+}
+
+/// Seconds of one `solver.apply`, the fastest of a few.
+fn time_apply(solver: &SteadySolver, x: &[f64]) -> f64 {
+    let mut y = vec![0.0; x.len()];
+    (0..8)
+        .map(|_| {
+            let t = Instant::now();
+            solver.apply(x, &mut y);
+            t.elapsed().as_secs_f64()
+        })
+        .fold(f64::INFINITY, f64::min)
+}
+
+fn solve(
+    case_path: &Path,
+    threads: &[usize],
+    reps: usize,
+    export: Option<&Path>,
+    json: Option<&Path>,
+) -> Result<()> {
+    if threads.is_empty() || threads.contains(&0) {
+        bail!("--threads needs positive pool sizes");
+    }
+    let case = Case::load(case_path)?;
+    let grid = &case.grid;
+    let n = grid.len();
+    println!(
+        "case {} ({}): grid {:?} = {n} grid cells, {} cells",
+        case_path.display(),
+        case.title,
+        grid.shape,
+        case.layout.cells.len()
+    );
+    println!("load average {}", load_average());
+
+    let t = Instant::now();
+    let geometry = EmbeddedGeometry::build(grid, &case.layout, case.boundaries.periodic_axes());
+    let stencils = FacetStencils::build(&geometry);
+    let krylov =
+        KrylovParams { relative_tolerance: case.solve.tolerance, max_iterations: case.solve.max_iterations };
+    let MediumModel::Darcy { viscosity, permeability } = case.flow.medium else {
+        bail!("the benchmark needs a Darcy medium");
+    };
+    let flow = solve_darcy(
+        &geometry,
+        &stencils,
+        case.layout.cells.len(),
+        &case.boundaries,
+        viscosity,
+        permeability,
+        case.flow.mean_velocity,
+        &krylov,
+    )?;
+    println!("geometry and flow built in {:.2} s", t.elapsed().as_secs_f64());
+
+    // The transport stage, measured for memory: assembly, multigrid setup and one solve.
+    let baseline = status_bytes("VmRSS:");
+    let peak_reset = reset_peak_memory();
+    let problem = TransportProblem {
+        geometry: &geometry,
+        stencils: &stencils,
+        layout: &case.layout,
+        boundaries: case.boundaries,
+        ligand: case.ligand,
+        face_flux: &flow.face_flux,
+        far_field_speed: case.flow.mean_velocity,
+    };
+    let TransportAssembly { system, rhs, peclet, .. } = assemble_transport(&problem);
+    if peclet.upwinded_faces > 0 {
+        println!(
+            "note: {} faces above cell Péclet 2 (the run command would add deferred-correction solves)",
+            peclet.upwinded_faces
+        );
+    }
+    let params = MultigridParams::default();
+    let system_bytes = system_memory_bytes(&system);
+    let active_cells = system.operator.active.iter().filter(|&&a| a).count();
+    let first_pool = pool(threads[0])?;
+    let (solver, first_info) = first_pool.install(|| {
+        let solver = SteadySolver::new(system, params.clone());
+        let mut x = vec![0.0; n];
+        let info = solver.solve(&rhs, &mut x, &krylov);
+        (solver, info)
+    });
+    let first_info = first_info.context("the benchmark solve failed")?;
+    let peak = match (baseline, status_bytes("VmHWM:"), peak_reset) {
+        (Some(base), Some(hwm), true) => Some(hwm.saturating_sub(base)),
+        _ => None,
+    };
+    let solver_bytes = solver.memory_bytes();
+    let levels = solver.levels();
+    println!(
+        "system assembled; {levels} multigrid levels; first solve {} iterations, relative residual {:.2e}",
+        first_info.iterations, first_info.relative_residual
+    );
+
+    let mut nnz = None;
+    if let Some(dir) = export {
+        let t = Instant::now();
+        std::fs::create_dir_all(dir).with_context(|| format!("cannot create {}", dir.display()))?;
+        let matrix = solver.assembled_matrix();
+        nnz = Some(matrix.nnz());
+        // A and b in SI units hold entries near 1e-16 m^3/s, below the absolute zero-pivot threshold of some
+        // factorisations (PETSc's is 2.2e-14): export s·A and s·b with s = 1/max|a_PP|, the same solution and
+        // the same relative residuals.
+        let max_diag = matrix.diag().iter().fold(0.0f64, |m, (_, &v)| m.max(v.abs()));
+        let scale = if max_diag > 0.0 && max_diag.is_finite() { 1.0 / max_diag } else { 1.0 };
+        write_matrix_market(&matrix, scale, &dir.join("matrix.mtx"))?;
+        let scaled_rhs: Vec<f64> = rhs.iter().map(|b| scale * b).collect();
+        write_vector_market(&scaled_rhs, &dir.join("rhs.mtx"))?;
+        println!(
+            "exported matrix.mtx ({} nonzeros) and rhs.mtx to {} in {:.1} s",
+            matrix.nnz(),
+            dir.display(),
+            t.elapsed().as_secs_f64()
+        );
+    }
+    let system: LinearSystem = solver.system().clone();
+    drop(solver);
+
+    let mut runs = Vec::new();
+    for &threads in threads {
+        let pool = pool(threads)?;
+        let mut best: Option<Run> = None;
+        for _ in 0..reps {
+            let run = pool.install(|| -> Result<Run> {
+                let copy = system.clone();
+                let t = Instant::now();
+                let solver = SteadySolver::new(copy, params.clone());
+                let setup = t.elapsed().as_secs_f64();
+                let mut x = vec![0.0; n];
+                let cpu = cpu_seconds();
+                let t = Instant::now();
+                let info = solver.solve(&rhs, &mut x, &krylov)?;
+                let solve = t.elapsed().as_secs_f64();
+                let solve_cpu = cpu_seconds() - cpu;
+                let apply = time_apply(&solver, &x);
+                Ok(Run {
+                    threads,
+                    setup_s: setup,
+                    solve_s: solve,
+                    total_s: setup + solve,
+                    iters: info.iterations,
+                    relres: info.relative_residual,
+                    apply_s: apply,
+                    work_units: solve / apply,
+                    solve_cpu_s: solve_cpu,
+                })
+            })?;
+            if best.as_ref().map_or(true, |b| run.total_s < b.total_s) {
+                best = Some(run);
+            }
+        }
+        if let Some(run) = best {
+            runs.push(run);
+        }
+    }
+
+    let figures = Figures {
+        case: case_path.display().to_string(),
+        shape: grid.shape,
+        cells: n,
+        active_cells,
+        nnz,
+        levels,
+        runs,
+        peak_transport_bytes: peak,
+        bytes_per_cell: peak.map(|p| p as f64 / n as f64),
+        system_bytes,
+        solver_bytes,
+        load_average: load_average(),
+    };
+    print_ours(&figures);
+    if let Some(path) = json {
+        let text = serde_json::to_string_pretty(&figures)?;
+        std::fs::write(path, text).with_context(|| format!("cannot write {}", path.display()))?;
+    }
+    Ok(())
+}
+
+fn print_ours(f: &Figures) {
+    println!();
+    println!(
+        "{:>8} {:>9} {:>9} {:>9} {:>6} {:>9} {:>9} {:>8} {:>9}",
+        "threads", "setup s", "solve s", "total s", "iters", "relres", "apply ms", "work u.", "solve cpu"
+    );
+    for r in &f.runs {
+        println!(
+            "{:>8} {:>9.3} {:>9.3} {:>9.3} {:>6} {:>9.2e} {:>9.2} {:>8.0} {:>9.2}",
+            r.threads,
+            r.setup_s,
+            r.solve_s,
+            r.total_s,
+            r.iters,
+            r.relres,
+            1e3 * r.apply_s,
+            r.work_units,
+            r.solve_cpu_s
+        );
+    }
+    let per_cell = |b: usize| b as f64 / f.cells as f64;
+    match f.bytes_per_cell {
+        Some(b) => println!(
+            "memory: peak of the transport stage {b:.1} bytes per grid cell ({:.0} MB); system {:.1} B/cell, solver (SteadySolver::memory_bytes) {:.1} B/cell",
+            f.peak_transport_bytes.unwrap_or(0) as f64 / 1e6,
+            per_cell(f.system_bytes),
+            per_cell(f.solver_bytes)
+        ),
+        None => println!(
+            "memory: peak not measurable here (/proc/self/clear_refs or VmHWM unavailable); system {:.1} B/cell, solver {:.1} B/cell",
+            per_cell(f.system_bytes),
+            per_cell(f.solver_bytes)
+        ),
+    }
+    println!("load average after: {}", f.load_average);
+}
+
+/// `matrix coordinate real general`, 1-based, shortest round-trip decimals.
+fn write_matrix_market(a: &sprs::CsMat<f64>, scale: f64, path: &Path) -> Result<()> {
+    let file = std::fs::File::create(path).with_context(|| format!("cannot create {}", path.display()))?;
+    let mut w = BufWriter::with_capacity(1 << 20, file);
+    writeln!(w, "%%MatrixMarket matrix coordinate real general")?;
+    writeln!(w, "% plumefield transport system, scaled by {scale:e} (1 / largest diagonal entry)")?;
+    writeln!(w, "{} {} {}", a.rows(), a.cols(), a.nnz())?;
+    let csr = if a.is_csr() { a.view() } else { bail!("expected a CSR matrix") };
+    for (row, values) in csr.outer_iterator().enumerate() {
+        for (col, v) in values.iter() {
+            writeln!(w, "{} {} {:e}", row + 1, col + 1, scale * v)?;
+        }
+    }
+    w.flush()?;
+    Ok(())
+}
+
+/// `matrix array real general`, one column.
+fn write_vector_market(v: &[f64], path: &Path) -> Result<()> {
+    let file = std::fs::File::create(path).with_context(|| format!("cannot create {}", path.display()))?;
+    let mut w = BufWriter::with_capacity(1 << 20, file);
+    writeln!(w, "%%MatrixMarket matrix array real general")?;
+    writeln!(w, "{} 1", v.len())?;
+    for x in v {
+        writeln!(w, "{x:e}")?;
+    }
+    w.flush()?;
+    Ok(())
+}
+
+/// One line of `peer_solve.py` output.
+#[derive(Deserialize, Debug)]
+struct Peer {
+    method: String,
+    #[serde(default)]
+    lib: Option<String>,
+    #[serde(default)]
+    setup_s: Option<f64>,
+    #[serde(default)]
+    solve_s: Option<f64>,
+    #[serde(default)]
+    total_s: Option<f64>,
+    #[serde(default)]
+    iters: Option<usize>,
+    #[serde(default)]
+    relres: Option<f64>,
+    #[serde(default)]
+    peak_rss_mb: Option<f64>,
+    #[serde(default)]
+    skipped: Option<String>,
+}
+
+fn compare(ours_path: &Path, peers_path: &Path) -> Result<()> {
+    let ours: Figures = serde_json::from_str(
+        &std::fs::read_to_string(ours_path)
+            .with_context(|| format!("cannot read {}", ours_path.display()))?,
+    )
+    .with_context(|| format!("{} is not a plumefield-bench JSON file", ours_path.display()))?;
+    let text = std::fs::read_to_string(peers_path)
+        .with_context(|| format!("cannot read {}", peers_path.display()))?;
+    let mut peers = Vec::new();
+    for line in text.lines().filter(|l| l.trim_start().starts_with('{')) {
+        match serde_json::from_str::<Peer>(line) {
+            Ok(p) => peers.push(p),
+            Err(e) => eprintln!("ignoring a peer line that is not a result ({e}): {line}"),
+        }
+    }
+    let cells = ours.cells as f64;
+    println!(
+        "{:<16} {:<22} {:>8} {:>8} {:>8} {:>6} {:>9} {:>9}",
+        "solver", "library", "setup s", "solve s", "total s", "iters", "relres", "B/cell"
+    );
+    let bpc = ours.bytes_per_cell.map_or("n/a".to_string(), |b| format!("{b:.0}"));
+    for r in &ours.runs {
+        println!(
+            "{:<16} {:<22} {:>8.3} {:>8.3} {:>8.3} {:>6} {:>9.1e} {:>9}",
+            format!("ours {}t", r.threads),
+            "plumefield",
+            r.setup_s,
+            r.solve_s,
+            r.total_s,
+            r.iters,
+            r.relres,
+            bpc
+        );
+    }
+    let mut best_peer: Option<(&str, f64)> = None;
+    for p in &peers {
+        if let Some(reason) = &p.skipped {
+            println!("{:<16} skipped: {reason}", p.method);
+            continue;
+        }
+        let (Some(setup), Some(solve), Some(total)) = (p.setup_s, p.solve_s, p.total_s) else {
+            println!("{:<16} no timing in its output", p.method);
+            continue;
+        };
+        let converged = p.relres.is_some_and(|r| r <= 1e-8 * 1.0001);
+        println!(
+            "{:<16} {:<22} {:>8.3} {:>8.3} {:>8.3} {:>6} {:>9.1e} {:>9}{}",
+            p.method,
+            p.lib.as_deref().unwrap_or("?"),
+            setup,
+            solve,
+            total,
+            p.iters.map_or("?".to_string(), |i| i.to_string()),
+            p.relres.unwrap_or(f64::NAN),
+            p.peak_rss_mb.map_or("?".to_string(), |m| format!("{:.0}*", m * 1048576.0 / cells)),
+            if converged { "" } else { "  (did not reach the tolerance)" }
+        );
+        if converged && best_peer.map_or(true, |(_, t)| total < t) {
+            best_peer = Some((p.method.as_str(), total));
+        }
+    }
+    println!("* peer B/cell: whole-process peak RSS (matrix load included) per grid cell, as the script reports it");
+    println!();
+    println!(
+        "ratios (peer time / our time; > 1: ours is faster), same system, same tolerance 1e-8 relative:"
+    );
+    for p in peers.iter().filter(|p| p.skipped.is_none()) {
+        let (Some(solve), Some(total)) = (p.solve_s, p.total_s) else { continue };
+        let ratios: Vec<String> = ours
+            .runs
+            .iter()
+            .map(|r| {
+                format!("{}t: total {:.2}×, solve {:.2}×", r.threads, total / r.total_s, solve / r.solve_s)
+            })
+            .collect();
+        println!("  {:<16} {}", p.method, ratios.join("   "));
+    }
+    match best_peer {
+        Some((method, total)) => {
+            let best_ours = ours.runs.iter().map(|r| r.total_s).fold(f64::INFINITY, f64::min);
+            let ratio = total / best_ours;
+            println!(
+                "target ≥ 3× faster than the best peer ({method}, {total:.2} s): ours {best_ours:.2} s → {ratio:.2}× — {}",
+                if ratio >= 3.0 { "met" } else { "NOT met" }
+            );
+        }
+        None => println!("target: no converged peer result to compare with"),
+    }
+    match ours.bytes_per_cell {
+        Some(b) => println!(
+            "target ≤ 200 bytes per grid cell: {b:.0} — {}",
+            if b <= 200.0 { "met" } else { "NOT met" }
+        ),
+        None => println!("target ≤ 200 bytes per grid cell: not measurable on this system"),
+    }
+    Ok(())
+}
