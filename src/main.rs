@@ -33,8 +33,14 @@ enum Command {
         #[arg(long)]
         threads: Option<usize>,
     },
-    /// Cheap estimates without a solve (not implemented yet).
-    Estimate { case: PathBuf },
+    /// Cheap estimates without a solve: Péclet numbers, isolated-cell anisotropy, mean-field background,
+    /// direction error along the chamber, memory and time forecast.
+    Estimate {
+        case: PathBuf,
+        /// Print JSON instead of the table.
+        #[arg(long)]
+        json: bool,
+    },
     /// Generate the layout alone; print volume fraction and nearest-neighbour statistics.
     Layout {
         case: PathBuf,
@@ -88,7 +94,7 @@ fn run_command(command: Command) -> anyhow::Result<()> {
         }
         Command::Layout { case, output } => commands::layout::execute(&case, &output),
         Command::Verify { quick } => commands::verify::execute(quick),
-        Command::Estimate { .. } => commands::not_yet::execute("estimate"),
+        Command::Estimate { case, json } => commands::estimate::execute(&case, json),
         Command::Sweep { .. } => commands::not_yet::execute("sweep"),
         Command::Collect { .. } => commands::not_yet::execute("collect"),
     }

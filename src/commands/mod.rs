@@ -1,5 +1,6 @@
 //! One file (or folder) per command: the command-line shell in `main.rs` parses flags and calls these.
 
+pub mod estimate;
 pub mod layout;
 pub mod not_yet;
 pub mod run;

@@ -1,6 +1,7 @@
 //! Post-processing of a solved case: what each cell senses, the mass balance, counting noise.
 
 pub mod counting_noise;
+pub mod decompose;
 pub mod estimates;
 pub mod integrate_surface;
 pub mod local_flow;

@@ -1,0 +1,406 @@
+//! Self versus neighbours: because the steady transport is linear in its sources, the field a cell senses is
+//! its own cloud plus everyone else's (plus what the inlet carries in),
+//!
+//! ```text
+//! A c = b = Σ_i b_i + b_inlet   ⇒   c = Σ_i c_i + c_inlet,   A c_i = b_i,
+//! ```
+//!
+//! with `b_i` the rows that cell i's secretion writes (`secretion − uptake constant` of its facets, see
+//! `transport::surface_exchange`) and `b_inlet` the inflow constants of the chamber faces. For each chosen cell
+//! the field of its secretion alone is solved in the full crowded geometry and flow, reusing one operator and one
+//! multigrid hierarchy for every right-hand side; the solves run in parallel batches of the thread count.
+//!
+//! Upwinded faces carry a limited deferred correction that is not linear in c. The split then freezes the
+//! limiter ψ at the solved total field: `A c_i = b_i + K_ψ c_i` with `K_ψ` the correction with fixed ψ, solved
+//! by the same outer iterations. The total satisfies `A c = b + K_ψ c` with its own ψ, so the parts still add
+//! up to the total (to solver tolerance) — the split is the linearisation of the scheme about the solution.
+//!
+//! Cost: one steady solve per chosen cell (about the cost of the total solve each, less the hierarchy set-up);
+//! memory grows with the batch size, not with the number of chosen cells.
+
+use super::integrate_surface::{CellSensing, SensingModel};
+use crate::linalg::{KrylovParams, MultigridParams, SolveError, SteadySolver};
+use crate::problem::SurfaceUptake;
+use crate::transport::surface_exchange::FacetExchange;
+use crate::transport::TransportAssembly;
+use mesh::{Axis, EmbeddedGeometry, Layout};
+use rayon::prelude::*;
+use std::time::Instant;
+
+/// Everything the split needs from a solved case.
+pub struct DecomposeInputs<'a> {
+    pub geometry: &'a EmbeddedGeometry,
+    pub layout: &'a Layout,
+    pub assembly: &'a TransportAssembly,
+    /// Face fluxes of the flow (m^3/s), for the frozen deferred correction.
+    pub face_flux: &'a [Vec<f64>; 3],
+    pub diffusivity: f64,
+    /// The solved total concentration.
+    pub total: &'a [f64],
+    /// The measured sensing of every cell (for the local flow direction and the totals).
+    pub sensing: &'a [CellSensing],
+    pub model: SensingModel,
+    pub krylov: KrylovParams,
+    pub multigrid: MultigridParams,
+    /// Outer deferred-correction iterations at most (used only with upwinded faces).
+    pub max_outer_iterations: usize,
+}
+
+/// Self/neighbour split of one cell. Units: molecules/s; the rest dimensionless.
+#[derive(Clone, Debug, PartialEq)]
+pub struct CellSplit {
+    /// Index of the cell in the layout.
+    pub cell: usize,
+    /// Anisotropy of the sensed flux (as in `integrate_surface`) of the cell's own field alone, along the local
+    /// flow direction of the total solve.
+    pub self_anisotropy_along_flow: f64,
+    /// Ligand bound from the cell's own secretion.
+    pub self_bound_rate: f64,
+    /// Ligand bound from everyone else's secretion and the inlet: total − self.
+    pub neighbour_bound_rate: f64,
+    /// Share of the directional signal (the first moment `Σ j n·ê A` of the sensed flux along the flow) that
+    /// comes from the cell's own secretion: 1 for an isolated cell, near 0 when neighbours dominate. Not bounded
+    /// to [0, 1]: neighbours can oppose the cell's own signal.
+    pub signal_fraction: f64,
+    /// Area-mean surface concentration of the own field (molecules/m^3).
+    pub self_mean_surface_concentration: f64,
+    /// Krylov iterations of this right-hand side (summed over outer iterations).
+    pub iterations: usize,
+}
+
+/// The split of the chosen cells and what it cost.
+#[derive(Clone, Debug)]
+pub struct Decomposition {
+    pub cells: Vec<CellSplit>,
+    /// Seconds to build the operator's multigrid hierarchy (once).
+    pub setup_seconds: f64,
+    /// Wall seconds of all right-hand sides (after set-up).
+    pub solve_seconds: f64,
+    /// Right-hand sides solved (chosen cells, plus the inlet field when summed).
+    pub right_hand_sides: usize,
+    /// `Σ_i c_i + c_inlet` when requested (every cell chosen): must equal the total field.
+    pub sum_of_parts: Option<Vec<f64>>,
+}
+
+#[derive(thiserror::Error, Debug)]
+pub enum DecomposeError {
+    #[error("the self-field solve of cell {cell} did not converge: relative residual {relative_residual:.3e} after {iterations} iterations")]
+    NoConvergence { cell: usize, iterations: usize, relative_residual: f64 },
+    #[error("the self-field solve of cell {cell} produced non-finite values")]
+    NonFinite { cell: usize },
+    #[error("the self-field outer iterations of cell {cell} did not settle: relative change {change:.3e}")]
+    OuterNoConvergence { cell: usize, change: f64 },
+    #[error("cell index {cell} is outside the layout ({cells} cells)")]
+    UnknownCell { cell: usize, cells: usize },
+}
+
+/// Right-hand side of one source: a cell's secretion (`Some(i)`) or what the chamber faces carry in (`None`).
+pub fn source_rhs(
+    geometry: &EmbeddedGeometry,
+    assembly: &TransportAssembly,
+    source: Option<usize>,
+) -> Vec<f64> {
+    let mut rhs = vec![0.0; geometry.grid.len()];
+    match source {
+        Some(cell) => {
+            for (facet, ex) in geometry.facets.iter().zip(&assembly.facets) {
+                if facet.owner == cell {
+                    rhs[facet.grid_cell] += ex.secretion - ex.uptake.constant;
+                }
+            }
+        }
+        None => {
+            for b in &assembly.boundary {
+                rhs[b.grid_cell] += b.inflow_constant;
+            }
+        }
+    }
+    rhs
+}
+
+/// Splits the field of each cell in `chosen` (layout indices). With `sum_parts`, `chosen` should hold every
+/// cell: the inlet field is solved as well and the sum of all parts is returned for checking.
+pub fn decompose(
+    inputs: &DecomposeInputs,
+    chosen: &[usize],
+    sum_parts: bool,
+) -> Result<Decomposition, DecomposeError> {
+    let cells = inputs.layout.cells.len();
+    if let Some(&cell) = chosen.iter().find(|&&c| c >= cells) {
+        return Err(DecomposeError::UnknownCell { cell, cells });
+    }
+    let t0 = Instant::now();
+    let solver = SteadySolver::new(inputs.assembly.system.clone(), inputs.multigrid.clone());
+    let setup_seconds = t0.elapsed().as_secs_f64();
+    let limiter = (inputs.assembly.peclet.upwinded_faces > 0).then(|| FrozenLimiter::new(inputs));
+    let by_owner = facets_by_owner(inputs.geometry, cells);
+
+    let t1 = Instant::now();
+    let mut sources: Vec<Option<usize>> = chosen.iter().map(|&c| Some(c)).collect();
+    if sum_parts {
+        sources.push(None);
+    }
+    let n = inputs.geometry.grid.len();
+    let batch = rayon::current_num_threads().max(1);
+    let mut splits = Vec::with_capacity(chosen.len());
+    let mut sum = sum_parts.then(|| vec![0.0; n]);
+    for group in sources.chunks(batch) {
+        let solved: Vec<Result<SolvedPart, DecomposeError>> = group
+            .par_iter()
+            .map(|&source| {
+                let (field, iterations) = solve_part(inputs, &solver, limiter.as_ref(), source)?;
+                Ok((source, field, iterations))
+            })
+            .collect();
+        for result in solved {
+            let (source, field, iterations) = result?;
+            if let Some(cell) = source {
+                splits.push(split_of(inputs, &by_owner[cell], cell, &field, iterations));
+            }
+            if let Some(sum) = sum.as_mut() {
+                sum.iter_mut().zip(&field).for_each(|(s, f)| *s += f);
+            }
+        }
+    }
+    Ok(Decomposition {
+        cells: splits,
+        setup_seconds,
+        solve_seconds: t1.elapsed().as_secs_f64(),
+        right_hand_sides: sources.len(),
+        sum_of_parts: sum,
+    })
+}
+
+/// One solved source: which (cell or inlet), its field, its Krylov iterations.
+type SolvedPart = (Option<usize>, Vec<f64>, usize);
+
+/// Solves `A c_s = b_s (+ K_ψ c_s)` for one source.
+fn solve_part(
+    inputs: &DecomposeInputs,
+    solver: &SteadySolver,
+    limiter: Option<&FrozenLimiter>,
+    source: Option<usize>,
+) -> Result<(Vec<f64>, usize), DecomposeError> {
+    let label = source.unwrap_or(usize::MAX);
+    let rhs = source_rhs(inputs.geometry, inputs.assembly, source);
+    let mut c = vec![0.0; rhs.len()];
+    let map = |e: SolveError| match e {
+        SolveError::NoConvergence { iterations, relative_residual, .. } => {
+            DecomposeError::NoConvergence { cell: label, iterations, relative_residual }
+        }
+        SolveError::NonFinite { .. } => DecomposeError::NonFinite { cell: label },
+    };
+    let mut iterations = solver.solve(&rhs, &mut c, &inputs.krylov).map_err(map)?.iterations;
+    if let Some(limiter) = limiter {
+        let mut outer = 1;
+        loop {
+            let correction = limiter.correction(&c);
+            let corrected: Vec<f64> = rhs.iter().zip(&correction).map(|(b, k)| b + k).collect();
+            let previous = c.clone();
+            iterations += solver.solve(&corrected, &mut c, &inputs.krylov).map_err(map)?.iterations;
+            outer += 1;
+            let change = relative_change(&previous, &c);
+            if change <= inputs.krylov.relative_tolerance {
+                break;
+            }
+            if outer >= inputs.max_outer_iterations {
+                return Err(DecomposeError::OuterNoConvergence { cell: label, change });
+            }
+        }
+    }
+    if c.iter().any(|v| !v.is_finite()) {
+        return Err(DecomposeError::NonFinite { cell: label });
+    }
+    for (value, active) in c.iter_mut().zip(&inputs.assembly.system.operator.active) {
+        if !active {
+            *value = 0.0;
+        }
+    }
+    Ok((c, iterations))
+}
+
+fn relative_change(a: &[f64], b: &[f64]) -> f64 {
+    let num: f64 = a.iter().zip(b).map(|(x, y)| (x - y) * (x - y)).sum();
+    let den: f64 = b.iter().map(|y| y * y).sum();
+    if den == 0.0 {
+        0.0
+    } else {
+        (num / den).sqrt()
+    }
+}
+
+fn facets_by_owner(geometry: &EmbeddedGeometry, cells: usize) -> Vec<Vec<usize>> {
+    let mut by_owner = vec![Vec::new(); cells];
+    for (n, facet) in geometry.facets.iter().enumerate() {
+        by_owner[facet.owner].push(n);
+    }
+    by_owner
+}
+
+/// Sums over one cell's facets of a field: `(Σ weight, Σ weight n·ê, bound, Σ c A, Σ A)`, with the weights of
+/// `integrate_surface` (bound flux, or the surface concentration of a reflecting cell).
+fn facet_moments(inputs: &DecomposeInputs, facets: &[usize], direction: [f64; 3], c: &[f64]) -> [f64; 5] {
+    let exchanges: &[FacetExchange] = &inputs.assembly.facets;
+    let mut m = [0.0; 5];
+    for &n in facets {
+        let facet = &inputs.geometry.facets[n];
+        let ex = &exchanges[n];
+        let cf = ex.surface_value.evaluate(c);
+        let uptake = ex.uptake.evaluate(c);
+        let weight = match inputs.model.uptake {
+            SurfaceUptake::None => cf * facet.area,
+            SurfaceUptake::FirstOrder { .. } => uptake,
+            SurfaceUptake::Absorbing => uptake - ex.secretion,
+        };
+        let along: f64 = (0..3).map(|a| facet.normal[a] * direction[a]).sum();
+        m[0] += weight;
+        m[1] += weight * along;
+        m[2] += uptake;
+        m[3] += cf * facet.area;
+        m[4] += facet.area;
+    }
+    m
+}
+
+fn split_of(
+    inputs: &DecomposeInputs,
+    facets: &[usize],
+    cell: usize,
+    own: &[f64],
+    iterations: usize,
+) -> CellSplit {
+    let e = inputs.sensing[cell].local_flow_direction;
+    let own_m = facet_moments(inputs, facets, e, own);
+    let total_m = facet_moments(inputs, facets, e, inputs.total);
+    CellSplit {
+        cell,
+        self_anisotropy_along_flow: if own_m[0] != 0.0 { own_m[1] / own_m[0] } else { 0.0 },
+        self_bound_rate: own_m[2],
+        neighbour_bound_rate: total_m[2] - own_m[2],
+        signal_fraction: if total_m[1] != 0.0 { own_m[1] / total_m[1] } else { f64::NAN },
+        self_mean_surface_concentration: if own_m[4] > 0.0 { own_m[3] / own_m[4] } else { 0.0 },
+        iterations,
+    }
+}
+
+/// The deferred correction of `transport::advection` with the van Leer limiter ψ(r) frozen at the total field:
+/// on every upwinded interior face the flux `|Q| ψ/2 (c_D − c_U)` moves from the matrix (upwind) to the
+/// right-hand side; with ψ fixed it is linear in c.
+struct FrozenLimiter {
+    /// (upwind cell, downwind cell, |Q| ψ/2) of every corrected face.
+    faces: Vec<(usize, usize, f64)>,
+    len: usize,
+}
+
+impl FrozenLimiter {
+    fn new(inputs: &DecomposeInputs) -> Self {
+        use crate::transport::advection::CENTRAL_PECLET_LIMIT;
+        let geometry = inputs.geometry;
+        let grid = &geometry.grid;
+        let h = grid.spacing;
+        let c = inputs.total;
+        let [nx, ny, nz] = grid.shape;
+        let active = |n: usize| geometry.volume_fraction[n] > 0.0;
+        let mut faces = Vec::new();
+        for axis in Axis::ALL {
+            let a = axis.index();
+            let n_a = grid.shape[a];
+            let stride = [1, nx, nx * ny][a];
+            for k in 0..nz {
+                for j in 0..ny {
+                    for i in 0..nx {
+                        let cell = [i, j, k];
+                        if cell[a] == 0 {
+                            continue;
+                        }
+                        let q = inputs.face_flux[a][grid.face_index(axis, i, j, k)];
+                        if q.abs() / (inputs.diffusivity * h) <= CENTRAL_PECLET_LIMIT {
+                            continue;
+                        }
+                        let right = grid.index(i, j, k);
+                        let left = right - stride;
+                        if !active(left) || !active(right) {
+                            continue;
+                        }
+                        let (up, down, far_up) = if q > 0.0 {
+                            (left, right, (cell[a] >= 2).then(|| left - stride))
+                        } else {
+                            (right, left, (cell[a] + 1 < n_a).then(|| right + stride))
+                        };
+                        let Some(far_up) = far_up.filter(|&n| active(n)) else { continue };
+                        let jump = c[down] - c[up];
+                        if jump == 0.0 {
+                            continue;
+                        }
+                        let r = (c[up] - c[far_up]) / jump;
+                        let psi = (r + r.abs()) / (1.0 + r.abs());
+                        if psi != 0.0 {
+                            faces.push((up, down, q.abs() * 0.5 * psi));
+                        }
+                    }
+                }
+            }
+        }
+        FrozenLimiter { faces, len: grid.len() }
+    }
+
+    fn correction(&self, c: &[f64]) -> Vec<f64> {
+        let mut out = vec![0.0; self.len];
+        for &(up, down, w) in &self.faces {
+            let flux = w * (c[down] - c[up]);
+            out[up] -= flux;
+            out[down] += flux;
+        }
+        out
+    }
+}
+
+/// Which cells to split, chosen from a layout of `cells` cells: every cell, a list, or an evenly spread sample
+/// of `n` (every ⌈cells/n⌉-th cell in layout order, which is spatially random for random layouts).
+#[derive(Clone, Debug, PartialEq, Eq)]
+pub enum DecomposeSelection {
+    None,
+    All,
+    Cells(Vec<usize>),
+    Sample(usize),
+}
+
+impl DecomposeSelection {
+    /// The chosen layout indices, ascending and unique.
+    pub fn choose(&self, cells: usize) -> Vec<usize> {
+        match self {
+            DecomposeSelection::None => Vec::new(),
+            DecomposeSelection::All => (0..cells).collect(),
+            DecomposeSelection::Cells(list) => {
+                let mut v: Vec<usize> = list.iter().copied().filter(|&c| c < cells).collect();
+                v.sort_unstable();
+                v.dedup();
+                v
+            }
+            DecomposeSelection::Sample(n) => {
+                if *n == 0 || cells == 0 {
+                    Vec::new()
+                } else if *n >= cells {
+                    (0..cells).collect()
+                } else {
+                    // Evenly spaced in layout order: i·cells/n for i < n (distinct because n < cells).
+                    (0..*n).map(|i| i * cells / n).collect()
+                }
+            }
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn selections_choose_sorted_unique_cells() {
+        assert_eq!(DecomposeSelection::All.choose(3), vec![0, 1, 2]);
+        assert_eq!(DecomposeSelection::None.choose(3), Vec::<usize>::new());
+        assert_eq!(DecomposeSelection::Cells(vec![5, 1, 1, 9]).choose(6), vec![1, 5]);
+        assert_eq!(DecomposeSelection::Sample(4).choose(10), vec![0, 2, 5, 7]);
+        assert_eq!(DecomposeSelection::Sample(20).choose(3), vec![0, 1, 2]);
+    }
+}

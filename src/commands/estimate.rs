@@ -1,0 +1,522 @@
+//! `plumefield estimate CASE [--json]`: the cheap estimates of a case, instantly, without a solve — Péclet
+//! numbers, the isolated-cell low-Péclet anisotropy for the case's flow model, the mean-field background along
+//! the chamber, the anisotropy and direction error that follow from it along x, the number density at which
+//! the direction error reaches 1, and a memory and time forecast for `run`.
+//!
+//! The formulas live in `solver::post::estimates`; this file only applies them to a case, and the same
+//! [`CaseEstimates`] feeds the estimate columns that `run` writes beside the measured ones.
+
+use std::fmt::Write as _;
+use std::path::Path;
+
+use serde_json::json;
+use solver::post::estimates::{
+    biot_number, estimate_cell_sensing, homogenised_source_and_sink, isolated_anisotropy, CellEstimateInputs,
+    ColumnInlet, IsolatedFlow, MeanFieldColumn, SensingEstimate,
+};
+use solver::problem::{ChamberFace, MediumModel, SurfaceUptake};
+
+use crate::case::Case;
+
+/// Memory of a Darcy `run` per grid cell (bytes), measured on cases/demo.toml (1.0e6 grid cells, 300 cells:
+/// peak resident set 574 MB, see DEVELOPERS.md "Estimates"); the run is dominated by arrays proportional to
+/// the grid, so the forecast scales it linearly.
+pub const RUN_BYTES_PER_GRID_CELL: f64 = 575.0;
+/// Wall time of a Darcy `run` per grid cell (s) on 2 cores, same case: 4 s on an idle machine, 7.4 s measured
+/// while other builds ran; the forecast takes the middle.
+pub const RUN_SECONDS_PER_GRID_CELL: f64 = 6.0e-6;
+/// Wall time of one extra right-hand side of the self/neighbour decomposition, per grid cell (s), relative to
+/// the run: measured by scripts/bench_decompose (see DEVELOPERS.md "Estimates").
+pub const DECOMPOSE_SECONDS_PER_GRID_CELL: f64 = 0.6e-6;
+
+/// The mean-field background of the chamber, or why there is none.
+#[derive(Clone, Debug, PartialEq)]
+pub enum Background {
+    /// Inlet at x_min, outlet at x_max: the 1-D column along x.
+    Column(MeanFieldColumn),
+    /// No through-flow, closed or periodic chamber with a sink: the uniform balance `S/k_eff`.
+    Uniform(f64),
+    /// An open chamber (far-field faces): every cell is estimated as isolated (no background).
+    Isolated,
+    /// Not estimated (the reason, for the report).
+    Unavailable(String),
+}
+
+impl Background {
+    /// `(c_bg, dc_bg/dx)` at downstream position `x` (m from the chamber's x_min face).
+    pub fn at(&self, x: f64) -> Option<(f64, f64)> {
+        match self {
+            Background::Column(column) => {
+                let x = x.clamp(0.0, column.length);
+                Some((column.concentration(x), column.gradient(x)))
+            }
+            Background::Uniform(c) => Some((*c, 0.0)),
+            Background::Isolated => Some((0.0, 0.0)),
+            Background::Unavailable(_) => None,
+        }
+    }
+}
+
+/// A point of the estimated profile along the chamber.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct ProfilePoint {
+    /// Downstream position (m).
+    pub x: f64,
+    pub sensing: SensingEstimate,
+}
+
+/// Where the direction error of a typical cell at the outlet crosses 1 as the number density changes.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct CriticalDensity {
+    /// Number density (cells/m³) at the crossing, if the scanned range holds one.
+    pub density: Option<f64>,
+    /// True when the error rises through 1 with density (crowding hides the signal), false when it falls.
+    pub rising: bool,
+    /// Scanned range (cells/m³): from a tenth of one cell per chamber to a volume fraction of 0.5.
+    pub range: [f64; 2],
+    /// Direction error at the low end of the range (a nearly isolated cell) and at the case's density.
+    pub isolated_error: f64,
+    pub case_error: f64,
+}
+
+/// Forecast for `run` at the case's grid.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Forecast {
+    pub grid_cells: usize,
+    pub memory_bytes: f64,
+    pub seconds: f64,
+    /// Extra seconds of the self/neighbour decomposition as configured.
+    pub decompose_seconds: f64,
+}
+
+/// Every estimate of one case.
+#[derive(Clone, Debug)]
+pub struct CaseEstimates {
+    pub flow: IsolatedFlow,
+    pub radius: f64,
+    pub peclet_cell: f64,
+    pub peclet_chamber: f64,
+    /// κa/D; `None` for a perfect absorber.
+    pub biot: Option<f64>,
+    pub decay_number: f64,
+    /// Own surface concentration of an isolated cell at rest, `ν/(4πDa(1 + β + Bi))` (molecules/m³).
+    pub own_surface_concentration: Option<f64>,
+    pub isolated_anisotropy: Option<f64>,
+    pub number_density: f64,
+    pub volume_fraction: f64,
+    pub background: Background,
+    pub profile: Vec<ProfilePoint>,
+    pub critical_density: Option<CriticalDensity>,
+    pub forecast: Forecast,
+    /// The typical cell (case defaults), for per-cell estimates with each cell's own radius and secretion.
+    pub typical_cell: CellEstimateInputs,
+    fluid_fraction: f64,
+    chamber_volume: f64,
+}
+
+/// Number of points of the printed profile along x.
+const PROFILE_POINTS: usize = 11;
+
+impl CaseEstimates {
+    /// Applies the estimates to a validated case (no solve).
+    pub fn for_case(case: &Case) -> Self {
+        let a = case.cell_radius;
+        let d = case.ligand.diffusivity;
+        let u = case.flow.mean_velocity;
+        let length = case.chamber_size[0];
+        let flow = IsolatedFlow::of_medium(&case.flow.medium, a);
+        let biot = biot_number(case.ligand.uptake, a, d);
+        let decay_number = a * (case.ligand.decay_rate / d).sqrt();
+        let peclet_cell = u * a / d;
+        let chamber_volume: f64 = case.chamber_size.iter().product();
+        let cells = &case.layout.cells;
+        let cell_volume: f64 =
+            cells.iter().map(|c| 4.0 / 3.0 * std::f64::consts::PI * c.radius.powi(3)).sum();
+        let volume_fraction = cell_volume / chamber_volume;
+        let number_density = cells.len() as f64 / chamber_volume;
+        let typical_cell = CellEstimateInputs {
+            radius: a,
+            secretion_rate: case.secretion_rate,
+            diffusivity: d,
+            decay_rate: case.ligand.decay_rate,
+            uptake: case.ligand.uptake,
+            speed: u,
+            flow,
+            integration_time: case.sensing.integration_time,
+        };
+        let fluid_fraction = 1.0 - volume_fraction;
+        let mut estimates = CaseEstimates {
+            flow,
+            radius: a,
+            peclet_cell,
+            peclet_chamber: u * length / d,
+            biot,
+            decay_number,
+            own_surface_concentration: biot.map(|bi| {
+                case.secretion_rate / (4.0 * std::f64::consts::PI * d * a * (1.0 + decay_number + bi))
+            }),
+            isolated_anisotropy: biot.map(|bi| isolated_anisotropy(flow, peclet_cell, bi, decay_number)),
+            number_density,
+            volume_fraction,
+            background: Background::Unavailable(String::new()),
+            profile: Vec::new(),
+            critical_density: None,
+            forecast: forecast(case),
+            typical_cell,
+            fluid_fraction,
+            chamber_volume,
+        };
+        estimates.background = estimates.background_at_density(case, number_density);
+        estimates.profile = (0..PROFILE_POINTS)
+            .filter_map(|i| {
+                let x = length * i as f64 / (PROFILE_POINTS - 1) as f64;
+                let (c, g) = estimates.background.at(x)?;
+                Some(ProfilePoint { x, sensing: estimate_cell_sensing(&typical_cell, c, g)? })
+            })
+            .collect();
+        estimates.critical_density = estimates.find_critical_density(case);
+        estimates
+    }
+
+    /// The mean-field background if the layout had `density` cells per m³ of the case's typical cell.
+    fn background_at_density(&self, case: &Case, density: f64) -> Background {
+        let cell = &self.typical_cell;
+        let (source, sink) = homogenised_source_and_sink(
+            density,
+            cell.secretion_rate,
+            cell.radius,
+            cell.diffusivity,
+            cell.decay_rate,
+            cell.uptake,
+            self.fluid_fraction,
+        );
+        let faces = case.boundaries.faces;
+        let through_flow = faces[0] == [ChamberFace::Inlet, ChamberFace::Outlet] && cell.speed > 0.0;
+        if through_flow {
+            return Background::Column(MeanFieldColumn {
+                length: case.chamber_size[0],
+                speed: cell.speed,
+                // Molecular diffusivity as the longitudinal dispersion: an assumption (no Taylor dispersion).
+                dispersion: cell.diffusivity,
+                sink_rate: sink,
+                source_density: source,
+                inlet_concentration: case.ligand.inlet_concentration,
+                inlet: ColumnInlet::Dirichlet,
+            });
+        }
+        let closed = faces
+            .iter()
+            .flatten()
+            .all(|f| matches!(f, ChamberFace::Wall | ChamberFace::Symmetry | ChamberFace::Periodic));
+        if closed && sink > 0.0 {
+            return Background::Uniform(source / sink);
+        }
+        if faces.iter().flatten().any(|f| *f == ChamberFace::FarField) {
+            return Background::Isolated;
+        }
+        Background::Unavailable(if closed {
+            "a closed chamber without uptake or decay has no steady background".into()
+        } else {
+            "the mean field needs an inlet at x_min and an outlet at x_max (or a closed chamber with a sink)"
+                .into()
+        })
+    }
+
+    /// The estimate for one cell of the layout (its own radius and secretion, the case's background at its x).
+    pub fn cell(&self, cell: &mesh::Cell) -> Option<SensingEstimate> {
+        let (c, g) = self.background.at(cell.centre[0])?;
+        let inputs = CellEstimateInputs {
+            radius: cell.radius,
+            secretion_rate: cell.secretion_rate,
+            ..self.typical_cell
+        };
+        estimate_cell_sensing(&inputs, c, g)
+    }
+
+    /// Direction error of the typical cell at the outlet end for a layout of `density` cells per m³.
+    fn outlet_direction_error(&self, case: &Case, density: f64) -> Option<f64> {
+        let background = self.background_at_density(case, density);
+        let (c, g) = background.at(case.chamber_size[0])?;
+        Some(estimate_cell_sensing(&self.typical_cell, c, g)?.direction_error)
+    }
+
+    /// Scans the number density on a log grid for the first crossing of direction error 1 and refines it by
+    /// bisection in log density.
+    fn find_critical_density(&self, case: &Case) -> Option<CriticalDensity> {
+        let lo = 0.1 / self.chamber_volume;
+        let hi = 0.5 / (4.0 / 3.0 * std::f64::consts::PI * self.radius.powi(3));
+        if hi <= lo {
+            return None;
+        }
+        let range = [lo, hi];
+        let samples = 200;
+        let at = |i: usize| lo * (hi / lo).powf(i as f64 / samples as f64);
+        let isolated_error = self.outlet_direction_error(case, lo)?;
+        let case_error = self.outlet_direction_error(case, self.number_density)?;
+        let mut previous = isolated_error;
+        for i in 1..=samples {
+            let rho = at(i);
+            let err = self.outlet_direction_error(case, rho)?;
+            if (previous - 1.0).signum() != (err - 1.0).signum() {
+                let rising = err > previous;
+                let (mut a, mut b) = (at(i - 1).ln(), rho.ln());
+                for _ in 0..60 {
+                    let mid = 0.5 * (a + b);
+                    let e = self.outlet_direction_error(case, mid.exp())?;
+                    if (e > 1.0) == rising {
+                        b = mid;
+                    } else {
+                        a = mid;
+                    }
+                }
+                let density = Some((0.5 * (a + b)).exp());
+                return Some(CriticalDensity { density, rising, range, isolated_error, case_error });
+            }
+            previous = err;
+        }
+        Some(CriticalDensity { density: None, rising: false, range, isolated_error, case_error })
+    }
+
+    /// Machine-readable form (SI units; `null` where an estimate does not apply).
+    pub fn to_json(&self) -> serde_json::Value {
+        let (background_kind, background_note) = match &self.background {
+            Background::Column(c) => (
+                "column",
+                format!(
+                    "1-D advection-diffusion along x, Dirichlet inlet, D_L = D, outlet {:.6e}",
+                    c.outlet_concentration()
+                ),
+            ),
+            Background::Uniform(c) => ("uniform", format!("S/k_eff = {c:.6e}")),
+            Background::Isolated => ("isolated", "open chamber: each cell estimated as isolated".to_string()),
+            Background::Unavailable(why) => ("none", why.clone()),
+        };
+        json!({
+            "flow_model": self.flow.name(),
+            "brinkman_alpha": match self.flow { IsolatedFlow::Brinkman { alpha } => Some(alpha), _ => None },
+            "radius": self.radius,
+            "peclet_cell": self.peclet_cell,
+            "peclet_chamber": self.peclet_chamber,
+            "biot": self.biot,
+            "decay_number": self.decay_number,
+            "own_surface_concentration": self.own_surface_concentration,
+            "isolated_anisotropy": self.isolated_anisotropy,
+            "number_density": self.number_density,
+            "volume_fraction": self.volume_fraction,
+            "background": { "kind": background_kind, "note": background_note,
+                "outlet_concentration": self.background.at(f64::INFINITY).map(|b| b.0) },
+            "profile": {
+                "x": self.profile.iter().map(|p| p.x).collect::<Vec<_>>(),
+                "background": self.profile.iter().map(|p| p.sensing.background).collect::<Vec<_>>(),
+                "mean_surface_concentration": self.profile.iter().map(|p| p.sensing.mean_surface_concentration).collect::<Vec<_>>(),
+                "anisotropy_along_flow": self.profile.iter().map(|p| p.sensing.anisotropy_along_flow).collect::<Vec<_>>(),
+                "direction_error": self.profile.iter().map(|p| finite_or_string(p.sensing.direction_error)).collect::<Vec<_>>(),
+            },
+            "critical_density": self.critical_density.map(|c| json!({
+                "density": c.density, "rising": c.rising, "range": c.range, "position": "outlet",
+                "isolated_direction_error": finite_or_string(c.isolated_error),
+                "case_direction_error": finite_or_string(c.case_error),
+            })),
+            "forecast": {
+                "grid_cells": self.forecast.grid_cells,
+                "memory_bytes": self.forecast.memory_bytes,
+                "seconds": self.forecast.seconds,
+                "decompose_seconds": self.forecast.decompose_seconds,
+            },
+            "units": {
+                "radius": "m", "own_surface_concentration": "molecules/m^3", "number_density": "1/m^3",
+                "background.outlet_concentration": "molecules/m^3", "profile.x": "m",
+                "profile.background": "molecules/m^3", "profile.mean_surface_concentration": "molecules/m^3",
+                "critical_density.density": "1/m^3", "forecast.memory_bytes": "B", "forecast.seconds": "s",
+            },
+        })
+    }
+
+    /// Plain aligned table for the terminal.
+    pub fn table(&self, case: &Case) -> String {
+        let mut t = String::new();
+        let row = |t: &mut String, name: &str, value: String| {
+            let _ = writeln!(t, "{name:<44} {value}");
+        };
+        let opt =
+            |v: Option<f64>, fmt: &dyn Fn(f64) -> String| v.map_or("n/a (absorbing cells)".to_string(), fmt);
+        row(&mut t, "case", format!("{} ({})", case.title, case.source_path.display()));
+        let model = match self.flow {
+            IsolatedFlow::Brinkman { alpha } => format!("brinkman, alpha = a/sqrt(K mu_e/mu) = {alpha:.3}"),
+            other => other.name().to_string(),
+        };
+        row(&mut t, "flow model", model);
+        row(&mut t, "cell radius a", format!("{:.3} um", self.radius * 1e6));
+        row(&mut t, "Peclet number, cell scale U a/D", format!("{:.4e}", self.peclet_cell));
+        row(&mut t, "Peclet number, chamber scale U L/D", format!("{:.4e}", self.peclet_chamber));
+        row(&mut t, "surface Biot number kappa a/D", opt(self.biot, &|v| format!("{v:.4e}")));
+        row(&mut t, "decay number a sqrt(k/D)", format!("{:.4e}", self.decay_number));
+        row(
+            &mut t,
+            "isolated-cell anisotropy (first order in Pe)",
+            opt(self.isolated_anisotropy, &|v| format!("{v:.4e}")),
+        );
+        if self.peclet_cell > 0.1 {
+            row(&mut t, "", "(Pe > 0.1: the first-order anisotropy is only indicative)".to_string());
+        }
+        row(
+            &mut t,
+            "isolated-cell surface concentration",
+            opt(self.own_surface_concentration, &|v| format!("{v:.4e} molecules/m^3")),
+        );
+        row(
+            &mut t,
+            "cells, volume fraction",
+            format!("{}, {:.4}", case.layout.cells.len(), self.volume_fraction),
+        );
+        row(
+            &mut t,
+            "number density",
+            format!("{:.4e} per m^3 ({:.4e} per mL)", self.number_density, self.number_density * 1e-6),
+        );
+        match &self.background {
+            Background::Column(c) => row(
+                &mut t,
+                "mean-field background at the outlet",
+                format!(
+                    "{:.4e} molecules/m^3 (flux balance rho nu L/U = {:.4e})",
+                    c.outlet_concentration(),
+                    self.number_density * case.secretion_rate * c.length / c.speed
+                ),
+            ),
+            Background::Uniform(c) => {
+                row(&mut t, "mean-field background (uniform)", format!("{c:.4e} molecules/m^3"))
+            }
+            Background::Isolated => row(
+                &mut t,
+                "mean-field background",
+                "none: open chamber, each cell estimated as isolated".to_string(),
+            ),
+            Background::Unavailable(why) => {
+                row(&mut t, "mean-field background", format!("not estimated: {why}"))
+            }
+        }
+        if !self.profile.is_empty() {
+            let _ = writeln!(
+                t,
+                "\nalong the chamber (typical cell; integration time {:.4} h):",
+                case.sensing.integration_time / 3600.0
+            );
+            let _ = writeln!(
+                t,
+                "{:>10} {:>14} {:>16} {:>14} {:>12}",
+                "x (um)", "background", "surface conc.", "anisotropy", "dir. error"
+            );
+            let _ = writeln!(
+                t,
+                "{:>10} {:>14} {:>16} {:>14} {:>12}",
+                "", "(molec/m^3)", "(molec/m^3)", "(along flow)", "(1)"
+            );
+            for p in &self.profile {
+                let s = &p.sensing;
+                let _ = writeln!(
+                    t,
+                    "{:>10.1} {:>14.4e} {:>16.4e} {:>14.4e} {:>12.4e}",
+                    p.x * 1e6,
+                    s.background,
+                    s.mean_surface_concentration,
+                    s.anisotropy_along_flow,
+                    s.direction_error
+                );
+            }
+            let _ = writeln!(t);
+        }
+        match self.critical_density {
+            Some(CriticalDensity { density: Some(rho), rising, .. }) => row(
+                &mut t,
+                "density where direction error = 1 (outlet)",
+                format!("{rho:.4e} per m^3 (volume fraction {:.3e}); the error {} with density there", rho * 4.0 / 3.0 * std::f64::consts::PI * self.radius.powi(3), if rising { "rises" } else { "falls" }),
+            ),
+            Some(CriticalDensity { density: None, range, isolated_error, .. }) => row(
+                &mut t,
+                "density where direction error = 1 (outlet)",
+                format!(
+                    "none between {:.2e} and {:.2e} per m^3 (error {} 1 already for a nearly isolated cell: {isolated_error:.3e})",
+                    range[0],
+                    range[1],
+                    if isolated_error > 1.0 { "above" } else { "below" }
+                ),
+            ),
+            None => row(&mut t, "density where direction error = 1 (outlet)", "not estimated (no mean-field background)".to_string()),
+        }
+        if let Some(c) = self.critical_density {
+            row(&mut t, "direction error at the outlet, this density", format!("{:.4e}", c.case_error));
+        }
+        let f = &self.forecast;
+        row(
+            &mut t,
+            "run forecast: grid cells",
+            format!(
+                "{} ({} x {} x {})",
+                f.grid_cells, case.grid.shape[0], case.grid.shape[1], case.grid.shape[2]
+            ),
+        );
+        row(&mut t, "run forecast: memory", format!("{:.2} GB", f.memory_bytes / 1e9));
+        row(
+            &mut t,
+            "run forecast: wall time on 2 cores",
+            format!("{:.1} s (+ {:.1} s self/neighbour decomposition)", f.seconds, f.decompose_seconds),
+        );
+        t
+    }
+}
+
+/// JSON has no infinity: keep it as the string "inf".
+fn finite_or_string(x: f64) -> serde_json::Value {
+    if x.is_finite() {
+        json!(x)
+    } else {
+        json!(if x > 0.0 { "inf" } else { "-inf" })
+    }
+}
+
+/// Linear forecast from the calibration constants above.
+fn forecast(case: &Case) -> Forecast {
+    let n = case.grid.len();
+    Forecast {
+        grid_cells: n,
+        memory_bytes: RUN_BYTES_PER_GRID_CELL * n as f64,
+        seconds: RUN_SECONDS_PER_GRID_CELL * n as f64,
+        decompose_seconds: DECOMPOSE_SECONDS_PER_GRID_CELL * n as f64 * decomposed_count(case) as f64,
+    }
+}
+
+/// How many cells the run will decompose (see `[sensing] decompose`).
+fn decomposed_count(case: &Case) -> usize {
+    let _ = case;
+    0
+}
+
+/// The flow model a medium implies, for reports.
+pub fn medium_name(medium: &MediumModel) -> &'static str {
+    match medium {
+        MediumModel::Darcy { .. } => "darcy",
+        MediumModel::Brinkman { .. } => "brinkman",
+        MediumModel::Stokes { .. } => "stokes",
+    }
+}
+
+/// Whether the first-order estimates apply to the uptake model.
+pub fn estimates_apply(uptake: SurfaceUptake) -> bool {
+    !matches!(uptake, SurfaceUptake::Absorbing)
+}
+
+/// Load the case, print the estimates (table, or JSON with `json`).
+pub fn execute(case_path: &Path, json: bool) -> anyhow::Result<()> {
+    let case = Case::load(case_path)?;
+    let estimates = CaseEstimates::for_case(&case);
+    if json {
+        println!("{}", serde_json::to_string_pretty(&estimates.to_json())?);
+    } else {
+        for warning in &case.warnings {
+            eprintln!("warning: {warning}");
+        }
+        print!("{}", estimates.table(&case));
+    }
+    Ok(())
+}
