@@ -130,9 +130,9 @@ fn bad_case_files_exit_2_naming_key_and_line() {
             name: "transient",
             from: "[cells]",
             to: "[solve]\nmode = \"transient\"\n\n[cells]",
-            key: "solve.mode",
-            at: "mode = \"transient\"",
-            says: "not implemented yet",
+            key: "solve.end_time",
+            at: "[solve]",
+            says: "solve.end_time is missing",
         },
         BadCase {
             name: "too_many_cells",

@@ -10,6 +10,7 @@ mod error;
 mod grid_fit;
 pub mod raw;
 pub mod source_map;
+pub mod transient;
 pub mod units;
 mod validate;
 
@@ -22,10 +23,12 @@ use sha2::{Digest, Sha256};
 
 pub use error::CaseError;
 
-/// How the ligand field is solved. Only the steady state is implemented.
+/// How the ligand field is solved.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub enum SolveMode {
     Steady,
+    /// Time-dependent from an initial condition; settings in [`SolveSettings::transient`].
+    Transient,
 }
 
 /// `[solve]`: mode and the linear-solver stopping rule.
@@ -36,6 +39,8 @@ pub struct SolveSettings {
     pub tolerance: f64,
     /// Iteration cap of each iterative solve; default 300.
     pub max_iterations: usize,
+    /// Present exactly when `mode` is transient.
+    pub transient: Option<transient::TransientSolve>,
 }
 
 /// `[sensing]`: parameters of the per-cell sensing outputs.

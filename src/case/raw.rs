@@ -94,6 +94,9 @@ pub struct RawMedium {
 #[serde(deny_unknown_fields)]
 pub struct RawFlow {
     pub mean_velocity: Value<RawNumber>,
+    /// Transient: time of a flow step change, and the mean velocity after it.
+    pub change_at: Value<RawNumber>,
+    pub mean_velocity_after: Value<RawNumber>,
 }
 
 #[derive(Debug, Default, Deserialize)]
@@ -123,6 +126,8 @@ pub struct RawCells {
     pub uptake: Option<Spanned<RawUptake>>,
     pub layout: Option<Spanned<RawLayout>>,
     pub list: Value<Vec<Spanned<RawCellEntry>>>,
+    /// Transient: when every cell starts secreting (default 0).
+    pub secretion_start: Value<RawNumber>,
 }
 
 /// `{ model = "none" | "first_order" | "absorbing", rate_constant = "<velocity>" }`
@@ -155,6 +160,8 @@ pub struct RawCellEntry {
     pub z: Value<RawNumber>,
     pub radius: Value<RawNumber>,
     pub secretion_rate: Value<RawNumber>,
+    /// Transient: when this cell starts secreting.
+    pub secretion_start: Value<RawNumber>,
 }
 
 #[derive(Debug, Default, Deserialize)]
@@ -167,12 +174,17 @@ pub struct RawSolve {
     pub time_step: Value<RawNumber>,
     pub output_every: Value<RawNumber>,
     pub adaptive: Value<bool>,
+    pub error_tolerance: Value<RawNumber>,
+    pub initial_condition: Value<String>,
+    pub stop_at_steady: Value<bool>,
 }
 
 #[derive(Debug, Default, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct RawSensing {
     pub integration_time: Value<RawNumber>,
+    /// Transient: cumulative counts start here.
+    pub window_start: Value<RawNumber>,
 }
 
 #[derive(Debug, Default, Deserialize)]

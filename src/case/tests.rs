@@ -491,13 +491,24 @@ fn coarse_cells_are_refused_or_warned() {
 #[test]
 fn solve_rules() {
     let text = edit("mode = \"steady\"", "mode = \"transient\"");
-    expect_error(&text, "solve.mode", Some("mode = \"transient\""), &["is not implemented yet"]);
+    expect_error(&text, "solve.end_time", Some("[solve]"), &["is missing"]);
     let text = edit("tolerance = 1e-8", "tolerance = 1e-8\nend_time = \"6 h\"");
-    expect_error(&text, "solve.end_time", Some("end_time"), &["not implemented yet"]);
+    expect_error(&text, "solve.end_time", Some("end_time"), &["only used when solve.mode = \"transient\""]);
     let text = edit("tolerance = 1e-8", "tolerance = 1e-8\ntime_step = \"60 um\"");
     expect_error(&text, "solve.time_step", Some("time_step"), &["is a length, expected a time"]);
     let text = edit("tolerance = 1e-8", "tolerance = 1e-8\nadaptive = true");
-    expect_error(&text, "solve.adaptive", Some("adaptive"), &["not implemented yet"]);
+    expect_error(&text, "solve.adaptive", Some("adaptive"), &["only used when solve.mode = \"transient\""]);
+    // Transient keys accepted in transient mode, and their rules.
+    let transient =
+        edit("mode = \"steady\"", "mode = \"transient\"\nend_time = \"2 h\"\ntime_step = \"60 s\"");
+    let case = parse(&transient.replace("tolerance = 1e-8", "tolerance = 1e-8\noutput_every = \"30 min\""))
+        .unwrap_or_else(|e| panic!("{e}"));
+    let t = case.solve.transient.expect("transient settings");
+    assert_eq!((t.end_time, t.time_step, t.output_every, t.adaptive), (7200.0, 60.0, 1800.0, None));
+    let text = transient.replace("tolerance = 1e-8", "tolerance = 1e-8\noutput_every = \"90 s\"");
+    expect_error(&text, "solve.output_every", Some("output_every"), &["whole multiple of solve.time_step"]);
+    let text = transient.replace("tolerance = 1e-8", "tolerance = 1e-8\nerror_tolerance = 1e-3");
+    expect_error(&text, "solve.error_tolerance", Some("error_tolerance"), &["only used with solve.adaptive"]);
     let text = edit("tolerance = 1e-8", "tolerance = 0.1");
     expect_error(&text, "solve.tolerance", Some("tolerance"), &["(0, 1e-2]"]);
     let text = edit("tolerance = 1e-8", "tolerance = 0");

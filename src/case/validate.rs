@@ -148,11 +148,6 @@ impl Source<'_> {
         }
         Ok(x as usize)
     }
-
-    /// The error for a key that belongs to a feature not implemented yet: refused, never ignored.
-    pub fn not_implemented(&self, key: &str, span: &Range<usize>, what: &str) -> CaseError {
-        self.error(key, Some(span), format!("{key}: {what} is not implemented yet"))
-    }
 }
 
 /// A section table and its span (`None` when the section is absent: then every key takes its default or is
@@ -231,10 +226,31 @@ pub(super) fn validate(raw: RawCase, text: &str, path: &Path) -> Result<Case, Ca
     let resolution = super::cells::check_resolution(&src, &placed, fitted.grid.spacing)?;
     warnings.extend(resolution);
 
-    let (solve, _) = section(raw.solve);
-    let solve = validate_solve(&src, &solve)?;
-    let (sensing, _) = section(raw.sensing);
-    let sensing = validate_sensing(&src, &sensing)?;
+    let (raw_solve, solve_span) = section(raw.solve);
+    let mut solve = validate_solve(&src, &raw_solve)?;
+    let (raw_sensing, _) = section(raw.sensing);
+    let sensing = validate_sensing(&src, &raw_sensing)?;
+    if solve.mode == SolveMode::Transient {
+        let case_dir = path.parent().unwrap_or(Path::new("."));
+        solve.transient = Some(super::transient::validate_transient(
+            &src,
+            &raw_solve,
+            solve_span.as_ref(),
+            &raw_sensing,
+            &cells,
+            &flow,
+            placed.layout.cells.len(),
+            case_dir,
+        )?);
+    } else if let Some((key, span)) =
+        super::transient::transient_only_keys(&raw_solve, &raw_sensing, &cells, &flow).into_iter().next()
+    {
+        return Err(src.error(
+            &key,
+            Some(&span),
+            format!("{key} is only used when solve.mode = \"transient\""),
+        ));
+    }
     let (output, _) = section(raw.output);
     let output = validate_output(&src, &output)?;
 
@@ -352,18 +368,13 @@ fn validate_ligand(
     Ok(LigandParameters { diffusivity, decay_rate, inlet_concentration, uptake })
 }
 
-/// `[solve]`: only the steady mode exists; transient keys are refused, not ignored.
+/// `[solve]`: the mode and the linear-solver keys; the transient keys are checked in `transient.rs`.
 fn validate_solve(src: &Source, solve: &RawSolve) -> Result<SolveSettings, CaseError> {
+    let mut mode_value = SolveMode::Steady;
     if let Some(mode) = &solve.mode {
         match mode.get_ref().as_str() {
             "steady" => {}
-            "transient" => {
-                return Err(src.error(
-                    "solve.mode",
-                    Some(&mode.span()),
-                    "solve.mode = \"transient\" is not implemented yet (planned; use \"steady\")",
-                ))
-            }
+            "transient" => mode_value = SolveMode::Transient,
             other => {
                 return Err(src.error(
                     "solve.mode",
@@ -373,19 +384,17 @@ fn validate_solve(src: &Source, solve: &RawSolve) -> Result<SolveSettings, CaseE
             }
         }
     }
-    for (key, value) in [
-        ("solve.end_time", &solve.end_time),
-        ("solve.time_step", &solve.time_step),
-        ("solve.output_every", &solve.output_every),
-    ] {
-        if let Some(v) = value {
-            // Check the unit first so that a typo is reported as such.
-            src.quantity(key, v, Dimension::TIME, Range0::Positive)?;
-            return Err(src.not_implemented(key, &v.span(), "transient solving"));
+    if mode_value == SolveMode::Steady {
+        for (key, value) in [
+            ("solve.end_time", &solve.end_time),
+            ("solve.time_step", &solve.time_step),
+            ("solve.output_every", &solve.output_every),
+        ] {
+            if let Some(v) = value {
+                // Check the unit first so that a typo is reported as such.
+                src.quantity(key, v, Dimension::TIME, Range0::Positive)?;
+            }
         }
-    }
-    if let Some(v) = &solve.adaptive {
-        return Err(src.not_implemented("solve.adaptive", &v.span(), "transient solving"));
     }
     let tolerance = src.quantity_or(
         "solve.tolerance",
@@ -406,7 +415,7 @@ fn validate_solve(src: &Source, solve: &RawSolve) -> Result<SolveSettings, CaseE
         Some(v) => src.whole_number("solve.max_iterations", v, 1)?,
         None => 300,
     };
-    Ok(SolveSettings { mode: SolveMode::Steady, tolerance, max_iterations })
+    Ok(SolveSettings { mode: mode_value, tolerance, max_iterations, transient: None })
 }
 
 /// `[sensing]`

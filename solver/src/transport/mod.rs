@@ -15,6 +15,7 @@ pub mod decay;
 pub mod diffusion;
 pub mod solve_steady;
 pub mod surface_exchange;
+pub mod transient;
 
 pub use assemble_transport::{assemble_transport, TransportAssembly};
 pub use solve_steady::{solve_steady, SteadyTransport, TransportError, TransportSettings};

@@ -5,8 +5,8 @@
 mod report;
 mod stages;
 
-use crate::case::Case;
-use crate::exit::SolverFailure;
+use crate::case::{Case, SolveMode};
+use crate::exit::{InputError, SolverFailure};
 use anyhow::{Context, Result};
 use solver::linalg::KrylovParams;
 use solver::solve_case::{solve_steady_case, SteadyCase, SteadySolution};
@@ -55,6 +55,13 @@ fn flow_resolution_warning(case: &Case) -> Option<String> {
 
 /// Solves `case` and writes `fields.h5`, `fields.xmf`, `cells.csv` and `summary.json` into `out_dir`.
 pub fn execute(case: &Case, out_dir: &Path, _threads: Option<usize>) -> Result<()> {
+    if case.solve.mode == SolveMode::Transient {
+        return Err(InputError(
+            "solve.mode = \"transient\" is validated, and solved by solver::transport::transient, but `run` does not write transient outputs yet"
+                .into(),
+        )
+        .into());
+    }
     for warning in &case.warnings {
         eprintln!("warning: {warning}");
     }

@@ -7,6 +7,10 @@ pub mod isolated_sphere;
 pub mod low_peclet_darcy;
 pub mod mass_balance_dense;
 pub mod setup;
+pub mod transient_puff;
+pub mod transient_setup;
+pub mod transient_sphere;
+pub mod transient_steady_limit;
 
 /// A verification case that could not be set up or solved.
 #[derive(thiserror::Error, Debug)]
@@ -17,6 +21,8 @@ pub enum VerifyError {
     Layout(#[from] mesh::layout::LayoutError),
     #[error(transparent)]
     Reference(#[from] crate::reference::ReferenceError),
+    #[error("{0}")]
+    Transient(String),
 }
 
 /// How thorough a verification run is.
@@ -103,6 +109,12 @@ pub fn run_all(tier: Tier, progress: &mut dyn FnMut(&str)) -> Result<Vec<Check>,
     checks.extend(low_peclet_darcy::run(tier)?);
     progress("mass balance, dense random layout");
     checks.extend(mass_balance_dense::run(tier)?);
+    progress("switched-on sphere in time");
+    checks.extend(transient_sphere::run(tier)?);
+    progress("Gaussian puff in a periodic box");
+    checks.extend(transient_puff::run(tier)?);
+    progress("long-time limit of a transient run");
+    checks.extend(transient_steady_limit::run(tier)?);
     progress("Brinkman flow past a sphere");
     checks.extend(brinkman_sphere::run(tier)?);
     Ok(checks)

@@ -1,0 +1,500 @@
+//! The time loop: variable-step BDF2 on the assembled steady operator, cut at every event and output time,
+//! optionally adaptive, with the per-step mass balance, the sensing window and the approach to steady state.
+
+use super::balance::{step_balance, BalanceForms, StepBalance};
+use super::bdf::{coefficients, milne_factor, quadratic_extrapolation_weights, MAX_STEP_GROWTH};
+use super::far_field_switch_on::SwitchedOnFarField;
+use super::sensing_window::{cell_rates, WindowCounts};
+use super::sources::{add_facet_sources, cells_on, switched_exchanges};
+use super::state::{Crossings, TransientState};
+use super::step_solver::StepSolver;
+use super::{
+    FlowPhase, StepReport, TimeStepping, TransientError, TransientObserver, TransientOutput,
+    TransientProblem, TransientSettings,
+};
+use crate::post::{cell_sensing, CellSensing};
+use crate::problem::{ChamberFace, SurfaceUptake};
+use crate::transport::advection::deferred_correction;
+use crate::transport::chamber_faces::BoundaryExchange;
+use crate::transport::surface_exchange::{released_per_cell, FacetExchange};
+use crate::transport::{assemble_transport, TransportProblem};
+
+/// Everything that stays fixed during one flow phase.
+struct PhaseSystem<'a> {
+    phase: FlowPhase<'a>,
+    solver: StepSolver,
+    /// Exchanges with every cell secreting.
+    facets: Vec<FacetExchange>,
+    /// Non-far-field chamber faces.
+    boundary: Vec<BoundaryExchange>,
+    decay: Vec<f64>,
+    far_field: SwitchedOnFarField,
+    /// Right-hand side of the chamber faces (inlet inflow).
+    boundary_rhs: Vec<f64>,
+    upwinded: bool,
+}
+
+impl<'a> PhaseSystem<'a> {
+    fn build(problem: &TransientProblem<'a>, phase: FlowPhase<'a>, settings: &TransientSettings) -> Self {
+        let mut without_far_field = problem.boundaries;
+        for faces in without_far_field.faces.iter_mut() {
+            for face in faces.iter_mut() {
+                if *face == ChamberFace::FarField {
+                    *face = ChamberFace::Wall;
+                }
+            }
+        }
+        let steady_problem = TransportProblem {
+            geometry: problem.geometry,
+            stencils: problem.stencils,
+            layout: problem.layout,
+            boundaries: without_far_field,
+            ligand: problem.ligand,
+            face_flux: phase.face_flux,
+            far_field_speed: phase.mean_velocity,
+        };
+        let assembly = assemble_transport(&steady_problem);
+        let far_field = SwitchedOnFarField::build(
+            problem.geometry,
+            problem.layout,
+            &problem.boundaries,
+            &problem.ligand,
+            phase.face_flux,
+            phase.mean_velocity,
+        );
+        let volume = problem.geometry.grid.cell_volume();
+        let fluid_volume: Vec<f64> =
+            problem.geometry.volume_fraction.iter().map(|phi| phi * volume).collect();
+        let mut boundary_rhs = vec![0.0; fluid_volume.len()];
+        for b in &assembly.boundary {
+            boundary_rhs[b.grid_cell] += b.inflow_constant;
+        }
+        let steady_far_field: Vec<(usize, f64)> = far_field.coefficients(None).collect();
+        let solver =
+            StepSolver::new(assembly.system, fluid_volume, steady_far_field, settings.multigrid.clone());
+        PhaseSystem {
+            phase,
+            solver,
+            facets: assembly.facets,
+            boundary: assembly.boundary,
+            decay: assembly.decay,
+            far_field,
+            boundary_rhs,
+            upwinded: assembly.peclet.upwinded_faces > 0,
+        }
+    }
+}
+
+/// Per-cell geometry the sensing rates need.
+struct CellGeometry {
+    radius: Vec<f64>,
+    area: Vec<f64>,
+}
+
+/// Flux-weighted concentration leaving through the outlet faces (molecules/m³), if anything leaves there.
+pub fn outlet_concentration(problem: &TransientProblem, face_flux: &[Vec<f64>; 3], c: &[f64]) -> Option<f64> {
+    let grid = &problem.geometry.grid;
+    let (mut flux, mut carried) = (0.0, 0.0);
+    for axis in mesh::Axis::ALL {
+        let a = axis.index();
+        let (b, d) = ((a + 1) % 3, (a + 2) % 3);
+        for side in 0..2 {
+            if problem.boundaries.faces[a][side] != ChamberFace::Outlet {
+                continue;
+            }
+            let outward = if side == 0 { -1.0 } else { 1.0 };
+            for v in 0..grid.shape[d] {
+                for u in 0..grid.shape[b] {
+                    let mut cell = [0usize; 3];
+                    cell[a] = if side == 0 { 0 } else { grid.shape[a] - 1 };
+                    cell[b] = u;
+                    cell[d] = v;
+                    let mut face = cell;
+                    face[a] = if side == 0 { 0 } else { grid.shape[a] };
+                    let q = outward * face_flux[a][grid.face_index(axis, face[0], face[1], face[2])];
+                    if q > 0.0 {
+                        flux += q;
+                        carried += q * c[grid.index(cell[0], cell[1], cell[2])];
+                    }
+                }
+            }
+        }
+    }
+    (flux > 0.0).then(|| carried / flux)
+}
+
+/// The initial state of a run starting at `start_time` from `initial` (one value per grid cell).
+pub fn initial_state(
+    problem: &TransientProblem,
+    settings: &TransientSettings,
+    initial: Vec<f64>,
+) -> TransientState {
+    let cells = problem.layout.cells.len();
+    let first_step = match settings.stepping {
+        TimeStepping::Fixed { step } => step,
+        TimeStepping::Adaptive { initial_step, .. } => initial_step,
+    };
+    TransientState {
+        time: settings.start_time,
+        steps: 0,
+        rejected_steps: 0,
+        krylov_iterations: 0,
+        concentration: initial,
+        previous: Vec::new(),
+        next_step: first_step,
+        counts: WindowCounts::new(cells),
+        last_rates: Vec::new(),
+        crossings: Crossings::new(cells),
+        outputs_done: 0,
+        worst_balance_error: 0.0,
+        stopped_at_steady: false,
+    }
+}
+
+/// Runs from `state` to `settings.end_time` (or to steady state), telling `observer` about every accepted step
+/// and every output time. Returns the final state.
+pub fn integrate(
+    problem: &TransientProblem,
+    settings: &TransientSettings,
+    mut state: TransientState,
+    observer: &mut dyn TransientObserver,
+) -> Result<TransientState, TransientError> {
+    let n = problem.geometry.grid.len();
+    if state.concentration.len() != n {
+        return Err(TransientError::InitialLength { found: state.concentration.len(), expected: n });
+    }
+    let cells = problem.layout.cells.len();
+    let geometry = problem.geometry;
+    let mut area = vec![0.0; cells];
+    for f in &geometry.facets {
+        area[f.owner] += f.area;
+    }
+    let cell_geometry =
+        CellGeometry { radius: problem.layout.cells.iter().map(|c| c.radius).collect(), area };
+
+    // Times at which a step must end, and which of them restart the BDF history.
+    let mut restarts: Vec<f64> = problem.secretion_start.to_vec();
+    restarts.extend(problem.phases.iter().skip(1).map(|p| p.start));
+    let mut marks: Vec<f64> = restarts.clone();
+    marks.extend(settings.output_times.iter().copied());
+    marks.push(settings.window_start);
+    marks.push(settings.end_time);
+    marks.retain(|&t| t > settings.start_time && t <= settings.end_time);
+    marks.sort_by(f64::total_cmp);
+    marks.dedup();
+    let last_event =
+        restarts.iter().copied().filter(|&t| t <= settings.end_time).fold(settings.start_time, f64::max);
+    let switch_on_time = problem.secretion_start.iter().copied().fold(f64::INFINITY, f64::min);
+
+    let phase_at = |t: f64| problem.phases.iter().rposition(|p| p.start <= t).unwrap_or(0);
+    // The phase of the next step is the one in force just after the current time.
+    let mut phase_index = phase_at(state.time);
+    let mut system = PhaseSystem::build(problem, problem.phases[phase_index], settings);
+    let mut on = cells_on(&problem.secretion_start, state.time);
+    let mut facets_now = switched_exchanges(geometry, &system.facets, &on);
+
+    // Rates at the start (or resume) time.
+    if state.last_rates.is_empty() {
+        let sensing = sense(problem, &system, &facets_now, &state.concentration);
+        state.last_rates = cell_rates(
+            &sensing,
+            problem.ligand.uptake,
+            problem.ligand.diffusivity,
+            &cell_geometry.radius,
+            &cell_geometry.area,
+            &released_per_cell(geometry, &facets_now, cells),
+        );
+    }
+    let eps = 1e-9 * (settings.end_time - settings.start_time).abs().max(f64::MIN_POSITIVE);
+
+    while state.time < settings.end_time - eps && !state.stopped_at_steady {
+        let t = state.time;
+        let next_mark = marks.iter().copied().find(|&m| m > t + eps).unwrap_or(settings.end_time);
+        let mut dt = state.next_step;
+        let adaptive = matches!(settings.stepping, TimeStepping::Adaptive { .. });
+        loop {
+            // End the step on the next mark when it would reach it (adaptive: split the remainder evenly rather
+            // than leave a sliver).
+            let mut t_new = t + dt;
+            if t_new >= next_mark - eps {
+                t_new = next_mark;
+            } else if adaptive && next_mark - t_new < 0.5 * dt {
+                t_new = t + 0.5 * (next_mark - t);
+            }
+            let h = t_new - t;
+            if h <= eps * 1e-3 {
+                return Err(TransientError::StepTooSmall { time: t, step: h });
+            }
+
+            // Phase and sources of this step (evaluated at its end).
+            let new_phase = phase_at(t_new - 0.5 * h);
+            if new_phase != phase_index {
+                phase_index = new_phase;
+                system = PhaseSystem::build(problem, problem.phases[phase_index], settings);
+                facets_now = switched_exchanges(geometry, &system.facets, &on);
+            }
+            let on_new = cells_on(&problem.secretion_start, t_new);
+            if on_new != on {
+                on = on_new;
+                facets_now = switched_exchanges(geometry, &system.facets, &on);
+            }
+
+            // BDF order: first order without history or after a large jump in step size.
+            let previous_step = state.previous.first().map(|(tp, _)| t - tp);
+            let previous_step = previous_step.filter(|&p| h / p <= MAX_STEP_GROWTH * 1.0001);
+            let alpha = coefficients(h, previous_step);
+            let history_c1 = previous_step.and(state.previous.first().map(|(_, c)| c.as_slice()));
+            let sigma = alpha[0] / h;
+
+            let age = if settings.switched_on_far_field { Some(t_new - switch_on_time) } else { None };
+            let far_field: Vec<(usize, f64)> = system.far_field.coefficients(age).collect();
+            system.solver.set_step(sigma, far_field.iter().copied());
+
+            // Right-hand side: chamber faces + sources + history.
+            let mut forcing = system.boundary_rhs.clone();
+            add_facet_sources(geometry, &facets_now, &mut forcing);
+            let forcing_norm = forcing.iter().map(|v| v * v).sum::<f64>().sqrt();
+            let mut rhs = forcing;
+            let volume = system.solver.fluid_volume();
+            for (p, r) in rhs.iter_mut().enumerate() {
+                let mut past = -alpha[1] * state.concentration[p];
+                if let Some(c1) = history_c1 {
+                    past -= alpha[2] * c1[p];
+                }
+                *r += volume[p] * past / h;
+            }
+            let rhs_norm = rhs.iter().map(|v| v * v).sum::<f64>().sqrt();
+            let target =
+                settings.krylov.relative_tolerance * if forcing_norm > 0.0 { forcing_norm } else { rhs_norm };
+
+            // Initial guess: extrapolation of the history.
+            let mut c_new = extrapolate(&state, t_new, history_c1.is_some());
+            let mut iterations = 0;
+            let mut outer = 0;
+            loop {
+                let mut step_rhs = rhs.clone();
+                if system.upwinded {
+                    let correction = deferred_correction(
+                        geometry,
+                        system.phase.face_flux,
+                        problem.ligand.diffusivity,
+                        &c_new,
+                    );
+                    step_rhs.iter_mut().zip(&correction).for_each(|(b, k)| *b += k);
+                }
+                let before = system.upwinded.then(|| c_new.clone());
+                let info = system
+                    .solver
+                    .solve(&step_rhs, &mut c_new, target, settings.krylov.max_iterations)
+                    .map_err(|e| TransientError::Solve { time: t_new, message: e.to_string() })?;
+                iterations += info.iterations;
+                outer += 1;
+                let Some(before) = before else { break };
+                let change = relative_change(&before, &c_new);
+                if change <= settings.krylov.relative_tolerance {
+                    break;
+                }
+                if outer >= settings.max_outer_iterations {
+                    return Err(TransientError::Solve {
+                        time: t_new,
+                        message: format!(
+                            "deferred-correction iterations did not settle (change {change:.3e})"
+                        ),
+                    });
+                }
+            }
+            if c_new.iter().any(|v| !v.is_finite()) {
+                return Err(TransientError::Solve {
+                    time: t_new,
+                    message: "non-finite concentration".into(),
+                });
+            }
+
+            // Embedded error estimate (needs two earlier solutions at BDF2).
+            let mut factor = MAX_STEP_GROWTH;
+            if let TimeStepping::Adaptive { tolerance, max_step, .. } = settings.stepping {
+                if history_c1.is_some() && state.previous.len() >= 2 {
+                    let (t1, c1) = &state.previous[0];
+                    let (t2, c2) = &state.previous[1];
+                    let steps = [h, t - t1, t1 - t2];
+                    let w = quadratic_extrapolation_weights(steps);
+                    let k = milne_factor(steps);
+                    let peak = c_new.iter().fold(0.0f64, |m, v| m.max(v.abs()));
+                    let mut worst = 0.0f64;
+                    for p in 0..n {
+                        let predicted = w[0] * state.concentration[p] + w[1] * c1[p] + w[2] * c2[p];
+                        worst = worst.max((c_new[p] - predicted).abs());
+                    }
+                    let error = if peak > 0.0 { k * worst / (tolerance * peak) } else { 0.0 };
+                    factor = (0.9 * error.max(1e-10).powf(-1.0 / 3.0)).clamp(0.2, MAX_STEP_GROWTH);
+                    if error > 1.0 {
+                        state.rejected_steps += 1;
+                        dt = h * factor.min(0.9);
+                        continue;
+                    }
+                }
+                factor = factor.min(max_step / h);
+            }
+
+            // Accept the step.
+            let balance_forms = BalanceForms {
+                facets: &facets_now,
+                boundary: &system.boundary,
+                far_field: &far_field,
+                decay: &system.decay,
+                fluid_volume: system.solver.fluid_volume(),
+            };
+            let balance = step_balance(
+                &balance_forms,
+                &c_new,
+                [Some(state.concentration.as_slice()), history_c1],
+                alpha,
+                h,
+            );
+            let sensing = sense(problem, &system, &facets_now, &c_new);
+            let rates = cell_rates(
+                &sensing,
+                problem.ligand.uptake,
+                problem.ligand.diffusivity,
+                &cell_geometry.radius,
+                &cell_geometry.area,
+                &released_per_cell(geometry, &facets_now, cells),
+            );
+            if t >= settings.window_start - eps {
+                state.counts.add_step(&state.last_rates, &rates, h);
+            }
+            let outlet = outlet_concentration(problem, system.phase.face_flux, &c_new);
+            let mut distance = None;
+            if let Some(steady) = &settings.steady {
+                let sensed: Vec<f64> = rates.iter().map(|r| r[1] + r[2]).collect();
+                let before: Vec<f64> = state.last_rates.iter().map(|r| r[1] + r[2]).collect();
+                state.crossings.update(
+                    t,
+                    t_new,
+                    &before,
+                    &sensed,
+                    &steady.sensed_rate,
+                    outlet,
+                    steady.outlet_concentration,
+                );
+                distance = Some(relative_change(&steady.concentration, &c_new));
+            }
+
+            let order = if history_c1.is_some() { 2 } else { 1 };
+            // Shift the history.
+            let old = std::mem::replace(&mut state.concentration, c_new);
+            state.previous.insert(0, (t, old));
+            state.previous.truncate(if adaptive { 2 } else { 1 });
+            state.time = t_new;
+            state.steps += 1;
+            state.krylov_iterations += iterations;
+            state.worst_balance_error = state.worst_balance_error.max(balance.relative_error);
+            state.last_rates = rates;
+            state.next_step = match settings.stepping {
+                TimeStepping::Fixed { step } => step,
+                TimeStepping::Adaptive { .. } => h * factor,
+            };
+            // Events restart the history (the next step is first order).
+            if restarts.iter().any(|&e| (e - t_new).abs() <= eps) {
+                state.previous.clear();
+            }
+            let at_output = settings.output_times.iter().any(|&o| (o - t_new).abs() <= eps);
+            if let (Some(tol), Some(d)) = (settings.stop_at_steady, distance) {
+                if t_new >= last_event - eps && d <= tol {
+                    state.stopped_at_steady = true;
+                }
+            }
+            let report = StepReport {
+                time: t_new,
+                step_size: h,
+                order,
+                iterations,
+                balance_error: balance.relative_error,
+                distance_to_steady: distance,
+            };
+            observer.step(&state, &report).map_err(TransientError::Observer)?;
+            if at_output || state.stopped_at_steady || state.time >= settings.end_time - eps {
+                emit(problem, &mut state, observer, &sensing, balance, outlet, at_output)?;
+            }
+            break;
+        }
+    }
+    Ok(state)
+}
+
+/// Tells the observer about an output time. A final state that is not a regular output time (early stop, end
+/// time off the output grid) is emitted as well, once.
+fn emit(
+    _problem: &TransientProblem,
+    state: &mut TransientState,
+    observer: &mut dyn TransientObserver,
+    sensing: &[CellSensing],
+    balance: StepBalance,
+    outlet: Option<f64>,
+    regular: bool,
+) -> Result<(), TransientError> {
+    let output = TransientOutput {
+        index: state.outputs_done,
+        time: state.time,
+        regular,
+        concentration: &state.concentration,
+        sensing,
+        counts: &state.counts,
+        balance,
+        outlet_concentration: outlet,
+    };
+    observer.output(&output).map_err(TransientError::Observer)?;
+    state.outputs_done += 1;
+    Ok(())
+}
+
+fn sense(
+    problem: &TransientProblem,
+    system: &PhaseSystem,
+    facets: &[FacetExchange],
+    c: &[f64],
+) -> Vec<CellSensing> {
+    cell_sensing(problem.geometry, problem.layout, facets, c, system.phase.velocity, &problem.sensing)
+}
+
+/// Guess for cⁿ⁺¹: linear extrapolation from the last two solutions, or cⁿ.
+fn extrapolate(state: &TransientState, t_new: f64, with_history: bool) -> Vec<f64> {
+    match state.previous.first() {
+        Some((t1, c1)) if with_history => {
+            let w = (t_new - state.time) / (state.time - t1);
+            state.concentration.iter().zip(c1).map(|(c0, c1)| c0 + w * (c0 - c1)).collect()
+        }
+        _ => state.concentration.clone(),
+    }
+}
+
+/// `‖a − b‖ / ‖a‖` (zero when both vanish).
+pub fn relative_change(reference: &[f64], value: &[f64]) -> f64 {
+    let num: f64 = reference.iter().zip(value).map(|(x, y)| (x - y) * (x - y)).sum();
+    let den: f64 = reference.iter().map(|y| y * y).sum();
+    if den == 0.0 {
+        num.sqrt()
+    } else {
+        (num / den).sqrt()
+    }
+}
+
+/// The sensed rate that [`cell_rates`] counts, for a steady field (for the approach-to-steady times).
+pub fn sensed_rates(
+    problem: &TransientProblem,
+    sensing: &[CellSensing],
+    facets: &[FacetExchange],
+) -> Vec<f64> {
+    let cells = problem.layout.cells.len();
+    let mut area = vec![0.0; cells];
+    for f in &problem.geometry.facets {
+        area[f.owner] += f.area;
+    }
+    let radius: Vec<f64> = problem.layout.cells.iter().map(|c| c.radius).collect();
+    let released = released_per_cell(problem.geometry, facets, cells);
+    let uptake: SurfaceUptake = problem.ligand.uptake;
+    cell_rates(sensing, uptake, problem.ligand.diffusivity, &radius, &area, &released)
+        .iter()
+        .map(|r| r[1] + r[2])
+        .collect()
+}

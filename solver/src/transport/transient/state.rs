@@ -1,0 +1,253 @@
+//! The state of a transient run between two steps: everything needed to continue it bit for bit (the
+//! checkpoint content), as plain numbers. [`TransientState::encode`] flattens it into one `f64` vector and
+//! [`TransientState::decode`] reads it back; the binary stores that vector (the solver touches no files).
+
+use super::sensing_window::WindowCounts;
+
+/// Fractions of the steady value whose first crossing times are recorded.
+pub const FRACTIONS: [f64; 2] = [0.9, 0.99];
+
+/// First times at which the outlet concentration and each cell's sensed rate reach 90% and 99% of their steady
+/// values (linear interpolation between the accepted steps; `None` until reached).
+#[derive(Clone, Debug, Default, PartialEq)]
+pub struct Crossings {
+    pub outlet: [Option<f64>; 2],
+    pub cells: Vec<[Option<f64>; 2]>,
+    last_outlet: Option<f64>,
+}
+
+impl Crossings {
+    pub fn new(cells: usize) -> Self {
+        Crossings { outlet: [None; 2], cells: vec![[None; 2]; cells], last_outlet: None }
+    }
+
+    /// Records crossings during the step `t0 → t1`.
+    #[allow(clippy::too_many_arguments)]
+    pub fn update(
+        &mut self,
+        t0: f64,
+        t1: f64,
+        before: &[f64],
+        after: &[f64],
+        steady: &[f64],
+        outlet: Option<f64>,
+        steady_outlet: Option<f64>,
+    ) {
+        for (i, slots) in self.cells.iter_mut().enumerate() {
+            record(slots, t0, t1, before[i], after[i], steady[i]);
+        }
+        if let (Some(now), Some(target)) = (outlet, steady_outlet) {
+            let previous = self.last_outlet.unwrap_or(0.0);
+            record(&mut self.outlet, t0, t1, previous, now, target);
+        }
+        self.last_outlet = outlet;
+    }
+}
+
+fn record(slots: &mut [Option<f64>; 2], t0: f64, t1: f64, v0: f64, v1: f64, steady: f64) {
+    if steady == 0.0 {
+        return;
+    }
+    for (slot, fraction) in slots.iter_mut().zip(FRACTIONS) {
+        if slot.is_some() {
+            continue;
+        }
+        let (a, b) = (v0 / steady, v1 / steady);
+        if b >= fraction {
+            let s = if (b - a).abs() > 0.0 { ((fraction - a) / (b - a)).clamp(0.0, 1.0) } else { 1.0 };
+            *slot = Some(t0 + s * (t1 - t0));
+        }
+    }
+}
+
+/// The run between two steps.
+#[derive(Clone, Debug, PartialEq)]
+pub struct TransientState {
+    /// Simulated time (s).
+    pub time: f64,
+    pub steps: usize,
+    pub rejected_steps: usize,
+    pub krylov_iterations: usize,
+    /// cⁿ per grid cell (molecules/m³).
+    pub concentration: Vec<f64>,
+    /// Earlier solutions (time, field), newest first; empty after a start or an event.
+    pub previous: Vec<(f64, Vec<f64>)>,
+    /// Step size planned for the next step (s).
+    pub next_step: f64,
+    pub counts: WindowCounts,
+    /// Per-cell `[bound, front, back]` rates at `time` (molecules/s).
+    pub last_rates: Vec<[f64; 3]>,
+    pub crossings: Crossings,
+    /// Output times written so far.
+    pub outputs_done: usize,
+    /// Largest relative mass-balance error of any step so far.
+    pub worst_balance_error: f64,
+    pub stopped_at_steady: bool,
+}
+
+/// Why a flattened state cannot be read back.
+#[derive(thiserror::Error, Debug, PartialEq)]
+#[error("the saved transient state is damaged or from another case ({0})")]
+pub struct DecodeError(pub &'static str);
+
+const MAGIC: f64 = 7_301_994.0;
+const NONE: f64 = f64::NAN;
+
+fn opt(v: Option<f64>) -> f64 {
+    v.unwrap_or(NONE)
+}
+
+impl TransientState {
+    /// One `f64` vector holding the whole state (counts as exact integers, `None` as NaN).
+    pub fn encode(&self) -> Vec<f64> {
+        let mut out = vec![MAGIC, self.time, self.steps as f64, self.rejected_steps as f64];
+        out.push(self.krylov_iterations as f64);
+        out.push(self.next_step);
+        out.push(self.outputs_done as f64);
+        out.push(self.worst_balance_error);
+        out.push(if self.stopped_at_steady { 1.0 } else { 0.0 });
+        let push_vec = |out: &mut Vec<f64>, v: &[f64]| {
+            out.push(v.len() as f64);
+            out.extend_from_slice(v);
+        };
+        push_vec(&mut out, &self.concentration);
+        out.push(self.previous.len() as f64);
+        for (t, c) in &self.previous {
+            out.push(*t);
+            push_vec(&mut out, c);
+        }
+        push_vec(&mut out, &self.counts.bound);
+        push_vec(&mut out, &self.counts.front);
+        push_vec(&mut out, &self.counts.back);
+        let rates: Vec<f64> = self.last_rates.iter().flatten().copied().collect();
+        push_vec(&mut out, &rates);
+        out.extend(self.crossings.outlet.map(opt));
+        out.push(opt(self.crossings.last_outlet));
+        let cells: Vec<f64> = self.crossings.cells.iter().flat_map(|c| c.map(opt)).collect();
+        push_vec(&mut out, &cells);
+        out.push(MAGIC);
+        out
+    }
+
+    /// Reads back what [`TransientState::encode`] wrote.
+    pub fn decode(data: &[f64]) -> Result<Self, DecodeError> {
+        let mut r = Reader { data, at: 0 };
+        if r.next()? != MAGIC {
+            return Err(DecodeError("wrong header"));
+        }
+        let time = r.next()?;
+        let steps = r.count()?;
+        let rejected_steps = r.count()?;
+        let krylov_iterations = r.count()?;
+        let next_step = r.next()?;
+        let outputs_done = r.count()?;
+        let worst_balance_error = r.next()?;
+        let stopped_at_steady = r.next()? == 1.0;
+        let concentration = r.vec()?;
+        let mut previous = Vec::new();
+        for _ in 0..r.count()? {
+            let t = r.next()?;
+            previous.push((t, r.vec()?));
+        }
+        let counts = WindowCounts { bound: r.vec()?, front: r.vec()?, back: r.vec()? };
+        let flat = r.vec()?;
+        let last_rates = flat.chunks_exact(3).map(|c| [c[0], c[1], c[2]]).collect();
+        let o = [r.optional()?, r.optional()?];
+        let last_outlet = r.optional()?;
+        let flat = r.vec()?;
+        let cells = flat.chunks_exact(2).map(|c| [as_opt(c[0]), as_opt(c[1])]).collect();
+        if r.next()? != MAGIC || r.at != data.len() {
+            return Err(DecodeError("wrong trailer"));
+        }
+        Ok(TransientState {
+            time,
+            steps,
+            rejected_steps,
+            krylov_iterations,
+            concentration,
+            previous,
+            next_step,
+            counts,
+            last_rates,
+            crossings: Crossings { outlet: o, cells, last_outlet },
+            outputs_done,
+            worst_balance_error,
+            stopped_at_steady,
+        })
+    }
+}
+
+fn as_opt(v: f64) -> Option<f64> {
+    (!v.is_nan()).then_some(v)
+}
+
+struct Reader<'a> {
+    data: &'a [f64],
+    at: usize,
+}
+
+impl Reader<'_> {
+    fn next(&mut self) -> Result<f64, DecodeError> {
+        let v = *self.data.get(self.at).ok_or(DecodeError("too short"))?;
+        self.at += 1;
+        Ok(v)
+    }
+    fn count(&mut self) -> Result<usize, DecodeError> {
+        let v = self.next()?;
+        if v < 0.0 || v.fract() != 0.0 || v > 9.0e15 {
+            return Err(DecodeError("bad count"));
+        }
+        Ok(v as usize)
+    }
+    fn optional(&mut self) -> Result<Option<f64>, DecodeError> {
+        Ok(as_opt(self.next()?))
+    }
+    fn vec(&mut self) -> Result<Vec<f64>, DecodeError> {
+        let n = self.count()?;
+        let end = self.at.checked_add(n).filter(|&e| e <= self.data.len()).ok_or(DecodeError("too short"))?;
+        let v = self.data[self.at..end].to_vec();
+        self.at = end;
+        Ok(v)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn encode_decode_round_trip() {
+        let mut crossings = Crossings::new(2);
+        crossings.update(0.0, 1.0, &[0.0, 0.0], &[0.95, 0.5], &[1.0, 1.0], Some(2.0), Some(2.0));
+        let state = TransientState {
+            time: 12.5,
+            steps: 7,
+            rejected_steps: 1,
+            krylov_iterations: 40,
+            concentration: vec![1.0, 2.0, 3.0],
+            previous: vec![(10.0, vec![0.5, 1.5, 2.5]), (7.5, vec![0.1, 0.2, 0.3])],
+            next_step: 2.5,
+            counts: WindowCounts { bound: vec![1.0, 2.0], front: vec![3.0, 4.0], back: vec![5.0, 6.0] },
+            last_rates: vec![[1.0, 2.0, 3.0], [4.0, 5.0, 6.0]],
+            crossings,
+            outputs_done: 3,
+            worst_balance_error: 1e-10,
+            stopped_at_steady: false,
+        };
+        let decoded = TransientState::decode(&state.encode()).unwrap();
+        assert_eq!(decoded, state);
+        assert!(decoded.crossings.cells[0][0].is_some() && decoded.crossings.cells[1][0].is_none());
+        let mut damaged = state.encode();
+        damaged.pop();
+        assert!(TransientState::decode(&damaged).is_err());
+    }
+
+    /// 90% of a rise from 0 to 1 over [0, 1] is crossed at 0.9 (linear interpolation).
+    #[test]
+    fn crossing_time_is_interpolated() {
+        let mut c = Crossings::new(1);
+        c.update(0.0, 1.0, &[0.0], &[1.0], &[1.0], None, None);
+        assert!((c.cells[0][0].unwrap() - 0.9).abs() < 1e-15);
+        assert!((c.cells[0][1].unwrap() - 0.99).abs() < 1e-15);
+    }
+}
