@@ -6,6 +6,7 @@
 
 mod boundaries;
 mod cells;
+mod decompose;
 mod error;
 mod grid_fit;
 pub mod raw;
@@ -48,6 +49,8 @@ pub struct SolveSettings {
 pub struct SensingSettings {
     /// Time over which a cell counts bound molecules (s) for the counting-noise direction error; default 1 h.
     pub integration_time: f64,
+    /// Which cells get the self/neighbour split; default `sample:4` (see `decompose.rs`).
+    pub decompose: solver::post::decompose::DecomposeSelection,
 }
 
 /// A field that `run` writes to `fields.h5`.

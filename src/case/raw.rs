@@ -183,6 +183,8 @@ pub struct RawSolve {
 #[serde(deny_unknown_fields)]
 pub struct RawSensing {
     pub integration_time: Value<RawNumber>,
+    /// Self/neighbour split: "all", "none", "sample:N" or a list of cell ids.
+    pub decompose: Value<toml::Value>,
     /// Transient: cumulative counts start here.
     pub window_start: Value<RawNumber>,
 }

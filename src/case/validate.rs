@@ -427,7 +427,8 @@ fn validate_sensing(src: &Source, sensing: &RawSensing) -> Result<SensingSetting
         Range0::Positive,
         3600.0,
     )?;
-    Ok(SensingSettings { integration_time })
+    let decompose = super::decompose::validate_decompose(src, sensing.decompose.as_ref())?;
+    Ok(SensingSettings { integration_time, decompose })
 }
 
 /// `[output]`

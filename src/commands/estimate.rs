@@ -10,13 +10,19 @@ use std::fmt::Write as _;
 use std::path::Path;
 
 use serde_json::json;
+use solver::linalg::{KrylovParams, MultigridParams};
+use solver::post::decompose::{decompose, DecomposeInputs, DecomposeSelection};
 use solver::post::estimates::{
     biot_number, estimate_cell_sensing, homogenised_source_and_sink, isolated_anisotropy, CellEstimateInputs,
     ColumnInlet, IsolatedFlow, MeanFieldColumn, SensingEstimate,
 };
+use solver::post::{CellSensing, SensingModel};
 use solver::problem::{ChamberFace, MediumModel, SurfaceUptake};
+use solver::solve_case::SteadySolution;
 
 use crate::case::Case;
+use crate::exit::{InputError, SolverFailure};
+use crate::io::table::{CellTable, Column, ColumnValues};
 
 /// Memory of a Darcy `run` per grid cell (bytes), measured on cases/demo.toml (1.0e6 grid cells, 300 cells:
 /// peak resident set 574 MB, see DEVELOPERS.md "Estimates"); the run is dominated by arrays proportional to
@@ -488,8 +494,7 @@ fn forecast(case: &Case) -> Forecast {
 
 /// How many cells the run will decompose (see `[sensing] decompose`).
 fn decomposed_count(case: &Case) -> usize {
-    let _ = case;
-    0
+    case.sensing.decompose.choose(case.layout.cells.len()).len()
 }
 
 /// The flow model a medium implies, for reports.
@@ -519,4 +524,157 @@ pub fn execute(case_path: &Path, json: bool) -> anyhow::Result<()> {
         print!("{}", estimates.table(&case));
     }
     Ok(())
+}
+
+/// Names of the estimate columns that `run` appends after the contract columns of `cells.csv`.
+pub const ESTIMATE_COLUMNS: [&str; 7] = [
+    "estimate_background",
+    "estimate_mean_surface_concentration",
+    "estimate_anisotropy_along_flow",
+    "estimate_direction_error",
+    "mean_surface_concentration_over_estimate",
+    "anisotropy_along_flow_over_estimate",
+    "direction_error_over_estimate",
+];
+
+/// The estimate for every cell beside its measured sensing: the estimate columns and the measured/estimate
+/// ratios (NaN where no estimate applies, e.g. absorbing cells or a chamber without a mean field).
+pub fn estimate_columns(case: &Case, sensing: &[CellSensing]) -> Vec<Column> {
+    let estimates = CaseEstimates::for_case(case);
+    let per_cell: Vec<Option<SensingEstimate>> =
+        case.layout.cells.iter().map(|c| estimates.cell(c)).collect();
+    let pick = |f: &dyn Fn(&SensingEstimate) -> f64| -> Vec<f64> {
+        per_cell.iter().map(|e| e.as_ref().map_or(f64::NAN, f)).collect()
+    };
+    let ratio =
+        |measured: &dyn Fn(&CellSensing) -> f64, estimate: &dyn Fn(&SensingEstimate) -> f64| -> Vec<f64> {
+            sensing
+                .iter()
+                .zip(&per_cell)
+                .map(|(s, e)| e.as_ref().map_or(f64::NAN, |e| measured(s) / estimate(e)))
+                .collect()
+        };
+    let names = ESTIMATE_COLUMNS;
+    vec![
+        Column::real(names[0], "molecules/m^3", "mean-field background at the cell's x (1-D advection-diffusion with the homogenised cells)", pick(&|e| e.background)),
+        Column::real(names[1], "molecules/m^3", "estimated mean surface concentration: own isolated-cell value plus the background seen through the surface", pick(&|e| e.mean_surface_concentration)),
+        Column::real(names[2], "1", "estimated anisotropy along the flow: own low-Peclet cloud, background uptake and background gradient", pick(&|e| e.anisotropy_along_flow)),
+        Column::real(names[3], "1", "estimated direction error over sensing.integration_time", pick(&|e| e.direction_error)),
+        Column::real(names[4], "1", "measured / estimated mean surface concentration", ratio(&|s| s.mean_surface_concentration, &|e| e.mean_surface_concentration)),
+        Column::real(names[5], "1", "measured / estimated anisotropy along the flow", ratio(&|s| s.anisotropy_along_flow, &|e| e.anisotropy_along_flow)),
+        Column::real(names[6], "1", "measured / estimated direction error", ratio(&|s| s.direction_error, &|e| e.direction_error)),
+    ]
+}
+
+/// Columns of the self/neighbour split (NaN for cells not chosen).
+pub const SPLIT_COLUMNS: [&str; 4] =
+    ["self_anisotropy_along_flow", "self_bound_rate", "neighbour_bound_rate", "signal_fraction"];
+
+/// The self/neighbour split of a run: its `cells.csv` columns and its summary.
+pub struct SelfNeighbourSplit {
+    pub columns: Vec<Column>,
+    pub summary: serde_json::Value,
+}
+
+/// Solves the own field of each cell chosen by `[sensing] decompose` (one extra right-hand side each, on the
+/// operator of the total solve) and turns the split into columns.
+pub fn split_self_and_neighbours(case: &Case, solved: &SteadySolution) -> anyhow::Result<SelfNeighbourSplit> {
+    let cells = case.layout.cells.len();
+    if let DecomposeSelection::Cells(ids) = &case.sensing.decompose {
+        if let Some(bad) = ids.iter().find(|&&id| id >= cells) {
+            return Err(InputError(format!(
+                "sensing.decompose lists cell id {bad}, but the layout has {cells} cells (ids 0 to {})",
+                cells.saturating_sub(1)
+            ))
+            .into());
+        }
+    }
+    let chosen = case.sensing.decompose.choose(cells);
+    let mut columns: Vec<Vec<f64>> = vec![vec![f64::NAN; cells]; SPLIT_COLUMNS.len()];
+    let mut summary = json!({ "selection": format!("{:?}", case.sensing.decompose), "cells": chosen.len() });
+    if !chosen.is_empty() {
+        let inputs = DecomposeInputs {
+            geometry: &solved.geometry,
+            layout: &case.layout,
+            assembly: &solved.transport.assembly,
+            face_flux: &solved.flow.face_flux,
+            diffusivity: case.ligand.diffusivity,
+            total: &solved.transport.concentration,
+            sensing: &solved.sensing,
+            model: SensingModel {
+                uptake: case.ligand.uptake,
+                diffusivity: case.ligand.diffusivity,
+                integration_time: case.sensing.integration_time,
+            },
+            krylov: KrylovParams {
+                relative_tolerance: case.solve.tolerance,
+                max_iterations: case.solve.max_iterations,
+            },
+            multigrid: MultigridParams::default(),
+            max_outer_iterations: 50,
+        };
+        let split = decompose(&inputs, &chosen, false)
+            .map_err(|e| anyhow::Error::new(SolverFailure { message: e.to_string() }))?;
+        for s in &split.cells {
+            columns[0][s.cell] = s.self_anisotropy_along_flow;
+            columns[1][s.cell] = s.self_bound_rate;
+            columns[2][s.cell] = s.neighbour_bound_rate;
+            columns[3][s.cell] = s.signal_fraction;
+        }
+        summary = json!({
+            "selection": format!("{:?}", case.sensing.decompose),
+            "cells": chosen.len(),
+            "setup_s": split.setup_seconds,
+            "solve_s": split.solve_seconds,
+            "seconds_per_right_hand_side": split.solve_seconds / split.right_hand_sides.max(1) as f64,
+            "transport_s": solved.timing[2],
+            "iterations": split.cells.iter().map(|s| s.iterations).collect::<Vec<_>>(),
+        });
+    }
+    let descriptions = [
+        ("1", "anisotropy along the local flow of the cell's own field alone (its secretion in the full geometry and flow); NaN if not decomposed"),
+        ("molecules/s", "ligand bound from the cell's own secretion"),
+        ("molecules/s", "ligand bound from the other cells and the inlet (total minus own)"),
+        ("1", "share of the directional signal (first moment of the sensed flux along the flow) from the cell's own secretion"),
+    ];
+    let columns = SPLIT_COLUMNS
+        .iter()
+        .zip(descriptions)
+        .zip(columns)
+        .map(|((name, (unit, description)), values)| Column::real(name, unit, description, values))
+        .collect();
+    Ok(SelfNeighbourSplit { columns, summary })
+}
+
+/// Median, 10th and 90th percentile (linear interpolation between order statistics, common practice) of every
+/// estimate, ratio and split column of `table`, over the finite values.
+pub fn column_aggregates(table: &CellTable) -> serde_json::Value {
+    let mut out = serde_json::Map::new();
+    for name in ESTIMATE_COLUMNS
+        .iter()
+        .chain(SPLIT_COLUMNS.iter())
+        .chain(["anisotropy_along_flow", "direction_error"].iter())
+    {
+        let Some(column) = table.column(name) else { continue };
+        let ColumnValues::Real(values) = &column.values else { continue };
+        let mut finite: Vec<f64> = values.iter().copied().filter(|v| v.is_finite()).collect();
+        finite.sort_by(f64::total_cmp);
+        let q = |p: f64| quantile(&finite, p);
+        out.insert(
+            name.to_string(),
+            json!({ "median": q(0.5), "p10": q(0.1), "p90": q(0.9), "count": finite.len() }),
+        );
+    }
+    serde_json::Value::Object(out)
+}
+
+/// `p`-quantile of sorted values (linear between order statistics); `None` when empty.
+pub fn quantile(sorted: &[f64], p: f64) -> Option<f64> {
+    if sorted.is_empty() {
+        return None;
+    }
+    let x = p.clamp(0.0, 1.0) * (sorted.len() - 1) as f64;
+    let (i, t) = (x.floor() as usize, x - x.floor());
+    let j = (i + 1).min(sorted.len() - 1);
+    Some(sorted[i] + t * (sorted[j] - sorted[i]))
 }

@@ -22,7 +22,7 @@ pub fn cell_table(case: &Case, solved: &SolvedCase) -> CellTable {
     let real = |name: &str, unit: &str, description: &str, values: Vec<f64>| {
         Column::real(name, unit, description, values)
     };
-    CellTable {
+    let mut table = CellTable {
         columns: vec![
             Column::int("id", "1", "cell identifier (row order of the layout)", cells.iter().map(|c| c.id as u64).collect()),
             real("x", "m", "centre x", cells.iter().map(|c| c.centre[0]).collect()),
@@ -44,7 +44,10 @@ pub fn cell_table(case: &Case, solved: &SolvedCase) -> CellTable {
             real("local_speed", "m/s", "superficial speed averaged over the fluid shell a < r < 2a around the cell", s.iter().map(|c| c.local_speed).collect()),
             real("pressure_front_back", "Pa", "pressure at the upstream pole minus the downstream pole along the local flow", solved.pressure_front_back.clone()),
         ],
-    }
+    };
+    // Estimates beside the measured columns, after the contract columns (DESIGN.md §6).
+    table.columns.extend(crate::commands::estimate::estimate_columns(case, s));
+    table
 }
 
 fn field_data(case: &Case, solved: &SolvedCase) -> Vec<FieldData> {
@@ -109,7 +112,9 @@ pub fn write_outputs(
     started: Instant,
     write_started: Instant,
 ) -> Result<()> {
-    let table = cell_table(case, solved);
+    let mut table = cell_table(case, solved);
+    let split = crate::commands::estimate::split_self_and_neighbours(case, solved)?;
+    table.columns.extend(split.columns);
     let fields = field_data(case, solved);
     let provenance = Provenance {
         version: env!("CARGO_PKG_VERSION").to_string(),
@@ -199,6 +204,9 @@ pub fn write_outputs(
             "isolated_anisotropy": isolated,
             "peclet_cell": case.flow.mean_velocity * case.cell_radius / d,
             "peclet_chamber": case.flow.mean_velocity * case.chamber_size[0] / d,
+            "per_cell": crate::commands::estimate::column_aggregates(&table),
+            "self_neighbour": split.summary,
+            "case": crate::commands::estimate::CaseEstimates::for_case(case).to_json(),
         },
         "cells": { "count": count, "volume_fraction": cell_volume_fraction, "number_density": number_density },
         "warnings": case.warnings.iter().chain(warnings).collect::<Vec<_>>(),
