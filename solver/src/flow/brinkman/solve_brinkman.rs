@@ -159,7 +159,7 @@ pub fn solve_brinkman(
     if x.iter().any(|v| !v.is_finite()) {
         return Err(BrinkmanError::NonFinite { iteration: info.iterations });
     }
-    let memory_bytes = system.memory_bytes() + 8 * system.len() * (settings.restart + 5);
+    let memory_bytes = system.memory_bytes() + 8 * system.len() * (2 * settings.restart + 5);
 
     let mut u: [Vec<f64>; 3] = [0, 1, 2].map(|c| x[ranges[c].clone()].to_vec());
     let mut pressure: Vec<f64> = x[ranges[3].clone()]
