@@ -5,7 +5,9 @@
 //! system, so the stopping test `‖b − A x‖ / ‖b‖ ≤ tol` is the user's; it is confirmed with the true residual
 //! before returning, and the iteration restarts from the true residual if the two drifted apart.
 
-use super::vector::{axpy, axpy_norm2, dot, dot2, norm, residual_from_product, update_direction};
+use super::vector::{
+    axpy, axpy_norm2, axpy_norm2_dot, dot, dot2, norm, residual_from_product, update_direction,
+};
 use thiserror::Error;
 
 /// Stopping rule of the Krylov iteration.
@@ -85,6 +87,8 @@ pub fn bicgstab(
     let (mut rho, mut alpha, mut omega) = (1.0, 1.0, 1.0);
     let mut iteration = 0;
     let mut restarts_in_a_row = 0;
+    // r0·r of the next iteration, when the last residual update computed it on the way (fused pass).
+    let mut next_rho: Option<f64> = None;
     let no_convergence = |iterations: usize, relative: f64, history: Vec<f64>| SolveError::NoConvergence {
         iterations,
         relative_residual: relative,
@@ -92,7 +96,7 @@ pub fn bicgstab(
     };
     while iteration < params.max_iterations {
         iteration += 1;
-        let rho_new = dot(&r0, &r);
+        let rho_new = next_rho.take().unwrap_or_else(|| dot(&r0, &r));
         if !rho_new.is_finite() {
             return Err(SolveError::NonFinite { iteration });
         }
@@ -147,7 +151,9 @@ pub fn bicgstab(
                 return Err(SolveError::NonFinite { iteration });
             }
             axpy(omega, &y, x);
-            relative = axpy_norm2(omega, &t, &mut r).sqrt() / b_norm;
+            let (r2, r0r) = axpy_norm2_dot(omega, &t, &mut r, &r0);
+            relative = r2.sqrt() / b_norm;
+            next_rho = Some(r0r);
             if !relative.is_finite() {
                 return Err(SolveError::NonFinite { iteration });
             }
@@ -155,6 +161,7 @@ pub fn bicgstab(
         };
         if converged {
             // Confirm with the true residual; restart from it if the recursion drifted.
+            next_rho = None;
             relative = true_residual(x, &mut r);
             history.push(relative);
             if !relative.is_finite() {

@@ -44,57 +44,126 @@ pub(crate) struct ColouredStencil<T> {
     colours: [ColourCoefficients<T>; 2],
 }
 
-/// Row P of the operator in f64 before scaling: diagonal and the six neighbour coefficients (0 across a
-/// non-periodic boundary or next to an inactive cell; identity for an inactive cell), as in
-/// [`super::stencil::Stencil7`].
-fn row(op: &FaceCoupledOperator, scheme: AdvectionScheme, ijk: [usize; 3]) -> (f64, [f64; 3], [f64; 3]) {
-    let shape = op.shape;
-    let stride = [1, shape[0], shape[0] * shape[1]];
-    let p = ijk[0] + shape[0] * (ijk[1] + shape[1] * ijk[2]);
-    let mut lower = [0.0; 3];
-    let mut upper = [0.0; 3];
-    if !op.active[p] {
-        return (1.0, lower, upper);
+/// Where the faces and neighbours of the cells of one x-line live, for assembling their rows.
+struct LineRows<'a> {
+    op: &'a FaceCoupledOperator,
+    scheme: AdvectionScheme,
+    nx: usize,
+    /// First cell of the line.
+    base: usize,
+    /// First x-face of the line (faces `nx + 1` per line; the wrap-around face is the first).
+    x_face: usize,
+    wrap_x: bool,
+    /// Along y and z: the neighbour line's first cell and the first face between, below and above (None across a
+    /// non-periodic boundary or along an axis of size 1).
+    below: [Option<(usize, usize)>; 2],
+    above: [Option<(usize, usize)>; 2],
+}
+
+impl<'a> LineRows<'a> {
+    fn new(op: &'a FaceCoupledOperator, scheme: AdvectionScheme, line: usize) -> Self {
+        let [nx, ny, nz] = op.shape;
+        let (j, k) = (line % ny, line / ny);
+        let base = line * nx;
+        let plane = nx * ny;
+        let wraps = |a: usize| op.periodic[a] && op.shape[a] > 1;
+        let y_face = |jj: usize| face_index(op.shape, 1, 0, jj, k);
+        let z_face = |kk: usize| face_index(op.shape, 2, 0, j, kk);
+        let below = [
+            if j > 0 {
+                Some((base - nx, y_face(j)))
+            } else if wraps(1) {
+                Some((base + nx * (ny - 1), y_face(0)))
+            } else {
+                None
+            },
+            if k > 0 {
+                Some((base - plane, z_face(k)))
+            } else if wraps(2) {
+                Some((base + plane * (nz - 1), z_face(0)))
+            } else {
+                None
+            },
+        ];
+        let above = [
+            if j + 1 < ny {
+                Some((base + nx, y_face(j + 1)))
+            } else if wraps(1) {
+                Some((base - nx * (ny - 1), y_face(0)))
+            } else {
+                None
+            },
+            if k + 1 < nz {
+                Some((base + plane, z_face(k + 1)))
+            } else if wraps(2) {
+                Some((base - plane * (nz - 1), z_face(0)))
+            } else {
+                None
+            },
+        ];
+        LineRows {
+            op,
+            scheme,
+            nx,
+            base,
+            x_face: face_index(op.shape, 0, 0, j, k),
+            wrap_x: wraps(0),
+            below,
+            above,
+        }
     }
-    let mut diag = op.sink[p];
-    for a in 0..3 {
-        let na = shape[a];
-        if na < 2 {
-            continue;
+
+    /// Row of cell i of the line in f64 before scaling: diagonal and the six neighbour coefficients (0 across a
+    /// non-periodic boundary or next to an inactive cell; identity for an inactive cell), as in
+    /// [`super::stencil::Stencil7`].
+    #[inline]
+    fn row(&self, i: usize) -> (f64, [f64; 3], [f64; 3]) {
+        let op = self.op;
+        let p = self.base + i;
+        let mut lower = [0.0; 3];
+        let mut upper = [0.0; 3];
+        if !op.active[p] {
+            return (1.0, lower, upper);
         }
-        let c = ijk[a];
-        // The face below P (P is its upper cell).
-        let below = if c > 0 {
-            Some(p - stride[a])
-        } else if op.periodic[a] {
-            Some(p + (na - 1) * stride[a])
-        } else {
-            None
-        };
-        if below.is_some_and(|q| op.active[q]) {
-            let f = face_index(shape, a, ijk[0], ijk[1], ijk[2]);
-            let fc = face_coefficients(op.conductance[a][f], op.flux[a][f], scheme);
-            diag += fc.upper_diag;
-            lower[a] = fc.upper_off;
+        let mut diag = op.sink[p];
+        let coefficients =
+            |a: usize, f: usize| face_coefficients(op.conductance[a][f], op.flux[a][f], self.scheme);
+        // Along x: the face below P (P is its upper cell) and the face above (P is its lower cell).
+        if i > 0 || self.wrap_x {
+            let q = if i > 0 { p - 1 } else { self.base + self.nx - 1 };
+            if op.active[q] {
+                let fc = coefficients(0, self.x_face + i);
+                diag += fc.upper_diag;
+                lower[0] = fc.upper_off;
+            }
         }
-        // The face above P (P is its lower cell); the wrap-around face of a periodic axis is face 0.
-        let (above, face_coord) = if c + 1 < na {
-            (Some(p + stride[a]), c + 1)
-        } else if op.periodic[a] {
-            (Some(p - (na - 1) * stride[a]), 0)
-        } else {
-            (None, 0)
-        };
-        if above.is_some_and(|q| op.active[q]) {
-            let mut f = ijk;
-            f[a] = face_coord;
-            let fi = face_index(shape, a, f[0], f[1], f[2]);
-            let fc = face_coefficients(op.conductance[a][fi], op.flux[a][fi], scheme);
-            diag += fc.lower_diag;
-            upper[a] = fc.lower_off;
+        if i + 1 < self.nx || self.wrap_x {
+            let (q, f) =
+                if i + 1 < self.nx { (p + 1, self.x_face + i + 1) } else { (self.base, self.x_face) };
+            if op.active[q] {
+                let fc = coefficients(0, f);
+                diag += fc.lower_diag;
+                upper[0] = fc.lower_off;
+            }
         }
+        for a in 0..2 {
+            if let Some((line, face)) = self.below[a] {
+                if op.active[line + i] {
+                    let fc = coefficients(a + 1, face + i);
+                    diag += fc.upper_diag;
+                    lower[a + 1] = fc.upper_off;
+                }
+            }
+            if let Some((line, face)) = self.above[a] {
+                if op.active[line + i] {
+                    let fc = coefficients(a + 1, face + i);
+                    diag += fc.lower_diag;
+                    upper[a + 1] = fc.lower_off;
+                }
+            }
+        }
+        (diag, lower, upper)
     }
-    (diag, lower, upper)
 }
 
 impl<T: Real> ColouredStencil<T> {
@@ -102,11 +171,13 @@ impl<T: Real> ColouredStencil<T> {
     /// not finite): an O(1) matrix whatever the SI magnitudes, for storage in f32.
     pub fn assemble_normalised(op: &FaceCoupledOperator, scheme: AdvectionScheme) -> (Self, f64) {
         let [nx, ny, nz] = op.shape;
-        let max = (0..nx * ny * nz)
+        let max = (0..ny * nz)
             .into_par_iter()
-            .with_min_len(4096)
-            .filter(|&p| op.active[p])
-            .map(|p| row(op, scheme, [p % nx, (p / nx) % ny, p / (nx * ny)]).0.abs())
+            .with_min_len(min_lines(nx))
+            .map(|line| {
+                let rows = LineRows::new(op, scheme, line);
+                (0..nx).filter(|&i| op.active[line * nx + i]).fold(0.0f64, |m, i| m.max(rows.row(i).0.abs()))
+            })
             .reduce(|| 0.0, f64::max);
         let scale = if max > 0.0 && max.is_finite() { 1.0 / max } else { 1.0 };
         (Self::assemble(op, scheme, scale), scale)
@@ -141,8 +212,9 @@ impl<T: Real> ColouredStencil<T> {
                 .for_each(|(line, (d, l0, l1, l2, u0, u1, u2))| {
                     let (j, k) = (line % ny, line / ny);
                     let first = (colour + j + k) % 2;
+                    let rows = LineRows::new(op, scheme, line);
                     for m in 0..slots(nx, first) {
-                        let (diag, lower, upper) = row(op, scheme, [first + 2 * m, j, k]);
+                        let (diag, lower, upper) = rows.row(first + 2 * m);
                         d[m] = T::from_f64(scale * diag);
                         l0[m] = T::from_f64(scale * lower[0]);
                         l1[m] = T::from_f64(scale * lower[1]);

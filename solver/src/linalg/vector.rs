@@ -49,6 +49,25 @@ pub(crate) fn axpy_norm2(alpha: f64, v: &[f64], r: &mut [f64]) -> f64 {
     partial.iter().sum()
 }
 
+/// `r ← r − α v`, returning `(‖r‖², r0·r)` of the result in one pass (BiCGSTAB's next ρ on the way).
+pub(crate) fn axpy_norm2_dot(alpha: f64, v: &[f64], r: &mut [f64], r0: &[f64]) -> (f64, f64) {
+    let partial: Vec<(f64, f64)> = r
+        .par_chunks_mut(CHUNK)
+        .zip(v.par_chunks(CHUNK))
+        .zip(r0.par_chunks(CHUNK))
+        .map(|((rc, vc), r0c)| {
+            let (mut rr, mut r0r) = (0.0, 0.0);
+            for ((ri, &vi), &r0i) in rc.iter_mut().zip(vc).zip(r0c) {
+                *ri -= alpha * vi;
+                rr += *ri * *ri;
+                r0r += r0i * *ri;
+            }
+            (rr, r0r)
+        })
+        .collect();
+    partial.iter().fold((0.0, 0.0), |(a, b), &(c, d)| (a + c, b + d))
+}
+
 /// `(t·s, t·t)` in one pass.
 pub(crate) fn dot2(t: &[f64], s: &[f64]) -> (f64, f64) {
     let partial: Vec<(f64, f64)> = t
@@ -87,6 +106,9 @@ mod tests {
         let n2 = axpy_norm2(0.5, &a, &mut r);
         assert!((r[5] - (b[5] - 0.5 * a[5])).abs() < 1e-15);
         assert!((n2 - dot(&r, &r)).abs() < 1e-9);
+        let mut r2 = b.clone();
+        let (n2b, d2) = axpy_norm2_dot(0.5, &a, &mut r2, &b);
+        assert!((n2b - n2).abs() < 1e-9 && (d2 - dot(&b, &r2)).abs() < 1e-9);
         let mut p = a.clone();
         update_direction(2.0, 0.5, &b, &a, &mut p);
         assert!((p[7] - (b[7] + 2.0 * (a[7] - 0.5 * a[7]))).abs() < 1e-15);
