@@ -54,19 +54,40 @@ enum Command {
         #[arg(long)]
         quick: bool,
     },
-    /// Run every case of a sweep (not implemented yet).
+    /// Run every case of a sweep not yet done (resumable), then collect; or list it (--plan), run one case
+    /// (--task), or write a Slurm job array (--slurm DIR).
     Sweep {
+        /// The sweep file (TOML).
         sweep: PathBuf,
+        /// Sweep folder [default: the sweep file's `output`, else out/<sweep file stem>].
+        #[arg(short = 'o', long = "output")]
+        output: Option<PathBuf>,
+        /// Cases run at once [default: one per core, fewer if memory is short].
         #[arg(long)]
         jobs: Option<usize>,
+        /// Threads: in all for a local run; per case with --task and --slurm [default: cores; 1 per task].
         #[arg(long)]
+        threads: Option<usize>,
+        /// Write a Slurm array script for the sweep folder DIR instead of running.
+        #[arg(long, value_name = "DIR")]
         slurm: Option<PathBuf>,
-        #[arg(long)]
+        /// With --slurm: submit the array and the dependent collect job with sbatch.
+        #[arg(long, requires = "slurm")]
+        submit: bool,
+        /// With --slurm: at most N array tasks running at once.
+        #[arg(long, value_name = "N", requires = "slurm")]
+        max_running: Option<usize>,
+        /// With --slurm: the partition to submit to.
+        #[arg(long, requires = "slurm")]
+        partition: Option<String>,
+        /// Run case N only (what each Slurm array task does).
+        #[arg(long, value_name = "N", conflicts_with = "slurm")]
         task: Option<usize>,
+        /// List the cases with ids and a memory/time forecast; run nothing.
         #[arg(long)]
         plan: bool,
     },
-    /// Gather the finished cases of a sweep into one table (not implemented yet).
+    /// Gather the cases of a sweep folder into DIR/sweep.csv and DIR/sweep.h5, with figures.
     Collect { dir: PathBuf },
 }
 
@@ -95,8 +116,30 @@ fn run_command(command: Command) -> anyhow::Result<()> {
         Command::Layout { case, output } => commands::layout::execute(&case, &output),
         Command::Verify { quick } => commands::verify::execute(quick),
         Command::Estimate { case, json } => commands::estimate::execute(&case, json),
-        Command::Sweep { .. } => commands::not_yet::execute("sweep"),
-        Command::Collect { .. } => commands::not_yet::execute("collect"),
+        Command::Sweep {
+            sweep,
+            output,
+            jobs,
+            threads,
+            slurm,
+            submit,
+            max_running,
+            partition,
+            task,
+            plan,
+        } => commands::sweep::execute(&commands::sweep::SweepOptions {
+            sweep,
+            output,
+            jobs,
+            threads,
+            slurm,
+            submit,
+            max_running,
+            partition,
+            task,
+            plan,
+        }),
+        Command::Collect { dir } => commands::collect::execute(&dir),
     }
 }
 
@@ -106,6 +149,10 @@ fn main() -> ExitCode {
         Ok(()) => ExitCode::SUCCESS,
         Err(error) => {
             eprintln!("error: {}", one_line(&error));
+            // A sweep with failed cases says how many in its exit code (100 + the number failed).
+            if let Some(failed) = error.downcast_ref::<commands::sweep::CasesFailed>() {
+                return ExitCode::from(failed.exit_code());
+            }
             ExitCode::from(exit_code(&error) as u8)
         }
     }

@@ -1,7 +1,9 @@
 //! One file (or folder) per command: the command-line shell in `main.rs` parses flags and calls these.
 
+pub mod collect;
 pub mod estimate;
 pub mod layout;
 pub mod not_yet;
 pub mod run;
+pub mod sweep;
 pub mod verify;

@@ -1,1 +1,22 @@
 //! Parameter sweeps: sweep file, expansion into cases, local runs, Slurm arrays, collection.
+//!
+//! A sweep file names a base case and axes (dotted case keys with lists or ranges of values); `expand` turns
+//! it into case texts that go through the normal case path; `run_local` runs the cases not yet done into
+//! `DIR/cases/<id>/` (done = `done.json` with the case's hash, written last); `slurm` writes the same as a job
+//! array; `collect` gathers the finished cases into `DIR/sweep.csv` and `DIR/sweep.h5`.
+
+pub mod aggregate;
+pub mod axis;
+pub mod collect;
+pub mod done_marker;
+pub mod error;
+pub mod expand;
+pub mod forecast;
+pub mod plan_record;
+pub mod run_local;
+pub mod slurm;
+pub mod sweep_file;
+
+pub use error::SweepError;
+pub use expand::{Plan, PlannedCase};
+pub use sweep_file::{Axis, Combine, SweepFile};

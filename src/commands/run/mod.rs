@@ -13,7 +13,7 @@ use solver::solve_case::{solve_steady_case, SteadyCase, SteadySolution};
 use std::path::Path;
 use std::time::Instant;
 
-pub use report::cell_table;
+pub use report::{cell_table, write_outputs};
 
 /// The numerical view of a validated case.
 pub fn steady_case(case: &Case) -> SteadyCase<'_> {

@@ -1,0 +1,32 @@
+//! `plumefield collect DIR`: gather the cases of a sweep folder into `DIR/sweep.csv` and `DIR/sweep.h5`
+//! (plus `DIR/timings.csv`), and draw each metric against each swept parameter into `DIR/figures/`.
+
+use std::path::Path;
+
+use anyhow::Result;
+
+use crate::figures::sweep_curves::draw_sweep_curves;
+use crate::sweep::collect::{collect, write_csv, write_h5, write_timings, ColumnData};
+
+pub fn execute(dir: &Path) -> Result<()> {
+    let (table, plan, timings) = collect(dir)?;
+    write_csv(&dir.join("sweep.csv"), &table)?;
+    write_h5(&dir.join("sweep.h5"), &table, &plan)?;
+    write_timings(&dir.join("timings.csv"), &plan, &timings)?;
+    let figures = draw_sweep_curves(&table, &plan, &dir.join("figures"))?;
+    let count = |what: &str| match table.column("status").map(|c| &c.data) {
+        Some(ColumnData::Text(v)) => v.iter().filter(|s| *s == what).count(),
+        _ => 0,
+    };
+    eprintln!(
+        "collected {} cases ({} done, {} failed, {} not done) into {} and sweep.h5; {} figures in {}",
+        table.rows,
+        count("done"),
+        count("failed"),
+        count("not_done"),
+        dir.join("sweep.csv").display(),
+        figures.len(),
+        dir.join("figures").display()
+    );
+    Ok(())
+}

@@ -1,0 +1,353 @@
+//! `plumefield sweep SWEEP`: expand a sweep file and run every case not yet done (locally, `--jobs` at a time),
+//! then collect; `--plan` lists the cases with a memory/time forecast; `--task N` runs case N alone (what each
+//! Slurm array task does); `--slurm DIR` writes (and with `--submit`, submits) the Slurm array.
+
+use std::path::{Path, PathBuf};
+
+use anyhow::{Context, Result};
+
+use crate::exit::{one_line, InputError, SolverFailure};
+use crate::sweep::done_marker::{case_state, write_failed, CaseState};
+use crate::sweep::forecast::{format_bytes, format_seconds, Forecast};
+use crate::sweep::plan_record::PlanRecord;
+use crate::sweep::run_local::{cases_to_run, run_case, run_cases, CaseEvent, LocalRunParams};
+use crate::sweep::slurm::{self, SlurmParams};
+use crate::sweep::{Plan, SweepError, SweepFile};
+
+/// Command-line options of `plumefield sweep`.
+#[derive(Clone, Debug, Default)]
+pub struct SweepOptions {
+    pub sweep: PathBuf,
+    /// `-o DIR`.
+    pub output: Option<PathBuf>,
+    /// Cases at once (local runs).
+    pub jobs: Option<usize>,
+    /// Threads: in all for a local run, per case for `--task` and `--slurm`.
+    pub threads: Option<usize>,
+    /// `--slurm DIR`: write the array scripts for the sweep folder DIR.
+    pub slurm: Option<PathBuf>,
+    /// Submit the scripts written by `--slurm` with sbatch.
+    pub submit: bool,
+    /// `--max-running N`: array concurrency limit.
+    pub max_running: Option<usize>,
+    /// `--partition NAME`.
+    pub partition: Option<String>,
+    /// `--task N`: run case N only.
+    pub task: Option<usize>,
+    /// `--plan`: list the cases, run nothing.
+    pub plan: bool,
+}
+
+/// Some cases of a local sweep failed; the exit code is 100 + their number (at most 255).
+#[derive(Debug, thiserror::Error)]
+#[error("{failed} of {total} cases failed; their errors are in {dir}/cases/<id>/failed.json and the exit code is 100 + the number failed")]
+pub struct CasesFailed {
+    pub failed: usize,
+    pub total: usize,
+    pub dir: String,
+}
+
+impl CasesFailed {
+    /// `100 + failed`, capped at 255.
+    pub fn exit_code(&self) -> u8 {
+        (100 + self.failed.min(155)) as u8
+    }
+}
+
+/// A sweep mistake as bad input (exit code 2), keeping the case error in the chain when there is one.
+fn input(error: SweepError) -> anyhow::Error {
+    anyhow::Error::new(InputError(one_line(&anyhow::Error::new(error))))
+}
+
+/// The sweep folder: `--slurm DIR`, `-o DIR`, the sweep file's `output`, or `out/<sweep file stem>`.
+fn sweep_dir(options: &SweepOptions, sweep: &SweepFile) -> Result<PathBuf> {
+    if let (Some(s), Some(o)) = (&options.slurm, &options.output) {
+        if s != o {
+            return Err(InputError(format!(
+                "--slurm {} and -o {} name different sweep folders; give one",
+                s.display(),
+                o.display()
+            ))
+            .into());
+        }
+    }
+    Ok(options
+        .slurm
+        .clone()
+        .or_else(|| options.output.clone())
+        .or_else(|| sweep.output.clone())
+        .unwrap_or_else(|| {
+            let stem = sweep
+                .path
+                .file_stem()
+                .map(|s| s.to_string_lossy().into_owned())
+                .unwrap_or_else(|| "sweep".into());
+            Path::new("out").join(stem)
+        }))
+}
+
+fn cores() -> usize {
+    std::thread::available_parallelism().map(|n| n.get()).unwrap_or(1)
+}
+
+/// A case that passed validation, with what `--plan` shows about it.
+struct Checked {
+    index: usize,
+    forecast: Forecast,
+    shape: [usize; 3],
+    cells: usize,
+}
+
+/// Validate the cases `indices` and forecast each (errors name the axis; exit code 2).
+fn validate(plan: &Plan, indices: &[usize]) -> Result<Vec<Checked>> {
+    indices
+        .iter()
+        .map(|&index| {
+            let case = plan.parse_case(index).map_err(input)?;
+            Ok(Checked {
+                index,
+                forecast: Forecast::of(&case),
+                shape: case.grid.shape,
+                cells: case.layout.cells.len(),
+            })
+        })
+        .collect()
+}
+
+pub fn execute(options: &SweepOptions) -> Result<()> {
+    if options.threads == Some(0) || options.jobs == Some(0) {
+        return Err(InputError("--threads and --jobs must be at least 1".into()).into());
+    }
+    let sweep = SweepFile::load(&options.sweep).map_err(input)?;
+    let plan = Plan::expand(sweep).map_err(input)?;
+    let dir = sweep_dir(options, &plan.sweep)?;
+    if options.plan {
+        return print_plan(&plan, &dir);
+    }
+    if let Some(task) = options.task {
+        return run_task(&plan, &dir, task, options.threads);
+    }
+    if options.slurm.is_some() {
+        return write_slurm(&plan, &dir, options);
+    }
+    run_locally(&plan, &dir, options)
+}
+
+fn print_plan(plan: &Plan, dir: &Path) -> Result<()> {
+    let all: Vec<usize> = (0..plan.cases.len()).collect();
+    let checked = validate(plan, &all)?;
+    println!(
+        "sweep {} → {} ({} cases, base {})",
+        plan.sweep.path.display(),
+        dir.display(),
+        plan.cases.len(),
+        plan.sweep.base_path.display()
+    );
+    println!(
+        "{:<11} {:>6} {:>14} {:>6} {:>9} {:>9}  parameters (time: on one thread)",
+        "id", "status", "grid", "cells", "memory", "time"
+    );
+    let (mut memory, mut seconds) = (0.0_f64, 0.0);
+    for Checked { index: i, forecast, shape, cells } in checked {
+        let status = match case_state(&plan.case_dir(dir, i), &plan.cases[i].sha256) {
+            CaseState::Done(_) => "done",
+            CaseState::Failed(_) => "failed",
+            CaseState::NotDone { .. } => "to run",
+        };
+        memory = memory.max(forecast.memory_bytes);
+        seconds += forecast.seconds_one_thread;
+        println!(
+            "{:<11} {:>6} {:>14} {:>6} {:>9} {:>9}  {}",
+            plan.cases[i].id,
+            status,
+            format!("{}x{}x{}", shape[0], shape[1], shape[2]),
+            cells,
+            format_bytes(forecast.memory_bytes),
+            format_seconds(forecast.seconds_one_thread),
+            plan.describe(i)
+        );
+    }
+    println!(
+        "largest case needs about {}; all cases about {} of one core (forecast from grid size; see src/sweep/forecast.rs)",
+        format_bytes(memory),
+        format_seconds(seconds)
+    );
+    Ok(())
+}
+
+fn write_plan_record(plan: &Plan, dir: &Path) -> Result<()> {
+    PlanRecord::of(plan)
+        .write(dir)
+        .with_context(|| format!("cannot write the sweep plan into {}", dir.display()))
+}
+
+fn run_task(plan: &Plan, dir: &Path, task: usize, threads: Option<usize>) -> Result<()> {
+    let Some(planned) = plan.cases.get(task) else {
+        return Err(InputError(format!(
+            "--task {task} does not exist: the sweep has {} cases (0 to {})",
+            plan.cases.len(),
+            plan.cases.len().saturating_sub(1)
+        ))
+        .into());
+    };
+    write_plan_record(plan, dir)?;
+    let case_dir = plan.case_dir(dir, task);
+    if let CaseState::Done(_) = case_state(&case_dir, &planned.sha256) {
+        eprintln!("{} is already done", planned.id);
+        return Ok(());
+    }
+    let threads = threads.unwrap_or_else(cores);
+    let pool = rayon::ThreadPoolBuilder::new()
+        .num_threads(threads)
+        .build()
+        .map_err(|e| anyhow::anyhow!("cannot start {threads} worker threads: {e}"))?;
+    eprintln!("{}: {}", planned.id, plan.describe(task));
+    match pool.install(|| run_case(plan, dir, task, threads)) {
+        Ok(marker) => {
+            eprintln!("{} done in {:.2} s", planned.id, marker.elapsed_s);
+            Ok(())
+        }
+        Err(record) => {
+            write_failed(&case_dir, &record)
+                .with_context(|| format!("cannot record the failure in {}", case_dir.display()))?;
+            let message = format!("{} failed: {}", planned.id, record.error);
+            if record.kind == "input" {
+                Err(InputError(message).into())
+            } else {
+                Err(SolverFailure { message }.into())
+            }
+        }
+    }
+}
+
+fn write_slurm(plan: &Plan, dir: &Path, options: &SweepOptions) -> Result<()> {
+    let missing = cases_to_run(plan, dir);
+    let checked = validate(plan, &missing)?;
+    std::fs::create_dir_all(dir)
+        .with_context(|| format!("cannot create the sweep folder {}", dir.display()))?;
+    let dir = std::fs::canonicalize(dir).with_context(|| format!("cannot resolve {}", dir.display()))?;
+    write_plan_record(plan, &dir)?;
+    if missing.is_empty() {
+        println!("all {} cases are done; nothing to submit. Collecting.", plan.cases.len());
+        return super::collect::execute(&dir);
+    }
+    let largest = checked
+        .iter()
+        .map(|c| c.forecast)
+        .max_by(|a, b| {
+            a.memory_bytes
+                .total_cmp(&b.memory_bytes)
+                .then(a.seconds_one_thread.total_cmp(&b.seconds_one_thread))
+        })
+        .unwrap_or_else(|| Forecast::for_grid_cells(0));
+    let sweep_file = std::fs::canonicalize(&plan.sweep.path)
+        .with_context(|| format!("cannot resolve {}", plan.sweep.path.display()))?;
+    let exe = std::env::current_exe().context("cannot find the plumefield executable for the job script")?;
+    let params = SlurmParams {
+        cpus_per_task: options.threads.unwrap_or(1),
+        max_running: options.max_running,
+        partition: options.partition.clone(),
+    };
+    let stem = plan
+        .sweep
+        .path
+        .file_stem()
+        .map(|s| s.to_string_lossy().into_owned())
+        .unwrap_or_else(|| "sweep".into());
+    let job_name: String =
+        format!("pf-{stem}").chars().filter(|c| c.is_ascii_alphanumeric() || "-_.".contains(*c)).collect();
+    let scripts = slurm::write_scripts(&dir, &sweep_file, &exe, &missing, &largest, &params, &job_name)
+        .with_context(|| format!("cannot write the Slurm scripts into {}", dir.display()))?;
+    println!(
+        "wrote {} ({} of {} cases: --array={}, --mem={}M, --time={} per task) and {}",
+        scripts.array_script.display(),
+        missing.len(),
+        plan.cases.len(),
+        slurm::array_spec(&missing, options.max_running),
+        scripts.mem_mb,
+        slurm::slurm_time(scripts.time_s as f64),
+        scripts.collect_script.display()
+    );
+    if options.submit {
+        let submitted = slurm::submit(&scripts).map_err(|e| anyhow::anyhow!("{e}"))?;
+        println!("submitted array job {} and collect job {}", submitted.array_job, submitted.collect_job);
+    } else {
+        println!("submit with: sh {}", slurm::shell_quote(&scripts.submit_script.display().to_string()));
+    }
+    Ok(())
+}
+
+fn run_locally(plan: &Plan, dir: &Path, options: &SweepOptions) -> Result<()> {
+    let todo = cases_to_run(plan, dir);
+    let checked = validate(plan, &todo)?;
+    std::fs::create_dir_all(dir)
+        .with_context(|| format!("cannot create the sweep folder {}", dir.display()))?;
+    write_plan_record(plan, dir)?;
+    let threads = options.threads.unwrap_or_else(cores);
+    let largest = checked.iter().map(|c| c.forecast.memory_bytes).fold(0.0, f64::max);
+    let jobs = options.jobs.unwrap_or_else(|| memory_limited_jobs(threads, largest));
+    let params = LocalRunParams::divide(threads, jobs, todo.len());
+    eprintln!(
+        "sweep: {} cases, {} already done, {} to run ({} at a time, {} thread{} each) into {}",
+        plan.cases.len(),
+        plan.cases.len() - todo.len(),
+        todo.len(),
+        params.jobs,
+        params.threads_per_job,
+        if params.threads_per_job == 1 { "" } else { "s" },
+        dir.display()
+    );
+    let counter = std::sync::atomic::AtomicUsize::new(0);
+    let total = todo.len();
+    let summary = run_cases(plan, dir, &todo, params, &|event| match event {
+        CaseEvent::Started { .. } => {}
+        CaseEvent::Finished { index, elapsed_s } => {
+            let k = counter.fetch_add(1, std::sync::atomic::Ordering::SeqCst) + 1;
+            eprintln!(
+                "[{k}/{total}] {} done in {elapsed_s:.2} s ({})",
+                plan.cases[index].id,
+                plan.describe(index)
+            );
+        }
+        CaseEvent::Failed { index, error } => {
+            let k = counter.fetch_add(1, std::sync::atomic::Ordering::SeqCst) + 1;
+            eprintln!("[{k}/{total}] {} FAILED: {error}", plan.cases[index].id);
+        }
+    });
+    super::collect::execute(dir)?;
+    if summary.failed.is_empty() {
+        Ok(())
+    } else {
+        Err(CasesFailed {
+            failed: summary.failed.len(),
+            total: plan.cases.len(),
+            dir: dir.display().to_string(),
+        }
+        .into())
+    }
+}
+
+/// One job per core, but no more than 80% of the available memory holds (each job needs `case_bytes`).
+fn memory_limited_jobs(threads: usize, case_bytes: f64) -> usize {
+    let available = std::fs::read_to_string("/proc/meminfo").ok().and_then(|text| {
+        text.lines()
+            .find(|l| l.starts_with("MemAvailable:"))
+            .and_then(|l| l.split_whitespace().nth(1)?.parse::<f64>().ok())
+            .map(|kib| kib * 1024.0)
+    });
+    match available {
+        Some(bytes) if case_bytes > 0.0 => threads.min((0.8 * bytes / case_bytes).floor().max(1.0) as usize),
+        _ => threads,
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn failure_exit_codes() {
+        let f = |n| CasesFailed { failed: n, total: 300, dir: "d".into() }.exit_code();
+        assert_eq!((f(1), f(7), f(155), f(200)), (101, 107, 255, 255));
+    }
+}

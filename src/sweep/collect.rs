@@ -1,0 +1,339 @@
+//! Gathering a sweep into one table: one row per case (done, failed or not done), with the swept parameters
+//! (SI), summary metrics from `summary.json`, and per-cell aggregates (p10, median, p90) from `cells.csv`.
+//! Written as `DIR/sweep.csv` and `DIR/sweep.h5`, both atomically.
+//!
+//! The table holds only what the physics determines — no wall times — so the same sweep gives the same
+//! `sweep.csv` byte for byte, whether it ran locally or as a Slurm array. Wall times go to `DIR/timings.csv`.
+
+use std::path::Path;
+
+use anyhow::{Context, Result};
+use hdf5::types::VarLenUnicode;
+
+use super::aggregate::p10_median_p90;
+use super::done_marker::{case_state, CaseState};
+use super::plan_record::PlanRecord;
+use crate::io::number_text::format_real;
+use crate::io::{with_atomic_file, write_atomic};
+
+/// Values of one column.
+#[derive(Clone, Debug, PartialEq)]
+pub enum ColumnData {
+    Real(Vec<f64>),
+    Text(Vec<String>),
+}
+
+/// What a column is, for the figures.
+#[derive(Clone, Debug, PartialEq)]
+pub enum ColumnRole {
+    /// `case_id`, `status`.
+    Label,
+    /// The values of sweep axis number `axis`.
+    Parameter { axis: usize },
+    /// A number per case from `summary.json`.
+    Metric,
+    /// A percentile over the cells of `quantity`; `stat` is `p10`, `median` or `p90`.
+    Aggregate { quantity: String, stat: &'static str },
+}
+
+#[derive(Clone, Debug, PartialEq)]
+pub struct SweepColumn {
+    pub name: String,
+    pub unit: String,
+    pub description: String,
+    pub role: ColumnRole,
+    pub data: ColumnData,
+}
+
+/// The collected sweep: columns of equal length, one row per case in plan order.
+#[derive(Clone, Debug, PartialEq)]
+pub struct SweepTable {
+    pub columns: Vec<SweepColumn>,
+    pub rows: usize,
+}
+
+impl SweepTable {
+    pub fn column(&self, name: &str) -> Option<&SweepColumn> {
+        self.columns.iter().find(|c| c.name == name)
+    }
+}
+
+/// Numbers read from `summary.json` by their dotted path: (path, unit, description).
+const SUMMARY_METRICS: [(&str, &str, &str); 13] = [
+    ("cells.count", "1", "number of cells"),
+    ("cells.volume_fraction", "1", "fraction of the chamber inside cells"),
+    ("flow.pressure_drop", "Pa", "pressure drop across the chamber"),
+    ("flow.iterations", "1", "iterations of the flow solve"),
+    ("transport.iterations", "1", "iterations of the transport solve"),
+    ("mass_balance.secreted", "molecules/s", "ligand secreted by all cells"),
+    ("mass_balance.outflow", "molecules/s", "ligand leaving through the chamber faces"),
+    ("mass_balance.uptake", "molecules/s", "ligand bound by all cells"),
+    ("mass_balance.decay", "molecules/s", "ligand decaying in the bulk"),
+    ("mass_balance.relative_error", "1", "relative closure error of the mass balance"),
+    (
+        "estimates.measured_outlet_concentration",
+        "molecules/m^3",
+        "flux-weighted outlet concentration (solve)",
+    ),
+    (
+        "estimates.meanfield_outlet_concentration",
+        "molecules/m^3",
+        "outlet concentration of the mean-field estimate",
+    ),
+    ("estimates.isolated_anisotropy", "1", "anisotropy of an isolated cell (low-Péclet estimate)"),
+];
+
+/// Per-cell columns of `cells.csv` that are aggregated: (column, unit, description). `signal_fraction` is
+/// aggregated only when some case has it.
+const CELL_QUANTITIES: [(&str, &str, &str); 4] = [
+    ("anisotropy_along_flow", "1", "anisotropy component along the local flow"),
+    ("bound_rate", "molecules/s", "ligand bound per cell"),
+    ("direction_error", "1", "counting-noise error of the direction estimate"),
+    ("signal_fraction", "1", "fraction of the sensed signal from the cell's own secretion"),
+];
+
+/// What one finished case contributes.
+struct CaseData {
+    summary: serde_json::Value,
+    /// Per-cell columns by name.
+    cells: Vec<(String, Vec<f64>)>,
+    elapsed_s: f64,
+}
+
+/// Read the finished cases of the sweep in `dir` into a table.
+pub fn collect(dir: &Path) -> Result<(SweepTable, PlanRecord, Vec<Option<f64>>)> {
+    let plan = PlanRecord::read(dir).map_err(|m| anyhow::Error::new(crate::exit::InputError(m)))?;
+    let rows = plan.cases.len();
+    let mut status = Vec::with_capacity(rows);
+    let mut data: Vec<Option<CaseData>> = Vec::with_capacity(rows);
+    for case in &plan.cases {
+        let case_dir = dir.join("cases").join(&case.id);
+        match case_state(&case_dir, &case.sha256) {
+            CaseState::Done(marker) => {
+                let read = read_case(&case_dir, marker.elapsed_s)
+                    .with_context(|| format!("cannot read the outputs of {}", case.id))?;
+                status.push("done".to_string());
+                data.push(Some(read));
+            }
+            CaseState::Failed(_) => {
+                status.push("failed".to_string());
+                data.push(None);
+            }
+            CaseState::NotDone { .. } => {
+                status.push("not_done".to_string());
+                data.push(None);
+            }
+        }
+    }
+
+    let mut columns = vec![
+        SweepColumn {
+            name: "case_id".into(),
+            unit: String::new(),
+            description: "case folder under cases/".into(),
+            role: ColumnRole::Label,
+            data: ColumnData::Text(plan.cases.iter().map(|c| c.id.clone()).collect()),
+        },
+        SweepColumn {
+            name: "status".into(),
+            unit: String::new(),
+            description: "done | failed (see cases/<id>/failed.json) | not_done".into(),
+            role: ColumnRole::Label,
+            data: ColumnData::Text(status),
+        },
+    ];
+    for (a, axis) in plan.axes.iter().enumerate() {
+        let numeric = plan.cases.iter().all(|c| c.values[a].si.is_some());
+        let data = if numeric && axis.unit.is_some() {
+            ColumnData::Real(plan.cases.iter().map(|c| c.values[a].si.unwrap_or(f64::NAN)).collect())
+        } else {
+            ColumnData::Text(
+                plan.cases.iter().map(|c| c.values[a].text.trim_matches('"').to_string()).collect(),
+            )
+        };
+        columns.push(SweepColumn {
+            name: axis.key.clone(),
+            unit: axis.unit.clone().unwrap_or_default(),
+            description: format!("swept case key {} (SI)", axis.key),
+            role: ColumnRole::Parameter { axis: a },
+            data,
+        });
+    }
+    for (path, unit, description) in SUMMARY_METRICS {
+        let values =
+            data.iter().map(|d| d.as_ref().map_or(f64::NAN, |d| json_number(&d.summary, path))).collect();
+        columns.push(SweepColumn {
+            name: path.into(),
+            unit: unit.into(),
+            description: description.into(),
+            role: ColumnRole::Metric,
+            data: ColumnData::Real(values),
+        });
+    }
+    for (quantity, unit, description) in CELL_QUANTITIES {
+        let present = data.iter().flatten().any(|d| d.cells.iter().any(|(name, _)| name == quantity));
+        if !present {
+            continue;
+        }
+        let stats: Vec<[f64; 3]> = data
+            .iter()
+            .map(|d| {
+                d.as_ref()
+                    .and_then(|d| d.cells.iter().find(|(name, _)| name == quantity))
+                    .map_or([f64::NAN; 3], |(_, values)| p10_median_p90(values))
+            })
+            .collect();
+        for (k, stat) in ["p10", "median", "p90"].into_iter().enumerate() {
+            columns.push(SweepColumn {
+                name: format!("{quantity}_{stat}"),
+                unit: unit.into(),
+                description: format!("{stat} over the cells of the case: {description}"),
+                role: ColumnRole::Aggregate { quantity: quantity.into(), stat },
+                data: ColumnData::Real(stats.iter().map(|s| s[k]).collect()),
+            });
+        }
+    }
+    let timings = data.iter().map(|d| d.as_ref().map(|d| d.elapsed_s)).collect();
+    Ok((SweepTable { columns, rows }, plan, timings))
+}
+
+fn read_case(case_dir: &Path, elapsed_s: f64) -> Result<CaseData> {
+    let summary_path = case_dir.join("summary.json");
+    let summary: serde_json::Value = serde_json::from_slice(
+        &std::fs::read(&summary_path).with_context(|| format!("cannot read {}", summary_path.display()))?,
+    )
+    .with_context(|| format!("{} is not JSON", summary_path.display()))?;
+    let cells_path = case_dir.join("cells.csv");
+    let mut reader = csv::Reader::from_path(&cells_path)
+        .with_context(|| format!("cannot read {}", cells_path.display()))?;
+    let headers: Vec<String> = reader.headers()?.iter().map(str::to_string).collect();
+    let wanted: Vec<(usize, &str)> = headers
+        .iter()
+        .enumerate()
+        .filter_map(|(i, h)| CELL_QUANTITIES.iter().find(|(q, ..)| q == h).map(|(q, ..)| (i, *q)))
+        .collect();
+    let mut cells: Vec<(String, Vec<f64>)> =
+        wanted.iter().map(|(_, q)| (q.to_string(), Vec::new())).collect();
+    for record in reader.records() {
+        let record = record.with_context(|| format!("{} has a bad row", cells_path.display()))?;
+        for (slot, (i, q)) in wanted.iter().enumerate() {
+            let text = record.get(*i).unwrap_or("");
+            let value: f64 = text
+                .parse()
+                .with_context(|| format!("{}: {q} = {text:?} is not a number", cells_path.display()))?;
+            cells[slot].1.push(value);
+        }
+    }
+    Ok(CaseData { summary, cells, elapsed_s })
+}
+
+/// The number at the dotted `path` of `json` (NaN when absent or not a number, e.g. a null estimate).
+fn json_number(json: &serde_json::Value, path: &str) -> f64 {
+    let mut here = json;
+    for part in path.split('.') {
+        match here.get(part) {
+            Some(next) => here = next,
+            None => return f64::NAN,
+        }
+    }
+    here.as_f64().unwrap_or(f64::NAN)
+}
+
+/// `sweep.csv`: a header of column names, then one row per case; reals as the shortest round-trip decimal.
+pub fn csv_text(table: &SweepTable) -> Result<Vec<u8>> {
+    let mut writer =
+        csv::WriterBuilder::new().terminator(csv::Terminator::Any(b'\n')).from_writer(Vec::new());
+    writer.write_record(table.columns.iter().map(|c| c.name.as_str()))?;
+    for row in 0..table.rows {
+        writer.write_record(table.columns.iter().map(|c| match &c.data {
+            ColumnData::Real(v) => format_real(v[row]),
+            ColumnData::Text(v) => v[row].clone(),
+        }))?;
+    }
+    writer.into_inner().map_err(|e| anyhow::anyhow!("cannot assemble sweep.csv: {e}"))
+}
+
+/// Write `sweep.csv` atomically.
+pub fn write_csv(path: &Path, table: &SweepTable) -> Result<()> {
+    write_atomic(path, &csv_text(table)?).with_context(|| format!("cannot write {}", path.display()))
+}
+
+/// Write `timings.csv` (case id, wall time of the case in seconds; empty when not done) atomically.
+pub fn write_timings(path: &Path, plan: &PlanRecord, timings: &[Option<f64>]) -> Result<()> {
+    let mut text = String::from("case_id,elapsed_s\n");
+    for (case, t) in plan.cases.iter().zip(timings) {
+        text.push_str(&format!("{},{}\n", case.id, t.map(format_real).unwrap_or_default()));
+    }
+    write_atomic(path, text.as_bytes()).with_context(|| format!("cannot write {}", path.display()))
+}
+
+/// Write `sweep.h5` atomically: one 1-D dataset per column (named as in the CSV), each with `units` and
+/// `description` attributes; the file's `columns` attribute gives their order.
+pub fn write_h5(path: &Path, table: &SweepTable, plan: &PlanRecord) -> Result<()> {
+    let text = |s: &str| {
+        s.parse::<VarLenUnicode>().map_err(|e| anyhow::anyhow!("text {s:?} cannot be stored in HDF5: {e}"))
+    };
+    with_atomic_file(path, |temp| {
+        let file = hdf5::File::with_options()
+            .with_fcpl(|p| p.obj_track_times(false))
+            .create(temp)
+            .with_context(|| format!("cannot create HDF5 file {}", temp.display()))?;
+        let names = table.columns.iter().map(|c| text(&c.name)).collect::<Result<Vec<_>>>()?;
+        file.new_attr_builder().with_data(&names[..]).create("columns")?;
+        let sweep_file = plan.sweep_file.display().to_string();
+        file.new_attr::<VarLenUnicode>().shape(()).create("sweep_file")?.write_scalar(&text(&sweep_file)?)?;
+        for column in &table.columns {
+            let builder = file.new_dataset_builder().obj_track_times(false);
+            let ds = match &column.data {
+                ColumnData::Real(v) => builder.with_data(&v[..]).create(column.name.as_str()),
+                ColumnData::Text(v) => {
+                    let v = v.iter().map(|s| text(s)).collect::<Result<Vec<_>>>()?;
+                    builder.with_data(&v[..]).create(column.name.as_str())
+                }
+            }
+            .with_context(|| format!("cannot write dataset {}", column.name))?;
+            for (name, value) in
+                [("units", column.unit.as_str()), ("description", column.description.as_str())]
+            {
+                ds.new_attr::<VarLenUnicode>().shape(()).create(name)?.write_scalar(&text(value)?)?;
+            }
+        }
+        file.close().context("cannot close the HDF5 file")?;
+        Ok(())
+    })
+    .with_context(|| format!("cannot write {}", path.display()))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn json_paths_and_csv_rows() {
+        let j: serde_json::Value = serde_json::json!({"a": {"b": 2.5, "n": null}});
+        assert_eq!(json_number(&j, "a.b"), 2.5);
+        assert!(json_number(&j, "a.n").is_nan());
+        assert!(json_number(&j, "a.c.d").is_nan());
+        let table = SweepTable {
+            rows: 2,
+            columns: vec![
+                SweepColumn {
+                    name: "case_id".into(),
+                    unit: String::new(),
+                    description: String::new(),
+                    role: ColumnRole::Label,
+                    data: ColumnData::Text(vec!["case-0000".into(), "case, 1".into()]),
+                },
+                SweepColumn {
+                    name: "flow.mean_velocity".into(),
+                    unit: "m s^-1".into(),
+                    description: String::new(),
+                    role: ColumnRole::Parameter { axis: 0 },
+                    data: ColumnData::Real(vec![1e-6, f64::NAN]),
+                },
+            ],
+        };
+        let text = String::from_utf8(csv_text(&table).unwrap()).unwrap();
+        assert_eq!(text, "case_id,flow.mean_velocity\ncase-0000,1e-6\n\"case, 1\",nan\n");
+    }
+}

@@ -1,0 +1,98 @@
+//! Interrupt a local sweep (SIGKILL, then Ctrl-C's SIGINT) and run it again: every case finished before the
+//! interruption keeps intact outputs and is not run again, only the missing cases run, and the final
+//! `sweep.csv` (one row per case, no duplicates) equals that of an uninterrupted run of the same sweep.
+
+mod sweep_support;
+
+use std::path::Path;
+use std::process::{Command, Stdio};
+use std::time::{Duration, Instant};
+
+use sweep_support::*;
+
+const CASES: usize = 8;
+
+fn done_count(out_dir: &Path) -> usize {
+    (0..CASES).filter(|i| out_dir.join(format!("cases/case-{i:04}/done.json")).exists()).count()
+}
+
+/// Start the sweep, wait until `wait_for` cases are done, then send `signal`; returns the finished cases.
+fn interrupt(sweep: &Path, out_dir: &Path, signal: &str, wait_for: usize) -> Vec<usize> {
+    let mut child = Command::new(binary())
+        .args([
+            "sweep",
+            sweep.to_str().unwrap(),
+            "-o",
+            out_dir.to_str().unwrap(),
+            "--jobs",
+            "1",
+            "--threads",
+            "1",
+        ])
+        .stdout(Stdio::null())
+        .stderr(Stdio::null())
+        .spawn()
+        .unwrap();
+    let started = Instant::now();
+    while done_count(out_dir) < wait_for && started.elapsed() < Duration::from_secs(60) {
+        std::thread::sleep(Duration::from_millis(5));
+    }
+    let status = Command::new("kill").args([signal, &child.id().to_string()]).status().unwrap();
+    assert!(status.success());
+    let exit = child.wait().unwrap();
+    assert!(!exit.success(), "the sweep should have been interrupted, but it finished: {exit:?}");
+    (0..CASES).filter(|i| out_dir.join(format!("cases/case-{i:04}/done.json")).exists()).collect()
+}
+
+#[test]
+fn killed_and_interrupted_sweeps_resume_without_repeating_work() {
+    let dir = tempfile::tempdir().unwrap();
+    let sweep = write_sweep(
+        dir.path(),
+        "seeds = 2\n[[axis]]\nkey = \"flow.mean_velocity\"\nvalues = [0.5, 1, 2, 4]\nunit = \"um/s\"\n",
+    );
+    let out_dir = dir.path().join("resumed");
+
+    let after_kill = interrupt(&sweep, &out_dir, "-KILL", 2);
+    // Room for the second interruption: the cases take ~0.15 s each and the poll is every 5 ms.
+    assert!(
+        after_kill.len() >= 2 && after_kill.len() <= CASES - 3,
+        "finished before SIGKILL: {after_kill:?}"
+    );
+    let markers: Vec<String> =
+        after_kill.iter().map(|i| assert_case_intact(&out_dir.join(format!("cases/case-{i:04}")))).collect();
+    assert!(!out_dir.join("sweep.csv").exists(), "no table from an interrupted run");
+
+    let after_int = interrupt(&sweep, &out_dir, "-INT", after_kill.len() + 1);
+    assert!(after_int.len() > after_kill.len(), "the second run finished no case: {after_int:?}");
+    for i in &after_int {
+        assert_case_intact(&out_dir.join(format!("cases/case-{i:04}")));
+    }
+    // Cases finished before the kill were not run again (their markers, with their wall times, are unchanged).
+    for (i, marker) in after_kill.iter().zip(&markers) {
+        let now = std::fs::read_to_string(out_dir.join(format!("cases/case-{i:04}/done.json"))).unwrap();
+        assert_eq!(&now, marker, "case {i} was run again");
+    }
+
+    let out = pf(&["sweep", sweep.to_str().unwrap(), "-o", out_dir.to_str().unwrap(), "--jobs", "2"]);
+    assert_eq!(out.status.code(), Some(0), "{}", show(&out));
+    let stderr = text(&out.stderr);
+    let expected = format!("{} already done, {} to run", after_int.len(), CASES - after_int.len());
+    assert!(stderr.contains(&expected), "expected {expected:?}:\n{stderr}");
+    assert_eq!(stderr.matches(" done in ").count(), CASES - after_int.len(), "{stderr}");
+    for i in 0..CASES {
+        assert_case_intact(&out_dir.join(format!("cases/case-{i:04}")));
+    }
+
+    let fresh_dir = dir.path().join("fresh");
+    let out = pf(&["sweep", sweep.to_str().unwrap(), "-o", fresh_dir.to_str().unwrap(), "--jobs", "2"]);
+    assert_eq!(out.status.code(), Some(0), "{}", show(&out));
+    let resumed = std::fs::read_to_string(out_dir.join("sweep.csv")).unwrap();
+    let fresh = std::fs::read_to_string(fresh_dir.join("sweep.csv")).unwrap();
+    assert_eq!(resumed.lines().count(), CASES + 1);
+    let ids = column(&out_dir.join("sweep.csv"), "case_id");
+    let mut unique = ids.clone();
+    unique.dedup();
+    assert_eq!(unique.len(), CASES, "{ids:?}");
+    assert_eq!(resumed, fresh, "the resumed sweep's table differs from an uninterrupted run's");
+}

@@ -1,0 +1,123 @@
+//! Shared helpers of the sweep end-to-end tests: a tiny base case, sweep files in a temporary folder, and
+//! the real binary.
+
+#![allow(dead_code)]
+
+use std::path::{Path, PathBuf};
+use std::process::{Command, Output};
+
+/// A 48 × 24 × 16 grid with six cells: about a tenth of a second per case.
+pub const BASE: &str = r#"
+title = "tiny sweep test chamber"
+[chamber]
+size = ["120 um", "60 um", "40 um"]
+[grid]
+spacing = "2.5 um"
+[medium]
+model = "darcy"
+viscosity = "1e-3 Pa s"
+permeability = "1e-13 m^2"
+[flow]
+mean_velocity = "1 um/s"
+[boundaries]
+x_min = "inlet"
+x_max = "outlet"
+y_min = "wall"
+y_max = "wall"
+z_min = "symmetry"
+z_max = "symmetry"
+[ligand]
+diffusivity = "1e-10 m^2/s"
+decay_rate = "1e-4 /s"
+[cells]
+radius = "8 um"
+secretion_rate = "2000 /h"
+uptake = { model = "first_order", rate_constant = "1e-6 m/s" }
+layout = { kind = "random", count = 6, min_gap = "2 um", seed = 7 }
+[output]
+fields = ["concentration"]
+figures = false
+"#;
+
+pub fn binary() -> PathBuf {
+    PathBuf::from(env!("CARGO_BIN_EXE_plumefield"))
+}
+
+/// Write `base.toml` and `sweep.toml` (whose text is `sweep`, after a `base = "base.toml"` line) into `dir`.
+pub fn write_sweep(dir: &Path, sweep: &str) -> PathBuf {
+    std::fs::write(dir.join("base.toml"), BASE).unwrap();
+    let path = dir.join("sweep.toml");
+    std::fs::write(&path, format!("base = \"base.toml\"\n{sweep}")).unwrap();
+    path
+}
+
+pub fn pf(args: &[&str]) -> Output {
+    Command::new(binary()).args(args).output().expect("cannot start plumefield")
+}
+
+pub fn text(bytes: &[u8]) -> String {
+    String::from_utf8_lossy(bytes).into_owned()
+}
+
+/// Print both streams so a failing test shows what the program said.
+pub fn show(output: &Output) -> String {
+    format!(
+        "exit {:?}\n--- stdout\n{}--- stderr\n{}",
+        output.status.code(),
+        text(&output.stdout),
+        text(&output.stderr)
+    )
+}
+
+/// Rows of a CSV file as (header, rows of fields).
+pub fn read_csv(path: &Path) -> (Vec<String>, Vec<Vec<String>>) {
+    let content =
+        std::fs::read_to_string(path).unwrap_or_else(|e| panic!("cannot read {}: {e}", path.display()));
+    let mut lines = content.lines();
+    let header = lines.next().unwrap_or("").split(',').map(str::to_string).collect();
+    let rows = lines.map(|l| l.split(',').map(str::to_string).collect()).collect();
+    (header, rows)
+}
+
+/// The value of `column` in every row.
+pub fn column(path: &Path, column: &str) -> Vec<String> {
+    let (header, rows) = read_csv(path);
+    let k =
+        header.iter().position(|h| h == column).unwrap_or_else(|| panic!("no column {column} in {header:?}"));
+    rows.into_iter().map(|r| r[k].clone()).collect()
+}
+
+/// Check, byte by byte, every output that `done.json` of `case_dir` lists (size and SHA-256), and that
+/// cells.csv and summary.json read back. Returns the marker text.
+pub fn assert_case_intact(case_dir: &Path) -> String {
+    use sha2::{Digest, Sha256};
+    let marker_text = std::fs::read_to_string(case_dir.join("done.json")).unwrap();
+    let marker: serde_json::Value = serde_json::from_str(&marker_text).unwrap();
+    let outputs = marker["outputs"].as_array().unwrap();
+    let files: Vec<&str> = outputs.iter().map(|o| o["file"].as_str().unwrap()).collect();
+    for needed in ["case.toml", "cells.csv", "fields.h5", "fields.xmf", "summary.json"] {
+        assert!(
+            files.contains(&needed),
+            "{}: done.json does not list {needed}: {files:?}",
+            case_dir.display()
+        );
+    }
+    for output in outputs {
+        let path = case_dir.join(output["file"].as_str().unwrap());
+        let bytes = std::fs::read(&path).unwrap_or_else(|e| panic!("{}: {e}", path.display()));
+        assert_eq!(bytes.len() as u64, output["bytes"].as_u64().unwrap(), "{}", path.display());
+        let sha: String = Sha256::digest(&bytes).iter().map(|b| format!("{b:02x}")).collect();
+        assert_eq!(sha, output["sha256"].as_str().unwrap(), "{} changed after done.json", path.display());
+    }
+    let summary: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(case_dir.join("summary.json")).unwrap()).unwrap();
+    assert_eq!(summary["case_sha256"], marker["case_sha256"], "{}", case_dir.display());
+    let (_, rows) = read_csv(&case_dir.join("cells.csv"));
+    assert_eq!(rows.len(), 6, "{}: cells.csv should have 6 rows", case_dir.display());
+    // No temporary file is left next to the outputs of a finished case.
+    for entry in std::fs::read_dir(case_dir).unwrap() {
+        let name = entry.unwrap().file_name().to_string_lossy().into_owned();
+        assert!(!name.ends_with(".tmp"), "{}: leftover temporary {name}", case_dir.display());
+    }
+    marker_text
+}
