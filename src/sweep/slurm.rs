@@ -78,6 +78,16 @@ pub fn shell_quote(text: &str) -> String {
     format!("'{}'", text.replace('\'', r"'\''"))
 }
 
+/// A path in an `#SBATCH` line: as it is, or single-quoted when it holds blanks or quotes.
+fn directive_path(path: &Path) -> String {
+    let text = path.display().to_string();
+    if text.chars().any(|c| c.is_whitespace() || c == '\'' || c == '"') {
+        shell_quote(&text)
+    } else {
+        text
+    }
+}
+
 /// Memory (MB) and time (s) requested for a task whose largest forecast is `forecast`.
 pub fn task_resources(forecast: &Forecast, cpus_per_task: usize) -> (u64, u64) {
     let mem_mb = (1.5 * forecast.memory_bytes / 1e6 + 200.0).ceil() as u64;
@@ -116,7 +126,7 @@ pub fn write_scripts(
          #SBATCH --mem={mem_mb}M\n\
          #SBATCH --time={time}\n\
          #SBATCH --output={log}\n\
-         #SBATCH --chdir={dir_q}\n\
+         #SBATCH --chdir={dir_d}\n\
          {partition}\
          set -eu\n\
          exec {exe} sweep {sweep_q} --task \"$SLURM_ARRAY_TASK_ID\" -o {dir_q} --threads \"${{SLURM_CPUS_PER_TASK:-{cpus}}}\"\n",
@@ -126,7 +136,8 @@ pub fn write_scripts(
         spec = array_spec(tasks, params.max_running),
         cpus = params.cpus_per_task,
         time = slurm_time(time_s as f64),
-        log = logs.join("task-%A_%a.log").display(),
+        log = directive_path(&logs.join("task-%A_%a.log")),
+        dir_d = directive_path(dir),
         dir_q = q(dir),
         exe = q(exe),
         sweep_q = q(sweep_file),
@@ -143,11 +154,12 @@ pub fn write_scripts(
          #SBATCH --mem=1000M\n\
          #SBATCH --time=00:30:00\n\
          #SBATCH --output={log}\n\
-         #SBATCH --chdir={dir_q}\n\
+         #SBATCH --chdir={dir_d}\n\
          {partition}\
          set -eu\n\
          exec {exe} collect {dir_q}\n",
-        log = logs.join("collect-%j.log").display(),
+        log = directive_path(&logs.join("collect-%j.log")),
+        dir_d = directive_path(dir),
         dir_q = q(dir),
         exe = q(exe),
     );

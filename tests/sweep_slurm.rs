@@ -1,0 +1,161 @@
+//! `plumefield sweep --slurm` on a real Slurm cluster: submit a 6-case sweep as a job array with a dependent
+//! collect job, wait (bounded), and check that its `sweep.csv` equals the one of a local run of the same
+//! sweep; then lose two cases and check that re-submitting runs only those two.
+//!
+//! Needs a cluster: `scripts/slurm-start` starts a private single-node one and prints the `SLURM_CONF` to
+//! export (`scripts/test` does this and sets PLUMEFIELD_REQUIRE_SLURM=1, so in CI the test cannot skip).
+//! Without `SLURM_CONF` and `sbatch`, the test prints why and skips.
+
+mod sweep_support;
+
+use std::path::Path;
+use std::process::Command;
+use std::time::{Duration, Instant};
+
+use sweep_support::*;
+
+const WAIT: Duration = Duration::from_secs(240);
+
+/// None when a cluster is available, else the reason to skip.
+fn no_cluster() -> Option<String> {
+    if std::env::var_os("SLURM_CONF").is_none() {
+        return Some("SLURM_CONF is not set (start a local cluster with scripts/slurm-start)".into());
+    }
+    match Command::new("sbatch").arg("--version").output() {
+        Ok(out) if out.status.success() => None,
+        Ok(out) => Some(format!("sbatch --version failed: {}", text(&out.stderr))),
+        Err(e) => Some(format!("sbatch cannot be run: {e}")),
+    }
+}
+
+fn job_is_queued(job: &str) -> bool {
+    let out = Command::new("squeue").args(["-h", "-j", job]).output().expect("squeue");
+    // An id that has left the queue is either "Invalid job id" (exit 1) or an empty listing.
+    out.status.success() && !text(&out.stdout).trim().is_empty()
+}
+
+/// Submit with `--slurm DIR --submit`, wait until the collect job has left the queue; returns its id.
+fn submit_and_wait(sweep: &Path, dir: &Path, extra: &[&str]) -> String {
+    let mut args = vec!["sweep", sweep.to_str().unwrap(), "--slurm", dir.to_str().unwrap(), "--submit"];
+    args.extend_from_slice(extra);
+    let out = pf(&args);
+    assert_eq!(out.status.code(), Some(0), "{}", show(&out));
+    let stdout = text(&out.stdout);
+    let line =
+        stdout.lines().find(|l| l.starts_with("submitted array job")).unwrap_or_else(|| panic!("{stdout}"));
+    let words: Vec<&str> = line.split_whitespace().collect();
+    let (array, collect) = (words[3].to_string(), words[7].to_string());
+    let started = Instant::now();
+    while job_is_queued(&array) || job_is_queued(&collect) {
+        assert!(
+            started.elapsed() < WAIT,
+            "jobs {array}/{collect} still queued after {WAIT:?}:\n{}",
+            squeue()
+        );
+        std::thread::sleep(Duration::from_millis(250));
+    }
+    eprintln!(
+        "array job {array} and collect job {collect} finished in {:.1} s",
+        started.elapsed().as_secs_f64()
+    );
+    collect
+}
+
+fn squeue() -> String {
+    Command::new("squeue").output().map(|o| text(&o.stdout)).unwrap_or_default()
+}
+
+fn log_text(dir: &Path) -> String {
+    let mut all = String::new();
+    if let Ok(entries) = std::fs::read_dir(dir.join("slurm/logs")) {
+        for entry in entries.flatten() {
+            all.push_str(&format!(
+                "--- {}\n{}",
+                entry.path().display(),
+                std::fs::read_to_string(entry.path()).unwrap_or_default()
+            ));
+        }
+    }
+    all
+}
+
+#[test]
+fn slurm_array_gives_the_local_table_and_resubmits_only_missing_tasks() {
+    if let Some(reason) = no_cluster() {
+        assert!(
+            std::env::var("PLUMEFIELD_REQUIRE_SLURM").as_deref() != Ok("1"),
+            "a Slurm cluster is required: {reason}"
+        );
+        eprintln!("skipped: {reason}");
+        return;
+    }
+    let dir = tempfile::tempdir().unwrap();
+    let sweep = write_sweep(
+        dir.path(),
+        "seeds = 2\n[[axis]]\nkey = \"flow.mean_velocity\"\nfrom = 0.5\nto = 2\ncount = 3\nscale = \"log\"\nunit = \"um/s\"\n",
+    );
+    let local = dir.path().join("local");
+    let out = pf(&["sweep", sweep.to_str().unwrap(), "-o", local.to_str().unwrap(), "--jobs", "2"]);
+    assert_eq!(out.status.code(), Some(0), "{}", show(&out));
+    let local_csv = std::fs::read_to_string(local.join("sweep.csv")).unwrap();
+    assert_eq!(local_csv.lines().count(), 7);
+
+    let cluster = dir.path().join("cluster");
+    let collect_job = submit_and_wait(&sweep, &cluster, &[]);
+    let script = std::fs::read_to_string(cluster.join("slurm/array.sbatch")).unwrap();
+    for line in [
+        "#SBATCH --array=0-5\n",
+        "#SBATCH --cpus-per-task=1\n",
+        "#SBATCH --mem=",
+        "#SBATCH --time=",
+        "task-%A_%a.log",
+    ] {
+        assert!(script.contains(line), "{line:?} missing from\n{script}");
+    }
+    let cluster_csv = std::fs::read_to_string(cluster.join("sweep.csv"))
+        .unwrap_or_else(|e| panic!("no sweep.csv from the collect job: {e}\n{}", log_text(&cluster)));
+    assert_eq!(
+        cluster_csv,
+        local_csv,
+        "the cluster's table differs from the local one\n{}",
+        log_text(&cluster)
+    );
+    let logs: Vec<String> = std::fs::read_dir(cluster.join("slurm/logs"))
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+        .collect();
+    assert_eq!(logs.iter().filter(|l| l.starts_with("task-")).count(), 6, "{logs:?}");
+    assert!(logs.contains(&format!("collect-{collect_job}.log")), "{logs:?}");
+    for i in 0..6 {
+        assert_case_intact(&cluster.join(format!("cases/case-{i:04}")));
+    }
+
+    // Lose two cases (one marker, one whole folder): only they are submitted again.
+    let kept = std::fs::read(cluster.join("cases/case-0000/done.json")).unwrap();
+    std::fs::remove_file(cluster.join("cases/case-0003/done.json")).unwrap();
+    std::fs::remove_dir_all(cluster.join("cases/case-0004")).unwrap();
+    std::fs::remove_file(cluster.join("sweep.csv")).unwrap();
+    let out =
+        pf(&["sweep", sweep.to_str().unwrap(), "--slurm", cluster.to_str().unwrap(), "--max-running", "1"]);
+    assert_eq!(out.status.code(), Some(0), "{}", show(&out));
+    assert!(text(&out.stdout).contains("2 of 6 cases"), "{}", show(&out));
+    let script = std::fs::read_to_string(cluster.join("slurm/array.sbatch")).unwrap();
+    assert!(script.contains("#SBATCH --array=3-4%1\n"), "{script}");
+    assert!(!cluster.join("sweep.csv").exists(), "writing the scripts submits nothing");
+    submit_and_wait(&sweep, &cluster, &["--max-running", "1"]);
+    assert_eq!(
+        std::fs::read_to_string(cluster.join("sweep.csv")).unwrap(),
+        local_csv,
+        "{}",
+        log_text(&cluster)
+    );
+    assert_eq!(std::fs::read(cluster.join("cases/case-0000/done.json")).unwrap(), kept, "case 0 ran again");
+    for i in 0..6 {
+        assert_case_intact(&cluster.join(format!("cases/case-{i:04}")));
+    }
+
+    // Everything done: nothing to submit, the table is collected at once.
+    let out = pf(&["sweep", sweep.to_str().unwrap(), "--slurm", cluster.to_str().unwrap(), "--submit"]);
+    assert_eq!(out.status.code(), Some(0), "{}", show(&out));
+    assert!(text(&out.stdout).contains("nothing to submit"), "{}", show(&out));
+}
