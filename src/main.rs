@@ -41,6 +41,8 @@ enum Command {
         #[arg(long)]
         json: bool,
     },
+    /// Redraw the figures of a run from its output folder into DIR/figures.
+    Plot { dir: PathBuf },
     /// Generate the layout alone; print volume fraction and nearest-neighbour statistics.
     Layout {
         case: PathBuf,
@@ -116,6 +118,7 @@ fn run_command(command: Command) -> anyhow::Result<()> {
         Command::Layout { case, output } => commands::layout::execute(&case, &output),
         Command::Verify { quick } => commands::verify::execute(quick),
         Command::Estimate { case, json } => commands::estimate::execute(&case, json),
+        Command::Plot { dir } => commands::plot::execute(&dir),
         Command::Sweep {
             sweep,
             output,

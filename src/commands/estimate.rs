@@ -283,6 +283,22 @@ impl CaseEstimates {
         Some(CriticalDensity { density: None, rising: false, range, isolated_error, case_error })
     }
 
+    /// The estimated anisotropy of the typical cell at `points` positions from inlet to outlet (for figures).
+    pub fn dense_profile(&self, points: usize) -> serde_json::Value {
+        let length = match &self.background {
+            Background::Column(c) => c.length,
+            _ => self.profile.last().map_or(0.0, |p| p.x),
+        };
+        let (xs, values): (Vec<f64>, Vec<f64>) = (0..points)
+            .filter_map(|i| {
+                let x = length * i as f64 / (points.max(2) - 1) as f64;
+                let (c, g) = self.background.at(x)?;
+                Some((x, estimate_cell_sensing(&self.typical_cell, c, g)?.anisotropy_along_flow))
+            })
+            .unzip();
+        json!({ "x": xs, "anisotropy_along_flow": values })
+    }
+
     /// Machine-readable form (SI units; `null` where an estimate does not apply).
     pub fn to_json(&self) -> serde_json::Value {
         let (background_kind, background_note) = match &self.background {
@@ -318,6 +334,8 @@ impl CaseEstimates {
                 "anisotropy_along_flow": self.profile.iter().map(|p| p.sensing.anisotropy_along_flow).collect::<Vec<_>>(),
                 "direction_error": self.profile.iter().map(|p| finite_or_string(p.sensing.direction_error)).collect::<Vec<_>>(),
             },
+            "profile_dense": self.dense_profile(101),
+            "integration_time": self.typical_cell.integration_time,
             "critical_density": self.critical_density.map(|c| json!({
                 "density": c.density, "rising": c.rising, "range": c.range, "position": "outlet",
                 "isolated_direction_error": finite_or_string(c.isolated_error),

@@ -1,3 +1,14 @@
 //! Figures (PNG) of a run and of a sweep, drawn with plotters.
+//!
+//! Run figures: [`run_figures::draw_run_figures`] reads a run's output folder ([`run_data`]) and draws one file
+//! per figure (one figure per file here too); [`style`] holds the font, colour map and atomic write.
+
+pub mod anisotropy_map;
+pub mod anisotropy_profile;
+pub mod concentration_slice;
+pub mod direction_error_histogram;
+pub mod run_data;
+pub mod run_figures;
+pub mod style;
 
 pub mod sweep_curves;

@@ -219,5 +219,8 @@ pub fn write_outputs(
         },
     });
     write_summary_json(&out_dir.join("summary.json"), &summary)?;
+    if case.output.figures {
+        crate::figures::run_figures::draw_run_figures(out_dir)?;
+    }
     Ok(())
 }

@@ -1,0 +1,98 @@
+//! `run` draws the four figures of DESIGN.md §6 into DIR/figures (unless `[output] figures = false`), and
+//! `plumefield plot DIR` redraws them from the output folder alone.
+
+use std::path::Path;
+use std::process::Command;
+
+const CASE: &str = r#"title = "figures"
+[chamber]
+size = ["96 um", "48 um", "32 um"]
+[grid]
+spacing = "2 um"
+[medium]
+model = "darcy"
+viscosity = "1e-3 Pa s"
+permeability = "1e-13 m^2"
+[flow]
+mean_velocity = "1 um/s"
+[boundaries]
+x_min = "inlet"
+x_max = "outlet"
+y_min = "wall"
+y_max = "wall"
+z_min = "symmetry"
+z_max = "symmetry"
+[ligand]
+diffusivity = "1e-10 m^2/s"
+[cells]
+radius = "6 um"
+secretion_rate = "2000 /h"
+uptake = { model = "first_order", rate_constant = "1e-6 m/s" }
+layout = { kind = "random", count = 5, min_gap = "2 um", seed = 5 }
+[sensing]
+decompose = "none"
+"#;
+
+const FIGURES: [&str; 4] = [
+    "concentration_slice.png",
+    "anisotropy_map.png",
+    "anisotropy_profile.png",
+    "direction_error_histogram.png",
+];
+
+fn plumefield(args: &[&str]) -> std::process::Output {
+    Command::new(env!("CARGO_BIN_EXE_plumefield")).args(args).output().expect("runs")
+}
+
+/// Width and height from the PNG header (IHDR follows the 8-byte signature).
+fn png_size(path: &Path) -> (u32, u32) {
+    let bytes = std::fs::read(path).unwrap();
+    assert_eq!(&bytes[..8], b"\x89PNG\r\n\x1a\n", "{} is not a PNG", path.display());
+    let be = |o: usize| u32::from_be_bytes([bytes[o], bytes[o + 1], bytes[o + 2], bytes[o + 3]]);
+    (be(16), be(20))
+}
+
+#[test]
+fn run_draws_figures_and_plot_redraws_them() {
+    let dir = tempfile::tempdir().unwrap();
+    let case = dir.path().join("case.toml");
+    std::fs::write(&case, CASE).unwrap();
+    let out = dir.path().join("out");
+    let run = plumefield(&["run", case.to_str().unwrap(), "-o", out.to_str().unwrap()]);
+    assert!(run.status.success(), "{}", String::from_utf8_lossy(&run.stderr));
+    let mut sizes = Vec::new();
+    for name in FIGURES {
+        let path = out.join("figures").join(name);
+        let (w, h) = png_size(&path);
+        assert!(w >= 600 && h >= 300, "{name}: {w}x{h}");
+        sizes.push(std::fs::metadata(&path).unwrap().len());
+    }
+    // No temporary files left behind.
+    let names: Vec<String> = std::fs::read_dir(out.join("figures"))
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+        .collect();
+    assert_eq!(names.len(), 4, "{names:?}");
+
+    std::fs::remove_dir_all(out.join("figures")).unwrap();
+    let plot = plumefield(&["plot", out.to_str().unwrap()]);
+    assert!(plot.status.success(), "{}", String::from_utf8_lossy(&plot.stderr));
+    for (name, size) in FIGURES.iter().zip(sizes) {
+        // Same data, same drawing code: the same bytes.
+        assert_eq!(std::fs::metadata(out.join("figures").join(name)).unwrap().len(), size, "{name}");
+    }
+
+    let missing = plumefield(&["plot", dir.path().join("nothing").to_str().unwrap()]);
+    assert_eq!(missing.status.code(), Some(2));
+}
+
+#[test]
+fn figures_false_draws_nothing() {
+    let dir = tempfile::tempdir().unwrap();
+    let case = dir.path().join("case.toml");
+    std::fs::write(&case, format!("{CASE}[output]\nfigures = false\n")).unwrap();
+    let out = dir.path().join("out");
+    let run = plumefield(&["run", case.to_str().unwrap(), "-o", out.to_str().unwrap()]);
+    assert!(run.status.success(), "{}", String::from_utf8_lossy(&run.stderr));
+    assert!(!out.join("figures").exists());
+}
