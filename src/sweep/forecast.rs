@@ -4,7 +4,9 @@
 //! constants were measured with `plumefield run --threads 1` on the development machine (release build):
 //! the demo case (200×100×50 = 1.0e6 grid cells, 300 cells) peaked at 573 MB resident and took 5.9 s; a
 //! 48×24×16 case peaked at 24.6 MB and took 0.14 s;
-//! the constants below are the straight line through these two points. They are a forecast, not a bound: the Slurm script adds
+//! the constants below are the straight line through these two points. Measured again later (Brinkman and
+//! decomposition code in, machine loaded by other builds): 590 MB and 6.5 s for the demo, within 3% and 10%.
+//! The model is calibrated on Darcy cases; Brinkman/Stokes flow solves cost more. They are a forecast, not a bound: the Slurm script adds
 //! headroom on top (see `slurm.rs`).
 
 use crate::case::Case;
@@ -13,6 +15,10 @@ use crate::case::Case;
 const BASE_BYTES: f64 = 14.0e6;
 /// Resident memory per grid cell, bytes (geometry, flow, transport, multigrid hierarchy, Krylov vectors).
 const BYTES_PER_GRID_CELL: f64 = 560.0;
+/// Extra resident memory per grid cell for each thread beyond the first (per-thread work buffers), bytes:
+/// the demo case peaked at 590 MB on one thread and 677 MB on two (measured again after the decomposition and
+/// Brinkman work landed; one pair of runs, so a rough slope).
+const BYTES_PER_GRID_CELL_PER_EXTRA_THREAD: f64 = 87.0;
 /// Fixed cost of a run (start-up, file writes), seconds.
 const BASE_SECONDS: f64 = 0.03;
 /// Wall time per grid cell on one thread, seconds.
@@ -44,6 +50,12 @@ impl Forecast {
             memory_bytes: BASE_BYTES + BYTES_PER_GRID_CELL * n,
             seconds_one_thread: BASE_SECONDS + SECONDS_PER_GRID_CELL * n,
         }
+    }
+
+    /// Peak resident memory on `threads` threads, bytes.
+    pub fn memory_bytes_on(&self, threads: usize) -> f64 {
+        self.memory_bytes
+            + BYTES_PER_GRID_CELL_PER_EXTRA_THREAD * (threads.max(1) - 1) as f64 * self.grid_cells as f64
     }
 
     /// Wall time on `threads` threads, seconds.
@@ -89,6 +101,7 @@ mod tests {
         assert!((tiny.memory_bytes / 24.6e6 - 1.0).abs() < 0.05, "{}", tiny.memory_bytes);
         assert!((tiny.seconds_one_thread / 0.14 - 1.0).abs() < 0.05, "{}", tiny.seconds_one_thread);
         assert!(demo.seconds(2) < demo.seconds(1));
+        assert!((demo.memory_bytes_on(2) / 677e6 - 1.0).abs() < 0.05, "{}", demo.memory_bytes_on(2));
     }
 
     #[test]

@@ -90,7 +90,7 @@ fn directive_path(path: &Path) -> String {
 
 /// Memory (MB) and time (s) requested for a task whose largest forecast is `forecast`.
 pub fn task_resources(forecast: &Forecast, cpus_per_task: usize) -> (u64, u64) {
-    let mem_mb = (1.5 * forecast.memory_bytes / 1e6 + 200.0).ceil() as u64;
+    let mem_mb = (1.5 * forecast.memory_bytes_on(cpus_per_task) / 1e6 + 200.0).ceil() as u64;
     let time_s = (3.0 * forecast.seconds(cpus_per_task) + 300.0).ceil() as u64;
     (mem_mb, time_s)
 }
@@ -272,8 +272,8 @@ mod tests {
         let text = std::fs::read_to_string(&s.array_script).unwrap();
         assert!(text.contains("#SBATCH --array=0-1,4%3\n"), "{text}");
         assert!(text.contains("#SBATCH --cpus-per-task=2\n"));
-        // 1.5 × 574 MB + 200 MB; 3 × 5.93 s / 1.7 + 300 s → 6 min.
-        assert!(text.contains("#SBATCH --mem=1061M\n"), "{text}");
+        // 1.5 × (574 + 87) MB + 200 MB on 2 threads; 3 × 5.93 s / 1.7 + 300 s → 6 min.
+        assert!(text.contains("#SBATCH --mem=1192M\n"), "{text}");
         assert!(text.contains("#SBATCH --time=00:06:00\n"), "{text}");
         assert!(text.contains("task-%A_%a.log"));
         assert!(text.contains("--task \"$SLURM_ARRAY_TASK_ID\" -o '"));
