@@ -3,7 +3,7 @@
 //! coefficients]). One sphere in a periodic box whose side L gives the volume fraction φ = (4/3)πa³/L³; the box is
 //! driven to the mean superficial velocity U, and the force balance G L³ = F gives the drag per sphere.
 
-use super::{relative_error, Check, Tier, VerifyError};
+use super::{Check, Tier, VerifyError};
 use crate::reference::hasimoto;
 use mesh::{Cell, EmbeddedGeometry, Grid, Layout};
 use solver::embedded::FacetStencils;
@@ -62,6 +62,7 @@ pub fn run(tier: Tier) -> Result<Vec<Check>, VerifyError> {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::cases::relative_error;
 
     /// The drag per sphere matches the series at two volume fractions, and equals the driving force G L³
     /// (the discrete momentum balance of the periodic cell). Measured at a/h = 4: drag/series 0.9925 (φ = 0.01),
