@@ -8,6 +8,10 @@ pub mod low_peclet_darcy;
 pub mod mass_balance_dense;
 pub mod setup;
 pub mod stokes_array;
+pub mod transient_puff;
+pub mod transient_setup;
+pub mod transient_sphere;
+pub mod transient_steady_limit;
 
 /// A verification case that could not be set up or solved.
 #[derive(thiserror::Error, Debug)]
@@ -18,6 +22,8 @@ pub enum VerifyError {
     Layout(#[from] mesh::layout::LayoutError),
     #[error(transparent)]
     Reference(#[from] crate::reference::ReferenceError),
+    #[error("{0}")]
+    Transient(String),
 }
 
 /// How thorough a verification run is.
@@ -104,6 +110,12 @@ pub fn run_all(tier: Tier, progress: &mut dyn FnMut(&str)) -> Result<Vec<Check>,
     checks.extend(low_peclet_darcy::run(tier)?);
     progress("mass balance, dense random layout");
     checks.extend(mass_balance_dense::run(tier)?);
+    progress("switched-on sphere in time");
+    checks.extend(transient_sphere::run(tier)?);
+    progress("Gaussian puff in a periodic box");
+    checks.extend(transient_puff::run(tier)?);
+    progress("long-time limit of a transient run");
+    checks.extend(transient_steady_limit::run(tier)?);
     progress("Brinkman flow past a sphere");
     checks.extend(brinkman_sphere::run(tier)?);
     progress("Stokes flow through a simple-cubic array");
