@@ -224,8 +224,8 @@ fn missing_file_and_later_commands_exit_2() {
     assert!(out.stderr.starts_with("error: cannot read case file absent.toml"), "{}", out.stderr);
     for (args, says) in [
         (vec!["estimate", "absent.toml"], "plumefield estimate is not implemented yet"),
-        (vec!["sweep", "sweep.toml", "--plan"], "plumefield sweep is not implemented yet"),
-        (vec!["collect", "somewhere"], "plumefield collect is not implemented yet"),
+        (vec!["sweep", "sweep.toml", "--plan"], "cannot read sweep file sweep.toml: No such file or directory (os error 2)"),
+        (vec!["collect", "somewhere"], "somewhere is not a sweep folder: cannot read sweep_plan.json: No such file or directory (os error 2)"),
     ] {
         let out = plumefield(&args, dir.path());
         assert_eq!(out.code, Some(2), "{args:?}: stderr {}", out.stderr);
