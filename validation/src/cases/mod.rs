@@ -3,11 +3,14 @@
 
 pub mod brinkman_sphere;
 pub mod darcy_sphere;
+pub mod decompose_split;
 pub mod isolated_sphere;
 pub mod low_peclet_darcy;
 pub mod mass_balance_dense;
+pub mod meanfield_dense;
 pub mod setup;
 pub mod stokes_array;
+pub mod two_spheres;
 pub mod transient_puff;
 pub mod transient_setup;
 pub mod transient_sphere;
@@ -22,6 +25,8 @@ pub enum VerifyError {
     Layout(#[from] mesh::layout::LayoutError),
     #[error(transparent)]
     Reference(#[from] crate::reference::ReferenceError),
+    #[error(transparent)]
+    Decompose(#[from] solver::post::decompose::DecomposeError),
     #[error("{0}")]
     Transient(String),
 }
@@ -110,6 +115,12 @@ pub fn run_all(tier: Tier, progress: &mut dyn FnMut(&str)) -> Result<Vec<Check>,
     checks.extend(low_peclet_darcy::run(tier)?);
     progress("mass balance, dense random layout");
     checks.extend(mass_balance_dense::run(tier)?);
+    progress("mean-field background, dense random layout");
+    checks.extend(meanfield_dense::run(tier)?);
+    progress("two reflecting spheres, no flow");
+    checks.extend(two_spheres::run(tier)?);
+    progress("self/neighbour split");
+    checks.extend(decompose_split::run(tier)?);
     progress("switched-on sphere in time");
     checks.extend(transient_sphere::run(tier)?);
     progress("Gaussian puff in a periodic box");
