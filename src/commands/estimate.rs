@@ -31,9 +31,10 @@ pub const RUN_BYTES_PER_GRID_CELL: f64 = 575.0;
 /// Wall time of a Darcy `run` per grid cell (s) on 2 cores, same case: 4 s on an idle machine, 7.4 s measured
 /// while other builds ran; the forecast takes the middle.
 pub const RUN_SECONDS_PER_GRID_CELL: f64 = 6.0e-6;
-/// Wall time of one extra right-hand side of the self/neighbour decomposition, per grid cell (s), relative to
-/// the run: measured by scripts/bench_decompose (see DEVELOPERS.md "Estimates").
-pub const DECOMPOSE_SECONDS_PER_GRID_CELL: f64 = 0.6e-6;
+/// Wall time of one extra right-hand side of the self/neighbour decomposition per grid cell (s): 0.8e-6 at 64³
+/// (scripts/bench_decompose, 100 cells) and 1.2e-6 on cases/demo.toml, both on a loaded 2-core machine; about
+/// 0.47 of the first transport solve.
+pub const DECOMPOSE_SECONDS_PER_GRID_CELL: f64 = 1.0e-6;
 
 /// The mean-field background of the chamber, or why there is none.
 #[derive(Clone, Debug, PartialEq)]
