@@ -223,7 +223,7 @@ fn missing_file_and_later_commands_exit_2() {
     assert_eq!(out.code, Some(2), "stderr: {}", out.stderr);
     assert!(out.stderr.starts_with("error: cannot read case file absent.toml"), "{}", out.stderr);
     for (args, says) in [
-        (vec!["estimate", "absent.toml"], "plumefield estimate is not implemented yet"),
+        (vec!["estimate", "absent.toml"], "cannot read case file absent.toml: No such file or directory (os error 2)"),
         (vec!["sweep", "sweep.toml", "--plan"], "cannot read sweep file sweep.toml: No such file or directory (os error 2)"),
         (vec!["collect", "somewhere"], "somewhere is not a sweep folder: cannot read sweep_plan.json: No such file or directory (os error 2)"),
     ] {

@@ -10,11 +10,11 @@ pub mod mass_balance_dense;
 pub mod meanfield_dense;
 pub mod setup;
 pub mod stokes_array;
-pub mod two_spheres;
 pub mod transient_puff;
 pub mod transient_setup;
 pub mod transient_sphere;
 pub mod transient_steady_limit;
+pub mod two_spheres;
 
 /// A verification case that could not be set up or solved.
 #[derive(thiserror::Error, Debug)]
