@@ -237,12 +237,15 @@ fn solve(
         let matrix = solver.assembled_matrix();
         nnz = Some(matrix.nnz());
         // A and b in SI units hold entries near 1e-16 m^3/s, below the absolute zero-pivot threshold of some
-        // factorisations (PETSc's is 2.2e-14): export s·A and s·b with s = 1/max|a_PP|, the same solution and
-        // the same relative residuals.
-        let max_diag = matrix.diag().iter().fold(0.0f64, |m, (_, &v)| m.max(v.abs()));
+        // factorisations (PETSc's is 2.2e-14): export s·A and s·b with s = 1/max|a_PP| over the fluid rows, the
+        // same solution. Rows of grid cells without fluid stay the identity (their right-hand side is zero).
+        let active = &solver.system().operator.active;
+        let max_diag =
+            matrix.diag().iter().filter(|&(p, _)| active[p]).fold(0.0f64, |m, (_, &v)| m.max(v.abs()));
         let scale = if max_diag > 0.0 && max_diag.is_finite() { 1.0 / max_diag } else { 1.0 };
-        write_matrix_market(&matrix, scale, &dir.join("matrix.mtx"))?;
-        let scaled_rhs: Vec<f64> = rhs.iter().map(|b| scale * b).collect();
+        write_matrix_market(&matrix, scale, active, &dir.join("matrix.mtx"))?;
+        let scaled_rhs: Vec<f64> =
+            rhs.iter().zip(active).map(|(b, &a)| if a { scale * b } else { *b }).collect();
         write_vector_market(&scaled_rhs, &dir.join("rhs.mtx"))?;
         println!(
             "exported matrix.mtx ({} nonzeros) and rhs.mtx to {} in {:.1} s",
@@ -352,16 +355,20 @@ fn print_ours(f: &Figures) {
 }
 
 /// `matrix coordinate real general`, 1-based, shortest round-trip decimals.
-fn write_matrix_market(a: &sprs::CsMat<f64>, scale: f64, path: &Path) -> Result<()> {
+fn write_matrix_market(a: &sprs::CsMat<f64>, scale: f64, active: &[bool], path: &Path) -> Result<()> {
     let file = std::fs::File::create(path).with_context(|| format!("cannot create {}", path.display()))?;
     let mut w = BufWriter::with_capacity(1 << 20, file);
     writeln!(w, "%%MatrixMarket matrix coordinate real general")?;
-    writeln!(w, "% plumefield transport system, scaled by {scale:e} (1 / largest diagonal entry)")?;
+    writeln!(
+        w,
+        "% plumefield transport system; fluid rows scaled by {scale:e} (1 / largest diagonal entry)"
+    )?;
     writeln!(w, "{} {} {}", a.rows(), a.cols(), a.nnz())?;
     let csr = if a.is_csr() { a.view() } else { bail!("expected a CSR matrix") };
     for (row, values) in csr.outer_iterator().enumerate() {
+        let s = if active[row] { scale } else { 1.0 };
         for (col, v) in values.iter() {
-            writeln!(w, "{} {} {:e}", row + 1, col + 1, scale * v)?;
+            writeln!(w, "{} {} {:e}", row + 1, col + 1, s * v)?;
         }
     }
     w.flush()?;
@@ -413,7 +420,9 @@ fn compare(ours_path: &Path, peers_path: &Path) -> Result<()> {
         .with_context(|| format!("cannot read {}", peers_path.display()))?;
     let mut peers = Vec::new();
     for line in text.lines().filter(|l| l.trim_start().starts_with('{')) {
-        match serde_json::from_str::<Peer>(line) {
+        // Python's json writes NaN (a failed solve's residual), which JSON lacks.
+        let line = line.replace("NaN", "null");
+        match serde_json::from_str::<Peer>(&line) {
             Ok(p) => peers.push(p),
             Err(e) => eprintln!("ignoring a peer line that is not a result ({e}): {line}"),
         }
