@@ -83,7 +83,10 @@ fn run_writes_contract_outputs_with_closed_mass_balance() {
     }
     let csv = std::fs::read_to_string(out.join("cells.csv")).expect("cells.csv");
     let header = csv.lines().next().unwrap_or_default();
-    assert!(header.starts_with(CONTRACT_COLUMNS), "expected header to start with\n{CONTRACT_COLUMNS}\nactual\n{header}");
+    assert!(
+        header.starts_with(CONTRACT_COLUMNS),
+        "expected header to start with\n{CONTRACT_COLUMNS}\nactual\n{header}"
+    );
     assert_eq!(csv.lines().count(), 7, "6 cells + header");
 
     let summary = std::fs::read_to_string(out.join("summary.json")).expect("summary.json");
@@ -97,8 +100,11 @@ fn run_writes_contract_outputs_with_closed_mass_balance() {
 
     // Outside readers on the real folder (h5py; VTK when importable), when Python has h5py.
     let script = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/python/check_outputs.py");
-    let has_h5py =
-        Command::new("python3").args(["-c", "import h5py"]).output().map(|o| o.status.success()).unwrap_or(false);
+    let has_h5py = Command::new("python3")
+        .args(["-c", "import h5py"])
+        .output()
+        .map(|o| o.status.success())
+        .unwrap_or(false);
     if has_h5py {
         // Parallel tests fork while holding HDF5 files open (the flock is inherited); reading needs no lock.
         let check = Command::new("python3")
@@ -124,7 +130,8 @@ fn solver_failure_exits_1_and_writes_nothing() {
     let stderr = String::from_utf8_lossy(&output.stderr);
     assert_eq!(output.status.code(), Some(1), "stderr: {stderr}");
     assert!(stderr.contains("residual"), "the message names the residual reached: {stderr}");
-    let written: Vec<_> = std::fs::read_dir(&out).map(|d| d.flatten().map(|e| e.file_name()).collect()).unwrap_or_default();
+    let written: Vec<_> =
+        std::fs::read_dir(&out).map(|d| d.flatten().map(|e| e.file_name()).collect()).unwrap_or_default();
     assert!(written.is_empty(), "nothing may be written after a failed solve, found {written:?}");
 }
 

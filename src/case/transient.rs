@@ -177,13 +177,15 @@ pub(super) fn validate_transient(
         Some(v) => match v.get_ref().as_str() {
             "zero" => InitialCondition::Zero,
             path if path.ends_with(".h5") => InitialCondition::Fields(case_dir.join(path)),
-            other => return Err(src.error(
-                "solve.initial_condition",
-                Some(&v.span()),
-                format!(
+            other => {
+                return Err(src.error(
+                    "solve.initial_condition",
+                    Some(&v.span()),
+                    format!(
                     "solve.initial_condition = \"{other}\" is neither \"zero\" nor the path of a fields.h5"
                 ),
-            )),
+                ))
+            }
         },
     };
     let stop_at_steady =

@@ -2,7 +2,9 @@
 
 use mesh::{Cell, Grid, Layout};
 use solver::linalg::KrylovParams;
-use solver::problem::{ChamberBoundaries, ChamberFace, FlowParameters, LigandParameters, MediumModel, SurfaceUptake};
+use solver::problem::{
+    ChamberBoundaries, ChamberFace, FlowParameters, LigandParameters, MediumModel, SurfaceUptake,
+};
 use solver::solve_case::{solve_steady_case, SteadyCase};
 
 fn darcy(mean_velocity: f64) -> FlowParameters {
@@ -10,7 +12,12 @@ fn darcy(mean_velocity: f64) -> FlowParameters {
 }
 
 fn reflecting() -> LigandParameters {
-    LigandParameters { diffusivity: 1e-10, decay_rate: 0.0, inlet_concentration: 0.0, uptake: SurfaceUptake::None }
+    LigandParameters {
+        diffusivity: 1e-10,
+        decay_rate: 0.0,
+        inlet_concentration: 0.0,
+        uptake: SurfaceUptake::None,
+    }
 }
 
 /// Darcy flow around impermeable inclusions is the conduction problem with insulating spheres, whose effective
@@ -44,7 +51,9 @@ fn periodic_array_pressure_drop_matches_maxwell() {
     eprintln!("pressure drop per period: measured {measured:.6e} Pa, Maxwell {expected:.6e} Pa, rel. diff {rel:.2e} (a/h = {:.1})", radius / h);
     assert!(rel < 0.01, "pressure drop {measured:e} vs Maxwell {expected:e}: {rel:.2e}");
     // Mean superficial velocity through a mid plane equals U (discretely divergence-free flow).
-    let mid: f64 = (0..n * n).map(|m| solution.flow.face_flux[0][grid.face_index(mesh::Axis::X, n / 2, m % n, m / n)]).sum();
+    let mid: f64 = (0..n * n)
+        .map(|m| solution.flow.face_flux[0][grid.face_index(mesh::Axis::X, n / 2, m % n, m / n)])
+        .sum();
     let mean = mid / (length * length);
     assert!((mean - speed).abs() < 1e-8 * speed, "mean velocity {mean:e} vs {speed:e}");
     // A periodic box with decay: everything secreted decays (no faces to leave through).

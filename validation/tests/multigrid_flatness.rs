@@ -5,7 +5,9 @@
 use mesh::layout::{lattice, ChamberBox};
 use mesh::Grid;
 use solver::linalg::KrylovParams;
-use solver::problem::{ChamberBoundaries, ChamberFace, FlowParameters, LigandParameters, MediumModel, SurfaceUptake};
+use solver::problem::{
+    ChamberBoundaries, ChamberFace, FlowParameters, LigandParameters, MediumModel, SurfaceUptake,
+};
 use solver::solve_case::{solve_steady_case, SteadyCase};
 
 #[test]

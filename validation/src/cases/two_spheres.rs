@@ -60,19 +60,30 @@ pub fn solve_pair(
     Ok([solution.sensing[0].anisotropy[0], -solution.sensing[1].anisotropy[0]])
 }
 
+/// Box margin beyond the spheres (in radii): the far-field condition treats the pair as one point source at
+/// its centroid, which is only accurate at distances beyond the separation; with a fixed 6a margin the
+/// R = 10a anisotropy came out 45% low (measured), so the margin grows with the separation.
+pub fn margin_radii(distance_radii: f64) -> f64 {
+    distance_radii.max(6.0)
+}
+
 pub fn run(tier: Tier) -> Result<Vec<Check>, VerifyError> {
     let (resolution, distances): (f64, &[f64]) = match tier {
-        Tier::Quick => (5.0, &[3.0, 5.0, 10.0]),
+        // At a/h = 5 the anisotropy carries an absolute discretisation error of about 4e-4 (measured at 5a and
+        // 10a): 3% of the signal at 5a but 4–8% at 10a (4.36e-3, 4.17e-3 against 4.55e-3), so 10a is checked
+        // only on the finer grid of the full tier.
+        Tier::Quick => (5.0, &[3.0, 5.0]),
         Tier::Full => (8.0, &[3.0, 4.0, 6.0, 10.0]),
     };
     let mut checks = Vec::new();
     for &d in distances {
         let distance = d * RADIUS;
-        let [a1, a2] = solve_pair(distance, resolution, 6.0)?;
+        let margin = margin_radii(d);
+        let [a1, a2] = solve_pair(distance, resolution, margin)?;
         let reference = reflection_anisotropy(RADIUS, distance);
         for (which, a) in [("sphere 1", a1), ("sphere 2", a2)] {
             let mut check = Check::new(
-                &format!("two reflecting spheres, R = {d}a, no flow (a/h = {resolution}, box +-6a)"),
+                &format!("two reflecting spheres, R = {d}a, no flow (a/h = {resolution}, margin {margin}a)"),
                 &format!("{which}: anisotropy towards the other"),
                 a,
                 reference,
@@ -93,9 +104,9 @@ mod tests {
 
     #[test]
     fn anisotropy_points_at_the_other_sphere_with_the_reflection_magnitude() {
-        // R = 3a and 5a at a/h = 5 (quick tier of `verify` adds 10a).
+        // R = 3a and 5a at a/h = 5, as in the quick tier of `verify` (10a needs the full tier's finer grid).
         for d in [3.0, 5.0] {
-            let [a1, a2] = solve_pair(d * RADIUS, 5.0, 6.0).unwrap();
+            let [a1, a2] = solve_pair(d * RADIUS, 5.0, margin_radii(d)).unwrap();
             let reference = reflection_anisotropy(RADIUS, d * RADIUS);
             eprintln!("R = {d}a: anisotropy {a1:.5e}, {a2:.5e}; reflections {reference:.5e}");
             for a in [a1, a2] {
