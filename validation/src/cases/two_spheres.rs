@@ -118,4 +118,20 @@ mod tests {
             }
         }
     }
+
+    /// R = 10a on the full tier's grid (a/h = 8, margin 10a): 6 million grid cells, so behind `--ignored`.
+    /// Known failure (measured 2026-12-02): 4.29e-3 and 4.24e-3 against 4.55e-3 (6–7% low), barely moved from
+    /// a/h = 5 (4.36e-3, 4.17e-3): the error is not the grid but the far-field box, whose Robin condition sees
+    /// the pair as one point source at its centroid. Open until the far field uses the sources' own positions.
+    #[test]
+    #[ignore]
+    fn ten_radii_apart_on_the_fine_grid() {
+        let d = 10.0;
+        let [a1, a2] = solve_pair(d * RADIUS, 8.0, margin_radii(d)).unwrap();
+        let reference = reflection_anisotropy(RADIUS, d * RADIUS);
+        eprintln!("R = {d}a, a/h = 8: anisotropy {a1:.5e}, {a2:.5e}; reflections {reference:.5e}");
+        for a in [a1, a2] {
+            assert!(a > 0.0 && ((a - reference) / reference).abs() < 0.05, "{a:.5e} vs {reference:.5e}");
+        }
+    }
 }
