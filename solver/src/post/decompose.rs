@@ -21,9 +21,10 @@
 use super::integrate_surface::{CellSensing, SensingModel};
 use crate::linalg::{KrylovParams, MultigridParams, SolveError, SteadySolver};
 use crate::problem::SurfaceUptake;
+use crate::transport::advection::limited_faces;
 use crate::transport::surface_exchange::FacetExchange;
 use crate::transport::TransportAssembly;
-use mesh::{Axis, EmbeddedGeometry, Layout};
+use mesh::{EmbeddedGeometry, Layout};
 use rayon::prelude::*;
 use std::time::Instant;
 
@@ -294,54 +295,11 @@ struct FrozenLimiter {
 
 impl FrozenLimiter {
     fn new(inputs: &DecomposeInputs) -> Self {
-        use crate::transport::advection::CENTRAL_PECLET_LIMIT;
-        let geometry = inputs.geometry;
-        let grid = &geometry.grid;
-        let h = grid.spacing;
-        let c = inputs.total;
-        let [nx, ny, nz] = grid.shape;
-        let active = |n: usize| geometry.volume_fraction[n] > 0.0;
-        let mut faces = Vec::new();
-        for axis in Axis::ALL {
-            let a = axis.index();
-            let n_a = grid.shape[a];
-            let stride = [1, nx, nx * ny][a];
-            for k in 0..nz {
-                for j in 0..ny {
-                    for i in 0..nx {
-                        let cell = [i, j, k];
-                        if cell[a] == 0 {
-                            continue;
-                        }
-                        let q = inputs.face_flux[a][grid.face_index(axis, i, j, k)];
-                        if q.abs() / (inputs.diffusivity * h) <= CENTRAL_PECLET_LIMIT {
-                            continue;
-                        }
-                        let right = grid.index(i, j, k);
-                        let left = right - stride;
-                        if !active(left) || !active(right) {
-                            continue;
-                        }
-                        let (up, down, far_up) = if q > 0.0 {
-                            (left, right, (cell[a] >= 2).then(|| left - stride))
-                        } else {
-                            (right, left, (cell[a] + 1 < n_a).then(|| right + stride))
-                        };
-                        let Some(far_up) = far_up.filter(|&n| active(n)) else { continue };
-                        let jump = c[down] - c[up];
-                        if jump == 0.0 {
-                            continue;
-                        }
-                        let r = (c[up] - c[far_up]) / jump;
-                        let psi = (r + r.abs()) / (1.0 + r.abs());
-                        if psi != 0.0 {
-                            faces.push((up, down, q.abs() * 0.5 * psi));
-                        }
-                    }
-                }
-            }
-        }
-        FrozenLimiter { faces, len: grid.len() }
+        let faces = limited_faces(inputs.geometry, inputs.face_flux, inputs.diffusivity, inputs.total)
+            .into_iter()
+            .map(|f| (f.upstream, f.downstream, f.weight))
+            .collect();
+        FrozenLimiter { faces, len: inputs.geometry.grid.len() }
     }
 
     fn correction(&self, c: &[f64]) -> Vec<f64> {

@@ -47,20 +47,28 @@ pub fn upwind_high_peclet_faces(
     report
 }
 
-/// Right-hand side of the deferred correction for the current iterate `c`: on every upwinded interior face the
-/// flux `Q ψ(r)/2 (c_D − c_U)` moves from the matrix (which holds the upwind flux) to the right-hand side.
-/// Returns the correction per grid cell (molecules/s, to be added to the right-hand side).
-pub fn deferred_correction(
+/// One upwinded interior face with its limited correction weight: the upwind-biased face value is
+/// `c_U + ψ(r)/2 (c_D − c_U)`, so the flux beyond upwind is `weight · (c_D − c_U)` with `weight = |Q| ψ(r)/2`.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct LimitedFace {
+    pub upstream: usize,
+    pub downstream: usize,
+    /// `|Q| ψ(r)/2` (m^3/s), ψ the van Leer limiter evaluated on `c`.
+    pub weight: f64,
+}
+
+/// The upwinded interior faces of `c` whose limited correction is non-zero.
+pub fn limited_faces(
     geometry: &EmbeddedGeometry,
     face_flux: &[Vec<f64>; 3],
     diffusivity: f64,
     c: &[f64],
-) -> Vec<f64> {
+) -> Vec<LimitedFace> {
     let grid = &geometry.grid;
     let h = grid.spacing;
     let [nx, ny, nz] = grid.shape;
-    let mut correction = vec![0.0; grid.len()];
     let active = |n: usize| geometry.volume_fraction[n] > 0.0;
+    let mut faces = Vec::new();
     for axis in Axis::ALL {
         let a = axis.index();
         let n_a = grid.shape[a];
@@ -94,12 +102,34 @@ pub fn deferred_correction(
                     }
                     let r = (c[up] - c[far_up]) / jump;
                     let psi = (r + r.abs()) / (1.0 + r.abs());
-                    let flux = q.abs() * 0.5 * psi * jump;
-                    correction[up] -= flux;
-                    correction[down] += flux;
+                    if psi != 0.0 {
+                        faces.push(LimitedFace {
+                            upstream: up,
+                            downstream: down,
+                            weight: q.abs() * 0.5 * psi,
+                        });
+                    }
                 }
             }
         }
+    }
+    faces
+}
+
+/// Right-hand side of the deferred correction for the current iterate `c`: on every upwinded interior face the
+/// flux `Q ψ(r)/2 (c_D − c_U)` moves from the matrix (which holds the upwind flux) to the right-hand side.
+/// Returns the correction per grid cell (molecules/s, to be added to the right-hand side).
+pub fn deferred_correction(
+    geometry: &EmbeddedGeometry,
+    face_flux: &[Vec<f64>; 3],
+    diffusivity: f64,
+    c: &[f64],
+) -> Vec<f64> {
+    let mut correction = vec![0.0; geometry.grid.len()];
+    for f in limited_faces(geometry, face_flux, diffusivity, c) {
+        let flux = f.weight * (c[f.downstream] - c[f.upstream]);
+        correction[f.upstream] -= flux;
+        correction[f.downstream] += flux;
     }
     correction
 }
