@@ -211,7 +211,7 @@ pub fn solve_darcy(
     let pressure_drop = if periodic_x_driven {
         periodic_pressure_drop(grid, &pressure, &face_flux, &conductance)
     } else {
-        face_pressure_difference(grid, &pressure, &active)
+        super::inlet_outlet_pressure_difference(grid, &pressure, &active)
     };
     let drag = pressure_force(geometry, stencils, &pressure, cells);
     let velocity = FlowField::cell_velocity(grid, &face_flux);
@@ -271,28 +271,6 @@ fn interior_face_flux(
         }
         q
     })
-}
-
-/// Mean pressure of the first grid-cell layer minus that of the last along x (active cells only) (Pa).
-fn face_pressure_difference(grid: &mesh::Grid, p: &[f64], active: &[bool]) -> f64 {
-    let layer_mean = |i: usize| {
-        let (mut sum, mut count) = (0.0, 0usize);
-        for k in 0..grid.shape[2] {
-            for j in 0..grid.shape[1] {
-                let n = grid.index(i, j, k);
-                if active[n] {
-                    sum += p[n];
-                    count += 1;
-                }
-            }
-        }
-        if count > 0 {
-            sum / count as f64
-        } else {
-            0.0
-        }
-    };
-    layer_mean(0) - layer_mean(grid.shape[0] - 1)
 }
 
 /// Pressure drop per period along x for a periodic, pressure-driven chamber: the scaled jump recovered from

@@ -80,3 +80,26 @@ impl FlowField {
             .fold(0.0, f64::max)
     }
 }
+
+/// Mean pressure of the first grid-cell layer minus that of the last along x, over the grid cells marked in
+/// `active` (Pa): the pressure drop a modeller reads between inlet and outlet.
+pub fn inlet_outlet_pressure_difference(grid: &mesh::Grid, p: &[f64], active: &[bool]) -> f64 {
+    let layer_mean = |i: usize| {
+        let (mut sum, mut count) = (0.0, 0usize);
+        for k in 0..grid.shape[2] {
+            for j in 0..grid.shape[1] {
+                let n = grid.index(i, j, k);
+                if active[n] {
+                    sum += p[n];
+                    count += 1;
+                }
+            }
+        }
+        if count > 0 {
+            sum / count as f64
+        } else {
+            0.0
+        }
+    };
+    layer_mean(0) - layer_mean(grid.shape[0] - 1)
+}

@@ -251,7 +251,7 @@ pub fn solve_brinkman(
     let pressure_drop = if driven {
         driving_gradient * grid.extent()[0]
     } else {
-        layer_difference(grid, &pressure, &system.coupling.pressure_active)
+        crate::flow::inlet_outlet_pressure_difference(grid, &pressure, &system.coupling.pressure_active)
     };
     let front_back = pressure_front_back(geometry, stencils, layout, &velocity, &pressure);
     let field = FlowField {
@@ -272,26 +272,4 @@ pub fn solve_brinkman(
         residual_history: info.residual_history,
         memory_bytes,
     })
-}
-
-/// Mean pressure of the first grid-cell layer minus that of the last along x (pressure unknowns only) (Pa).
-fn layer_difference(grid: &mesh::Grid, p: &[f64], active: &[bool]) -> f64 {
-    let layer_mean = |i: usize| {
-        let (mut sum, mut count) = (0.0, 0usize);
-        for k in 0..grid.shape[2] {
-            for j in 0..grid.shape[1] {
-                let n = grid.index(i, j, k);
-                if active[n] {
-                    sum += p[n];
-                    count += 1;
-                }
-            }
-        }
-        if count > 0 {
-            sum / count as f64
-        } else {
-            0.0
-        }
-    };
-    layer_mean(0) - layer_mean(grid.shape[0] - 1)
 }
