@@ -12,6 +12,8 @@ use std::path::Path;
 use serde_json::json;
 use solver::linalg::{KrylovParams, MultigridParams};
 use solver::post::decompose::{decompose, DecomposeInputs, DecomposeSelection};
+use solver::flow::brinkman::resolution::check_resolution;
+use solver::flow::brinkman::{BrinkmanMedium, ResolutionWarning};
 use solver::post::estimates::{
     biot_number, estimate_cell_sensing, homogenised_source_and_sink, isolated_anisotropy, CellEstimateInputs,
     ColumnInlet, IsolatedFlow, MeanFieldColumn, SensingEstimate,
@@ -23,18 +25,6 @@ use solver::solve_case::SteadySolution;
 use crate::case::Case;
 use crate::exit::{InputError, SolverFailure};
 use crate::io::table::{CellTable, Column, ColumnValues};
-
-/// Memory of a Darcy `run` per grid cell (bytes), measured on cases/demo.toml (1.0e6 grid cells, 300 cells:
-/// peak resident set 574 MB, see DEVELOPERS.md "Estimates"); the run is dominated by arrays proportional to
-/// the grid, so the forecast scales it linearly.
-pub const RUN_BYTES_PER_GRID_CELL: f64 = 575.0;
-/// Wall time of a Darcy `run` per grid cell (s) on 2 cores, same case: 4 s on an idle machine, 7.4 s measured
-/// while other builds ran; the forecast takes the middle.
-pub const RUN_SECONDS_PER_GRID_CELL: f64 = 6.0e-6;
-/// Wall time of one extra right-hand side of the self/neighbour decomposition per grid cell (s): 0.8e-6 at 64³
-/// (scripts/bench_decompose, 100 cells) and 1.2e-6 on cases/demo.toml, both on a loaded 2-core machine; about
-/// 0.47 of the first transport solve.
-pub const DECOMPOSE_SECONDS_PER_GRID_CELL: f64 = 1.0e-6;
 
 /// The mean-field background of the chamber, or why there is none.
 #[derive(Clone, Debug, PartialEq)]
@@ -86,10 +76,11 @@ pub struct CriticalDensity {
     pub case_error: f64,
 }
 
-/// Forecast for `run` at the case's grid.
+/// Forecast for `run` at the case's grid, on `threads` threads (the shared model of `crate::sweep::forecast`).
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct Forecast {
     pub grid_cells: usize,
+    pub threads: usize,
     pub memory_bytes: f64,
     pub seconds: f64,
     /// Extra seconds of the self/neighbour decomposition as configured.
@@ -117,6 +108,9 @@ pub struct CaseEstimates {
     pub forecast: Forecast,
     /// The typical cell (case defaults), for per-cell estimates with each cell's own radius and secretion.
     pub typical_cell: CellEstimateInputs,
+    /// Brinkman resolution guard at the case's grid (the same one `run` reports): set when √(μ_e K/μ) spans
+    /// fewer than two spacings, with the expected drag error and the spacing that resolves it.
+    pub flow_resolution: Option<ResolutionWarning>,
     fluid_fraction: f64,
     chamber_volume: f64,
 }
@@ -170,6 +164,8 @@ impl CaseEstimates {
             critical_density: None,
             forecast: forecast(case),
             typical_cell,
+            flow_resolution: BrinkmanMedium::from_model(case.flow.medium)
+                .and_then(|medium| check_resolution(&medium, case.grid.spacing)),
             fluid_fraction,
             chamber_volume,
         };
@@ -317,6 +313,11 @@ impl CaseEstimates {
         json!({
             "flow_model": self.flow.name(),
             "brinkman_alpha": match self.flow { IsolatedFlow::Brinkman { alpha } => Some(alpha), _ => None },
+            "flow_resolution": self.flow_resolution.as_ref().map(|w| json!({
+                "screening_length": w.screening_length, "spacing": w.spacing,
+                "expected_drag_error": w.expected_drag_error, "suggested_spacing": w.suggested_spacing,
+                "message": w.to_string(),
+            })),
             "radius": self.radius,
             "peclet_cell": self.peclet_cell,
             "peclet_chamber": self.peclet_chamber,
@@ -353,6 +354,8 @@ impl CaseEstimates {
                 "background.outlet_concentration": "molecules/m^3", "profile.x": "m",
                 "profile.background": "molecules/m^3", "profile.mean_surface_concentration": "molecules/m^3",
                 "critical_density.density": "1/m^3", "forecast.memory_bytes": "B", "forecast.seconds": "s",
+                "flow_resolution.screening_length": "m", "flow_resolution.spacing": "m",
+                "flow_resolution.suggested_spacing": "m",
             },
         })
     }
@@ -371,6 +374,19 @@ impl CaseEstimates {
             other => other.name().to_string(),
         };
         row(&mut t, "flow model", model);
+        if let Some(w) = &self.flow_resolution {
+            row(
+                &mut t,
+                "screening length sqrt(mu_e K/mu) vs grid",
+                format!(
+                    "UNDER-RESOLVED: {:.3e} m = {:.2} spacings; expected drag error {:.1}%; suggested spacing {:.3e} m",
+                    w.screening_length,
+                    w.screening_length / w.spacing,
+                    100.0 * w.expected_drag_error,
+                    w.suggested_spacing
+                ),
+            );
+        }
         row(&mut t, "cell radius a", format!("{:.3} um", self.radius * 1e6));
         row(&mut t, "Peclet number, cell scale U a/D", format!("{:.4e}", self.peclet_cell));
         row(&mut t, "Peclet number, chamber scale U L/D", format!("{:.4e}", self.peclet_chamber));
@@ -484,7 +500,7 @@ impl CaseEstimates {
         row(&mut t, "run forecast: memory", format!("{:.2} GB", f.memory_bytes / 1e9));
         row(
             &mut t,
-            "run forecast: wall time on 2 cores",
+            &format!("run forecast: wall time on {} thread(s)", f.threads),
             format!("{:.1} s (+ {:.1} s self/neighbour decomposition)", f.seconds, f.decompose_seconds),
         );
         t
@@ -500,20 +516,17 @@ fn finite_or_string(x: f64) -> serde_json::Value {
     }
 }
 
-/// Linear forecast from the calibration constants above.
+/// The shared run forecast (`crate::sweep::forecast`) on this machine's cores, as `run` uses them.
 fn forecast(case: &Case) -> Forecast {
-    let n = case.grid.len();
+    let model = crate::sweep::forecast::Forecast::of(case);
+    let threads = std::thread::available_parallelism().map_or(1, |n| n.get());
     Forecast {
-        grid_cells: n,
-        memory_bytes: RUN_BYTES_PER_GRID_CELL * n as f64,
-        seconds: RUN_SECONDS_PER_GRID_CELL * n as f64,
-        decompose_seconds: DECOMPOSE_SECONDS_PER_GRID_CELL * n as f64 * decomposed_count(case) as f64,
+        grid_cells: model.grid_cells,
+        threads,
+        memory_bytes: model.memory_bytes_on(threads),
+        seconds: model.seconds(threads) - model.decompose_seconds(threads),
+        decompose_seconds: model.decompose_seconds(threads),
     }
-}
-
-/// How many cells the run will decompose (see `[sensing] decompose`).
-fn decomposed_count(case: &Case) -> usize {
-    case.sensing.decompose.choose(case.layout.cells.len()).len()
 }
 
 /// The flow model a medium implies, for reports.
@@ -538,6 +551,9 @@ pub fn execute(case_path: &Path, json: bool) -> anyhow::Result<()> {
         println!("{}", serde_json::to_string_pretty(&estimates.to_json())?);
     } else {
         for warning in &case.warnings {
+            eprintln!("warning: {warning}");
+        }
+        if let Some(warning) = &estimates.flow_resolution {
             eprintln!("warning: {warning}");
         }
         print!("{}", estimates.table(&case));
