@@ -32,6 +32,13 @@ enum Command {
         /// Worker threads [default: one per core].
         #[arg(long)]
         threads: Option<usize>,
+        /// Transient runs: write DIR/checkpoint.bin every N accepted steps (a whole number) or every interval
+        /// of simulated time (a time with a unit, e.g. "30 min").
+        #[arg(long, value_name = "N or TIME")]
+        checkpoint_every: Option<String>,
+        /// Transient runs: continue from DIR/checkpoint.bin (same case file) instead of starting over.
+        #[arg(long)]
+        resume: bool,
     },
     /// Cheap estimates without a solve: Péclet numbers, isolated-cell anisotropy, mean-field background,
     /// direction error along the chamber, memory and time forecast.
@@ -101,7 +108,11 @@ fn default_output(case: &Path) -> PathBuf {
 
 fn run_command(command: Command) -> anyhow::Result<()> {
     match command {
-        Command::Run { case, output, threads } => {
+        Command::Run { case, output, threads, checkpoint_every, resume } => {
+            let checkpoint_every = checkpoint_every
+                .as_deref()
+                .map(commands::run::transient::CheckpointEvery::parse)
+                .transpose()?;
             if let Some(n) = threads {
                 if n == 0 {
                     return Err(InputError("--threads must be at least 1".into()).into());
@@ -113,7 +124,8 @@ fn run_command(command: Command) -> anyhow::Result<()> {
             }
             let out_dir = output.unwrap_or_else(|| default_output(&case));
             let case = Case::load(&case)?;
-            commands::run::execute(&case, &out_dir, threads)
+            let options = commands::run::transient::TransientOptions { checkpoint_every, resume };
+            commands::run::execute_with(&case, &out_dir, threads, &options)
         }
         Command::Layout { case, output } => commands::layout::execute(&case, &output),
         Command::Verify { quick } => commands::verify::execute(quick),

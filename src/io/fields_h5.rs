@@ -177,7 +177,7 @@ fn write_fields_h5_created(
     .with_context(|| format!("cannot write {}", path.display()))
 }
 
-fn write_provenance(file: &File, p: &Provenance, created: &str) -> anyhow::Result<()> {
+pub(super) fn write_provenance(file: &File, p: &Provenance, created: &str) -> anyhow::Result<()> {
     set_text_attr(file, "version", &p.version)?;
     set_text_attr(file, "git_revision", p.git_revision.as_deref().unwrap_or("unknown"))?;
     set_text_attr(file, "case_sha256", &p.case_sha256)?;
@@ -191,7 +191,7 @@ fn write_provenance(file: &File, p: &Provenance, created: &str) -> anyhow::Resul
     )
 }
 
-fn write_grid(file: &File, grid: &mesh::Grid, volume_fraction: &[f64]) -> anyhow::Result<()> {
+pub(super) fn write_grid(file: &File, grid: &mesh::Grid, volume_fraction: &[f64]) -> anyhow::Result<()> {
     let g = new_group(file, "grid")?;
     let origin =
         g.new_dataset_builder().with_data(&grid.origin[..]).obj_track_times(false).create("origin")?;
@@ -217,7 +217,7 @@ fn write_grid(file: &File, grid: &mesh::Grid, volume_fraction: &[f64]) -> anyhow
 }
 
 /// A 3-D cell-centred dataset `(nz, ny, nx)`, chunked, shuffled and deflated.
-fn write_field_3d(
+pub(super) fn write_field_3d(
     group: &Group,
     name: &str,
     grid: &mesh::Grid,
@@ -241,17 +241,22 @@ fn write_field_3d(
     describe(&ds, unit, description)
 }
 
-fn write_cells(file: &File, table: &CellTable) -> anyhow::Result<()> {
-    let rows = table.validate()?;
+pub(super) fn write_cells(file: &File, table: &CellTable) -> anyhow::Result<()> {
     let g = new_group(file, "cells")?;
+    write_table(&g, table)
+}
+
+/// One 1-D dataset per column of `table` in `g`, with the attributes `columns` (the order) and `count` (rows).
+pub(super) fn write_table(g: &Group, table: &CellTable) -> anyhow::Result<()> {
+    let rows = table.validate()?;
     let names =
         table.columns.iter().map(|c| to_h5_text(&c.name)).collect::<anyhow::Result<Vec<VarLenUnicode>>>()?;
     g.new_attr_builder().with_data(&names[..]).create("columns")?;
     g.new_attr::<u64>().shape(()).create("count")?.write_scalar(&(rows as u64))?;
     for column in &table.columns {
         let ds = match &column.values {
-            ColumnValues::Int(v) => write_column(&g, &column.name, ArrayView1::from(v.as_slice()))?,
-            ColumnValues::Real(v) => write_column(&g, &column.name, ArrayView1::from(v.as_slice()))?,
+            ColumnValues::Int(v) => write_column(g, &column.name, ArrayView1::from(v.as_slice()))?,
+            ColumnValues::Real(v) => write_column(g, &column.name, ArrayView1::from(v.as_slice()))?,
         };
         describe(&ds, &column.unit, &column.description)?;
     }
@@ -271,7 +276,7 @@ fn write_column<T: hdf5::H5Type>(
     builder.create(name).with_context(|| format!("cannot write dataset /cells/{name}"))
 }
 
-fn new_group(file: &File, name: &str) -> anyhow::Result<Group> {
+pub(super) fn new_group(file: &File, name: &str) -> anyhow::Result<Group> {
     file.create_group_builder()
         .obj_track_times(false)
         .create(name)
@@ -279,12 +284,12 @@ fn new_group(file: &File, name: &str) -> anyhow::Result<Group> {
 }
 
 /// The `units` and `description` attributes every dataset carries.
-fn describe(ds: &hdf5::Dataset, unit: &str, description: &str) -> anyhow::Result<()> {
+pub(super) fn describe(ds: &hdf5::Dataset, unit: &str, description: &str) -> anyhow::Result<()> {
     set_text_attr(ds, "units", unit)?;
     set_text_attr(ds, "description", description)
 }
 
-fn set_text_attr(location: &Location, name: &str, value: &str) -> anyhow::Result<()> {
+pub(super) fn set_text_attr(location: &Location, name: &str, value: &str) -> anyhow::Result<()> {
     let text = to_h5_text(value)?;
     location
         .new_attr::<VarLenUnicode>()

@@ -3,13 +3,17 @@
 //! carries its units; `fields.h5` also carries the provenance of the run.
 
 pub mod atomic;
+pub mod binary_record;
 pub mod cells_csv;
 pub mod fields_h5;
+pub mod initial_field;
 pub mod number_text;
 pub mod provenance;
 pub mod summary_json;
 pub mod table;
+pub mod transient_h5;
 pub mod xdmf;
+pub mod xdmf_temporal;
 
 pub use atomic::{with_atomic_file, write_atomic};
 pub use cells_csv::write_cells_csv;

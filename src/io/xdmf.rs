@@ -104,7 +104,7 @@ pub fn fields_xmf_text(
 }
 
 /// A DataItem that reads one `(nz, ny, nx)` double dataset from the HDF5 file.
-fn hdf_item(cells: &str, file: &str, dataset: &str) -> String {
+pub(super) fn hdf_item(cells: &str, file: &str, dataset: &str) -> String {
     format!(
         r#"<DataItem Dimensions="{cells}" NumberType="Float" Precision="8" Format="HDF">{file}:{}</DataItem>"#,
         escape_xml(dataset)
@@ -112,7 +112,7 @@ fn hdf_item(cells: &str, file: &str, dataset: &str) -> String {
 }
 
 /// Escapes the five XML special characters (XML 1.0 §2.4).
-fn escape_xml(text: &str) -> String {
+pub(super) fn escape_xml(text: &str) -> String {
     let mut out = String::with_capacity(text.len());
     for c in text.chars() {
         match c {

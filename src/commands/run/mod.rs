@@ -4,6 +4,7 @@
 
 mod report;
 mod stages;
+pub mod transient;
 
 use crate::case::{Case, SolveMode};
 use crate::exit::{InputError, SolverFailure};
@@ -54,10 +55,23 @@ fn flow_resolution_warning(case: &Case) -> Option<String> {
 }
 
 /// Solves `case` and writes `fields.h5`, `fields.xmf`, `cells.csv` and `summary.json` into `out_dir`.
-pub fn execute(case: &Case, out_dir: &Path, _threads: Option<usize>) -> Result<()> {
+pub fn execute(case: &Case, out_dir: &Path, threads: Option<usize>) -> Result<()> {
+    execute_with(case, out_dir, threads, &transient::TransientOptions::default())
+}
+
+/// [`execute`] with the restart options of transient runs (`--checkpoint-every`, `--resume`).
+pub fn execute_with(
+    case: &Case,
+    out_dir: &Path,
+    _threads: Option<usize>,
+    options: &transient::TransientOptions,
+) -> Result<()> {
     if case.solve.mode == SolveMode::Transient {
+        return transient::execute(case, out_dir, options);
+    }
+    if options.resume || options.checkpoint_every.is_some() {
         return Err(InputError(
-            "solve.mode = \"transient\" is validated, and solved by solver::transport::transient, but `run` does not write transient outputs yet"
+            "--checkpoint-every and --resume apply to solve.mode = \"transient\" only (a steady run has no time steps)"
                 .into(),
         )
         .into());

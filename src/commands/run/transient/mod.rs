@@ -1,0 +1,566 @@
+//! `plumefield run CASE` for `[solve] mode = "transient"`: the case as a `TransientCase`, the time loop of
+//! `solver::transport::transient` with progress, restart records and checkpoints, then the outputs:
+//! `fields.h5` (steady layout for the final state + one dataset per output time), the temporal `fields.xmf`,
+//! `cells.csv` (final time), `cells_timeseries.csv` (every output time, long format), `summary.json`, figures.
+//!
+//! Restart (`--checkpoint-every`, `--resume`): see [`restart_files`]. A resumed run continues the saved solver
+//! state bit for bit and re-reads the output times written before the interruption, so its files equal those
+//! of an uninterrupted run.
+
+mod cell_series;
+mod checkpoint_every;
+mod observer;
+mod progress;
+mod restart_files;
+mod summary;
+
+use std::path::Path;
+use std::time::Instant;
+
+use anyhow::{Context, Result};
+use serde_json::json;
+use solver::linalg::MultigridParams;
+use solver::post::CellSensing;
+use solver::problem::ChamberFace;
+use solver::solve_case::CaseSolveError;
+use solver::transport::transient::{
+    solve_transient_case, TimeStepping, TransientCase, TransientError, TransientSettings, TransientSolution,
+};
+
+use crate::case::transient::{InitialCondition, TransientSolve, STEADY_DISTANCE};
+use crate::case::{Case, OutputField};
+use crate::exit::{InputError, SolverFailure};
+use crate::io::cells_csv::write_cells_csv;
+use crate::io::fields_h5::{FieldData, Provenance};
+use crate::io::initial_field::read_initial_concentration;
+use crate::io::provenance::git_revision;
+use crate::io::summary_json::write_summary_json;
+use crate::io::table::{CellTable, Column, ColumnValues};
+use crate::io::transient_h5::{output_dataset_name, write_transient_fields_h5, OutputTime, TransientFile};
+use crate::io::xdmf_temporal::{write_temporal_xmf, TemporalGrid};
+
+use cell_series::{time_columns, CONTRACT_COLUMNS, SENSED};
+pub use checkpoint_every::CheckpointEvery;
+use observer::RunObserver;
+use progress::{human_time, TransientProgress};
+use restart_files::{parts_dir, read_checkpoint, read_part, OutputPart};
+
+/// Outer deferred-correction iterations per step at most (as the steady solve).
+const MAX_OUTER_ITERATIONS: usize = 50;
+
+/// Output times `k · output_every` (k ≥ 1) up to the end time (the end time itself is always written).
+pub fn output_times(t: &TransientSolve) -> Vec<f64> {
+    let mut times = Vec::new();
+    let mut k = 1u64;
+    loop {
+        let time = k as f64 * t.output_every;
+        if time > t.end_time * (1.0 + 1e-12) {
+            break;
+        }
+        times.push(time.min(t.end_time));
+        k += 1;
+    }
+    times
+}
+
+/// The numerical view of a validated transient case.
+pub fn transient_case<'a>(case: &'a Case, t: &TransientSolve) -> TransientCase<'a> {
+    let steady = super::steady_case(case);
+    let stepping = match t.adaptive {
+        None => TimeStepping::Fixed { step: t.time_step },
+        Some(tolerance) => TimeStepping::Adaptive {
+            initial_step: t.time_step,
+            tolerance,
+            max_step: t.output_every.min(t.end_time),
+        },
+    };
+    let settings = TransientSettings {
+        start_time: 0.0,
+        end_time: t.end_time,
+        stepping,
+        output_times: output_times(t),
+        krylov: steady.krylov.clone(),
+        multigrid: MultigridParams::default(),
+        max_outer_iterations: MAX_OUTER_ITERATIONS,
+        window_start: t.window_start,
+        steady: None,
+        stop_at_steady: t.stop_at_steady,
+        switched_on_far_field: true,
+    };
+    TransientCase {
+        steady,
+        flow_changes: t.flow_change.into_iter().collect(),
+        secretion_start: t.secretion_start.clone(),
+        settings,
+    }
+}
+
+/// Options of `run` that only transient cases use.
+#[derive(Clone, Debug, Default)]
+pub struct TransientOptions {
+    pub checkpoint_every: Option<CheckpointEvery>,
+    pub resume: bool,
+}
+
+fn solve_error(error: TransientError) -> anyhow::Error {
+    match error {
+        TransientError::Case(CaseSolveError::FlowModelNotImplemented(model)) => InputError(format!(
+            "transient runs support medium.model = \"darcy\" only so far; the {model} flow is not implemented for solve.mode = \"transient\""
+        ))
+        .into(),
+        TransientError::Observer(message) => anyhow::anyhow!("{message}"),
+        other => SolverFailure { message: other.to_string() }.into(),
+    }
+}
+
+/// Solves a transient case into `out_dir`.
+pub fn execute(case: &Case, out_dir: &Path, options: &TransientOptions) -> Result<()> {
+    let Some(t) = case.solve.transient.as_ref() else {
+        return Err(InputError("solve.mode = \"transient\" without transient settings".into()).into());
+    };
+    for warning in &case.warnings {
+        eprintln!("warning: {warning}");
+    }
+    let initial = match &t.initial {
+        InitialCondition::Zero => None,
+        InitialCondition::Fields(path) => {
+            Some(read_initial_concentration(path, &case.grid).map_err(|e| InputError(e.to_string()))?)
+        }
+    };
+    std::fs::create_dir_all(out_dir)
+        .with_context(|| format!("cannot create output folder {}", out_dir.display()))?;
+    let resume = if options.resume { Some(read_checkpoint(out_dir, &case.sha256)?) } else { None };
+    let parts = parts_dir(out_dir);
+    if resume.is_none() && parts.exists() {
+        // Output times of an earlier run in this folder: this run writes its own.
+        std::fs::remove_dir_all(&parts).with_context(|| format!("cannot clear {}", parts.display()))?;
+    }
+    std::fs::create_dir_all(&parts).with_context(|| format!("cannot create {}", parts.display()))?;
+
+    let tcase = transient_case(case, t);
+    let times = tcase.settings.output_times.clone();
+    let eps = 1e-9 * t.end_time;
+    let progress = TransientProgress::new(0.0, t.end_time);
+    if let Some(state) = &resume {
+        progress.println(&format!(
+            "resuming from {} at t = {} (step {}, {} output times written)",
+            restart_files::checkpoint_path(out_dir).display(),
+            human_time(state.time),
+            state.steps,
+            state.outputs_done
+        ));
+    }
+    let start_mark = resume.as_ref().map_or((0, 0.0), |s| (s.steps, s.time));
+    let mut observer = RunObserver::new(
+        out_dir,
+        &case.sha256,
+        &progress,
+        options.checkpoint_every,
+        start_mark,
+        &times,
+        t.end_time,
+        eps,
+        STEADY_DISTANCE,
+    );
+    let started = Instant::now();
+    let solution =
+        solve_transient_case(&tcase, initial, resume, &mut observer, &mut |stage| progress.stage(stage))
+            .map_err(solve_error)?;
+    let checkpoints = observer.checkpoints_written;
+    let final_part = observer.last_output.take();
+    drop(observer);
+
+    let write_started = Instant::now();
+    let state = &solution.state;
+    let Some(final_part) = final_part else {
+        return Err(anyhow::anyhow!("the run ended without an output at its final time"));
+    };
+    write_outputs(case, t, &solution, &final_part, out_dir, started, write_started, checkpoints)?;
+    // The run is complete: its restart data are no longer needed.
+    std::fs::remove_dir_all(&parts).with_context(|| format!("cannot remove {}", parts.display()))?;
+    let checkpoint = restart_files::checkpoint_path(out_dir);
+    if checkpoint.exists() {
+        std::fs::remove_file(&checkpoint)
+            .with_context(|| format!("cannot remove {}", checkpoint.display()))?;
+    }
+    let ending = if state.stopped_at_steady {
+        format!(
+            "steady state reached at t = {} (within {STEADY_DISTANCE:.0e} of the steady field), stopped early as solve.stop_at_steady asks",
+            human_time(state.time)
+        )
+    } else {
+        format!("reached t = {}", human_time(state.time))
+    };
+    progress.finish(&format!(
+        "done in {:.1} s: {ending}; {} steps ({} rejected), {} output times, worst step mass balance {:.1e}; outputs in {}",
+        started.elapsed().as_secs_f64(),
+        state.steps,
+        state.rejected_steps,
+        state.outputs_done,
+        state.worst_balance_error,
+        out_dir.display()
+    ));
+    Ok(())
+}
+
+/// The flow phase in force during the step that ends at `time` (0 before the change, 1 after).
+fn phase_at(t: &TransientSolve, time: f64, eps: f64) -> usize {
+    match t.flow_change {
+        Some((at, _)) if time > at + eps => 1,
+        _ => 0,
+    }
+}
+
+/// HDF5 group of the flow of `phase` when there are `phases` phases.
+fn flow_group(phase: usize, phases: usize) -> &'static str {
+    if phases > 1 && phase == 0 {
+        "flow_initial"
+    } else {
+        "flow"
+    }
+}
+
+/// The long-format table of every output time: `time`, then the per-time columns.
+fn timeseries_table(
+    case: &Case,
+    t: &TransientSolve,
+    solution: &TransientSolution,
+    parts: &[OutputPart],
+) -> CellTable {
+    let eps = 1e-9 * t.end_time;
+    let mut columns: Vec<Column> = Vec::new();
+    let mut time = Vec::new();
+    for part in parts {
+        let drag = &solution.flows[phase_at(t, part.time, eps).min(solution.flows.len() - 1)].drag;
+        let cols = time_columns(case, &part.sensed, drag, &t.secretion_start);
+        time.extend(std::iter::repeat(part.time).take(case.layout.cells.len()));
+        if columns.is_empty() {
+            columns = cols;
+        } else {
+            for (all, now) in columns.iter_mut().zip(cols) {
+                match (&mut all.values, now.values) {
+                    (ColumnValues::Int(a), ColumnValues::Int(b)) => a.extend(b),
+                    (ColumnValues::Real(a), ColumnValues::Real(b)) => a.extend(b),
+                    _ => {}
+                }
+            }
+        }
+    }
+    if columns.is_empty() {
+        columns = time_columns(
+            case,
+            &vec![0.0; SENSED.len() * case.layout.cells.len()],
+            &solution.flows[0].drag,
+            &t.secretion_start,
+        );
+        for c in &mut columns {
+            match &mut c.values {
+                ColumnValues::Int(v) => v.clear(),
+                ColumnValues::Real(v) => v.clear(),
+            }
+        }
+    }
+    let mut all = vec![Column::real("time", "s", "simulated time of the output", time)];
+    all.extend(columns);
+    CellTable { columns: all }
+}
+
+/// Per-cell sensing rebuilt from a part (for the estimate columns, which read the surface mean, anisotropy
+/// along the flow and direction error).
+fn sensing_of(part: &OutputPart, cells: usize) -> Vec<CellSensing> {
+    let v = |k: usize, i: usize| part.sensed[k * cells + i];
+    (0..cells)
+        .map(|i| CellSensing {
+            mean_surface_concentration: v(0, i),
+            bound_rate: v(1, i),
+            anisotropy: [v(2, i), v(3, i), v(4, i)],
+            anisotropy_along_flow: v(5, i),
+            front_back_contrast: v(6, i),
+            direction_error: v(7, i),
+            local_flow_direction: [0.0; 3],
+            local_speed: v(8, i),
+        })
+        .collect()
+}
+
+/// The final `cells.csv`: the steady contract columns and estimate columns at the final time, then the
+/// transient columns and each cell's times to 90% and 99% of its steady sensed rate.
+fn final_table(
+    case: &Case,
+    t: &TransientSolve,
+    solution: &TransientSolution,
+    part: &OutputPart,
+) -> CellTable {
+    let eps = 1e-9 * t.end_time;
+    let phase = phase_at(t, part.time, eps).min(solution.flows.len() - 1);
+    let flow = &solution.flows[phase];
+    let mut columns = time_columns(case, &part.sensed, &flow.drag, &t.secretion_start);
+    let tail = columns.split_off(CONTRACT_COLUMNS);
+    let stencils = solver::embedded::FacetStencils::build(&solution.geometry);
+    let front_back = solver::flow::brinkman::front_back::pressure_front_back(
+        &solution.geometry,
+        &stencils,
+        &case.layout,
+        &flow.velocity,
+        &flow.pressure,
+    );
+    columns.push(Column::real(
+        "pressure_front_back",
+        "Pa",
+        "pressure at the upstream pole minus the downstream pole along the local flow",
+        front_back,
+    ));
+    columns.extend(crate::commands::estimate::estimate_columns(
+        case,
+        &sensing_of(part, case.layout.cells.len()),
+    ));
+    columns.extend(tail);
+    let crossing = |k: usize| -> Vec<f64> {
+        solution.state.crossings.cells.iter().map(|c| c[k].unwrap_or(f64::NAN)).collect()
+    };
+    columns.push(Column::real(
+        "time_to_90_percent",
+        "s",
+        "first time the cell's sensed rate reached 90% of its steady value (NaN: not reached)",
+        crossing(0),
+    ));
+    columns.push(Column::real(
+        "time_to_99_percent",
+        "s",
+        "first time the cell's sensed rate reached 99% of its steady value (NaN: not reached)",
+        crossing(1),
+    ));
+    CellTable { columns }
+}
+
+#[allow(clippy::too_many_arguments)]
+fn write_outputs(
+    case: &Case,
+    t: &TransientSolve,
+    solution: &TransientSolution,
+    final_part: &OutputPart,
+    out_dir: &Path,
+    started: Instant,
+    write_started: Instant,
+    checkpoints: usize,
+) -> Result<()> {
+    let state = &solution.state;
+    let cells = case.layout.cells.len();
+    let grid_len = case.grid.len();
+    let eps = 1e-9 * t.end_time;
+    // Every output time, without its field (read again one at a time when fields.h5 is written).
+    let mut parts = Vec::with_capacity(state.outputs_done);
+    for index in 0..state.outputs_done {
+        let mut part = read_part(out_dir, &case.sha256, index, cells, grid_len)?;
+        part.concentration = Vec::new();
+        parts.push(part);
+    }
+    let series = timeseries_table(case, t, solution, &parts);
+    let table = final_table(case, t, solution, final_part);
+
+    let phases = solution.flows.len();
+    let mut fields = Vec::new();
+    let field = |group: &str, name: &str, unit: &str, description: &str, values: &[f64]| FieldData {
+        group: group.into(),
+        name: name.into(),
+        unit: unit.into(),
+        description: description.into(),
+        values: values.to_vec(),
+    };
+    for (phase, flow) in solution.flows.iter().enumerate() {
+        let group = flow_group(phase, phases);
+        let when = if group == "flow" { "at the end of the run" } else { "before flow.change_at" };
+        for wanted in &case.output.fields {
+            match wanted {
+                OutputField::Velocity => {
+                    for (axis, name) in ["u", "v", "w"].iter().enumerate() {
+                        fields.push(field(
+                            group,
+                            name,
+                            "m/s",
+                            &format!("superficial velocity {} {when}, cell-centred", ["x", "y", "z"][axis]),
+                            &flow.velocity[axis],
+                        ));
+                    }
+                }
+                OutputField::Pressure => fields.push(field(
+                    group,
+                    "pressure",
+                    "Pa",
+                    &format!("pressure {when}, cell-centred (zero at the outlet)"),
+                    &flow.pressure,
+                )),
+                OutputField::Concentration => {}
+            }
+        }
+    }
+    fields.push(field(
+        "ligand",
+        "concentration",
+        "molecules/m^3",
+        "ligand concentration at the final time of the transient run, cell-centred (zero inside cells)",
+        &state.concentration,
+    ));
+    fields.push(field(
+        "ligand",
+        "steady_concentration",
+        "molecules/m^3",
+        "steady ligand concentration of the final configuration (the field the run approaches)",
+        &solution.steady.concentration,
+    ));
+    let outputs: Vec<OutputTime> = parts
+        .iter()
+        .map(|p| OutputTime {
+            index: p.index,
+            time: p.time,
+            flow_group: flow_group(phase_at(t, p.time, eps), phases).to_string(),
+        })
+        .collect();
+    let provenance = Provenance {
+        version: env!("CARGO_PKG_VERSION").to_string(),
+        git_revision: git_revision(),
+        case_sha256: case.sha256.clone(),
+        case_text: case.source_text.clone(),
+        command_line: std::env::args().collect::<Vec<_>>().join(" "),
+    };
+
+    write_cells_csv(&out_dir.join("cells.csv"), &table)?;
+    write_cells_csv(&out_dir.join("cells_timeseries.csv"), &series)?;
+    let file = TransientFile {
+        grid: &case.grid,
+        volume_fraction: &solution.geometry.volume_fraction,
+        fields: &fields,
+        outputs: &outputs,
+        cells: &table,
+        timeseries: &series,
+        provenance: &provenance,
+    };
+    write_transient_fields_h5(&out_dir.join("fields.h5"), &file, &mut |i| {
+        Ok(read_part(out_dir, &case.sha256, outputs[i].index, cells, grid_len)?.concentration)
+    })?;
+    let has = |f: OutputField| case.output.fields.contains(&f);
+    let steps: Vec<TemporalGrid> = outputs
+        .iter()
+        .map(|o| {
+            let mut scalars = vec![
+                ("volume_fraction".to_string(), "/grid/volume_fraction".to_string()),
+                ("concentration".to_string(), format!("/ligand/{}", output_dataset_name(o.index))),
+                ("steady_concentration".to_string(), "/ligand/steady_concentration".to_string()),
+            ];
+            if has(OutputField::Pressure) {
+                scalars.push(("pressure".into(), format!("/{}/pressure", o.flow_group)));
+            }
+            let velocity =
+                has(OutputField::Velocity).then(|| ["u", "v", "w"].map(|c| format!("/{}/{c}", o.flow_group)));
+            TemporalGrid { time: o.time, scalars, velocity }
+        })
+        .collect();
+    write_temporal_xmf(&out_dir.join("fields.xmf"), "fields.h5", &case.grid, &steps)?;
+
+    let summary =
+        summary_json(case, t, solution, final_part, &parts, &table, started, write_started, checkpoints);
+    write_summary_json(&out_dir.join("summary.json"), &summary)?;
+    if case.output.figures {
+        crate::figures::run_figures::draw_run_figures(out_dir)?;
+    }
+    Ok(())
+}
+
+/// Mean velocity in force at the end of the run (m/s).
+fn last_flow_speed(case: &Case, t: &TransientSolve) -> f64 {
+    t.flow_change.map_or(case.flow.mean_velocity, |(_, after)| after)
+}
+
+#[allow(clippy::too_many_arguments)]
+fn summary_json(
+    case: &Case,
+    t: &TransientSolve,
+    solution: &TransientSolution,
+    final_part: &OutputPart,
+    parts: &[OutputPart],
+    table: &CellTable,
+    started: Instant,
+    write_started: Instant,
+    checkpoints: usize,
+) -> serde_json::Value {
+    let state = &solution.state;
+    let chamber_volume: f64 = case.chamber_size.iter().product();
+    let fluid_volume: f64 = solution.geometry.volume_fraction.iter().sum::<f64>() * case.grid.cell_volume();
+    let count = case.layout.cells.len();
+    let last_flow = &solution.flows[solution.flows.len() - 1];
+    let b = &final_part.balance;
+    let timing = solution.timing;
+    let has_outlet = case.boundaries.faces.iter().flatten().any(|f| *f == ChamberFace::Outlet);
+    let estimates = crate::commands::estimate::CaseEstimates::for_case(case);
+    json!({
+        "version": env!("CARGO_PKG_VERSION"),
+        "git_revision": git_revision(),
+        "title": case.title,
+        "case_sha256": case.sha256,
+        "solve_mode": "transient",
+        "grid": { "shape": case.grid.shape, "spacing": case.grid.spacing, "origin": case.grid.origin },
+        "timing_s": {
+            "geometry": timing[0], "flow": timing[1], "steady_reference": timing[2], "time_loop": timing[3],
+            "write": write_started.elapsed().as_secs_f64(), "total": started.elapsed().as_secs_f64(),
+        },
+        "flow": {
+            "model": "darcy",
+            "mean_velocity": case.flow.mean_velocity,
+            "change": t.flow_change.map(|(at, after)| json!({ "time": at, "mean_velocity_after": after })),
+            "iterations": last_flow.iterations,
+            "relative_residual": last_flow.relative_residual,
+            "max_divergence": solution.flows.iter().map(|f| f.max_divergence).fold(0.0, f64::max),
+            "pressure_drop": last_flow.pressure_drop,
+        },
+        "transport": {
+            "iterations": state.krylov_iterations,
+            "steady_reference_balance_error": solution.steady_balance_error,
+        },
+        "mass_balance": {
+            "secreted": b.secreted, "outflow": b.outflow, "uptake": b.uptake, "decay": b.decay,
+            "accumulation": b.accumulation, "stored": b.stored, "relative_error": b.relative_error,
+            "worst_step_relative_error": state.worst_balance_error,
+        },
+        "transient": {
+            "end_time": t.end_time,
+            "final_time": state.time,
+            "stopped_at_steady": state.stopped_at_steady,
+            "steady_distance": STEADY_DISTANCE,
+            "stepping": match t.adaptive { Some(tol) => json!({ "adaptive": true, "error_tolerance": tol, "initial_step": t.time_step }), None => json!({ "adaptive": false, "time_step": t.time_step }) },
+            "steps": state.steps,
+            "rejected_steps": state.rejected_steps,
+            "checkpoints_written_by_this_process": checkpoints,
+            "window_start": t.window_start,
+            "initial_condition": match &t.initial { InitialCondition::Zero => "zero".to_string(), InitialCondition::Fields(p) => p.display().to_string() },
+            "steady_outlet_concentration": solution.steady.outlet_concentration,
+            "time_to_steady": summary::approach_json(&state.crossings, has_outlet && solution.steady.outlet_concentration.is_some()),
+            "outputs": {
+                "time": parts.iter().map(|p| p.time).collect::<Vec<_>>(),
+                "outlet_concentration": parts.iter().map(|p| p.outlet_concentration).collect::<Vec<_>>(),
+                "stored": parts.iter().map(|p| p.balance.stored).collect::<Vec<_>>(),
+                "balance_relative_error": parts.iter().map(|p| p.balance.relative_error).collect::<Vec<_>>(),
+            },
+        },
+        "estimates": {
+            "meanfield_outlet_concentration": solver::post::estimates::meanfield_outlet_concentration(
+                count as f64 / chamber_volume, case.secretion_rate, case.cell_radius, case.ligand.diffusivity,
+                case.ligand.decay_rate, case.ligand.uptake, fluid_volume / chamber_volume, last_flow_speed(case, t),
+                case.chamber_size[0], case.ligand.inlet_concentration,
+            ).filter(|_| case.boundaries.faces[0][0] == ChamberFace::Inlet),
+            "measured_outlet_concentration": final_part.outlet_concentration,
+            "isolated_anisotropy": solver::post::estimates::isolated_darcy_anisotropy(
+                case.flow.mean_velocity, case.cell_radius, case.ligand.diffusivity, case.ligand.decay_rate, case.ligand.uptake),
+            "per_cell": crate::commands::estimate::column_aggregates(table),
+            "case": estimates.to_json(),
+        },
+        "cells": { "count": count, "volume_fraction": 1.0 - fluid_volume / chamber_volume, "number_density": count as f64 / chamber_volume },
+        "warnings": case.warnings,
+        "units": {
+            "grid.spacing": "m", "timing_s": "s", "flow.mean_velocity": "m/s", "flow.max_divergence": "1/s",
+            "flow.pressure_drop": "Pa", "mass_balance": "molecules/s", "mass_balance.stored": "molecules",
+            "transient.*time*": "s", "transient.outputs.outlet_concentration": "molecules/m^3",
+            "transient.outputs.stored": "molecules",
+            "cells.csv": table.columns.iter().map(|c| (c.name.clone(), serde_json::Value::from(c.unit.clone()))).collect::<serde_json::Map<_, _>>(),
+        },
+    })
+}

@@ -1,0 +1,226 @@
+//! Checkpoint and restart of a transient run: a run is killed with SIGKILL after its first checkpoint, resumed
+//! with `--resume`, and its outputs are compared with an uninterrupted run of the same case — every output
+//! time (including those written before the kill), the final cells.csv and the time series. A resume with an
+//! edited case file is refused with exit code 2.
+
+use std::path::{Path, PathBuf};
+use std::process::{Command, Output, Stdio};
+use std::time::{Duration, Instant};
+
+/// Small chamber, fixed steps, a flow change and a late sensing window, so that the resumed part crosses an
+/// event and output times. About 240 steps on a 40×20×10 grid: a second or two.
+fn case_text(end_time: &str) -> String {
+    format!(
+        r#"title = "restart test chamber"
+[chamber]
+size = ["160 um", "80 um", "40 um"]
+[grid]
+spacing = "4 um"
+[medium]
+model = "darcy"
+viscosity = "1e-3 Pa s"
+permeability = "1e-13 m^2"
+[flow]
+mean_velocity = "1 um/s"
+change_at = "5 min"
+mean_velocity_after = "3 um/s"
+[boundaries]
+x_min = "inlet"
+x_max = "outlet"
+y_min = "wall"
+y_max = "wall"
+z_min = "symmetry"
+z_max = "symmetry"
+[ligand]
+diffusivity = "1e-10 m^2/s"
+decay_rate = "1e-4 /s"
+inlet_concentration = 0.0
+[cells]
+radius = "10 um"
+secretion_rate = "2000 /h"
+uptake = {{ model = "first_order", rate_constant = "1e-6 m/s" }}
+layout = {{ kind = "random", count = 5, min_gap = "3 um", seed = 5 }}
+[solve]
+mode = "transient"
+tolerance = 1e-8
+end_time = "{end_time}"
+time_step = "5 s"
+output_every = "1 min"
+[sensing]
+integration_time = "10 min"
+window_start = "2 min"
+[output]
+fields = ["concentration", "velocity", "pressure"]
+figures = false
+"#
+    )
+}
+
+fn folder(name: &str) -> PathBuf {
+    let dir = std::env::temp_dir().join(format!("plumefield-restart-{}-{name}", std::process::id()));
+    let _ = std::fs::remove_dir_all(&dir);
+    std::fs::create_dir_all(&dir).expect("temp dir");
+    dir
+}
+
+fn plumefield(args: &[&str]) -> Output {
+    Command::new(env!("CARGO_BIN_EXE_plumefield")).args(args).output().expect("run the binary")
+}
+
+fn s(p: &Path) -> &str {
+    p.to_str().unwrap_or_default()
+}
+
+/// Every number of a CSV file, row by row.
+fn csv_numbers(path: &Path) -> (String, Vec<Vec<f64>>) {
+    let text = std::fs::read_to_string(path).unwrap_or_else(|e| panic!("{}: {e}", path.display()));
+    let mut lines = text.lines();
+    let header = lines.next().unwrap_or_default().to_string();
+    let rows = lines.map(|l| l.split(',').map(|v| v.parse::<f64>().expect("number")).collect()).collect();
+    (header, rows)
+}
+
+fn max_relative_difference(a: &[f64], b: &[f64]) -> f64 {
+    assert_eq!(a.len(), b.len());
+    let scale = a.iter().chain(b).filter(|v| v.is_finite()).fold(0.0f64, |m, v| m.max(v.abs()));
+    a.iter()
+        .zip(b)
+        .map(|(x, y)| {
+            if x.is_nan() && y.is_nan() || x == y {
+                0.0
+            } else {
+                (x - y).abs() / scale.max(f64::MIN_POSITIVE)
+            }
+        })
+        .fold(0.0, f64::max)
+}
+
+/// Largest relative difference over the rows of two CSV files (per column, scaled by the column's largest value).
+fn compare_csv(a: &Path, b: &Path) -> f64 {
+    let (ha, ra) = csv_numbers(a);
+    let (hb, rb) = csv_numbers(b);
+    assert_eq!(ha, hb, "headers differ");
+    assert_eq!(ra.len(), rb.len(), "row counts differ");
+    let columns = ra.first().map_or(0, Vec::len);
+    (0..columns)
+        .map(|c| {
+            let x: Vec<f64> = ra.iter().map(|r| r[c]).collect();
+            let y: Vec<f64> = rb.iter().map(|r| r[c]).collect();
+            max_relative_difference(&x, &y)
+        })
+        .fold(0.0, f64::max)
+}
+
+fn ligand_datasets(path: &Path) -> Vec<(String, Vec<f64>, Option<f64>)> {
+    let file = hdf5::File::open(path).expect("open fields.h5");
+    let group = file.group("ligand").expect("/ligand");
+    let mut names = group.member_names().expect("members");
+    names.sort();
+    names
+        .into_iter()
+        .map(|name| {
+            let ds = group.dataset(&name).expect("dataset");
+            let time = ds.attr("time").ok().and_then(|a| a.read_scalar::<f64>().ok());
+            (name, ds.read_raw::<f64>().expect("values"), time)
+        })
+        .collect()
+}
+
+#[test]
+fn killed_run_resumes_to_the_uninterrupted_result() {
+    let dir = folder("kill");
+    let case = dir.join("case.toml");
+    std::fs::write(&case, case_text("20 min")).expect("write case");
+
+    let reference = dir.join("reference");
+    let out = plumefield(&["run", s(&case), "-o", s(&reference)]);
+    assert_eq!(out.status.code(), Some(0), "{}", String::from_utf8_lossy(&out.stderr));
+
+    // Interrupted run: SIGKILL as soon as the first checkpoint exists.
+    let resumed = dir.join("resumed");
+    let mut child = Command::new(env!("CARGO_BIN_EXE_plumefield"))
+        .args(["run", s(&case), "-o", s(&resumed), "--checkpoint-every", "7"])
+        .stdout(Stdio::null())
+        .stderr(Stdio::null())
+        .spawn()
+        .expect("start the run");
+    let checkpoint = resumed.join("checkpoint.bin");
+    let started = Instant::now();
+    while !checkpoint.exists() {
+        assert!(child.try_wait().expect("poll").is_none(), "the run ended before writing a checkpoint");
+        assert!(started.elapsed() < Duration::from_secs(120), "no checkpoint after two minutes");
+        std::thread::sleep(Duration::from_millis(2));
+    }
+    child.kill().expect("SIGKILL");
+    let _ = child.wait();
+    assert!(
+        !resumed.join("summary.json").exists(),
+        "the run finished before the kill: the test would prove nothing"
+    );
+    assert!(!resumed.join("fields.h5").exists());
+
+    let out = plumefield(&["run", s(&case), "-o", s(&resumed), "--resume", "--checkpoint-every", "7"]);
+    let stderr = String::from_utf8_lossy(&out.stderr);
+    assert_eq!(out.status.code(), Some(0), "{stderr}");
+    assert!(stderr.contains("resuming from"), "{stderr}");
+    assert!(!checkpoint.exists(), "the checkpoint of a finished run is left behind");
+    assert!(!resumed.join("transient_parts").exists());
+
+    let cells = compare_csv(&reference.join("cells.csv"), &resumed.join("cells.csv"));
+    let series = compare_csv(&reference.join("cells_timeseries.csv"), &resumed.join("cells_timeseries.csv"));
+    println!("max relative difference: cells.csv {cells:.3e}, cells_timeseries.csv {series:.3e}");
+    assert!(cells <= 1e-12 && series <= 1e-12, "cells.csv {cells:e}, cells_timeseries.csv {series:e}");
+
+    let a = ligand_datasets(&reference.join("fields.h5"));
+    let b = ligand_datasets(&resumed.join("fields.h5"));
+    let names: Vec<&String> = a.iter().map(|d| &d.0).collect();
+    assert_eq!(names, b.iter().map(|d| &d.0).collect::<Vec<_>>());
+    // 20 output times (every minute) + final, steady reference, times.
+    assert_eq!(a.len(), 23, "{names:?}");
+    for ((name, x, tx), (_, y, ty)) in a.iter().zip(&b) {
+        assert_eq!(tx, ty, "{name}: time attributes differ");
+        let d = max_relative_difference(x, y);
+        assert!(d <= 1e-12, "/ligand/{name}: max relative difference {d:e}");
+    }
+}
+
+#[test]
+fn resume_refuses_another_case_and_a_missing_checkpoint() {
+    let dir = folder("refuse");
+    let case = dir.join("case.toml");
+    std::fs::write(&case, case_text("20 min")).expect("write case");
+    let out_dir = dir.join("out");
+
+    let out = plumefield(&["run", s(&case), "-o", s(&out_dir), "--resume"]);
+    assert_eq!(out.status.code(), Some(2));
+    let stderr = String::from_utf8_lossy(&out.stderr);
+    assert!(stderr.contains("no checkpoint.bin"), "{stderr}");
+
+    // Leave a checkpoint behind: kill the run once it exists.
+    let mut child = Command::new(env!("CARGO_BIN_EXE_plumefield"))
+        .args(["run", s(&case), "-o", s(&out_dir), "--checkpoint-every", "2 min"])
+        .stdout(Stdio::null())
+        .stderr(Stdio::null())
+        .spawn()
+        .expect("start the run");
+    let checkpoint = out_dir.join("checkpoint.bin");
+    let started = Instant::now();
+    while !checkpoint.exists() && child.try_wait().expect("poll").is_none() {
+        assert!(started.elapsed() < Duration::from_secs(120), "no checkpoint after two minutes");
+        std::thread::sleep(Duration::from_millis(2));
+    }
+    let _ = child.kill();
+    let _ = child.wait();
+    assert!(checkpoint.exists(), "no checkpoint was written");
+
+    let edited = dir.join("edited.toml");
+    std::fs::write(&edited, case_text("25 min")).expect("write case");
+    let out = plumefield(&["run", s(&edited), "-o", s(&out_dir), "--resume"]);
+    assert_eq!(out.status.code(), Some(2));
+    let stderr = String::from_utf8_lossy(&out.stderr);
+    assert!(stderr.contains("different case file"), "{stderr}");
+
+    let out = plumefield(&["run", s(&case), "-o", s(&out_dir), "--checkpoint-every", "3 um"]);
+    assert_eq!(out.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&out.stderr).contains("--checkpoint-every"));
+}
