@@ -1,10 +1,12 @@
 //! Verification cases behind `plumefield verify`: the full solver on problems with published analytic answers.
 //! Each case states its source, its expected error and, where it refines the grid, the observed order.
 
+pub mod brinkman_darcy_limit;
 pub mod brinkman_sphere;
 pub mod darcy_sphere;
 pub mod decompose_split;
 pub mod isolated_sphere;
+pub mod low_peclet_brinkman;
 pub mod low_peclet_darcy;
 pub mod mass_balance_dense;
 pub mod meanfield_dense;
@@ -129,6 +131,10 @@ pub fn run_all(tier: Tier, progress: &mut dyn FnMut(&str)) -> Result<Vec<Check>,
     checks.extend(transient_steady_limit::run(tier)?);
     progress("Brinkman flow past a sphere");
     checks.extend(brinkman_sphere::run(tier)?);
+    progress("Brinkman flow past a sphere, Darcy limit");
+    checks.extend(brinkman_darcy_limit::run(tier)?);
+    progress("low-Péclet anisotropy in Brinkman flow");
+    checks.extend(low_peclet_brinkman::run(tier)?);
     progress("Stokes flow through a simple-cubic array");
     checks.extend(stokes_array::run(tier)?);
     Ok(checks)
