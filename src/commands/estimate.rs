@@ -10,10 +10,10 @@ use std::fmt::Write as _;
 use std::path::Path;
 
 use serde_json::json;
-use solver::linalg::{KrylovParams, MultigridParams};
-use solver::post::decompose::{decompose, DecomposeInputs, DecomposeSelection};
 use solver::flow::brinkman::resolution::check_resolution;
 use solver::flow::brinkman::{BrinkmanMedium, ResolutionWarning};
+use solver::linalg::{KrylovParams, MultigridParams};
+use solver::post::decompose::{decompose, DecomposeInputs, DecomposeSelection};
 use solver::post::estimates::{
     biot_number, estimate_cell_sensing, homogenised_source_and_sink, isolated_anisotropy, CellEstimateInputs,
     ColumnInlet, IsolatedFlow, MeanFieldColumn, SensingEstimate,

@@ -21,13 +21,14 @@
 //! Brinkman velocity on the other faces (so the box does not bias the layer). Samples: the x-faces on the plane
 //! x = x_centre, first layer z = h/2, along y — their centres are the sample points, no interpolation.
 
+use super::setup::far_field_box;
 use super::{observed_order, Check, Tier, VerifyError};
 use crate::reference::brinkman_sphere::BrinkmanSphere;
 use crate::reference::darcy_sphere::DarcySphere;
 use mesh::{Axis, Cell, EmbeddedGeometry, Grid, Layout};
 use solver::embedded::FacetStencils;
 use solver::flow::brinkman::{solve_brinkman, BrinkmanError, BrinkmanMedium, BrinkmanSettings};
-use solver::problem::{ChamberBoundaries, ChamberFace};
+use solver::problem::ChamberFace;
 use solver::solve_case::CaseSolveError;
 use std::sync::Arc;
 
@@ -79,7 +80,9 @@ pub fn equator_profile(
         [ChamberFace::Symmetry, ChamberFace::FarField],
         [ChamberFace::Symmetry, ChamberFace::FarField],
     ];
-    let boundaries = ChamberBoundaries::new(faces);
+    // Faces set on the all-far-field box (its other settings left at their defaults).
+    let mut boundaries = far_field_box();
+    boundaries.faces = faces;
     let geometry = EmbeddedGeometry::build(&grid, &layout, [false; 3]);
     let stencils = FacetStencils::build(&geometry);
     let medium =
