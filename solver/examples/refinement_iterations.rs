@@ -26,7 +26,7 @@ fn main() {
         let case = SteadyCase {
             grid: &grid,
             layout: &layout,
-            boundaries: ChamberBoundaries { faces },
+            boundaries: ChamberBoundaries::new(faces),
             flow: FlowParameters {
                 medium: MediumModel::Darcy { viscosity: 1e-3, permeability: 1e-13 },
                 mean_velocity: 5e-6,

@@ -20,13 +20,29 @@ pub enum ChamberFace {
     FarField,
 }
 
-/// The six chamber faces, indexed `[axis][0 = min side, 1 = max side]`.
+/// Which point sources the far-field Robin condition assumes outside the chamber.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
+pub enum FarFieldSources {
+    /// Every cell at its own position, weighted by its secretion rate (superposed point-source fields).
+    #[default]
+    Cells,
+    /// One source at the secretion-weighted centroid of the cells (DESIGN.md §4); cheaper for huge layouts.
+    Centroid,
+}
+
+/// The six chamber faces, indexed `[axis][0 = min side, 1 = max side]`, and how far-field faces see the cells.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub struct ChamberBoundaries {
     pub faces: [[ChamberFace; 2]; 3],
+    pub far_field_sources: FarFieldSources,
 }
 
 impl ChamberBoundaries {
+    /// The given faces with the default far-field sources (the cells).
+    pub fn new(faces: [[ChamberFace; 2]; 3]) -> Self {
+        ChamberBoundaries { faces, far_field_sources: FarFieldSources::default() }
+    }
+
     pub fn periodic_axes(&self) -> [bool; 3] {
         [0, 1, 2].map(|a| self.faces[a][0] == ChamberFace::Periodic)
     }

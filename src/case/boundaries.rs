@@ -6,7 +6,7 @@ use std::ops::Range;
 use super::raw::RawBoundaries;
 use super::validate::Source;
 use super::CaseError;
-use solver::problem::{ChamberBoundaries, ChamberFace};
+use solver::problem::{ChamberBoundaries, ChamberFace, FarFieldSources};
 
 const NAMES: [[&str; 2]; 3] = [["x_min", "x_max"], ["y_min", "y_max"], ["z_min", "z_max"]];
 
@@ -158,5 +158,22 @@ pub(super) fn validate_boundaries(
             ));
         }
     }
-    Ok(ChamberBoundaries { faces })
+    let far_field_sources = match &raw.far_field_sources {
+        None => FarFieldSources::default(),
+        Some(value) => match value.get_ref().as_str() {
+            "cells" => FarFieldSources::Cells,
+            "centroid" => FarFieldSources::Centroid,
+            other => {
+                return Err(src.error(
+                    "boundaries.far_field_sources",
+                    Some(&value.span()),
+                    format!(
+                        "boundaries.far_field_sources = \"{other}\" is not known; use \"cells\" (each cell's own \
+                         point source) or \"centroid\" (one source at the secretion-weighted centroid)"
+                    ),
+                ))
+            }
+        },
+    };
+    Ok(ChamberBoundaries { faces, far_field_sources })
 }

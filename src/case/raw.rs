@@ -108,6 +108,8 @@ pub struct RawBoundaries {
     pub y_max: Value<String>,
     pub z_min: Value<String>,
     pub z_max: Value<String>,
+    /// Which sources the far-field condition assumes: "cells" (default) or "centroid".
+    pub far_field_sources: Value<String>,
 }
 
 #[derive(Debug, Default, Deserialize)]

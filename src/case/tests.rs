@@ -345,6 +345,24 @@ fn boundary_rules() {
 }
 
 #[test]
+fn far_field_sources_key() {
+    use solver::problem::FarFieldSources;
+    let sources = |text: &str| parse(text).map(|c| c.boundaries.far_field_sources).ok();
+    assert_eq!(sources(BASE), Some(FarFieldSources::Cells));
+    let text = edit("z_max = \"symmetry\"", "z_max = \"symmetry\"\nfar_field_sources = \"centroid\"");
+    assert_eq!(sources(&text), Some(FarFieldSources::Centroid));
+    let text = edit("z_max = \"symmetry\"", "z_max = \"symmetry\"\nfar_field_sources = \"cells\"");
+    assert_eq!(sources(&text), Some(FarFieldSources::Cells));
+    let text = edit("z_max = \"symmetry\"", "z_max = \"symmetry\"\nfar_field_sources = \"nearest\"");
+    expect_error(
+        &text,
+        "boundaries.far_field_sources",
+        Some("far_field_sources"),
+        &["\"nearest\" is not known", "\"cells\"", "\"centroid\""],
+    );
+}
+
+#[test]
 fn ligand_rules() {
     let text = edit("diffusivity = \"1e-10 m^2/s\"", "diffusivity = 0");
     expect_error(&text, "ligand.diffusivity", Some("diffusivity = 0"), &["must be positive"]);

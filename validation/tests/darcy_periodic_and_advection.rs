@@ -38,7 +38,7 @@ fn periodic_array_pressure_drop_matches_maxwell() {
     let case = SteadyCase {
         grid: &grid,
         layout: &layout,
-        boundaries: ChamberBoundaries { faces: [[ChamberFace::Periodic; 2]; 3] },
+        boundaries: ChamberBoundaries::new([[ChamberFace::Periodic; 2]; 3]),
         flow: darcy(speed),
         ligand: LigandParameters { decay_rate: 1e-2, ..reflecting() },
         integration_time: 3600.0,
@@ -76,7 +76,7 @@ fn high_cell_peclet_stays_bounded_and_conservative() {
     let case = SteadyCase {
         grid: &grid,
         layout: &layout,
-        boundaries: ChamberBoundaries { faces },
+        boundaries: ChamberBoundaries::new(faces),
         flow: darcy(2.5e-4),
         ligand: reflecting(),
         integration_time: 3600.0,

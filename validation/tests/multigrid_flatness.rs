@@ -24,7 +24,7 @@ fn transport_iterations_flat_under_refinement() {
         let case = SteadyCase {
             grid: &grid,
             layout: &layout,
-            boundaries: ChamberBoundaries { faces },
+            boundaries: ChamberBoundaries::new(faces),
             flow: FlowParameters {
                 medium: MediumModel::Darcy { viscosity: 1e-3, permeability: 1e-13 },
                 mean_velocity: 5e-6,

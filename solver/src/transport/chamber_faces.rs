@@ -8,12 +8,19 @@
 //! - wall and symmetry: nothing crosses;
 //! - periodic: coupled inside the operator, nothing here;
 //! - far field: the strength-free asymptotic Robin condition of point sources in a uniform stream U ê_x
-//!   (Rosenthal 1946; Carslaw & Jaeger 1959 §10.7 [memory]): `∂c/∂n = β c` with
-//!   `β = (U/2D) ê_x·n − (1/r + γ) r̂·n`, `γ = √(U²/4D² + k/D)`, r from the secretion-weighted centroid of the
-//!   cells. The face value is `c_f = c_P/(1 − β h/2)`, and the outflow `(Q_out − D A β) c_f`.
+//!   (Rosenthal 1946; Carslaw & Jaeger 1959 §10.7 [memory]): `∂c/∂n = β c`, β the log-gradient of the
+//!   superposed point-source fields of the cells weighted by their secretion rates (`far_field_sources.rs`;
+//!   with one source, or `FarFieldSources::Centroid`, `β = (U/2D) ê_x·n − (1/r + γ) r̂·n`,
+//!   `γ = √(U²/4D² + k/D)`, as in DESIGN.md §4). The face value is `c_f = c_P/(1 − β h/2)`, and the outflow
+//!   `(Q_out − D A β) c_f`.
+//!
+//! [`open_chamber_faces`] is the one walk over the boundary grid faces that both the steady assembly and the
+//! switched-on far field (`transient/far_field_switch_on.rs`) use.
 
+use super::far_field_sources::{FarFieldMedium, PointSources};
 use crate::problem::{ChamberBoundaries, ChamberFace, LigandParameters};
 use mesh::{Axis, EmbeddedGeometry, Layout};
+use rayon::prelude::*;
 
 /// The outward flux through one boundary grid face.
 #[derive(Clone, Copy, Debug)]
@@ -29,25 +36,63 @@ impl BoundaryExchange {
     }
 }
 
-/// Point from which far-field distances are measured: the secretion-weighted centroid of the cells, or the
-/// chamber centre when nothing is secreted.
-pub fn source_centroid(geometry: &EmbeddedGeometry, layout: &Layout) -> [f64; 3] {
-    let total: f64 = layout.cells.iter().map(|c| c.secretion_rate).sum();
-    if total > 0.0 {
-        let mut x = [0.0; 3];
-        for cell in &layout.cells {
-            for (a, xa) in x.iter_mut().enumerate() {
-                *xa += cell.secretion_rate * cell.centre[a] / total;
-            }
-        }
-        x
-    } else {
-        let g = &geometry.grid;
-        [0, 1, 2].map(|a| g.origin[a] + 0.5 * g.shape[a] as f64 * g.spacing)
-    }
+/// One open boundary grid face (aperture > 0) of a chamber face whose ligand condition is not closed.
+#[derive(Clone, Copy, Debug)]
+pub struct OpenChamberFace {
+    pub kind: ChamberFace,
+    pub grid_cell: usize,
+    /// Axis of the outward normal `outward ê_axis`; `outward` is −1 on the low side, +1 on the high side.
+    pub axis: usize,
+    pub outward: f64,
+    /// Face centre (m).
+    pub centre: [f64; 3],
+    /// Open area (m²).
+    pub area: f64,
+    /// Volumetric flux leaving the chamber through the face (m³/s).
+    pub q_out: f64,
 }
 
-/// All boundary-face exchanges of the chamber.
+/// The open grid faces of every inlet, outlet and far-field chamber face, axis by axis, low side first, in
+/// `Grid::boundary_faces` order (walls, symmetry planes and periodic pairs exchange nothing here).
+pub fn open_chamber_faces<'a>(
+    geometry: &'a EmbeddedGeometry,
+    boundaries: &'a ChamberBoundaries,
+    face_flux: &'a [Vec<f64>; 3],
+) -> impl Iterator<Item = OpenChamberFace> + 'a {
+    let grid = &geometry.grid;
+    let h = grid.spacing;
+    Axis::ALL.into_iter().flat_map(move |axis| {
+        let a = axis.index();
+        (0..2).flat_map(move |side| {
+            let kind = boundaries.faces[a][side];
+            let closed = matches!(kind, ChamberFace::Wall | ChamberFace::Symmetry | ChamberFace::Periodic);
+            let outward = if side == 0 { -1.0 } else { 1.0 };
+            grid.boundary_faces(axis, side).filter(move |_| !closed).filter_map(move |face| {
+                let area = geometry.aperture[a][face.face] * h * h;
+                (area != 0.0).then(|| OpenChamberFace {
+                    kind,
+                    grid_cell: face.grid_cell,
+                    axis: a,
+                    outward,
+                    centre: face.centre,
+                    area,
+                    q_out: outward * face_flux[a][face.face],
+                })
+            })
+        })
+    })
+}
+
+/// Outflow coefficient of a far-field face with Robin coefficient β: `(Q_out − D A β) c_f`,
+/// `c_f = c_P/(1 − β h/2)`.
+pub fn far_field_coefficient(face: &OpenChamberFace, diffusivity: f64, beta: f64, spacing: f64) -> f64 {
+    // Guard the face extrapolation where β h/2 nears 1 (cell Péclet number ≳ 4 on an outflow face).
+    let to_face = 1.0 / (1.0 - 0.5 * beta * spacing).max(0.25);
+    (face.q_out - diffusivity * face.area * beta) * to_face
+}
+
+/// All boundary-face exchanges of the chamber. The far-field coefficients are evaluated in parallel (their cost
+/// is faces × cells with `FarFieldSources::Cells`).
 pub fn boundary_exchanges(
     geometry: &EmbeddedGeometry,
     layout: &Layout,
@@ -56,58 +101,43 @@ pub fn boundary_exchanges(
     face_flux: &[Vec<f64>; 3],
     far_field_speed: f64,
 ) -> Vec<BoundaryExchange> {
-    let grid = &geometry.grid;
-    let h = grid.spacing;
+    let h = geometry.grid.spacing;
     let d = ligand.diffusivity;
-    let centroid = source_centroid(geometry, layout);
-    let gamma = (far_field_speed.powi(2) / (4.0 * d * d) + ligand.decay_rate / d).sqrt();
-    let mut out = Vec::new();
-    for axis in Axis::ALL {
-        let a = axis.index();
-        for side in 0..2 {
-            let kind = boundaries.faces[a][side];
-            if matches!(kind, ChamberFace::Wall | ChamberFace::Symmetry | ChamberFace::Periodic) {
-                continue;
-            }
-            let outward = if side == 0 { -1.0 } else { 1.0 };
-            for face in grid.boundary_faces(axis, side) {
-                let area = geometry.aperture[a][face.face] * h * h;
-                if area == 0.0 {
-                    continue;
+    let faces: Vec<OpenChamberFace> = open_chamber_faces(geometry, boundaries, face_flux).collect();
+    let far_field = faces.iter().any(|f| f.kind == ChamberFace::FarField);
+    let sources = far_field.then(|| PointSources::new(geometry, layout, boundaries.far_field_sources, None));
+    let medium = FarFieldMedium::new(far_field_speed, d, ligand.decay_rate, h);
+    faces
+        .par_iter()
+        .map(|face| {
+            let grid_cell = face.grid_cell;
+            match face.kind {
+                ChamberFace::Inlet => {
+                    let g = 2.0 * d * face.area / h;
+                    BoundaryExchange {
+                        grid_cell,
+                        coefficient: g,
+                        inflow_constant: (g - face.q_out) * ligand.inlet_concentration,
+                    }
                 }
-                let grid_cell = face.grid_cell;
-                let q_out = outward * face_flux[a][face.face];
-                let exchange = match kind {
-                    ChamberFace::Inlet => {
-                        let g = 2.0 * d * area / h;
-                        BoundaryExchange {
-                            grid_cell,
-                            coefficient: g,
-                            inflow_constant: (g - q_out) * ligand.inlet_concentration,
-                        }
+                ChamberFace::Outlet => {
+                    BoundaryExchange { grid_cell, coefficient: face.q_out, inflow_constant: 0.0 }
+                }
+                ChamberFace::FarField => {
+                    let beta = sources.as_ref().map_or(0.0, |s| {
+                        s.steady_log_gradient(&medium, face.centre, face.axis, face.outward)
+                    });
+                    BoundaryExchange {
+                        grid_cell,
+                        coefficient: far_field_coefficient(face, d, beta, h),
+                        inflow_constant: 0.0,
                     }
-                    ChamberFace::Outlet => {
-                        BoundaryExchange { grid_cell, coefficient: q_out, inflow_constant: 0.0 }
-                    }
-                    ChamberFace::FarField => {
-                        let rvec = [0, 1, 2].map(|m| face.centre[m] - centroid[m]);
-                        let r = (rvec[0].powi(2) + rvec[1].powi(2) + rvec[2].powi(2)).sqrt().max(h);
-                        let r_dot_n = outward * rvec[a] / r;
-                        let ex_dot_n = if a == 0 { outward } else { 0.0 };
-                        let beta = far_field_speed / (2.0 * d) * ex_dot_n - (1.0 / r + gamma) * r_dot_n;
-                        // Guard the face extrapolation where β h/2 nears 1 (cell Péclet number ≳ 4 on an outflow face).
-                        let to_face = 1.0 / (1.0 - 0.5 * beta * h).max(0.25);
-                        BoundaryExchange {
-                            grid_cell,
-                            coefficient: (q_out - d * area * beta) * to_face,
-                            inflow_constant: 0.0,
-                        }
-                    }
-                    ChamberFace::Wall | ChamberFace::Symmetry | ChamberFace::Periodic => continue,
-                };
-                out.push(exchange);
+                }
+                // Never yielded by `open_chamber_faces`: nothing crosses.
+                ChamberFace::Wall | ChamberFace::Symmetry | ChamberFace::Periodic => {
+                    BoundaryExchange { grid_cell, coefficient: 0.0, inflow_constant: 0.0 }
+                }
             }
-        }
-    }
-    out
+        })
+        .collect()
 }

@@ -13,6 +13,7 @@ pub mod assemble_transport;
 pub mod chamber_faces;
 pub mod decay;
 pub mod diffusion;
+pub mod far_field_sources;
 pub mod solve_steady;
 pub mod surface_exchange;
 pub mod transient;

@@ -31,7 +31,7 @@ pub fn sphere_drag(alpha: f64, per_radius: usize, reach: f64) -> Result<(f64, f6
         [ChamberFace::Symmetry, ChamberFace::FarField],
         [ChamberFace::Symmetry, ChamberFace::FarField],
     ];
-    let boundaries = ChamberBoundaries { faces };
+    let boundaries = ChamberBoundaries::new(faces);
     let geometry = EmbeddedGeometry::build(&grid, &layout, [false; 3]);
     let stencils = FacetStencils::build(&geometry);
     let medium =

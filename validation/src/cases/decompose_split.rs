@@ -71,7 +71,7 @@ pub fn split_sum_error(speed: f64, count: usize) -> Result<(f64, usize), VerifyE
     let case = solver::solve_case::SteadyCase {
         grid: &grid,
         layout: &layout,
-        boundaries: ChamberBoundaries { faces },
+        boundaries: ChamberBoundaries::new(faces),
         flow: darcy(1e-13, speed),
         ligand,
         integration_time: 3600.0,

@@ -33,7 +33,7 @@ pub fn run(tier: Tier) -> Result<Vec<Check>, VerifyError> {
     let case = SteadyCase {
         grid: &grid,
         layout: &layout,
-        boundaries: ChamberBoundaries { faces },
+        boundaries: ChamberBoundaries::new(faces),
         flow: darcy(1e-13, 2e-6),
         ligand: LigandParameters {
             diffusivity: 1e-10,

@@ -62,7 +62,7 @@ pub fn measured_against_column(tier: Tier) -> Result<MeanFieldComparison, Verify
     let case = SteadyCase {
         grid: &grid,
         layout: &layout,
-        boundaries: ChamberBoundaries { faces },
+        boundaries: ChamberBoundaries::new(faces),
         flow: super::setup::darcy(1e-13, u),
         ligand,
         integration_time: 3600.0,

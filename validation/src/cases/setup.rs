@@ -26,7 +26,7 @@ pub fn isolated_sphere(
 
 /// All six faces far-field.
 pub fn far_field_box() -> ChamberBoundaries {
-    ChamberBoundaries { faces: [[ChamberFace::FarField; 2]; 3] }
+    ChamberBoundaries::new([[ChamberFace::FarField; 2]; 3])
 }
 
 /// Darcy medium with the given permeability (m^2), water-like viscosity 1e-3 Pa s.

@@ -25,7 +25,7 @@ pub fn array_drag(phi: f64, per_radius: usize) -> Result<(f64, f64, f64, usize),
     let phi_grid = 4.0 * PI / 3.0 * radius.powi(3) / side.powi(3);
     let grid = Grid::new([0.0; 3], h, [side_cells; 3]);
     let layout = Layout { cells: vec![Cell { id: 0, centre: [0.5 * side; 3], radius, secretion_rate: 0.0 }] };
-    let boundaries = ChamberBoundaries { faces: [[ChamberFace::Periodic; 2]; 3] };
+    let boundaries = ChamberBoundaries::new([[ChamberFace::Periodic; 2]; 3]);
     let geometry = EmbeddedGeometry::build(&grid, &layout, [true; 3]);
     let stencils = FacetStencils::build(&geometry);
     let medium = BrinkmanMedium { viscosity: 1.0, effective_viscosity: 1.0, permeability: None };

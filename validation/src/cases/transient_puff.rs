@@ -77,7 +77,7 @@ pub fn puff_errors(n: usize, step: f64) -> Result<(f64, f64), VerifyError> {
         geometry: &geometry,
         stencils: &stencils,
         layout: &layout,
-        boundaries: ChamberBoundaries { faces: [[ChamberFace::Periodic; 2]; 3] },
+        boundaries: ChamberBoundaries::new([[ChamberFace::Periodic; 2]; 3]),
         ligand,
         phases: vec![FlowPhase { start: 0.0, face_flux: &flux, velocity: &velocity, mean_velocity: U }],
         secretion_start: Vec::new(),

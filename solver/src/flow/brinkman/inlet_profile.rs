@@ -113,7 +113,7 @@ mod tests {
             let mut faces = [[ChamberFace::Symmetry; 2]; 3];
             faces[0] = [ChamberFace::Inlet, ChamberFace::Outlet];
             faces[1] = [ChamberFace::Wall; 2];
-            let boundaries = ChamberBoundaries { faces };
+            let boundaries = ChamberBoundaries::new(faces);
             let w = fully_developed_profile(
                 &grid,
                 &boundaries,

@@ -9,7 +9,7 @@ fn channel(ny: usize, nx: usize, faces_x: [ChamberFace; 2]) -> (Grid, ChamberBou
     let h = 2.0 / ny as f64;
     let grid = Grid::new([0.0, -1.0, 0.0], h, [nx, ny, 2]);
     let faces = [faces_x, [ChamberFace::Wall; 2], [ChamberFace::Periodic; 2]];
-    (grid, ChamberBoundaries { faces })
+    (grid, ChamberBoundaries::new(faces))
 }
 
 fn solve(
@@ -101,7 +101,7 @@ fn iterations_stay_bounded_across_alpha_and_refinement() {
         let grid = Grid::new([0.0; 3], 1.0 / n as f64, [n, n, n]);
         let radius = 0.2;
         let layout = Layout { cells: vec![Cell { id: 0, centre: [0.5; 3], radius, secretion_rate: 0.0 }] };
-        let boundaries = ChamberBoundaries { faces: [[ChamberFace::Periodic; 2]; 3] };
+        let boundaries = ChamberBoundaries::new([[ChamberFace::Periodic; 2]; 3]);
         let k = (radius / alpha) * (radius / alpha);
         let medium = BrinkmanMedium { viscosity: 1.0, effective_viscosity: 1.0, permeability: Some(k) };
         let sol = solve(&grid, &layout, &boundaries, &medium, 1.0);

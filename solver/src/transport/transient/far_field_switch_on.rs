@@ -13,38 +13,36 @@
 //! which keeps every factor finite. As t → ∞, `∂_r ln S → −γ` and the steady condition of
 //! `chamber_faces.rs` is recovered exactly; as t → 0⁺ the condition tends to c = 0 on the face.
 //! Faces are discretised exactly as the steady ones: `c_f = c_P/(1 − βh/2)`, outflow `(Q_out − D A β) c_f`.
+//!
+//! With several cells the far field is the superposition of each cell's switched-on field from its own
+//! `secretion_start` (`far_field_sources.rs`; cells not yet on carry zero weight). Before any cell is on the
+//! condition is the t → 0⁺ limit c_f = 0. Once every source is settled on every far-field face (A ≤ −8 at the
+//! farthest face, so `erfc A = 2` and the `e^{2γr} erfc B` term is below 10⁻²⁷ relative) the steady
+//! coefficients are reused; with neither flow nor decay (γ = 0) that never happens and each step costs one
+//! pass over faces × switched-on cells.
 
 use super::error_function::{erfc, erfcx};
 use crate::problem::{ChamberBoundaries, ChamberFace, LigandParameters};
-use crate::transport::chamber_faces::source_centroid;
-use mesh::{Axis, EmbeddedGeometry, Layout};
-
-/// One far-field boundary grid face.
-#[derive(Clone, Debug)]
-struct FarFieldFace {
-    grid_cell: usize,
-    /// Open area (m²).
-    area: f64,
-    /// Volumetric flux leaving through the face (m³/s).
-    q_out: f64,
-    /// `ê_x · n` and `r̂ · n` of the face centre, and its distance r from the source centroid (m).
-    ex_dot_n: f64,
-    r_dot_n: f64,
-    r: f64,
-}
+use crate::transport::chamber_faces::{far_field_coefficient, open_chamber_faces, OpenChamberFace};
+use crate::transport::far_field_sources::{FarFieldMedium, PointSources, RadialProfile};
+use mesh::{EmbeddedGeometry, Layout};
+use rayon::prelude::*;
 
 /// The far-field faces of a chamber and the time-dependent coefficients of their outward flux.
 #[derive(Clone, Debug)]
 pub struct SwitchedOnFarField {
-    faces: Vec<FarFieldFace>,
-    diffusivity: f64,
-    speed: f64,
-    gamma: f64,
-    spacing: f64,
+    faces: Vec<OpenChamberFace>,
+    sources: PointSources,
+    medium: FarFieldMedium,
+    /// Coefficients of the steady condition, one per face.
+    steady: Vec<f64>,
+    /// Time (s) from which every source's switched-on profile equals the steady one to rounding (∞ if never).
+    settled_from: f64,
 }
 
 impl SwitchedOnFarField {
-    /// Collects the far-field faces (same faces, order and geometry as `chamber_faces::boundary_exchanges`).
+    /// Collects the far-field faces (the same walk as `chamber_faces::boundary_exchanges`) and the sources,
+    /// cell i switching on at `secretion_start[i]` (s).
     pub fn build(
         geometry: &EmbeddedGeometry,
         layout: &Layout,
@@ -52,141 +50,157 @@ impl SwitchedOnFarField {
         ligand: &LigandParameters,
         face_flux: &[Vec<f64>; 3],
         speed: f64,
+        secretion_start: &[f64],
     ) -> Self {
-        let grid = &geometry.grid;
-        let h = grid.spacing;
-        let d = ligand.diffusivity;
-        let centroid = source_centroid(geometry, layout);
-        let gamma = (speed.powi(2) / (4.0 * d * d) + ligand.decay_rate / d).sqrt();
-        let mut faces = Vec::new();
-        for axis in Axis::ALL {
-            let a = axis.index();
-            let (b, c) = ((a + 1) % 3, (a + 2) % 3);
-            for side in 0..2 {
-                if boundaries.faces[a][side] != ChamberFace::FarField {
-                    continue;
-                }
-                let outward = if side == 0 { -1.0 } else { 1.0 };
-                let layer = if side == 0 { 0 } else { grid.shape[a] - 1 };
-                let face_layer = if side == 0 { 0 } else { grid.shape[a] };
-                for v in 0..grid.shape[c] {
-                    for u in 0..grid.shape[b] {
-                        let mut cell = [0usize; 3];
-                        cell[a] = layer;
-                        cell[b] = u;
-                        cell[c] = v;
-                        let mut face = cell;
-                        face[a] = face_layer;
-                        let fi = grid.face_index(axis, face[0], face[1], face[2]);
-                        let area = geometry.aperture[a][fi] * h * h;
-                        if area == 0.0 {
-                            continue;
-                        }
-                        let mut x = grid.cell_centre(cell[0], cell[1], cell[2]);
-                        x[a] += outward * 0.5 * h;
-                        let rvec = [0, 1, 2].map(|m| x[m] - centroid[m]);
-                        let r = (rvec[0].powi(2) + rvec[1].powi(2) + rvec[2].powi(2)).sqrt().max(h);
-                        faces.push(FarFieldFace {
-                            grid_cell: grid.index(cell[0], cell[1], cell[2]),
-                            area,
-                            q_out: outward * face_flux[a][fi],
-                            ex_dot_n: if a == 0 { outward } else { 0.0 },
-                            r_dot_n: outward * rvec[a] / r,
-                            r,
-                        });
-                    }
-                }
-            }
-        }
-        SwitchedOnFarField { faces, diffusivity: d, speed, gamma, spacing: h }
+        let h = geometry.grid.spacing;
+        let faces: Vec<OpenChamberFace> = open_chamber_faces(geometry, boundaries, face_flux)
+            .filter(|f| f.kind == ChamberFace::FarField)
+            .collect();
+        let sources =
+            PointSources::new(geometry, layout, boundaries.far_field_sources, Some(secretion_start));
+        let medium = FarFieldMedium::new(speed, ligand.diffusivity, ligand.decay_rate, h);
+        let steady = faces
+            .par_iter()
+            .map(|f| {
+                let beta = sources.steady_log_gradient(&medium, f.centre, f.axis, f.outward);
+                far_field_coefficient(f, medium.diffusivity, beta, h)
+            })
+            .collect();
+        let settled_from = settled_from(&faces, &sources, &medium);
+        SwitchedOnFarField { faces, sources, medium, steady, settled_from }
     }
 
     pub fn is_empty(&self) -> bool {
         self.faces.is_empty()
     }
 
-    /// `∂_r ln S` of the switched-on field at distance r (m) and source age t (s); `None` = steady (−γ).
-    fn radial_log_slope(&self, r: f64, age: Option<f64>) -> f64 {
-        let Some(t) = age else { return -self.gamma };
-        let d = self.diffusivity;
-        let g = self.gamma;
-        let spread = 2.0 * (d * t).sqrt();
-        let a = (r - 2.0 * d * g * t) / spread;
-        let b = (r + 2.0 * d * g * t) / spread;
-        let gauss_term = 2.0 / (std::f64::consts::PI * d * t).sqrt();
-        if a >= 0.0 {
-            // Everything carries e^{−A²}: divide it out.
-            let (xa, xb) = (erfcx(a), erfcx(b));
-            (g * (xb - xa) - gauss_term) / (xa + xb)
-        } else {
-            let e = (-a * a).exp();
-            let (ea, eb) = (erfc(a), e * erfcx(b));
-            (g * (eb - ea) - gauss_term * e) / (ea + eb)
-        }
-    }
-
-    /// Adds the outward-flux coefficient of every far-field face (m³/s) to `sink` for sources of age `age`
-    /// (s since secretion started; `None` for the steady condition, `Some(t ≤ 0)` before any secretion).
-    pub fn add_coefficients(&self, age: Option<f64>, sink: &mut [f64]) {
-        for (cell, coefficient) in self.coefficients(age) {
+    /// Adds the outward-flux coefficient of every far-field face (m³/s) to `sink` at time `time` (s; `None`
+    /// for the steady condition).
+    pub fn add_coefficients(&self, time: Option<f64>, sink: &mut [f64]) {
+        for (cell, coefficient) in self.coefficients(time) {
             sink[cell] += coefficient;
         }
     }
 
-    /// `(grid cell, coefficient)` of every far-field face: outflow = coefficient · c_P.
-    pub fn coefficients(&self, age: Option<f64>) -> impl Iterator<Item = (usize, f64)> + '_ {
-        let d = self.diffusivity;
-        let h = self.spacing;
-        self.faces.iter().map(move |f| {
-            if matches!(age, Some(t) if t <= 0.0) {
-                // Limit t → 0⁺: β → −∞, c_f = 0 on the face.
-                return (f.grid_cell, 2.0 * d * f.area / h);
-            }
-            let slope = self.radial_log_slope(f.r, age);
-            let beta = self.speed / (2.0 * d) * f.ex_dot_n + (slope - 1.0 / f.r) * f.r_dot_n;
-            let to_face = 1.0 / (1.0 - 0.5 * beta * h).max(0.25);
-            (f.grid_cell, (f.q_out - d * f.area * beta) * to_face)
-        })
+    /// `(grid cell, coefficient)` of every far-field face at time `time` (s; `None` for the steady condition):
+    /// outflow = coefficient · c_P.
+    pub fn coefficients(&self, time: Option<f64>) -> impl Iterator<Item = (usize, f64)> + '_ {
+        let values: Vec<f64> = match time {
+            Some(t) if t < self.settled_from => self.switched_on(t),
+            _ => self.steady.clone(),
+        };
+        self.faces.iter().zip(values).map(|(f, c)| (f.grid_cell, c))
     }
+
+    fn switched_on(&self, t: f64) -> Vec<f64> {
+        let m = &self.medium;
+        let h = m.min_distance;
+        let starts = self.sources.starts();
+        self.faces
+            .par_iter()
+            .map(|f| {
+                let profile = |i: usize, r: f64| {
+                    let age = t - starts[i];
+                    (age > 0.0).then(|| switched_on_profile(m, r, age))
+                };
+                match self.sources.log_gradient(m, f.centre, f.axis, f.outward, profile) {
+                    Some(beta) => far_field_coefficient(f, m.diffusivity, beta, h),
+                    // Limit t → 0⁺ (nothing on yet): β → −∞, c_f = 0 on the face.
+                    None => 2.0 * m.diffusivity * f.area / h,
+                }
+            })
+            .collect()
+    }
+}
+
+/// The switched-on profile `S(r, t) = e^{−γr} erfc A + e^{γr} erfc B` as mantissa · e^{exponent}, and `∂_r ln S`.
+fn switched_on_profile(m: &FarFieldMedium, r: f64, t: f64) -> RadialProfile {
+    let (d, g) = (m.diffusivity, m.gamma);
+    let spread = 2.0 * (d * t).sqrt();
+    let a = (r - 2.0 * d * g * t) / spread;
+    let b = (r + 2.0 * d * g * t) / spread;
+    let gauss_term = 2.0 / (std::f64::consts::PI * d * t).sqrt();
+    if a >= 0.0 {
+        // Everything carries e^{−A²}: divide it out (e^{γr} e^{−B²} = e^{−γr} e^{−A²}).
+        let (xa, xb) = (erfcx(a), erfcx(b));
+        RadialProfile {
+            exponent: -g * r - a * a,
+            mantissa: xa + xb,
+            log_slope: (g * (xb - xa) - gauss_term) / (xa + xb),
+        }
+    } else {
+        let e = (-a * a).exp();
+        let (ea, eb) = (erfc(a), e * erfcx(b));
+        RadialProfile {
+            exponent: -g * r,
+            mantissa: ea + eb,
+            log_slope: (g * (eb - ea) - gauss_term * e) / (ea + eb),
+        }
+    }
+}
+
+/// Earliest time from which every source's profile is settled on every face: `A = (r − vτ)/(2√(Dτ)) ≤ −8` at
+/// the farthest face, `v = 2Dγ`, i.e. `√τ = (16√D + √(256 D + 4 v r_max))/(2v)` after its start.
+fn settled_from(faces: &[OpenChamberFace], sources: &PointSources, m: &FarFieldMedium) -> f64 {
+    let v = 2.0 * m.diffusivity * m.gamma;
+    if v <= 0.0 || faces.is_empty() {
+        return if faces.is_empty() { f64::NEG_INFINITY } else { f64::INFINITY };
+    }
+    let root_d = m.diffusivity.sqrt();
+    sources
+        .centres()
+        .par_iter()
+        .zip(sources.starts())
+        .map(|(c, &start)| {
+            let r_max = faces
+                .iter()
+                .map(|f| {
+                    let x = f.centre;
+                    ((x[0] - c[0]).powi(2) + (x[1] - c[1]).powi(2) + (x[2] - c[2]).powi(2)).sqrt()
+                })
+                .fold(0.0, f64::max);
+            let root_tau = (16.0 * root_d + (256.0 * m.diffusivity + 4.0 * v * r_max).sqrt()) / (2.0 * v);
+            start + root_tau * root_tau
+        })
+        .reduce(|| f64::NEG_INFINITY, f64::max)
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::problem::{FarFieldSources, SurfaceUptake};
+    use mesh::{Axis, Cell, Grid};
 
-    fn far_field(speed: f64, decay: f64) -> SwitchedOnFarField {
-        let d: f64 = 1.3;
-        SwitchedOnFarField {
-            faces: Vec::new(),
-            diffusivity: d,
-            speed,
-            gamma: (speed * speed / (4.0 * d * d) + decay / d).sqrt(),
-            spacing: 0.1,
-        }
+    fn medium(speed: f64, decay: f64) -> FarFieldMedium {
+        FarFieldMedium::new(speed, 1.3, decay, 0.1)
     }
 
     /// The switched-on S(r, t) directly (small arguments only, no overflow care).
-    fn s_direct(ff: &SwitchedOnFarField, r: f64, t: f64) -> f64 {
-        let d = ff.diffusivity;
-        let g = ff.gamma;
+    fn s_direct(m: &FarFieldMedium, r: f64, t: f64) -> f64 {
+        let (d, g) = (m.diffusivity, m.gamma);
         let spread = 2.0 * (d * t).sqrt();
         (-g * r).exp() * erfc((r - 2.0 * d * g * t) / spread)
             + (g * r).exp() * erfc((r + 2.0 * d * g * t) / spread)
     }
 
-    /// The closed-form slope equals a finite difference of ln S, on both branches (A ≥ 0 and A < 0).
+    /// The closed-form slope equals a finite difference of ln S, and mantissa · e^{exponent} equals S, on both
+    /// branches (A ≥ 0 and A < 0).
     #[test]
-    fn radial_slope_matches_finite_difference() {
+    fn radial_profile_matches_direct_evaluation() {
         for (speed, decay) in [(0.0, 0.0), (0.7, 0.0), (0.7, 0.2), (0.0, 0.5)] {
-            let ff = far_field(speed, decay);
+            let m = medium(speed, decay);
             for (r, t) in [(0.8, 0.05), (0.8, 1.0), (2.0, 3.0), (1.5, 40.0)] {
                 let eps = 1e-5;
-                let fd = ((s_direct(&ff, r + eps, t)).ln() - (s_direct(&ff, r - eps, t)).ln()) / (2.0 * eps);
-                let closed = ff.radial_log_slope(r, Some(t));
+                let fd = (s_direct(&m, r + eps, t).ln() - s_direct(&m, r - eps, t).ln()) / (2.0 * eps);
+                let p = switched_on_profile(&m, r, t);
                 assert!(
-                    (fd - closed).abs() < 1e-7 * (1.0 + fd.abs()),
-                    "U {speed} k {decay} r {r} t {t}: {fd} vs {closed}"
+                    (fd - p.log_slope).abs() < 1e-7 * (1.0 + fd.abs()),
+                    "U {speed} k {decay} r {r} t {t}: {fd} vs {}",
+                    p.log_slope
                 );
+                let s = s_direct(&m, r, t);
+                let value = p.mantissa * p.exponent.exp();
+                assert!((value - s).abs() < 1e-12 * s, "U {speed} k {decay} r {r} t {t}: {value} vs {s}");
             }
         }
     }
@@ -194,8 +208,81 @@ mod tests {
     /// Long times give the steady slope −γ (exponentially with flow or decay).
     #[test]
     fn tends_to_the_steady_condition() {
-        let ff = far_field(0.7, 0.2);
-        let late = ff.radial_log_slope(2.0, Some(500.0));
-        assert!((late + ff.gamma).abs() < 1e-12, "{late} vs {}", -ff.gamma);
+        let m = medium(0.7, 0.2);
+        let late = switched_on_profile(&m, 2.0, 500.0).log_slope;
+        assert!((late + m.gamma).abs() < 1e-12, "{late} vs {}", -m.gamma);
+    }
+
+    /// A 12³ far-field box (h = 1 µm) with the given cells (centre, secretion rate).
+    fn far_field_box(
+        cells: &[([f64; 3], f64)],
+        mode: FarFieldSources,
+        starts: &[f64],
+        speed: f64,
+    ) -> SwitchedOnFarField {
+        let grid = Grid::new([0.0; 3], 1e-6, [12, 12, 12]);
+        let layout = Layout {
+            cells: cells
+                .iter()
+                .enumerate()
+                .map(|(id, &(centre, q))| Cell { id, centre, radius: 1.2e-6, secretion_rate: q })
+                .collect(),
+        };
+        let geometry = EmbeddedGeometry::build(&grid, &layout, [false; 3]);
+        let mut boundaries = ChamberBoundaries::new([[ChamberFace::FarField; 2]; 3]);
+        boundaries.far_field_sources = mode;
+        let ligand = LigandParameters {
+            diffusivity: 1e-10,
+            decay_rate: 1e-2,
+            inlet_concentration: 0.0,
+            uptake: SurfaceUptake::None,
+        };
+        let flux = Axis::ALL.map(|axis| vec![0.0; grid.face_count(axis)]);
+        SwitchedOnFarField::build(&geometry, &layout, &boundaries, &ligand, &flux, speed, starts)
+    }
+
+    fn coefficients(ff: &SwitchedOnFarField, time: Option<f64>) -> Vec<f64> {
+        ff.coefficients(time).map(|(_, c)| c).collect()
+    }
+
+    fn assert_close(a: &[f64], b: &[f64], tolerance: f64, what: &str) {
+        assert_eq!(a.len(), b.len());
+        for (x, y) in a.iter().zip(b) {
+            assert!((x - y).abs() <= tolerance * y.abs().max(1e-30), "{what}: {x} vs {y}");
+        }
+    }
+
+    /// One cell: the superposition is the centroid form at every time, and both are c_f = 0 before it starts.
+    #[test]
+    fn one_cell_is_the_centroid_form_in_time() {
+        let cell = [([5.3e-6, 6.1e-6, 4.4e-6], 2.0)];
+        let by_cells = far_field_box(&cell, FarFieldSources::Cells, &[10.0], 3e-6);
+        let by_centroid = far_field_box(&cell, FarFieldSources::Centroid, &[10.0], 3e-6);
+        for time in [Some(5.0), Some(10.0), Some(10.01), Some(10.5), Some(30.0), None] {
+            let (a, b) = (coefficients(&by_cells, time), coefficients(&by_centroid, time));
+            assert_close(&a, &b, 1e-12, &format!("time {time:?}"));
+        }
+        let before = coefficients(&by_cells, Some(9.0));
+        assert!(by_cells.faces.iter().zip(&before).all(|(f, &c)| c == 2.0 * 1e-10 * f.area / 1e-6));
+    }
+
+    /// Two cells switching on at different times: while only the first is on, the far field is that of the
+    /// first alone; once both are on and settled, it is the steady superposition.
+    #[test]
+    fn cells_not_yet_on_carry_no_weight() {
+        let (first, second) = (([3.3e-6, 6.1e-6, 4.4e-6], 1.0), ([8.7e-6, 5.2e-6, 7.9e-6], 3.0));
+        let both = far_field_box(&[first, second], FarFieldSources::Cells, &[0.0, 20.0], 3e-6);
+        let alone = far_field_box(&[first], FarFieldSources::Cells, &[0.0], 3e-6);
+        for t in [0.5, 5.0, 19.9] {
+            let (a, b) = (coefficients(&both, Some(t)), coefficients(&alone, Some(t)));
+            assert_close(&a, &b, 1e-12, &format!("t = {t}"));
+        }
+        let after = coefficients(&both, Some(20.5));
+        let first_only = coefficients(&alone, Some(20.5));
+        assert!(after.iter().zip(&first_only).any(|(a, b)| (a - b).abs() > 1e-6 * b.abs()));
+        // Just before the settled time the computed coefficients already equal the steady ones.
+        assert!(both.settled_from.is_finite() && both.settled_from > 20.0);
+        let computed = both.switched_on(both.settled_from * (1.0 - 1e-9));
+        assert_close(&computed, &coefficients(&both, None), 1e-12, "settled");
     }
 }

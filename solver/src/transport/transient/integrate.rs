@@ -61,6 +61,7 @@ impl<'a> PhaseSystem<'a> {
             &problem.ligand,
             phase.face_flux,
             phase.mean_velocity,
+            &problem.secretion_start,
         );
         let volume = problem.geometry.grid.cell_volume();
         let fluid_volume: Vec<f64> =
@@ -184,7 +185,6 @@ pub fn integrate(
     marks.dedup();
     let last_event =
         restarts.iter().copied().filter(|&t| t <= settings.end_time).fold(settings.start_time, f64::max);
-    let switch_on_time = problem.secretion_start.iter().copied().fold(f64::INFINITY, f64::min);
 
     let phase_at = |t: f64| problem.phases.iter().rposition(|p| p.start <= t).unwrap_or(0);
     // The phase of the next step is the one in force just after the current time.
@@ -246,8 +246,8 @@ pub fn integrate(
             let history_c1 = previous_step.and(state.previous.first().map(|(_, c)| c.as_slice()));
             let sigma = alpha[0] / h;
 
-            let age = if settings.switched_on_far_field { Some(t_new - switch_on_time) } else { None };
-            let far_field: Vec<(usize, f64)> = system.far_field.coefficients(age).collect();
+            let time = settings.switched_on_far_field.then_some(t_new);
+            let far_field: Vec<(usize, f64)> = system.far_field.coefficients(time).collect();
             system.solver.set_step(sigma, far_field.iter().copied());
 
             // Right-hand side: chamber faces + sources + history.
