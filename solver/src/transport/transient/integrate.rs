@@ -384,7 +384,8 @@ pub fn integrate(
             // Shift the history.
             let old = std::mem::replace(&mut state.concentration, c_new);
             state.previous.insert(0, (t, old));
-            state.previous.truncate(if adaptive { 2 } else { 1 });
+            // Two earlier solutions: the adaptive error estimate and the quadratic guess use both.
+            state.previous.truncate(2);
             state.time = t_new;
             state.steps += 1;
             state.krylov_iterations += iterations;
@@ -457,14 +458,20 @@ fn sense(
     cell_sensing(problem.geometry, problem.layout, facets, c, system.phase.velocity, &problem.sensing)
 }
 
-/// Guess for cⁿ⁺¹: linear extrapolation from the last two solutions, or cⁿ.
+/// Guess for cⁿ⁺¹: quadratic extrapolation from the last three solutions (error O(Δt³), so the warm-started
+/// solve needs fewer iterations than from the linear one), linear from two, or cⁿ.
 fn extrapolate(state: &TransientState, t_new: f64, with_history: bool) -> Vec<f64> {
-    match state.previous.first() {
-        Some((t1, c1)) if with_history => {
-            let w = (t_new - state.time) / (state.time - t1);
-            state.concentration.iter().zip(c1).map(|(c0, c1)| c0 + w * (c0 - c1)).collect()
+    let c0 = &state.concentration;
+    match state.previous.as_slice() {
+        [(t1, c1), (t2, c2), ..] if with_history => {
+            let w = quadratic_extrapolation_weights([t_new - state.time, state.time - t1, t1 - t2]);
+            c0.iter().zip(c1).zip(c2).map(|((a, b), c)| w[0] * a + w[1] * b + w[2] * c).collect()
         }
-        _ => state.concentration.clone(),
+        [(t1, c1), ..] if with_history => {
+            let w = (t_new - state.time) / (state.time - t1);
+            c0.iter().zip(c1).map(|(c0, c1)| c0 + w * (c0 - c1)).collect()
+        }
+        _ => c0.clone(),
     }
 }
 
