@@ -1,6 +1,6 @@
-//! The Brinkman resolution guard on the command line: when the screening length √(μ_e K/μ) spans fewer than two
-//! grid spacings, `estimate` (table, stderr and `--json`) and `run` (before solving, and in summary.json) report
-//! the expected drag error and the spacing that resolves it; a resolved case reports nothing.
+//! The Brinkman resolution guard on the command line: when the screening length √(μ_e K/μ) spans fewer than
+//! two grid spacings, `estimate` (table, stderr and `--json`) and `run` (before solving, and in summary.json)
+//! report the expected drag error and the spacing that resolves it; a resolved case reports nothing.
 
 use solver::flow::brinkman::resolution::DRAG_ERROR_MODEL;
 use std::path::Path;
@@ -40,7 +40,8 @@ figures = false
     )
 }
 
-/// √K = 1 µm = h/2: under-resolved. Expected drag error from the guard's model at h/√K = 2; suggested h = √K/2.
+/// √K = 1 µm = h/2: under-resolved. Expected drag error from the guard's model at h/√K = 2; suggested h =
+/// √K/2.
 const UNDER_RESOLVED: &str = "1e-12 m^2";
 /// √K = 4 µm = 2h: resolved.
 const RESOLVED: &str = "1.6e-11 m^2";

@@ -7,17 +7,25 @@
 //! J(α) = ∫₁^∞ g(ρ) ρ⁻² dρ = 1 − (1 + 3/α + 3/α²)/4 + (3/α²) e^{α} [E₅(α) + α E₄(α)]      (E.2)
 //! ```
 //!
-//! with `g(ρ) = u_r/(U cosθ)` of the Brinkman (1947) sphere (item B). Limits (E.2): J → 3/8 (Stokes, A = Pe/16)
-//! as α → 0 and J → 3/4 (Darcy, A = Pe/8) as α → ∞; E.3 tabulates A/Pe = 0.0877282899 (α = 1) and
-//! 0.1152291629 (α = 10). The reference here is `validation::reference::low_peclet` (closed form with E_n), and
-//! the product's own estimate (`solver::post::estimates::isolated_anisotropy`, J by quadrature, printed by
-//! `plumefield estimate`) is compared with the same measurement.
+//! with `g(ρ) = u_r/(U cosθ)` of the Brinkman (1947) sphere (item B). Limits (E.2): J → 3/8 (Stokes, A =
+//! Pe/16) as α → 0 and J → 3/4 (Darcy, A = Pe/8) as α → ∞; E.3 tabulates A/Pe = 0.0877282899 (α = 1) and
+//! 0.1152291629 (α = 10). The reference here is `validation::reference::low_peclet` (closed form with E_n),
+//! and the product's own estimate (`solver::post::estimates::isolated_anisotropy`, J by quadrature, printed
+//! by `plumefield estimate`) is compared with the same measurement.
 //!
-//! Setup as `low_peclet_darcy`: one sphere off the grid in a ±10a box with far-field faces (uniform stream for
-//! the flow, point-source data for the ligand), solved through `solver::solve_case`. The uniform stream on the
-//! box faces is exact up to the Brinkman disturbance `A a³/r³` ≤ 7e-3 U at 10a (α = 1). The O(Pe²) remainder is
-//! about −Pe/2 relative (E.4), so Pe = 0.05 alone is compared within 5%; the sharp test is the linear
-//! extrapolation of A/Pe from Pe = 0.05 and 0.2 to Pe → 0, within 3% as in the Darcy case.
+//! Setup as `low_peclet_darcy`: one sphere off the grid in a ±10a box with far-field faces (uniform stream
+//! for the flow, point-source data for the ligand), solved through `solver::solve_case`. The uniform stream
+//! on the box faces is exact up to the Brinkman disturbance `A a³/r³` ≤ 7e-3 U at 10a (α = 1). The O(Pe²)
+//! remainder is larger than in Darcy flow: E.4's PDE values at Pe = 0.04 lie 3.6% (α = 1) and 2.3% (α = 10)
+//! below the first order, i.e. about −0.9·Pe and −0.6·Pe relative, so about −4.5% / −3% at Pe = 0.05
+//! (compared within 5%) and −18% / −12% at Pe = 0.2 (compared within 20%: that line is a sanity check, not a
+//! first-order test). The sharp test is the linear extrapolation of A/Pe from Pe = 0.05 and 0.2 to Pe → 0,
+//! within 3% as in the Darcy case.
+//!
+//! Measured (full tier, a/h = 6, box ±10a): α = 1: A/Pe = 0.08548 (Pe 0.05), 0.07474 (Pe 0.2), extrapolated
+//! 0.08907 vs 0.087728 (+1.5%); α = 10: 0.11366, 0.10355, extrapolated 0.11702 vs 0.115229 (+1.6%). Quick
+//! tier (a/h = 4, box ±6a, Pe = 0.05): 0.08976 (+2.3%) and 0.11697 (+1.5%). The flow solve is most of the
+//! time (3.9 s of 4.0 s for α = 1 in the quick tier; the transport 0.1 s).
 
 use super::setup::{far_field_box, isolated_sphere, solve};
 use super::{Check, Tier, VerifyError};
@@ -73,7 +81,7 @@ pub fn run(tier: Tier) -> Result<Vec<Check>, VerifyError> {
         let first_order = low_peclet::anisotropy_per_peclet(flow, 0.0)?;
         let grid = format!("a/h = {resolution}, box ±{half_width}a");
         let mut measured = Vec::new();
-        for (&pe, tolerance) in pecletes.iter().zip([0.05, 0.15]) {
+        for (&pe, tolerance) in pecletes.iter().zip([0.05, 0.20]) {
             let a = measured_anisotropy(alpha, pe, resolution, half_width)?;
             measured.push(a / pe);
             let case = format!("Brinkman α = {alpha}, reflecting, Pe = {pe} ({grid})");
@@ -114,8 +122,8 @@ pub fn run(tier: Tier) -> Result<Vec<Check>, VerifyError> {
 mod tests {
     use super::*;
 
-    /// The coefficient the check uses: E.3's table at α = 1 and 10, its Darcy (3/4) and Stokes (3/8) limits, and
-    /// the product's estimate (J by quadrature) against the closed form with E_n.
+    /// The coefficient the check uses: E.3's table at α = 1 and 10, its Darcy (3/4) and Stokes (3/8) limits,
+    /// and the product's estimate (J by quadrature) against the closed form with E_n.
     #[test]
     fn first_order_coefficient_and_its_limits() {
         let j = |alpha: f64| low_peclet::first_order_integral(low_peclet::Flow::Brinkman { alpha }).unwrap();
@@ -133,7 +141,8 @@ mod tests {
     }
 
     /// Prints a tier's checks (quick by default, full with PLUMEFIELD_FULL set; the full tier takes minutes).
-    /// Measured (a/h = 4, box ±6a, Pe = 0.05): A/Pe = 0.08976 (α = 1, +2.3%) and 0.11697 (α = 10, +1.5%), 4 s + 1.5 s.
+    /// Measured quick tier (a/h = 4, box ±6a, Pe = 0.05): A/Pe = 0.08976 (α = 1, +2.3%, 4 s) and 0.11697
+    /// (α = 10, +1.5%, 1.5 s).
     #[test]
     #[ignore]
     fn tiers_print_their_checks() {
