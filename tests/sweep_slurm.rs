@@ -1,6 +1,8 @@
 //! `plumefield sweep --slurm` on a real Slurm cluster: submit a 6-case sweep as a job array with a dependent
 //! collect job, wait (bounded), and check that its `sweep.csv` equals the one of a local run of the same
-//! sweep; then lose two cases and check that re-submitting runs only those two.
+//! sweep; then lose two cases and check that re-submitting runs only those two. When the cluster's
+//! MaxArraySize is below 6 (`scripts/test` sets 4), the sweep is split into several array jobs, as a sweep
+//! larger than a real cluster's limit would be, and the collect job waits for all of them.
 //!
 //! Needs a cluster: `scripts/slurm-start` starts a private single-node one and prints the `SLURM_CONF` to
 //! export (`scripts/test` does this and sets PLUMEFIELD_REQUIRE_SLURM=1, so in CI the test cannot skip).
@@ -43,22 +45,88 @@ fn submit_and_wait(sweep: &Path, dir: &Path, extra: &[&str]) -> String {
     let stdout = text(&out.stdout);
     let line =
         stdout.lines().find(|l| l.starts_with("submitted array job")).unwrap_or_else(|| panic!("{stdout}"));
+    // "submitted array job(s) ID[,ID…] and collect job ID"
     let words: Vec<&str> = line.split_whitespace().collect();
-    let (array, collect) = (words[3].to_string(), words[7].to_string());
+    let (arrays, collect) = (words[3].to_string(), words[7].to_string());
     let started = Instant::now();
-    while job_is_queued(&array) || job_is_queued(&collect) {
+    while arrays.split(',').any(job_is_queued) || job_is_queued(&collect) {
         assert!(
             started.elapsed() < WAIT,
-            "jobs {array}/{collect} still queued after {WAIT:?}:\n{}",
+            "jobs {arrays}/{collect} still queued after {WAIT:?}:\n{}",
             squeue()
         );
         std::thread::sleep(Duration::from_millis(250));
     }
     eprintln!(
-        "array job {array} and collect job {collect} finished in {:.1} s",
+        "array job(s) {arrays} and collect job {collect} finished in {:.1} s",
         started.elapsed().as_secs_f64()
     );
     collect
+}
+
+/// The cluster's MaxArraySize (Slurm's default 1001 when `scontrol show config` does not say).
+fn max_array_size() -> usize {
+    let out = Command::new("scontrol").args(["show", "config"]).output().expect("scontrol");
+    text(&out.stdout)
+        .lines()
+        .find_map(|l| {
+            let (key, value) = l.split_once('=')?;
+            (key.trim() == "MaxArraySize").then(|| value.trim().parse().ok())?
+        })
+        .unwrap_or(1001)
+}
+
+/// `0-3,5%2` → [0, 1, 2, 3, 5].
+fn expand_spec(spec: &str) -> Vec<usize> {
+    let spec = spec.split('%').next().unwrap();
+    spec.split(',')
+        .flat_map(|part| match part.split_once('-') {
+            Some((a, b)) => (a.parse::<usize>().unwrap()..=b.parse().unwrap()).collect::<Vec<_>>(),
+            None => vec![part.parse().unwrap()],
+        })
+        .collect()
+}
+
+/// The array scripts in `dir/slurm` (sorted by name), each with its array task ids and the cases they run.
+fn array_scripts(dir: &Path) -> Vec<(String, Vec<usize>, Vec<usize>)> {
+    let mut names: Vec<String> = std::fs::read_dir(dir.join("slurm"))
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+        .filter(|n| n.starts_with("array") && n.ends_with(".sbatch"))
+        .collect();
+    names.sort();
+    names
+        .into_iter()
+        .map(|name| {
+            let script = std::fs::read_to_string(dir.join("slurm").join(&name)).unwrap();
+            for line in ["#SBATCH --cpus-per-task=1\n", "#SBATCH --mem=", "#SBATCH --time=", "task-%A_%a.log"]
+            {
+                assert!(script.contains(line), "{line:?} missing from {name}:\n{script}");
+            }
+            let spec = script.lines().find_map(|l| l.strip_prefix("#SBATCH --array=")).unwrap();
+            let ids = expand_spec(spec);
+            let offset = script
+                .split("--task \"$((")
+                .nth(1)
+                .map_or(0, |rest| rest.split(' ').next().unwrap().parse::<usize>().unwrap());
+            let cases = ids.iter().map(|i| offset + i).collect();
+            (name, ids, cases)
+        })
+        .collect()
+}
+
+/// Check that the array scripts of `dir` run exactly `cases`, in as few array jobs as the cluster's
+/// MaxArraySize allows, with every task id below it.
+fn assert_arrays_cover(dir: &Path, cases: &[usize], max: usize) {
+    let scripts = array_scripts(dir);
+    let covered: Vec<usize> = scripts.iter().flat_map(|(_, _, c)| c.clone()).collect();
+    assert_eq!(covered, cases, "{scripts:?}");
+    assert!(
+        scripts.iter().all(|(_, ids, _)| ids.iter().all(|&i| i < max)),
+        "MaxArraySize {max}: {scripts:?}"
+    );
+    let span = cases.last().unwrap() - cases[0] + 1;
+    assert_eq!(scripts.len(), span.div_ceil(max).min(cases.len()), "MaxArraySize {max}: {scripts:?}");
 }
 
 fn squeue() -> String {
@@ -101,16 +169,13 @@ fn slurm_array_gives_the_local_table_and_resubmits_only_missing_tasks() {
     assert_eq!(local_csv.lines().count(), 7);
 
     let cluster = dir.path().join("cluster");
+    let max = max_array_size();
+    eprintln!("the cluster's MaxArraySize is {max}");
     let collect_job = submit_and_wait(&sweep, &cluster, &[]);
-    let script = std::fs::read_to_string(cluster.join("slurm/array.sbatch")).unwrap();
-    for line in [
-        "#SBATCH --array=0-5\n",
-        "#SBATCH --cpus-per-task=1\n",
-        "#SBATCH --mem=",
-        "#SBATCH --time=",
-        "task-%A_%a.log",
-    ] {
-        assert!(script.contains(line), "{line:?} missing from\n{script}");
+    assert_arrays_cover(&cluster, &[0, 1, 2, 3, 4, 5], max);
+    if max >= 6 {
+        let script = std::fs::read_to_string(cluster.join("slurm/array.sbatch")).unwrap();
+        assert!(script.contains("#SBATCH --array=0-5\n"), "{script}");
     }
     let cluster_csv = std::fs::read_to_string(cluster.join("sweep.csv"))
         .unwrap_or_else(|e| panic!("no sweep.csv from the collect job: {e}\n{}", log_text(&cluster)));
@@ -139,8 +204,10 @@ fn slurm_array_gives_the_local_table_and_resubmits_only_missing_tasks() {
         pf(&["sweep", sweep.to_str().unwrap(), "--slurm", cluster.to_str().unwrap(), "--max-running", "1"]);
     assert_eq!(out.status.code(), Some(0), "{}", show(&out));
     assert!(text(&out.stdout).contains("2 of 6 cases"), "{}", show(&out));
+    assert_arrays_cover(&cluster, &[3, 4], max);
     let script = std::fs::read_to_string(cluster.join("slurm/array.sbatch")).unwrap();
-    assert!(script.contains("#SBATCH --array=3-4%1\n"), "{script}");
+    let spec = if max >= 5 { "3-4%1" } else { "0-1%1" };
+    assert!(script.contains(&format!("#SBATCH --array={spec}\n")), "{script}");
     assert!(!cluster.join("sweep.csv").exists(), "writing the scripts submits nothing");
     submit_and_wait(&sweep, &cluster, &["--max-running", "1"]);
     assert_eq!(

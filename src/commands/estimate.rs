@@ -26,18 +26,6 @@ use crate::case::Case;
 use crate::exit::{InputError, SolverFailure};
 use crate::io::table::{CellTable, Column, ColumnValues};
 
-/// Memory of a Darcy `run` per grid cell (bytes), measured on cases/demo.toml (1.0e6 grid cells, 300 cells:
-/// peak resident set 574 MB, see DEVELOPERS.md "Estimates"); the run is dominated by arrays proportional to
-/// the grid, so the forecast scales it linearly.
-pub const RUN_BYTES_PER_GRID_CELL: f64 = 575.0;
-/// Wall time of a Darcy `run` per grid cell (s) on 2 cores, same case: 4 s on an idle machine, 7.4 s measured
-/// while other builds ran; the forecast takes the middle.
-pub const RUN_SECONDS_PER_GRID_CELL: f64 = 6.0e-6;
-/// Wall time of one extra right-hand side of the self/neighbour decomposition per grid cell (s): 0.8e-6 at 64³
-/// (scripts/bench_decompose, 100 cells) and 1.2e-6 on cases/demo.toml, both on a loaded 2-core machine; about
-/// 0.47 of the first transport solve.
-pub const DECOMPOSE_SECONDS_PER_GRID_CELL: f64 = 1.0e-6;
-
 /// The mean-field background of the chamber, or why there is none.
 #[derive(Clone, Debug, PartialEq)]
 pub enum Background {
@@ -88,10 +76,11 @@ pub struct CriticalDensity {
     pub case_error: f64,
 }
 
-/// Forecast for `run` at the case's grid.
+/// Forecast for `run` at the case's grid, on `threads` threads (the shared model of `crate::sweep::forecast`).
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct Forecast {
     pub grid_cells: usize,
+    pub threads: usize,
     pub memory_bytes: f64,
     pub seconds: f64,
     /// Extra seconds of the self/neighbour decomposition as configured.
@@ -511,7 +500,7 @@ impl CaseEstimates {
         row(&mut t, "run forecast: memory", format!("{:.2} GB", f.memory_bytes / 1e9));
         row(
             &mut t,
-            "run forecast: wall time on 2 cores",
+            &format!("run forecast: wall time on {} thread(s)", f.threads),
             format!("{:.1} s (+ {:.1} s self/neighbour decomposition)", f.seconds, f.decompose_seconds),
         );
         t
@@ -527,20 +516,17 @@ fn finite_or_string(x: f64) -> serde_json::Value {
     }
 }
 
-/// Linear forecast from the calibration constants above.
+/// The shared run forecast (`crate::sweep::forecast`) on this machine's cores, as `run` uses them.
 fn forecast(case: &Case) -> Forecast {
-    let n = case.grid.len();
+    let model = crate::sweep::forecast::Forecast::of(case);
+    let threads = std::thread::available_parallelism().map_or(1, |n| n.get());
     Forecast {
-        grid_cells: n,
-        memory_bytes: RUN_BYTES_PER_GRID_CELL * n as f64,
-        seconds: RUN_SECONDS_PER_GRID_CELL * n as f64,
-        decompose_seconds: DECOMPOSE_SECONDS_PER_GRID_CELL * n as f64 * decomposed_count(case) as f64,
+        grid_cells: model.grid_cells,
+        threads,
+        memory_bytes: model.memory_bytes_on(threads),
+        seconds: model.seconds(threads) - model.decompose_seconds(threads),
+        decompose_seconds: model.decompose_seconds(threads),
     }
-}
-
-/// How many cells the run will decompose (see `[sensing] decompose`).
-fn decomposed_count(case: &Case) -> usize {
-    case.sensing.decompose.choose(case.layout.cells.len()).len()
 }
 
 /// The flow model a medium implies, for reports.

@@ -9,6 +9,7 @@ use anyhow::{Context, Result};
 use crate::exit::{one_line, InputError, SolverFailure};
 use crate::sweep::done_marker::{case_state, write_failed, CaseState};
 use crate::sweep::forecast::{format_bytes, format_seconds, Forecast};
+use crate::sweep::lock::{LockError, SweepLock};
 use crate::sweep::plan_record::PlanRecord;
 use crate::sweep::run_local::{cases_to_run, run_case, run_cases, CaseEvent, LocalRunParams};
 use crate::sweep::slurm::{self, SlurmParams};
@@ -221,11 +222,12 @@ fn run_task(plan: &Plan, dir: &Path, task: usize, threads: Option<usize>) -> Res
 }
 
 fn write_slurm(plan: &Plan, dir: &Path, options: &SweepOptions) -> Result<()> {
-    let missing = cases_to_run(plan, dir);
-    let checked = validate(plan, &missing)?;
+    let checked = validate(plan, &cases_to_run(plan, dir))?;
     std::fs::create_dir_all(dir)
         .with_context(|| format!("cannot create the sweep folder {}", dir.display()))?;
     let dir = std::fs::canonicalize(dir).with_context(|| format!("cannot resolve {}", dir.display()))?;
+    let _lock = lock(&dir, "writing Slurm scripts")?;
+    let missing = cases_to_run(plan, &dir);
     write_plan_record(plan, &dir)?;
     if missing.is_empty() {
         println!("all {} cases are done; nothing to submit. Collecting.", plan.cases.len());
@@ -239,14 +241,16 @@ fn write_slurm(plan: &Plan, dir: &Path, options: &SweepOptions) -> Result<()> {
                 .total_cmp(&b.memory_bytes)
                 .then(a.seconds_one_thread.total_cmp(&b.seconds_one_thread))
         })
-        .unwrap_or_else(|| Forecast::for_grid_cells(0));
+        .unwrap_or_else(|| Forecast::for_grid(0, 0));
     let sweep_file = std::fs::canonicalize(&plan.sweep.path)
         .with_context(|| format!("cannot resolve {}", plan.sweep.path.display()))?;
     let exe = std::env::current_exe().context("cannot find the plumefield executable for the job script")?;
+    let (max_array_size, size_source) = slurm::max_array_size().map_err(InputError)?;
     let params = SlurmParams {
         cpus_per_task: options.threads.unwrap_or(1),
         max_running: options.max_running,
         partition: options.partition.clone(),
+        max_array_size,
     };
     let stem = plan
         .sweep
@@ -258,30 +262,70 @@ fn write_slurm(plan: &Plan, dir: &Path, options: &SweepOptions) -> Result<()> {
         format!("pf-{stem}").chars().filter(|c| c.is_ascii_alphanumeric() || "-_.".contains(*c)).collect();
     let scripts = slurm::write_scripts(&dir, &sweep_file, &exe, &missing, &largest, &params, &job_name)
         .with_context(|| format!("cannot write the Slurm scripts into {}", dir.display()))?;
+    let arrays: Vec<String> = scripts
+        .chunks
+        .iter()
+        .zip(&scripts.array_scripts)
+        .map(|(chunk, script)| {
+            let offset =
+                if chunk.offset > 0 { format!(", case {} + task id", chunk.offset) } else { String::new() };
+            format!(
+                "{} (--array={}{offset})",
+                script.display(),
+                slurm::array_spec(&chunk.ids, options.max_running)
+            )
+        })
+        .collect();
+    if scripts.chunks.len() > 1 {
+        println!(
+            "the {} tasks span cases {} to {}, more than MaxArraySize = {max_array_size} ({size_source}) allows in \
+             one array: {} array jobs{}",
+            missing.len(),
+            missing.first().copied().unwrap_or(0),
+            missing.last().copied().unwrap_or(0),
+            scripts.chunks.len(),
+            if options.max_running.is_some() { ", each after the previous one (--max-running)" } else { "" }
+        );
+    }
     println!(
-        "wrote {} ({} of {} cases: --array={}, --mem={}M, --time={} per task) and {}",
-        scripts.array_script.display(),
+        "wrote {} ({} of {} cases, --mem={}M, --time={} per task) and {}",
+        arrays.join(", "),
         missing.len(),
         plan.cases.len(),
-        slurm::array_spec(&missing, options.max_running),
         scripts.mem_mb,
         slurm::slurm_time(scripts.time_s as f64),
         scripts.collect_script.display()
     );
     if options.submit {
-        let submitted = slurm::submit(&scripts).map_err(|e| anyhow::anyhow!("{e}"))?;
-        println!("submitted array job {} and collect job {}", submitted.array_job, submitted.collect_job);
+        let submitted =
+            slurm::submit(&scripts, options.max_running.is_some()).map_err(|e| anyhow::anyhow!("{e}"))?;
+        println!(
+            "submitted array job{} {} and collect job {}",
+            if submitted.array_jobs.len() == 1 { "" } else { "s" },
+            submitted.array_jobs.join(","),
+            submitted.collect_job
+        );
     } else {
         println!("submit with: sh {}", slurm::shell_quote(&scripts.submit_script.display().to_string()));
     }
     Ok(())
 }
 
+/// Take the sweep folder's lock (exit code 2 when another sweep holds it).
+fn lock(dir: &Path, purpose: &str) -> Result<SweepLock> {
+    SweepLock::acquire(dir, purpose, &mut |message| eprintln!("sweep: {message}")).map_err(|e| match e {
+        LockError::Io { .. } => anyhow::Error::new(e),
+        refused => anyhow::Error::new(InputError(refused.to_string())),
+    })
+}
+
 fn run_locally(plan: &Plan, dir: &Path, options: &SweepOptions) -> Result<()> {
-    let todo = cases_to_run(plan, dir);
-    let checked = validate(plan, &todo)?;
+    let checked = validate(plan, &cases_to_run(plan, dir))?;
     std::fs::create_dir_all(dir)
         .with_context(|| format!("cannot create the sweep folder {}", dir.display()))?;
+    let _lock = lock(dir, "a local sweep")?;
+    // Under the lock: what is done now (another sweep may have finished cases since the check above).
+    let todo = cases_to_run(plan, dir);
     write_plan_record(plan, dir)?;
     let threads = options.threads.unwrap_or_else(cores);
     let largest = checked.iter().map(|c| c.forecast.memory_bytes).fold(0.0, f64::max);

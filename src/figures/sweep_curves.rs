@@ -7,6 +7,7 @@ use std::path::{Path, PathBuf};
 
 use anyhow::{Context, Result};
 use plotters::prelude::*;
+use rayon::prelude::*;
 
 use crate::sweep::axis::Scale;
 use crate::sweep::collect::{ColumnData, ColumnRole, SweepTable};
@@ -74,7 +75,7 @@ pub fn draw_sweep_curves(table: &SweepTable, plan: &PlanRecord, out_dir: &Path) 
     }
     std::fs::create_dir_all(out_dir).with_context(|| format!("cannot create {}", out_dir.display()))?;
     register_font();
-    let mut written = Vec::new();
+    let mut figures = Vec::new();
     for &(a, x) in &parameters {
         // Series: cases with equal values on every other non-replicate axis.
         let others: Vec<usize> = parameters.iter().map(|(b, _)| *b).filter(|&b| b != a).collect();
@@ -95,8 +96,17 @@ pub fn draw_sweep_curves(table: &SweepTable, plan: &PlanRecord, out_dir: &Path) 
                 None => series.push((key, vec![row])),
             }
         }
-        let axis = &plan.axes[a];
-        for metric in &metrics {
+        figures.push((a, x, series));
+    }
+    // Drawn on all cores: rasterising and compressing the PNGs is most of `collect`'s time, which a local
+    // sweep spends after its cases, with the other cores idle.
+    let pairs: Vec<(usize, &Metric)> =
+        (0..figures.len()).flat_map(|f| metrics.iter().map(move |m| (f, m))).collect();
+    pairs
+        .par_iter()
+        .map(|&(f, metric)| {
+            let (a, x, series) = &figures[f];
+            let axis = &plan.axes[*a];
             let file = out_dir.join(format!("{}_vs_{}.png", metric.name, axis.key));
             draw_one(
                 &file,
@@ -105,13 +115,12 @@ pub fn draw_sweep_curves(table: &SweepTable, plan: &PlanRecord, out_dir: &Path) 
                 axis.scale == Scale::Log,
                 x,
                 metric,
-                &series,
+                series,
             )
             .with_context(|| format!("cannot draw {}", file.display()))?;
-            written.push(file);
-        }
-    }
-    Ok(written)
+            Ok(file)
+        })
+        .collect()
 }
 
 fn draw_one(

@@ -13,14 +13,21 @@ use sha2::{Digest, Sha256};
 /// script) wins. Otherwise git is asked at run time in the package's source directory, if that directory
 /// still exists on this machine; a `-dirty` suffix marks uncommitted changes to tracked files. The run-time
 /// answer can be wrong for a binary copied elsewhere while its source tree moved on, hence the preference.
+/// Git is asked once per process: a sweep writes many cases, and two `git` runs per case (about 15 ms, more
+/// on a loaded machine) were a large fixed cost of tiny cases.
 pub fn git_revision() -> Option<String> {
-    if let Some(rev) = option_env!("PLUMEFIELD_GIT_REVISION") {
-        let rev = rev.trim();
-        if !rev.is_empty() && rev != "unknown" {
-            return Some(rev.to_string());
-        }
-    }
-    git_revision_of(Path::new(env!("CARGO_MANIFEST_DIR")))
+    static REVISION: std::sync::OnceLock<Option<String>> = std::sync::OnceLock::new();
+    REVISION
+        .get_or_init(|| {
+            if let Some(rev) = option_env!("PLUMEFIELD_GIT_REVISION") {
+                let rev = rev.trim();
+                if !rev.is_empty() && rev != "unknown" {
+                    return Some(rev.to_string());
+                }
+            }
+            git_revision_of(Path::new(env!("CARGO_MANIFEST_DIR")))
+        })
+        .clone()
 }
 
 /// `git rev-parse HEAD` in `dir` (plus `-dirty` when tracked files differ from HEAD); `None` when `dir` is

@@ -92,16 +92,28 @@ const CELL_QUANTITIES: [(&str, &str, &str); 4] = [
     ("signal_fraction", "1", "fraction of the sensed signal from the cell's own secretion"),
 ];
 
+/// Where the time of one finished case went (a row of `timings.csv`; see `thread_time`).
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct CaseTiming {
+    /// Wall time, seconds.
+    pub elapsed_s: f64,
+    /// Worker threads of the case.
+    pub threads: usize,
+    /// CPU time and run-queue wait of those threads, seconds, when recorded.
+    pub cpu_s: Option<f64>,
+    pub runqueue_s: Option<f64>,
+}
+
 /// What one finished case contributes.
 struct CaseData {
     summary: serde_json::Value,
     /// Per-cell columns by name.
     cells: Vec<(String, Vec<f64>)>,
-    elapsed_s: f64,
+    timing: CaseTiming,
 }
 
 /// Read the finished cases of the sweep in `dir` into a table.
-pub fn collect(dir: &Path) -> Result<(SweepTable, PlanRecord, Vec<Option<f64>>)> {
+pub fn collect(dir: &Path) -> Result<(SweepTable, PlanRecord, Vec<Option<CaseTiming>>)> {
     let plan = PlanRecord::read(dir).map_err(|m| anyhow::Error::new(crate::exit::InputError(m)))?;
     let rows = plan.cases.len();
     let mut status = Vec::with_capacity(rows);
@@ -110,7 +122,13 @@ pub fn collect(dir: &Path) -> Result<(SweepTable, PlanRecord, Vec<Option<f64>>)>
         let case_dir = dir.join("cases").join(&case.id);
         match case_state(&case_dir, &case.sha256) {
             CaseState::Done(marker) => {
-                let read = read_case(&case_dir, marker.elapsed_s)
+                let timing = CaseTiming {
+                    elapsed_s: marker.elapsed_s,
+                    threads: marker.threads,
+                    cpu_s: marker.cpu_s,
+                    runqueue_s: marker.runqueue_s,
+                };
+                let read = read_case(&case_dir, timing)
                     .with_context(|| format!("cannot read the outputs of {}", case.id))?;
                 status.push("done".to_string());
                 data.push(Some(read));
@@ -193,11 +211,11 @@ pub fn collect(dir: &Path) -> Result<(SweepTable, PlanRecord, Vec<Option<f64>>)>
             });
         }
     }
-    let timings = data.iter().map(|d| d.as_ref().map(|d| d.elapsed_s)).collect();
+    let timings = data.iter().map(|d| d.as_ref().map(|d| d.timing)).collect();
     Ok((SweepTable { columns, rows }, plan, timings))
 }
 
-fn read_case(case_dir: &Path, elapsed_s: f64) -> Result<CaseData> {
+fn read_case(case_dir: &Path, timing: CaseTiming) -> Result<CaseData> {
     let summary_path = case_dir.join("summary.json");
     let summary: serde_json::Value = serde_json::from_slice(
         &std::fs::read(&summary_path).with_context(|| format!("cannot read {}", summary_path.display()))?,
@@ -224,7 +242,7 @@ fn read_case(case_dir: &Path, elapsed_s: f64) -> Result<CaseData> {
             cells[slot].1.push(value);
         }
     }
-    Ok(CaseData { summary, cells, elapsed_s })
+    Ok(CaseData { summary, cells, timing })
 }
 
 /// The number at the dotted `path` of `json` (NaN when absent or not a number, e.g. a null estimate).
@@ -258,11 +276,20 @@ pub fn write_csv(path: &Path, table: &SweepTable) -> Result<()> {
     write_atomic(path, &csv_text(table)?).with_context(|| format!("cannot write {}", path.display()))
 }
 
-/// Write `timings.csv` (case id, wall time of the case in seconds; empty when not done) atomically.
-pub fn write_timings(path: &Path, plan: &PlanRecord, timings: &[Option<f64>]) -> Result<()> {
-    let mut text = String::from("case_id,elapsed_s\n");
+/// Write `timings.csv` atomically: case id, wall time, threads, CPU time and run-queue wait of the case
+/// (seconds; empty when not done or not recorded).
+pub fn write_timings(path: &Path, plan: &PlanRecord, timings: &[Option<CaseTiming>]) -> Result<()> {
+    let mut text = String::from("case_id,elapsed_s,threads,cpu_s,runqueue_s\n");
+    let real = |x: Option<f64>| x.map(format_real).unwrap_or_default();
     for (case, t) in plan.cases.iter().zip(timings) {
-        text.push_str(&format!("{},{}\n", case.id, t.map(format_real).unwrap_or_default()));
+        text.push_str(&format!(
+            "{},{},{},{},{}\n",
+            case.id,
+            real(t.map(|t| t.elapsed_s)),
+            t.map(|t| t.threads.to_string()).unwrap_or_default(),
+            real(t.and_then(|t| t.cpu_s)),
+            real(t.and_then(|t| t.runqueue_s))
+        ));
     }
     write_atomic(path, text.as_bytes()).with_context(|| format!("cannot write {}", path.display()))
 }

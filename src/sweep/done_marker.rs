@@ -39,6 +39,13 @@ pub struct DoneMarker {
     pub elapsed_s: f64,
     /// Worker threads the case ran on.
     pub threads: usize,
+    /// CPU time of those threads, seconds (Linux; absent elsewhere and in markers of older versions).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub cpu_s: Option<f64>,
+    /// Time those threads waited for a CPU (other programs' load), seconds; what is left of `elapsed_s`
+    /// after both is time asleep (file syncs, locks). See `thread_time`.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub runqueue_s: Option<f64>,
     pub outputs: Vec<OutputRecord>,
 }
 
@@ -203,6 +210,8 @@ mod tests {
             case_sha256: sha.into(),
             elapsed_s: 0.1,
             threads: 1,
+            cpu_s: Some(0.08),
+            runqueue_s: None,
             outputs,
         };
         write_done(dir, &marker).unwrap();

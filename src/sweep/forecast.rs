@@ -1,13 +1,18 @@
-//! Memory and time forecast of one steady case, for `sweep --plan` and the Slurm resource requests.
+//! The one memory and run-time model of a steady case: `plumefield estimate` prints it, `sweep --plan` lists
+//! it per case, and the Slurm scripts size `--mem` and `--time` from it (with headroom, see `slurm.rs`).
 //!
-//! Both grow linearly with the number of grid cells (multigrid-preconditioned solves, DESIGN.md §3). The
-//! constants were measured with `plumefield run --threads 1` on the development machine (release build):
-//! the demo case (200×100×50 = 1.0e6 grid cells, 300 cells) peaked at 573 MB resident and took 5.9 s; a
-//! 48×24×16 case peaked at 24.6 MB and took 0.14 s;
-//! the constants below are the straight line through these two points. Measured again later (Brinkman and
-//! decomposition code in, machine loaded by other builds): 590 MB and 6.5 s for the demo, within 3% and 10%.
-//! The model is calibrated on Darcy cases; Brinkman/Stokes flow solves cost more. They are a forecast, not a bound: the Slurm script adds
-//! headroom on top (see `slurm.rs`).
+//! Memory and time grow linearly with the number of grid cells (multigrid-preconditioned solves, DESIGN.md
+//! §3); the self/neighbour split adds one transport solve per decomposed cell (`[sensing] decompose`).
+//! Calibration (release build, `plumefield run --threads 1`, CPU time by `perf stat` so that the load other
+//! programs put on the shared development machine does not count; measured 2026-12-02, load average ~10):
+//! - cases/demo.toml (200×100×50 = 1.0e6 grid cells, 300 cells) with `decompose = "none"`: 5.41 s, peak
+//!   resident 573 MB;
+//! - the same with the default `decompose` (4 sampled cells): 8.82 s, 590 MB — so 0.85 s per decomposed cell
+//!   per million grid cells.
+//!
+//! The straight line through the origin plus a fixed start-up cost over-forecasts tiny grids that fit in the
+//! caches: the 48×24×16 sweep case (4 decomposed cells) takes about 0.09 s, forecast 0.19 s. Calibrated on
+//! Darcy cases; Brinkman/Stokes flow solves cost more. A forecast, not a bound.
 
 use crate::case::Case;
 
@@ -16,13 +21,15 @@ const BASE_BYTES: f64 = 14.0e6;
 /// Resident memory per grid cell, bytes (geometry, flow, transport, multigrid hierarchy, Krylov vectors).
 const BYTES_PER_GRID_CELL: f64 = 560.0;
 /// Extra resident memory per grid cell for each thread beyond the first (per-thread work buffers), bytes:
-/// the demo case peaked at 590 MB on one thread and 677 MB on two (measured again after the decomposition and
-/// Brinkman work landed; one pair of runs, so a rough slope).
+/// the demo case peaked at 590 MB on one thread and 677 MB on two (one pair of runs, so a rough slope).
 const BYTES_PER_GRID_CELL_PER_EXTRA_THREAD: f64 = 87.0;
 /// Fixed cost of a run (start-up, file writes), seconds.
 const BASE_SECONDS: f64 = 0.03;
-/// Wall time per grid cell on one thread, seconds.
-const SECONDS_PER_GRID_CELL: f64 = 5.9e-6;
+/// Time per grid cell on one thread of the run without the self/neighbour split, seconds.
+const SECONDS_PER_GRID_CELL: f64 = 5.4e-6;
+/// Time per grid cell of the self/neighbour split of one cell (one more transport solve, warm-started
+/// multigrid hierarchy), on one thread, seconds.
+const DECOMPOSE_SECONDS_PER_GRID_CELL: f64 = 0.85e-6;
 /// Parallel efficiency assumed for the threads of one case (common practice for memory-bound stencils).
 const THREAD_EFFICIENCY: f64 = 0.7;
 
@@ -31,24 +38,33 @@ const THREAD_EFFICIENCY: f64 = 0.7;
 pub struct Forecast {
     /// Grid cells of the case.
     pub grid_cells: usize,
-    /// Peak resident memory, bytes.
+    /// Cells that get the self/neighbour split.
+    pub decomposed_cells: usize,
+    /// Peak resident memory on one thread, bytes.
     pub memory_bytes: f64,
-    /// Wall time on one thread, seconds.
+    /// Wall time on one thread, seconds, the split included.
     pub seconds_one_thread: f64,
+    /// The part of `seconds_one_thread` spent on the self/neighbour split.
+    pub decompose_seconds_one_thread: f64,
 }
 
 impl Forecast {
     /// Forecast for a validated case.
     pub fn of(case: &Case) -> Forecast {
-        Forecast::for_grid_cells(case.grid.len())
+        let decomposed = case.sensing.decompose.choose(case.layout.cells.len()).len();
+        Forecast::for_grid(case.grid.len(), decomposed)
     }
 
-    pub fn for_grid_cells(grid_cells: usize) -> Forecast {
+    /// Forecast for a grid of `grid_cells` with `decomposed_cells` self/neighbour splits.
+    pub fn for_grid(grid_cells: usize, decomposed_cells: usize) -> Forecast {
         let n = grid_cells as f64;
+        let decompose = DECOMPOSE_SECONDS_PER_GRID_CELL * n * decomposed_cells as f64;
         Forecast {
             grid_cells,
+            decomposed_cells,
             memory_bytes: BASE_BYTES + BYTES_PER_GRID_CELL * n,
-            seconds_one_thread: BASE_SECONDS + SECONDS_PER_GRID_CELL * n,
+            seconds_one_thread: BASE_SECONDS + SECONDS_PER_GRID_CELL * n + decompose,
+            decompose_seconds_one_thread: decompose,
         }
     }
 
@@ -58,11 +74,20 @@ impl Forecast {
             + BYTES_PER_GRID_CELL_PER_EXTRA_THREAD * (threads.max(1) - 1) as f64 * self.grid_cells as f64
     }
 
-    /// Wall time on `threads` threads, seconds.
+    /// Wall time on `threads` threads, seconds, the split included.
     pub fn seconds(&self, threads: usize) -> f64 {
-        let speedup = 1.0 + (threads.max(1) as f64 - 1.0) * THREAD_EFFICIENCY;
-        self.seconds_one_thread / speedup
+        self.seconds_one_thread / speedup(threads)
     }
+
+    /// The split's part of the wall time on `threads` threads, seconds.
+    pub fn decompose_seconds(&self, threads: usize) -> f64 {
+        self.decompose_seconds_one_thread / speedup(threads)
+    }
+}
+
+/// Speed-up of one case on `threads` threads: each thread beyond the first adds `THREAD_EFFICIENCY`.
+fn speedup(threads: usize) -> f64 {
+    1.0 + (threads.max(1) as f64 - 1.0) * THREAD_EFFICIENCY
 }
 
 /// `1.2 GB`, `350 MB`, `24 MB`.
@@ -93,15 +118,24 @@ mod tests {
 
     #[test]
     fn forecast_reproduces_the_calibration_runs() {
-        // The two measured runs named in the module doc, within 5%.
-        let demo = Forecast::for_grid_cells(200 * 100 * 50);
+        // The runs named in the module doc, within 5%.
+        let demo = Forecast::for_grid(200 * 100 * 50, 0);
         assert!((demo.memory_bytes / 573e6 - 1.0).abs() < 0.05, "{}", demo.memory_bytes);
-        assert!((demo.seconds_one_thread / 5.9 - 1.0).abs() < 0.05, "{}", demo.seconds_one_thread);
-        let tiny = Forecast::for_grid_cells(48 * 24 * 16);
-        assert!((tiny.memory_bytes / 24.6e6 - 1.0).abs() < 0.05, "{}", tiny.memory_bytes);
-        assert!((tiny.seconds_one_thread / 0.14 - 1.0).abs() < 0.05, "{}", tiny.seconds_one_thread);
-        assert!(demo.seconds(2) < demo.seconds(1));
+        assert!((demo.seconds_one_thread / 5.41 - 1.0).abs() < 0.05, "{}", demo.seconds_one_thread);
+        let split = Forecast::for_grid(200 * 100 * 50, 4);
+        assert!((split.seconds_one_thread / 8.82 - 1.0).abs() < 0.05, "{}", split.seconds_one_thread);
+        assert!((split.memory_bytes / 590e6 - 1.0).abs() < 0.05, "{}", split.memory_bytes);
         assert!((demo.memory_bytes_on(2) / 677e6 - 1.0).abs() < 0.05, "{}", demo.memory_bytes_on(2));
+        // Threads divide the time, the split included; the tiny sweep case is over-forecast (module doc).
+        assert!(
+            split.seconds(2) < split.seconds(1) && split.decompose_seconds(2) < split.decompose_seconds(1)
+        );
+        let tiny = Forecast::for_grid(48 * 24 * 16, 4);
+        assert!(
+            tiny.seconds_one_thread > 0.09 && tiny.seconds_one_thread < 0.25,
+            "{}",
+            tiny.seconds_one_thread
+        );
     }
 
     #[test]

@@ -12,10 +12,12 @@ pub mod done_marker;
 pub mod error;
 pub mod expand;
 pub mod forecast;
+pub mod lock;
 pub mod plan_record;
 pub mod run_local;
 pub mod slurm;
 pub mod sweep_file;
+pub mod thread_time;
 
 pub use error::SweepError;
 pub use expand::{Plan, PlannedCase};

@@ -15,6 +15,7 @@ use super::done_marker::{
     case_state, record_outputs, write_done, write_failed, CaseState, DoneMarker, FailureRecord, CASE_FILE,
 };
 use super::expand::Plan;
+use super::thread_time::current_pool;
 use crate::commands::run::{solution_warnings, steady_case, write_outputs};
 use crate::exit::{one_line, SolverFailure};
 use crate::io::write_atomic;
@@ -121,6 +122,7 @@ fn failure(plan: &Plan, index: usize, kind: &str, error: String) -> FailureRecor
 /// write the outputs, then `done.json` last. A panic inside the solver is caught and recorded as a failure.
 pub fn run_case(plan: &Plan, dir: &Path, index: usize, threads: usize) -> Result<DoneMarker, FailureRecord> {
     let started = Instant::now();
+    let times_before = current_pool();
     let case_dir = plan.case_dir(dir, index);
     let io_failure = |what: &str, e: &dyn std::fmt::Display| {
         failure(plan, index, "io", format!("{what} {}: {e}", case_dir.display()))
@@ -160,11 +162,14 @@ pub fn run_case(plan: &Plan, dir: &Path, index: usize, threads: usize) -> Result
     write_outputs(&case, &solved, &warnings, &case_dir, started, Instant::now())
         .map_err(|e| failure(plan, index, "io", one_line(&e)))?;
     let outputs = record_outputs(&case_dir).map_err(|e| io_failure("cannot list the outputs in", &e))?;
+    let spent = times_before.zip(current_pool()).map(|(before, after)| before.until(&after));
     let marker = DoneMarker {
         case_id: planned.id.clone(),
         case_sha256: planned.sha256.clone(),
         elapsed_s: started.elapsed().as_secs_f64(),
         threads,
+        cpu_s: spent.map(|t| t.cpu_s),
+        runqueue_s: spent.map(|t| t.runqueue_s),
         outputs,
     };
     write_done(&case_dir, &marker).map_err(|e| io_failure("cannot write done.json in", &e))?;

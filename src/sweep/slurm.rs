@@ -4,6 +4,12 @@
 //! (submits both, the second depending on the first). Writing the scripts again after a partial failure lists
 //! only the tasks still missing, so re-submitting never repeats finished work.
 //!
+//! A cluster accepts array task ids only below its `MaxArraySize` (`scontrol show config`; Slurm's default
+//! 1001). Larger sweeps are split into several array jobs `array-1.sbatch`, `array-2.sbatch`, … whose task ids
+//! count from an offset (task `i` of the job with offset `o` runs case `o + i`); the collect job depends on
+//! all of them, and with `--max-running` each array job waits for the previous one so that the limit holds
+//! for the whole sweep.
+//!
 //! Resources per task come from the largest forecast among the missing cases: `--mem` is 1.5 times the
 //! forecast plus 200 MB, `--time` is 3 times the forecast on `--cpus-per-task` threads plus 5 min (headroom:
 //! common practice, since a task that hits its limit is killed and must be re-run).
@@ -16,6 +22,61 @@ use crate::io::write_atomic;
 /// The folder under the sweep folder that holds the scripts and the logs.
 pub const SLURM_DIR: &str = "slurm";
 
+/// Slurm's default `MaxArraySize`: array task ids 0 to 1000.
+pub const DEFAULT_MAX_ARRAY_SIZE: usize = 1001;
+
+/// One array job of a sweep: array task id `i` in `ids` runs case `offset + i`.
+#[derive(Clone, Debug, PartialEq, Eq)]
+pub struct ArrayChunk {
+    pub offset: usize,
+    pub ids: Vec<usize>,
+}
+
+impl ArrayChunk {
+    /// The case indices this array job runs.
+    pub fn cases(&self) -> impl Iterator<Item = usize> + '_ {
+        self.ids.iter().map(move |i| self.offset + i)
+    }
+}
+
+/// Split the case indices `tasks` (sorted, distinct) into as few array jobs as keep every task id below
+/// `max_array_size`: each job starts at its first case, and takes the following cases while they lie less
+/// than `max_array_size` after it.
+pub fn chunk_tasks(tasks: &[usize], max_array_size: usize) -> Vec<ArrayChunk> {
+    let max = max_array_size.max(1);
+    let mut chunks: Vec<ArrayChunk> = Vec::new();
+    for &task in tasks {
+        match chunks.last_mut() {
+            Some(chunk) if task - chunk.offset < max => chunk.ids.push(task - chunk.offset),
+            _ => chunks.push(ArrayChunk { offset: task, ids: vec![0] }),
+        }
+    }
+    chunks
+}
+
+/// The cluster's `MaxArraySize` from `scontrol show config`, with where it came from; Slurm's default when
+/// `scontrol` cannot be asked (scripts written away from the cluster). `Err` when arrays are disabled (0).
+pub fn max_array_size() -> Result<(usize, String), String> {
+    let output = std::process::Command::new("scontrol").args(["show", "config"]).output();
+    let text = match output {
+        Ok(out) if out.status.success() => String::from_utf8_lossy(&out.stdout).into_owned(),
+        _ => return Ok((DEFAULT_MAX_ARRAY_SIZE, "Slurm's default; scontrol could not be asked".into())),
+    };
+    match parse_max_array_size(&text) {
+        Some(0) => Err("this cluster disables job arrays (MaxArraySize = 0 in scontrol show config)".into()),
+        Some(n) => Ok((n, "scontrol show config".into())),
+        None => Ok((DEFAULT_MAX_ARRAY_SIZE, "Slurm's default; not in scontrol show config".into())),
+    }
+}
+
+/// The value of the `MaxArraySize = N` line of `scontrol show config`.
+fn parse_max_array_size(config: &str) -> Option<usize> {
+    config.lines().find_map(|line| {
+        let (key, value) = line.split_once('=')?;
+        (key.trim() == "MaxArraySize").then(|| value.trim().parse().ok())?
+    })
+}
+
 /// Choices for the array job.
 #[derive(Clone, Debug, PartialEq)]
 pub struct SlurmParams {
@@ -25,14 +86,17 @@ pub struct SlurmParams {
     pub max_running: Option<usize>,
     /// `--partition`, when not the cluster's default.
     pub partition: Option<String>,
+    /// The cluster's `MaxArraySize` (see [`max_array_size`]).
+    pub max_array_size: usize,
 }
 
 /// The scripts for one submission.
 #[derive(Clone, Debug, PartialEq)]
 pub struct SlurmScripts {
-    /// The task ids (case indices) of the array; empty when every case is done.
-    pub tasks: Vec<usize>,
-    pub array_script: PathBuf,
+    /// The array jobs (case indices by offset and task id); empty when every case is done.
+    pub chunks: Vec<ArrayChunk>,
+    /// One script per array job, in submission order.
+    pub array_scripts: Vec<PathBuf>,
     pub collect_script: PathBuf,
     pub submit_script: PathBuf,
     /// `--mem` in megabytes and `--time` in seconds of each array task.
@@ -95,8 +159,8 @@ pub fn task_resources(forecast: &Forecast, cpus_per_task: usize) -> (u64, u64) {
     (mem_mb, time_s)
 }
 
-/// Write the scripts for the cases `tasks` of the sweep `sweep_file` (absolute) into `dir/slurm/`.
-/// `exe` is the plumefield executable the tasks run; `largest` the largest forecast among `tasks`.
+/// Write the scripts for the cases `tasks` (sorted, distinct) of the sweep `sweep_file` (absolute) into
+/// `dir/slurm/`. `exe` is the plumefield executable the tasks run; `largest` the largest forecast among `tasks`.
 pub fn write_scripts(
     dir: &Path,
     sweep_file: &Path,
@@ -114,35 +178,66 @@ pub fn write_scripts(
     let partition =
         params.partition.as_ref().map(|p| format!("#SBATCH --partition={p}\n")).unwrap_or_default();
 
-    let array_script = slurm_dir.join("array.sbatch");
-    let array = format!(
-        "#!/bin/bash\n\
-         # Written by `plumefield sweep --slurm`: one task per case not yet done ({count} of them).\n\
-         # Re-running `plumefield sweep {sweep} --slurm {dir}` rewrites it with the tasks still missing.\n\
-         #SBATCH --job-name={job_name}\n\
-         #SBATCH --array={spec}\n\
-         #SBATCH --ntasks=1\n\
-         #SBATCH --cpus-per-task={cpus}\n\
-         #SBATCH --mem={mem_mb}M\n\
-         #SBATCH --time={time}\n\
-         #SBATCH --output={log}\n\
-         #SBATCH --chdir={dir_d}\n\
-         {partition}\
-         set -eu\n\
-         exec {exe} sweep {sweep_q} --task \"$SLURM_ARRAY_TASK_ID\" -o {dir_q} --threads \"${{SLURM_CPUS_PER_TASK:-{cpus}}}\"\n",
-        count = tasks.len(),
-        sweep = sweep_file.display(),
-        dir = dir.display(),
-        spec = array_spec(tasks, params.max_running),
-        cpus = params.cpus_per_task,
-        time = slurm_time(time_s as f64),
-        log = directive_path(&logs.join("task-%A_%a.log")),
-        dir_d = directive_path(dir),
-        dir_q = q(dir),
-        exe = q(exe),
-        sweep_q = q(sweep_file),
-    );
-    write_atomic(&array_script, array.as_bytes())?;
+    // Array scripts of an earlier writing (perhaps split differently) would mislead: remove them.
+    for entry in std::fs::read_dir(&slurm_dir)? {
+        let name = entry?.file_name().to_string_lossy().into_owned();
+        if name.starts_with("array") && name.ends_with(".sbatch") {
+            std::fs::remove_file(slurm_dir.join(&name))?;
+        }
+    }
+    let chunks = chunk_tasks(tasks, params.max_array_size);
+    let mut array_scripts = Vec::new();
+    for (k, chunk) in chunks.iter().enumerate() {
+        let (script, part, task) = if chunks.len() == 1 && chunk.offset == 0 {
+            (slurm_dir.join("array.sbatch"), String::new(), "\"$SLURM_ARRAY_TASK_ID\"".to_string())
+        } else {
+            (
+                slurm_dir.join(if chunks.len() == 1 {
+                    "array.sbatch".to_string()
+                } else {
+                    format!("array-{}.sbatch", k + 1)
+                }),
+                format!(
+                    "# Array job {} of {} (the cluster's MaxArraySize is {}): task id i runs case {} + i.\n",
+                    k + 1,
+                    chunks.len(),
+                    params.max_array_size,
+                    chunk.offset
+                ),
+                format!("\"$(({} + SLURM_ARRAY_TASK_ID))\"", chunk.offset),
+            )
+        };
+        let array = format!(
+            "#!/bin/bash\n\
+             # Written by `plumefield sweep --slurm`: one task per case not yet done ({count} of them).\n\
+             # Re-running `plumefield sweep {sweep} --slurm {dir}` rewrites it with the tasks still missing.\n\
+             {part}\
+             #SBATCH --job-name={job_name}\n\
+             #SBATCH --array={spec}\n\
+             #SBATCH --ntasks=1\n\
+             #SBATCH --cpus-per-task={cpus}\n\
+             #SBATCH --mem={mem_mb}M\n\
+             #SBATCH --time={time}\n\
+             #SBATCH --output={log}\n\
+             #SBATCH --chdir={dir_d}\n\
+             {partition}\
+             set -eu\n\
+             exec {exe} sweep {sweep_q} --task {task} -o {dir_q} --threads \"${{SLURM_CPUS_PER_TASK:-{cpus}}}\"\n",
+            count = chunk.ids.len(),
+            sweep = sweep_file.display(),
+            dir = dir.display(),
+            spec = array_spec(&chunk.ids, params.max_running),
+            cpus = params.cpus_per_task,
+            time = slurm_time(time_s as f64),
+            log = directive_path(&logs.join("task-%A_%a.log")),
+            dir_d = directive_path(dir),
+            dir_q = q(dir),
+            exe = q(exe),
+            sweep_q = q(sweep_file),
+        );
+        write_atomic(&script, array.as_bytes())?;
+        array_scripts.push(script);
+    }
 
     let collect_script = slurm_dir.join("collect.sbatch");
     let collect = format!(
@@ -166,21 +261,43 @@ pub fn write_scripts(
     write_atomic(&collect_script, collect.as_bytes())?;
 
     let submit_script = slurm_dir.join("submit.sh");
-    let submit = format!(
-        "#!/bin/sh\n\
-         # Submits the array, then the collect job to run after it (whether or not every task succeeded).\n\
-         set -eu\n\
-         array=$(sbatch --parsable {array})\n\
-         array=${{array%%;*}}\n\
-         collect=$(sbatch --parsable --dependency=afterany:\"$array\" {collect})\n\
-         echo \"submitted array job $array and collect job ${{collect%%;*}}\"\n",
-        array = q(&array_script),
-        collect = q(&collect_script),
-    );
-    write_atomic(&submit_script, submit.as_bytes())?;
+    write_atomic(
+        &submit_script,
+        submit_text(&array_scripts, &collect_script, params.max_running.is_some()).as_bytes(),
+    )?;
     set_executable(&submit_script)?;
 
-    Ok(SlurmScripts { tasks: tasks.to_vec(), array_script, collect_script, submit_script, mem_mb, time_s })
+    Ok(SlurmScripts { chunks, array_scripts, collect_script, submit_script, mem_mb, time_s })
+}
+
+/// `submit.sh`: the array jobs (each after the previous one when `chained`), then the collect job after all.
+fn submit_text(array_scripts: &[PathBuf], collect_script: &Path, chained: bool) -> String {
+    let q = |p: &Path| shell_quote(&p.display().to_string());
+    let mut text = String::from(
+        "#!/bin/sh\n\
+         # Submits the array job(s), then the collect job to run after them (whether or not every task succeeded).\n\
+         set -eu\n",
+    );
+    let mut ids = Vec::new();
+    for (k, script) in array_scripts.iter().enumerate() {
+        let after = match ids.last() {
+            Some(previous) if chained => format!(" --dependency=afterany:\"${previous}\""),
+            _ => String::new(),
+        };
+        let id = format!("a{}", k + 1);
+        text.push_str(&format!("{id}=$(sbatch --parsable{after} {})\n{id}=${{{id}%%;*}}\n", q(script)));
+        ids.push(id);
+    }
+    let all: Vec<String> = ids.iter().map(|id| format!("${id}")).collect();
+    text.push_str(&format!(
+        "collect=$(sbatch --parsable --dependency=afterany:\"{}\" {})\n\
+         echo \"submitted array job{} {} and collect job ${{collect%%;*}}\"\n",
+        all.join(":"),
+        q(collect_script),
+        if ids.len() == 1 { "" } else { "s" },
+        all.join(",")
+    ));
+    text
 }
 
 #[cfg(unix)]
@@ -197,7 +314,7 @@ fn set_executable(_path: &Path) -> std::io::Result<()> {
 /// Job ids of a submission.
 #[derive(Clone, Debug, PartialEq, Eq)]
 pub struct Submitted {
-    pub array_job: String,
+    pub array_jobs: Vec<String>,
     pub collect_job: String,
 }
 
@@ -210,11 +327,20 @@ pub enum SubmitError {
     Refused { script: String, stderr: String },
 }
 
-/// Submit the array, then the collect job with `--dependency=afterany:<array>`.
-pub fn submit(scripts: &SlurmScripts) -> Result<Submitted, SubmitError> {
-    let array_job = sbatch(&[], &scripts.array_script)?;
-    let collect_job = sbatch(&[format!("--dependency=afterany:{array_job}")], &scripts.collect_script)?;
-    Ok(Submitted { array_job, collect_job })
+/// Submit the array jobs (each after the previous one with `--max-running`), then the collect job with
+/// `--dependency=afterany:<every array job>`.
+pub fn submit(scripts: &SlurmScripts, chained: bool) -> Result<Submitted, SubmitError> {
+    let mut array_jobs: Vec<String> = Vec::new();
+    for script in &scripts.array_scripts {
+        let after = match array_jobs.last() {
+            Some(previous) if chained => vec![format!("--dependency=afterany:{previous}")],
+            _ => Vec::new(),
+        };
+        array_jobs.push(sbatch(&after, script)?);
+    }
+    let collect_job =
+        sbatch(&[format!("--dependency=afterany:{}", array_jobs.join(":"))], &scripts.collect_script)?;
+    Ok(Submitted { array_jobs, collect_job })
 }
 
 fn sbatch(extra: &[String], script: &Path) -> Result<String, SubmitError> {
@@ -257,8 +383,13 @@ mod tests {
     fn scripts_carry_resources_tasks_and_quoted_paths() {
         let dir = tempfile::tempdir().unwrap();
         let sweep_dir = dir.path().join("it's here");
-        let forecast = Forecast::for_grid_cells(1_000_000);
-        let params = SlurmParams { cpus_per_task: 2, max_running: Some(3), partition: None };
+        let forecast = Forecast::for_grid(1_000_000, 0);
+        let params = SlurmParams {
+            cpus_per_task: 2,
+            max_running: Some(3),
+            partition: None,
+            max_array_size: DEFAULT_MAX_ARRAY_SIZE,
+        };
         let s = write_scripts(
             &sweep_dir,
             Path::new("/s/sweep.toml"),
@@ -269,7 +400,8 @@ mod tests {
             "pf",
         )
         .unwrap();
-        let text = std::fs::read_to_string(&s.array_script).unwrap();
+        assert_eq!(s.array_scripts, [sweep_dir.join("slurm/array.sbatch")]);
+        let text = std::fs::read_to_string(&s.array_scripts[0]).unwrap();
         assert!(text.contains("#SBATCH --array=0-1,4%3\n"), "{text}");
         assert!(text.contains("#SBATCH --cpus-per-task=2\n"));
         // 1.5 × (574 + 87) MB + 200 MB on 2 threads; 3 × 5.93 s / 1.7 + 300 s → 6 min.
@@ -279,6 +411,84 @@ mod tests {
         assert!(text.contains("--task \"$SLURM_ARRAY_TASK_ID\" -o '"));
         assert!(text.contains(r"it'\''s here"), "{text}");
         let submit = std::fs::read_to_string(&s.submit_script).unwrap();
-        assert!(submit.contains("--dependency=afterany:"));
+        assert!(submit.contains("--dependency=afterany:\"$a1\""), "{submit}");
+        assert!(submit.contains("submitted array job $a1 and collect job"), "{submit}");
+    }
+
+    #[test]
+    fn tasks_are_chunked_below_max_array_size() {
+        let chunk = |offset, ids: &[usize]| ArrayChunk { offset, ids: ids.to_vec() };
+        // Within the limit: one array job from 0, as before.
+        assert_eq!(chunk_tasks(&[0, 1, 2, 5], 1001), [chunk(0, &[0, 1, 2, 5])]);
+        // 2500 cases, MaxArraySize 1001: ids 0..=1000 each, the last job holds the remaining 498.
+        let all: Vec<usize> = (0..2500).collect();
+        let chunks = chunk_tasks(&all, 1001);
+        assert_eq!(
+            chunks.iter().map(|c| (c.offset, c.ids.len())).collect::<Vec<_>>(),
+            [(0, 1001), (1001, 1001), (2002, 498)]
+        );
+        assert!(chunks.iter().all(|c| c.ids.iter().all(|&i| i < 1001)));
+        assert_eq!(chunks.iter().flat_map(|c| c.cases()).collect::<Vec<_>>(), all);
+        // Missing cases of a resubmission: each job starts at its first case.
+        assert_eq!(
+            chunk_tasks(&[3, 4, 6, 7, 9, 20], 4),
+            [chunk(3, &[0, 1, 3]), chunk(7, &[0, 2]), chunk(20, &[0])]
+        );
+        assert_eq!(chunk_tasks(&[5, 6], 1), [chunk(5, &[0]), chunk(6, &[0])]);
+        assert!(chunk_tasks(&[], 4).is_empty());
+    }
+
+    #[test]
+    fn max_array_size_is_read_from_scontrol_output() {
+        let config = "Configuration data as of 2026-12-02T15:00:00\nMaxArraySize            = 4\nMaxJobCount = 10000\n";
+        assert_eq!(parse_max_array_size(config), Some(4));
+        assert_eq!(parse_max_array_size("MaxJobCount = 10000\n"), None);
+    }
+
+    #[test]
+    fn chunked_scripts_offset_their_task_ids_and_collect_after_all() {
+        let dir = tempfile::tempdir().unwrap();
+        // A stale script of an earlier writing is removed.
+        std::fs::create_dir_all(dir.path().join("slurm")).unwrap();
+        std::fs::write(dir.path().join("slurm/array-9.sbatch"), "old").unwrap();
+        let forecast = Forecast::for_grid(20_000, 4);
+        let write = |max_running| {
+            let params = SlurmParams { cpus_per_task: 1, max_running, partition: None, max_array_size: 4 };
+            let tasks = [0, 1, 2, 3, 4, 5, 7];
+            write_scripts(
+                dir.path(),
+                Path::new("/s/sweep.toml"),
+                Path::new("/bin/pf"),
+                &tasks,
+                &forecast,
+                &params,
+                "pf",
+            )
+            .unwrap()
+        };
+        let s = write(None);
+        let names: Vec<String> =
+            s.array_scripts.iter().map(|p| p.file_name().unwrap().to_string_lossy().into_owned()).collect();
+        assert_eq!(names, ["array-1.sbatch", "array-2.sbatch"]);
+        assert!(!dir.path().join("slurm/array-9.sbatch").exists());
+        let first = std::fs::read_to_string(&s.array_scripts[0]).unwrap();
+        assert!(first.contains("#SBATCH --array=0-3\n"), "{first}");
+        assert!(first.contains("--task \"$((0 + SLURM_ARRAY_TASK_ID))\""), "{first}");
+        let second = std::fs::read_to_string(&s.array_scripts[1]).unwrap();
+        assert!(second.contains("#SBATCH --array=0-1,3\n"), "{second}");
+        assert!(second.contains("--task \"$((4 + SLURM_ARRAY_TASK_ID))\""), "{second}");
+        assert!(
+            second.contains("Array job 2 of 2 (the cluster's MaxArraySize is 4): task id i runs case 4 + i.")
+        );
+        let submit = std::fs::read_to_string(&s.submit_script).unwrap();
+        assert!(submit.contains("a1=$(sbatch --parsable '"), "{submit}");
+        assert!(submit.contains("a2=$(sbatch --parsable '"), "unchained without --max-running: {submit}");
+        assert!(submit.contains("--dependency=afterany:\"$a1:$a2\""), "{submit}");
+        assert!(submit.contains("submitted array jobs $a1,$a2 and collect job"), "{submit}");
+        // With --max-running, each array job waits for the previous one: the limit holds for the sweep.
+        let submit = std::fs::read_to_string(&write(Some(2)).submit_script).unwrap();
+        assert!(submit.contains("a2=$(sbatch --parsable --dependency=afterany:\"$a1\" '"), "{submit}");
+        let second = std::fs::read_to_string(dir.path().join("slurm/array-2.sbatch")).unwrap();
+        assert!(second.contains("#SBATCH --array=0-1,3%2\n"), "{second}");
     }
 }
