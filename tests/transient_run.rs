@@ -47,6 +47,8 @@ figures = false
     )
 }
 
+const CONTRACT_COLUMNS: &str = "id,x,y,z,radius,secretion_rate,mean_surface_concentration,bound_rate,anisotropy_x,anisotropy_y,anisotropy_z,anisotropy_along_flow,front_back_contrast,direction_error,drag_x,drag_y,drag_z,local_speed";
+
 const TRANSIENT: &str = r#"mode = "transient"
 end_time = "10 min"
 time_step = "10 s"
@@ -95,6 +97,16 @@ fn transient_outputs_are_read_by_outside_readers() {
     for name in ["fields.h5", "fields.xmf", "cells.csv", "cells_timeseries.csv", "summary.json"] {
         assert!(out.join(name).exists(), "{name} missing");
     }
+    // The steady contract columns lead both tables, in order (DESIGN.md §6).
+    let header = |name: &str| {
+        std::fs::read_to_string(out.join(name)).expect(name).lines().next().unwrap_or_default().to_string()
+    };
+    assert!(header("cells.csv").starts_with(&format!("{CONTRACT_COLUMNS},")), "{}", header("cells.csv"));
+    assert!(header("cells_timeseries.csv").starts_with(&format!("time,{CONTRACT_COLUMNS},")));
+    for column in ["window_bound_count", "window_direction_error", "secretion_start"] {
+        assert!(header("cells_timeseries.csv").contains(column), "{column}");
+    }
+    assert!(header("cells.csv").contains("time_to_90_percent"));
     let s = summary(&out);
     let t = &s["transient"];
     assert_eq!(t["steps"].as_u64(), Some(60));

@@ -170,6 +170,7 @@ pub fn execute(case: &Case, out_dir: &Path, options: &TransientOptions) -> Resul
     let final_part = observer.last_output.take();
     drop(observer);
 
+    progress.writing();
     let write_started = Instant::now();
     let state = &solution.state;
     let Some(final_part) = final_part else {

@@ -62,6 +62,10 @@ impl TransientProgress {
         ));
     }
 
+    pub fn writing(&self) {
+        self.bar.set_message("writing outputs");
+    }
+
     pub fn println(&self, line: &str) {
         self.bar.suspend(|| eprintln!("{line}"));
     }
