@@ -14,11 +14,12 @@
 //! evaluated with the largest exponent factored out (a running maximum), so neither `e^{Ux/2D}` nor `e^{−γr}`
 //! can overflow or underflow to a 0/0.
 //!
-//! Cost: one exponential per (face, source) pair, parallel over faces. Measured about 10 ns per pair per core
-//! (`cargo test --release -p solver pair_cost -- --ignored --nocapture`), so 10⁴ cells × 10⁶ far-field faces
-//! is 10¹⁰ pairs ≈ 100 s on one core, 50 s on two, once per steady assembly (per step in switched-on transient
-//! runs until the fields settle): for such layouts `[boundaries] far_field_sources = "centroid"` costs one pair
-//! per face.
+//! Cost: one square root and one exponential per (face, source) pair, parallel over faces. Measured 12–14 ns of
+//! CPU per pair (`cargo test --release -p solver pair_cost -- --ignored --nocapture`, 1000 sources × 10⁴ faces,
+//! 2026-12-02, load average 12 on 2 cores), so 10⁴ cells × 10⁶ far-field faces is 10¹⁰ pairs ≈ 130 s of CPU
+//! (≈ 65 s on two idle cores) once per steady assembly — and per time step in switched-on transient runs until
+//! every source has settled (never without flow and decay). For such layouts
+//! `[boundaries] far_field_sources = "centroid"` costs one pair per face.
 
 use crate::problem::FarFieldSources;
 use mesh::{EmbeddedGeometry, Layout};
@@ -304,13 +305,25 @@ mod tests {
         let s = sources(&cells, FarFieldSources::Cells);
         let m = medium(2e-6, 1e-4);
         let faces = 10_000;
+        // CPU time of this thread (first field of schedstat, ns), so a loaded machine does not inflate it.
+        let cpu = || {
+            std::fs::read_to_string("/proc/thread-self/schedstat")
+                .ok()
+                .and_then(|s| s.split_whitespace().next().and_then(|v| v.parse::<f64>().ok()))
+                .unwrap_or(f64::NAN)
+        };
+        let cpu0 = cpu();
         let t = std::time::Instant::now();
         let mut sum = 0.0;
         for f in 0..faces {
             let x = [2e-4, (f % 100) as f64 * 2e-6, (f / 100) as f64 * 2e-6];
             sum += s.steady_log_gradient(&m, x, 0, 1.0);
         }
-        let ns = t.elapsed().as_secs_f64() * 1e9 / (faces * cells.len()) as f64;
-        eprintln!("{ns:.1} ns per (face, source) pair on one core (checksum {sum:.3e})");
+        let pairs = (faces * cells.len()) as f64;
+        let ns = t.elapsed().as_secs_f64() * 1e9 / pairs;
+        let cpu_ns = (cpu() - cpu0) / pairs;
+        eprintln!(
+            "{ns:.1} ns wall, {cpu_ns:.1} ns CPU per (face, source) pair on one thread (checksum {sum:.3e})"
+        );
     }
 }
