@@ -19,6 +19,7 @@ use super::sphere_index::{SegmentHit, SphereIndex};
 use super::staggered_grid::ComponentGrid;
 use crate::linalg::FaceCoupledOperator;
 use mesh::Grid;
+use rayon::prelude::*;
 
 /// The Brinkman coefficients (SI).
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -74,11 +75,15 @@ pub fn assemble_momentum(
     let mut half_volume = vec![false; n];
     let mut known_value: Vec<Option<f64>> = vec![None; n];
     let mut known = Vec::new();
-    // Which unknowns are rows, and the prescribed normal values on chamber faces.
+    // Which unknowns are rows, and the prescribed normal values on chamber faces (the sphere tests in parallel).
+    let solid_at: Vec<bool> = (0..n)
+        .into_par_iter()
+        .map(|p| spheres.owner_at(component.position(grid, component.ijk(p))).is_some())
+        .collect();
     for (p, act) in active.iter_mut().enumerate() {
         let ijk = component.ijk(p);
         let x = component.position(grid, ijk);
-        let solid = spheres.owner_at(x).is_some();
+        let solid = solid_at[p];
         match component.chamber_side(ijk) {
             Some(side) => match chamber.normal_value(axis, side, x) {
                 Some(value) => {
@@ -117,35 +122,58 @@ pub fn assemble_momentum(
         }
     };
 
+    let upper_of = |ijk: [usize; 3], a: usize| {
+        if ijk[a] + 1 < component.shape[a] {
+            let mut q = ijk;
+            q[a] += 1;
+            Some((q, ijk[a] + 1))
+        } else if periodic[a] {
+            let mut q = ijk;
+            q[a] = 0;
+            Some((q, 0))
+        } else {
+            None
+        }
+    };
+    let no_hit = SegmentHit { from_start: None, from_end: None };
     for a in 0..3 {
         let mut s = component.shape;
         s[a] += 1;
         let face_index = |ijk: [usize; 3]| ijk[0] + s[0] * (ijk[1] + s[1] * ijk[2]);
+        // The links along a that meet a sphere, in increasing p (searched in parallel, used in order below).
+        let hits: Vec<(usize, SegmentHit)> = (0..n)
+            .into_par_iter()
+            .filter_map(|p| {
+                let ijk = component.ijk(p);
+                let (q_ijk, _) = upper_of(ijk, a)?;
+                let q = component.index(q_ijk);
+                if !(active[p] || active[q]) || q == p {
+                    return None;
+                }
+                let x = component.position(grid, ijk);
+                let mut xq = x;
+                xq[a] += h;
+                let hit = spheres.segment_hit(x, xq);
+                (hit != no_hit).then_some((p, hit))
+            })
+            .collect();
+        let mut next_hit = hits.iter().peekable();
         for p in 0..n {
             let ijk = component.ijk(p);
             let x = component.position(grid, ijk);
             // Control-volume face area of links along a: halved across an outlet face's half volume.
             let area = if a != axis && half_volume[p] { 0.5 * h * h } else { h * h };
             // Link to the upper neighbour along a.
-            let upper = if ijk[a] + 1 < component.shape[a] {
-                let mut q = ijk;
-                q[a] += 1;
-                Some((q, ijk[a] + 1))
-            } else if periodic[a] {
-                let mut q = ijk;
-                q[a] = 0;
-                Some((q, 0))
-            } else {
-                None
-            };
-            if let Some((q_ijk, face_along)) = upper {
+            if let Some((q_ijk, face_along)) = upper_of(ijk, a) {
                 let q = component.index(q_ijk);
                 let mut xq = x;
                 xq[a] += h;
-                let hit = if (active[p] || active[q]) && q != p {
-                    spheres.segment_hit(x, xq)
-                } else {
-                    SegmentHit { from_start: None, from_end: None }
+                let hit = match next_hit.peek() {
+                    Some(&&(hp, hit)) if hp == p => {
+                        next_hit.next();
+                        hit
+                    }
+                    _ => no_hit,
                 };
                 let coupled = active[p] && active[q] && q != p && hit.from_start.is_none();
                 if coupled {

@@ -53,26 +53,45 @@ impl PressureCoupling {
         });
     }
 
-    /// `out = scale · Gᵀ u` on active cells (0 elsewhere); `u` holds the three components.
+    /// `out = scale · Gᵀ u` on active cells (0 elsewhere); `u` holds the three components. One pass over the
+    /// grid lines: the low and high unknowns of cell (i, j, k) along c are unknowns (i, j, k) and (i, j, k) + ê_c
+    /// of component c (wrapped along a periodic axis).
     pub fn divergence_transpose(&self, u: [&[f64]; 3], scale: f64, out: &mut [f64]) {
         let h2 = self.grid.face_area() * scale;
-        out.par_iter_mut().enumerate().with_min_len(4096).for_each(|(cell, o)| {
-            if !self.pressure_active[cell] {
-                *o = 0.0;
-                return;
-            }
-            let ijk = self.grid.ijk(cell);
-            let mut s = 0.0;
-            for ((comp, active), uc) in self.components.iter().zip(&self.velocity_active).zip(u) {
-                let (lo, hi) = comp.cell_faces(ijk);
-                if active[lo] {
-                    s += uc[lo];
+        let [nx, ny, _] = self.grid.shape;
+        out.par_chunks_mut(nx).enumerate().with_min_len(16).for_each(|(line, ol)| {
+            let (j, k) = (line % ny, line / ny);
+            let base = line * nx;
+            // First unknown of this line and of the next line up along y and z, per component.
+            let firsts: [(usize, usize); 3] = [0, 1, 2].map(|c| {
+                let comp = &self.components[c];
+                let (lo, hi) = comp.cell_faces([0, j, k]);
+                (lo, hi)
+            });
+            for (i, o) in ol.iter_mut().enumerate() {
+                if !self.pressure_active[base + i] {
+                    *o = 0.0;
+                    continue;
                 }
-                if active[hi] {
-                    s -= uc[hi];
+                let mut s = 0.0;
+                for c in 0..3 {
+                    let active = &self.velocity_active[c];
+                    let (lo0, hi0) = firsts[c];
+                    let (lo, hi) = if c == 0 {
+                        let hi = if i + 1 == self.components[0].shape[0] { lo0 } else { lo0 + i + 1 };
+                        (lo0 + i, hi)
+                    } else {
+                        (lo0 + i, hi0 + i)
+                    };
+                    if active[lo] {
+                        s += u[c][lo];
+                    }
+                    if active[hi] {
+                        s -= u[c][hi];
+                    }
                 }
+                *o = h2 * s;
             }
-            *o = h2 * s;
         });
     }
 
