@@ -1,16 +1,21 @@
 //! Performance figures of the transient transport solve (the `scripts/bench_transient` driver).
 //!
-//! `plumefield-bench-transient [--case cases/bench128.toml] [--size N] [--step S] [--max-steps N]
-//! [--threads T] [--demo cases/demo.toml | --skip-demo]`
+//! `plumefield-bench-transient [--case cases/bench128.toml] [--size N] [--step 3] [--max-steps 400]
+//! [--steady-reps 3] [--smoothing 2,2] [--threads 1] [--demo cases/demo.toml | --skip-demo | --demo-only]
+//! [--list-steps]`
 //!
-//! 1. On the benchmark chamber (optionally re-gridded to N³ over the same chamber and cells): one steady solve
-//!    (`solve_steady`: assembly, multigrid setup, solve), timed.
+//! 1. On the benchmark chamber (optionally re-gridded to N grid cells along its longest axis, same chamber and
+//!    cells): the steady solve as `run` does it (`solve_steady`: assembly, multigrid setup, solve), median of
+//!    `--steady-reps`, and its parts once.
 //! 2. The same case switched on at t = 0 from a zero field, fixed BDF2 steps of `--step` seconds until the field
-//!    is within `STEADY_DISTANCE` of the steady one (or `--max-steps`): the wall time of every step (linear solve
-//!    warm-started from the extrapolated history, mass balance, sensing), its Krylov iterations, and the ratio
-//!    of the mean step to the steady solve — measured in the same process, one after the other.
+//!    is within `STEADY_DISTANCE` of the steady one (or `--max-steps`): wall and CPU time of every step (linear
+//!    solve warm-started from the extrapolated history, mass balance, sensing), its Krylov iterations, and the
+//!    ratio of the mean step to the steady solve — measured in the same process, one after the other.
 //! 3. The demo case run as transient from zero to steady state with adaptive steps (`stop_at_steady`), its total
 //!    wall time (geometry, flow, steady reference, time loop) and step count.
+//!
+//! CPU time is summed over the process's threads from `/proc/self/task/*/schedstat`; on a machine shared with
+//! other work it varies less than the wall time.
 
 use anyhow::{bail, Context, Result};
 use clap::Parser;
@@ -54,6 +59,9 @@ struct Cli {
     /// solve keeps the default 2,2).
     #[arg(long, value_delimiter = ',', default_value = "2,2")]
     smoothing: Vec<usize>,
+    /// Steady solves timed (the median is the reference).
+    #[arg(long, default_value_t = 3)]
+    steady_reps: usize,
     /// Rayon threads.
     #[arg(long, default_value_t = 1)]
     threads: usize,
@@ -245,10 +253,21 @@ fn run(cli: &Cli) -> Result<()> {
         multigrid: multigrid.clone(),
         ..TransportSettings::default()
     };
-    // The steady path as `run` takes it (assembly, setup, solve), then its parts once more for the split.
-    let (t, cpu) = (Instant::now(), cpu_seconds());
-    let steady = solve_steady(&transport, &settings)?;
-    let steady_s = Timing { wall: t.elapsed().as_secs_f64(), cpu: cpu_seconds() - cpu };
+    // The steady path as `run` takes it (assembly, setup, solve), `--steady-reps` times (median), then its
+    // parts once more for the split.
+    let mut steady = None;
+    let mut repeats = Vec::new();
+    for _ in 0..cli.steady_reps.max(1) {
+        drop(steady.take());
+        let (t, cpu) = (Instant::now(), cpu_seconds());
+        steady = Some(solve_steady(&transport, &settings)?);
+        repeats.push(Timing { wall: t.elapsed().as_secs_f64(), cpu: cpu_seconds() - cpu });
+    }
+    let Some(steady) = steady else { bail!("no steady solve ran") };
+    let steady_s = Timing {
+        wall: median(&repeats.iter().map(|r| r.wall).collect::<Vec<_>>()),
+        cpu: median(&repeats.iter().map(|r| r.cpu).collect::<Vec<_>>()),
+    };
     let (t, cpu) = (Instant::now(), cpu_seconds());
     let assembly = assemble_transport(&transport);
     let assembly_s = Timing { wall: t.elapsed().as_secs_f64(), cpu: cpu_seconds() - cpu };
@@ -261,8 +280,12 @@ fn run(cli: &Cli) -> Result<()> {
     let solve_s = Timing { wall: t.elapsed().as_secs_f64(), cpu: cpu_seconds() - cpu };
     drop((solver, x));
     println!(
-        "steady solve (solve_steady: assembly + multigrid setup + solve): {} — {} iterations ({} outer), relative residual {:.1e}",
-        steady_s, steady.iterations, steady.outer_iterations, steady.relative_residual
+        "steady solve (solve_steady: assembly + multigrid setup + solve), median of {}: {} — {} iterations ({} outer), relative residual {:.1e}",
+        repeats.len(), steady_s, steady.iterations, steady.outer_iterations, steady.relative_residual
+    );
+    println!(
+        "  repetitions: {}",
+        repeats.iter().map(|r| format!("{:.3}/{:.3} s", r.wall, r.cpu)).collect::<Vec<_>>().join(", ")
     );
     println!(
         "  split (repeated): assembly {assembly_s}, setup {setup_s}, solve {solve_s} ({} iterations)",
@@ -396,6 +419,13 @@ fn run(cli: &Cli) -> Result<()> {
         demo(cli)?;
     }
     Ok(())
+}
+
+/// Middle value (upper middle for an even count); NaN for none.
+fn median(v: &[f64]) -> f64 {
+    let mut sorted = v.to_vec();
+    sorted.sort_by(f64::total_cmp);
+    sorted.get(sorted.len() / 2).copied().unwrap_or(f64::NAN)
 }
 
 fn max(v: &[f64]) -> f64 {
