@@ -124,7 +124,8 @@ fn run_command(command: Command) -> anyhow::Result<()> {
             }
             let out_dir = output.unwrap_or_else(|| default_output(&case));
             let case = Case::load(&case)?;
-            let options = commands::run::transient::TransientOptions { checkpoint_every, resume };
+            let options =
+                commands::run::transient::TransientOptions { checkpoint_every, resume, quiet: false };
             commands::run::execute_with(&case, &out_dir, threads, &options)
         }
         Command::Layout { case, output } => commands::layout::execute(&case, &output),

@@ -96,3 +96,37 @@ fn collect_of_a_folder_that_is_no_sweep_exits_2() {
     assert_eq!(out.status.code(), Some(2), "{}", show(&out));
     assert!(text(&out.stderr).contains("is not a sweep folder"), "{}", show(&out));
 }
+
+#[test]
+fn transient_cases_run_as_transient() {
+    let dir = tempfile::tempdir().unwrap();
+    let transient = "[solve]\nmode = \"transient\"\nend_time = \"20 min\"\ntime_step = \"2 min\"\noutput_every = \"10 min\"\n";
+    std::fs::write(dir.path().join("base.toml"), format!("{BASE}{transient}")).unwrap();
+    let path = dir.path().join("sweep.toml");
+    std::fs::write(
+        &path,
+        "base = \"base.toml\"\n[[axis]]\nkey = \"flow.mean_velocity\"\nvalues = [\"1 um/s\", \"2 um/s\"]\n",
+    )
+    .unwrap();
+    let out_dir = dir.path().join("out");
+    let out = pf(&["sweep", path.to_str().unwrap(), "-o", out_dir.to_str().unwrap(), "--jobs", "2"]);
+    assert_eq!(out.status.code(), Some(0), "{}", show(&out));
+    for id in ["case-0000", "case-0001"] {
+        let case_dir = out_dir.join("cases").join(id);
+        assert_case_intact(&case_dir);
+        let summary: serde_json::Value =
+            serde_json::from_slice(&std::fs::read(case_dir.join("summary.json")).unwrap()).unwrap();
+        assert!(summary["transient"]["steps"].as_u64().unwrap() >= 10, "{id}: {}", summary["transient"]);
+        let times = column(&case_dir.join("cells_timeseries.csv"), "time");
+        assert_eq!(times.len(), 6 * 2, "{id}: rows of cells_timeseries.csv (t = 10, 20 min)");
+    }
+    // The sweep's case equals a plain `run` of the same case file.
+    let single = dir.path().join("single");
+    let case_file = out_dir.join("cases/case-0001/case.toml");
+    let out = pf(&["run", case_file.to_str().unwrap(), "-o", single.to_str().unwrap()]);
+    assert_eq!(out.status.code(), Some(0), "{}", show(&out));
+    assert_eq!(
+        column(&single.join("cells.csv"), "bound_rate"),
+        column(&out_dir.join("cases/case-0001/cells.csv"), "bound_rate")
+    );
+}

@@ -16,8 +16,10 @@ use super::done_marker::{
 };
 use super::expand::Plan;
 use super::thread_time::current_pool;
+use crate::case::SolveMode;
+use crate::commands::run::transient::{self, TransientOptions};
 use crate::commands::run::{solution_warnings, steady_case, write_outputs};
-use crate::exit::{one_line, SolverFailure};
+use crate::exit::{one_line, InputError, SolverFailure};
 use crate::io::write_atomic;
 use solver::solve_case::solve_steady_case;
 
@@ -140,27 +142,40 @@ pub fn run_case(plan: &Plan, dir: &Path, index: usize, threads: usize) -> Result
     let case = plan
         .parse_case(index)
         .map_err(|e| failure(plan, index, "input", one_line(&anyhow::Error::new(e))))?;
-    let solved =
-        std::panic::catch_unwind(AssertUnwindSafe(|| solve_steady_case(&steady_case(&case), &mut |_| {})))
-            .map_err(|panic| {
-                let message = panic
-                    .downcast_ref::<&str>()
-                    .map(|s| s.to_string())
-                    .or_else(|| panic.downcast_ref::<String>().cloned())
-                    .unwrap_or_else(|| "unknown panic".into());
-                failure(plan, index, "panic", format!("the solver panicked: {message}"))
-            })?
+    let caught = |panic: Box<dyn std::any::Any + Send>| {
+        let message = panic
+            .downcast_ref::<&str>()
+            .map(|s| s.to_string())
+            .or_else(|| panic.downcast_ref::<String>().cloned())
+            .unwrap_or_else(|| "unknown panic".into());
+        failure(plan, index, "panic", format!("the solver panicked: {message}"))
+    };
+    if case.solve.mode == SolveMode::Transient {
+        // The `run` command's transient path, without its progress bar: several cases run at once.
+        let options = TransientOptions { quiet: true, ..TransientOptions::default() };
+        std::panic::catch_unwind(AssertUnwindSafe(|| transient::execute(&case, &case_dir, &options)))
+            .map_err(caught)?
             .map_err(|e| {
-                failure(
-                    plan,
-                    index,
-                    "solver",
-                    one_line(&anyhow::Error::new(SolverFailure { message: e.to_string() })),
-                )
+                let kind = if e.downcast_ref::<InputError>().is_some() { "input" } else { "solver" };
+                failure(plan, index, kind, one_line(&e))
             })?;
-    let warnings = solution_warnings(&solved);
-    write_outputs(&case, &solved, &warnings, &case_dir, started, Instant::now())
-        .map_err(|e| failure(plan, index, "io", one_line(&e)))?;
+    } else {
+        let solved = std::panic::catch_unwind(AssertUnwindSafe(|| {
+            solve_steady_case(&steady_case(&case), &mut |_| {})
+        }))
+        .map_err(caught)?
+        .map_err(|e| {
+            failure(
+                plan,
+                index,
+                "solver",
+                one_line(&anyhow::Error::new(SolverFailure { message: e.to_string() })),
+            )
+        })?;
+        let warnings = solution_warnings(&solved);
+        write_outputs(&case, &solved, &warnings, &case_dir, started, Instant::now())
+            .map_err(|e| failure(plan, index, "io", one_line(&e)))?;
+    }
     let outputs = record_outputs(&case_dir).map_err(|e| io_failure("cannot list the outputs in", &e))?;
     let spent = times_before.zip(current_pool()).map(|(before, after)| before.until(&after));
     let marker = DoneMarker {

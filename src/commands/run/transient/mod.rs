@@ -100,6 +100,8 @@ pub fn transient_case<'a>(case: &'a Case, t: &TransientSolve) -> TransientCase<'
 pub struct TransientOptions {
     pub checkpoint_every: Option<CheckpointEvery>,
     pub resume: bool,
+    /// No progress bar and no closing line (a case of a sweep, where several run at once).
+    pub quiet: bool,
 }
 
 fn solve_error(error: TransientError) -> anyhow::Error {
@@ -118,8 +120,10 @@ pub fn execute(case: &Case, out_dir: &Path, options: &TransientOptions) -> Resul
     let Some(t) = case.solve.transient.as_ref() else {
         return Err(InputError("solve.mode = \"transient\" without transient settings".into()).into());
     };
-    for warning in &case.warnings {
-        eprintln!("warning: {warning}");
+    if !options.quiet {
+        for warning in &case.warnings {
+            eprintln!("warning: {warning}");
+        }
     }
     let initial = match &t.initial {
         InitialCondition::Zero => None,
@@ -140,7 +144,7 @@ pub fn execute(case: &Case, out_dir: &Path, options: &TransientOptions) -> Resul
     let tcase = transient_case(case, t);
     let times = tcase.settings.output_times.clone();
     let eps = 1e-9 * t.end_time;
-    let progress = TransientProgress::new(0.0, t.end_time);
+    let progress = TransientProgress::new(0.0, t.end_time, options.quiet);
     if let Some(state) = &resume {
         progress.println(&format!(
             "resuming from {} at t = {} (step {}, {} output times written)",

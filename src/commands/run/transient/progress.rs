@@ -12,6 +12,7 @@ const TICKS: u64 = 1000;
 
 pub struct TransientProgress {
     bar: ProgressBar,
+    quiet: bool,
     start: f64,
     end: f64,
 }
@@ -28,14 +29,18 @@ pub fn human_time(seconds: f64) -> String {
 }
 
 impl TransientProgress {
-    pub fn new(start: f64, end: f64) -> Self {
+    /// `quiet`: no bar and no messages (the run's outputs and summary still say everything).
+    pub fn new(start: f64, end: f64, quiet: bool) -> Self {
+        if quiet {
+            return TransientProgress { bar: ProgressBar::hidden(), quiet, start, end };
+        }
         let bar = ProgressBar::new(TICKS);
         bar.set_style(
             ProgressStyle::with_template("{spinner} [{elapsed_precise}] {bar:30} {msg}")
                 .unwrap_or_else(|_| ProgressStyle::default_bar()),
         );
         bar.enable_steady_tick(std::time::Duration::from_millis(200));
-        TransientProgress { bar, start, end }
+        TransientProgress { bar, quiet, start, end }
     }
 
     pub fn stage(&self, stage: Stage) {
@@ -67,11 +72,16 @@ impl TransientProgress {
     }
 
     pub fn println(&self, line: &str) {
+        if self.quiet {
+            return;
+        }
         self.bar.suspend(|| eprintln!("{line}"));
     }
 
     pub fn finish(&self, message: &str) {
         self.bar.finish_and_clear();
-        eprintln!("{message}");
+        if !self.quiet {
+            eprintln!("{message}");
+        }
     }
 }
