@@ -176,6 +176,37 @@ fn steady_fields_as_initial_condition_stay_steady_and_stop_early() {
     assert!(d_ref <= 1e-6 && d_final <= 1e-4, "reference {d_ref:e}, final {d_final:e}");
 }
 
+/// Brinkman flow feeds the time loop as it feeds the steady solve: same drag, same steady reference.
+#[test]
+fn brinkman_flow_runs_transient_and_matches_the_steady_run() {
+    let dir = folder("brinkman");
+    let brinkman = |solve: &str| {
+        case_text(solve, "4 um")
+            .replace("model = \"darcy\"", "model = \"brinkman\"")
+            .replace("permeability = \"1e-13 m^2\"", "permeability = \"1e-10 m^2\"")
+    };
+    let (steady_out, output) = run(&dir, "steady.toml", &brinkman("mode = \"steady\""), &[]);
+    assert_eq!(output.status.code(), Some(0), "{}", String::from_utf8_lossy(&output.stderr));
+    let (out, output) = run(&dir, "transient.toml", &brinkman(TRANSIENT), &[]);
+    assert_eq!(output.status.code(), Some(0), "{}", String::from_utf8_lossy(&output.stderr));
+    let steady = read(&steady_out.join("fields.h5"), "ligand/concentration");
+    let reference = read(&out.join("fields.h5"), "ligand/steady_concentration");
+    let d_ref = relative_l2(&reference, &steady);
+    assert!(d_ref <= 1e-6, "steady Brinkman run vs the transient run's reference: {d_ref:e}");
+    let drag = |dir: &Path| -> Vec<f64> {
+        let text = std::fs::read_to_string(dir.join("cells.csv")).expect("cells.csv");
+        let mut lines = text.lines();
+        let header: Vec<&str> = lines.next().unwrap_or_default().split(',').collect();
+        let k = header.iter().position(|h| h.starts_with("drag_x")).expect("drag_x column");
+        lines.map(|l| l.split(',').nth(k).and_then(|v| v.parse().ok()).expect("drag_x value")).collect()
+    };
+    let (a, b) = (drag(&steady_out), drag(&out));
+    assert!(a.iter().any(|&d| d != 0.0), "Brinkman drag is not zero: {a:?}");
+    for (x, y) in a.iter().zip(&b) {
+        assert!((x - y).abs() <= 1e-9 * x.abs(), "drag_x steady {x:e} vs transient {y:e}");
+    }
+}
+
 #[test]
 fn transient_input_errors_exit_2_with_the_name() {
     let dir = folder("errors");

@@ -64,6 +64,52 @@ pub enum CaseSolveError {
     FlowModelNotImplemented(&'static str),
 }
 
+/// The flow of `case` driven at the superficial `mean_velocity` (m/s) by its medium model (Darcy, Brinkman or
+/// Stokes), with the Brinkman resolution warning when the screening length is under-resolved.
+pub fn solve_flow(
+    geometry: &EmbeddedGeometry,
+    stencils: &FacetStencils,
+    case: &SteadyCase,
+    mean_velocity: f64,
+) -> Result<(FlowField, Option<ResolutionWarning>), CaseSolveError> {
+    match case.flow.medium {
+        MediumModel::Darcy { viscosity, permeability } => {
+            let flow = solve_darcy(
+                geometry,
+                stencils,
+                case.layout.cells.len(),
+                &case.boundaries,
+                viscosity,
+                permeability,
+                mean_velocity,
+                &case.krylov,
+            )?;
+            Ok((flow, None))
+        }
+        MediumModel::Brinkman { .. } | MediumModel::Stokes { .. } => {
+            let medium = BrinkmanMedium::from_model(case.flow.medium)
+                .ok_or(CaseSolveError::FlowModelNotImplemented("darcy"))?;
+            let settings = BrinkmanSettings {
+                krylov: KrylovParams {
+                    max_iterations: case.krylov.max_iterations.max(400),
+                    ..case.krylov.clone()
+                },
+                ..BrinkmanSettings::default()
+            };
+            let solved = solve_brinkman(
+                geometry,
+                stencils,
+                case.layout,
+                &case.boundaries,
+                &medium,
+                mean_velocity,
+                &settings,
+            )?;
+            Ok((solved.field, solved.resolution))
+        }
+    }
+}
+
 /// Solves one steady case; `on_stage` is told when each stage starts (for progress display).
 pub fn solve_steady_case(
     case: &SteadyCase,
@@ -78,42 +124,7 @@ pub fn solve_steady_case(
 
     on_stage(Stage::Flow);
     let t1 = Instant::now();
-    let cells = case.layout.cells.len();
-    let mut flow_resolution = None;
-    let flow = match case.flow.medium {
-        MediumModel::Darcy { viscosity, permeability } => solve_darcy(
-            &geometry,
-            &stencils,
-            cells,
-            &case.boundaries,
-            viscosity,
-            permeability,
-            case.flow.mean_velocity,
-            &case.krylov,
-        )?,
-        MediumModel::Brinkman { .. } | MediumModel::Stokes { .. } => {
-            let medium = BrinkmanMedium::from_model(case.flow.medium)
-                .ok_or(CaseSolveError::FlowModelNotImplemented("darcy"))?;
-            let settings = BrinkmanSettings {
-                krylov: KrylovParams {
-                    max_iterations: case.krylov.max_iterations.max(400),
-                    ..case.krylov.clone()
-                },
-                ..BrinkmanSettings::default()
-            };
-            let solved = solve_brinkman(
-                &geometry,
-                &stencils,
-                case.layout,
-                &case.boundaries,
-                &medium,
-                case.flow.mean_velocity,
-                &settings,
-            )?;
-            flow_resolution = solved.resolution;
-            solved.field
-        }
-    };
+    let (flow, flow_resolution) = solve_flow(&geometry, &stencils, case, case.flow.mean_velocity)?;
     let front_back = pressure_front_back(&geometry, &stencils, case.layout, &flow.velocity, &flow.pressure);
     let t_flow = t1.elapsed().as_secs_f64();
 

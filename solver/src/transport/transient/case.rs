@@ -8,10 +8,9 @@ use super::{
     TransientState,
 };
 use crate::embedded::FacetStencils;
-use crate::flow::{solve_darcy, FlowField};
+use crate::flow::FlowField;
 use crate::post::{cell_sensing, SensingModel};
-use crate::problem::MediumModel;
-use crate::solve_case::{CaseSolveError, Stage, SteadyCase};
+use crate::solve_case::{solve_flow, CaseSolveError, Stage, SteadyCase};
 use crate::transport::{solve_steady, TransportProblem, TransportSettings};
 use mesh::EmbeddedGeometry;
 use std::time::Instant;
@@ -59,30 +58,11 @@ pub fn solve_transient_case(
 
     on_stage(Stage::Flow);
     let t1 = Instant::now();
-    let (viscosity, permeability) = match s.flow.medium {
-        MediumModel::Darcy { viscosity, permeability } => (viscosity, permeability),
-        MediumModel::Brinkman { .. } => {
-            return Err(CaseSolveError::FlowModelNotImplemented("brinkman").into())
-        }
-        MediumModel::Stokes { .. } => return Err(CaseSolveError::FlowModelNotImplemented("stokes").into()),
-    };
-    let cells = s.layout.cells.len();
     let mut speeds = vec![(case.settings.start_time.min(0.0), s.flow.mean_velocity)];
     speeds.extend(case.flow_changes.iter().copied());
     let mut flows = Vec::new();
     for &(_, speed) in &speeds {
-        let flow = solve_darcy(
-            &geometry,
-            &stencils,
-            cells,
-            &s.boundaries,
-            viscosity,
-            permeability,
-            speed,
-            &s.krylov,
-        )
-        .map_err(CaseSolveError::from)?;
-        flows.push(flow);
+        flows.push(solve_flow(&geometry, &stencils, s, speed)?.0);
     }
     let t_flow = t1.elapsed().as_secs_f64();
 

@@ -22,7 +22,6 @@ use serde_json::json;
 use solver::linalg::MultigridParams;
 use solver::post::CellSensing;
 use solver::problem::ChamberFace;
-use solver::solve_case::CaseSolveError;
 use solver::transport::transient::{
     solve_transient_case, TimeStepping, TransientCase, TransientError, TransientSettings, TransientSolution,
 };
@@ -106,10 +105,6 @@ pub struct TransientOptions {
 
 fn solve_error(error: TransientError) -> anyhow::Error {
     match error {
-        TransientError::Case(CaseSolveError::FlowModelNotImplemented(model)) => InputError(format!(
-            "transient runs support medium.model = \"darcy\" only so far; the {model} flow is not implemented for solve.mode = \"transient\""
-        ))
-        .into(),
         TransientError::Observer(message) => anyhow::anyhow!("{message}"),
         other => SolverFailure { message: other.to_string() }.into(),
     }
