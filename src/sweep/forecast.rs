@@ -1,4 +1,4 @@
-//! The one memory and run-time model of a steady case: `plumefield estimate` prints it, `sweep --plan` lists
+//! The one memory and run-time model of a case: `plumefield estimate` prints it, `sweep --plan` lists
 //! it per case, and the Slurm scripts size `--mem` and `--time` from it (with headroom, see `slurm.rs`).
 //!
 //! Memory and time grow linearly with the number of grid cells (multigrid-preconditioned solves, DESIGN.md
@@ -11,10 +11,12 @@
 //!   per million grid cells.
 //!
 //! The straight line through the origin plus a fixed start-up cost over-forecasts tiny grids that fit in the
-//! caches: the 48×24×16 sweep case (4 decomposed cells) takes about 0.09 s, forecast 0.19 s. Calibrated on
-//! Darcy cases; Brinkman/Stokes flow solves cost more. A forecast, not a bound.
+//! caches: the 48×24×16 sweep case (4 decomposed cells) takes about 0.09 s, forecast 0.19 s. The Brinkman/Stokes
+//! flow solve and the time steps of transient runs are added from their benchmarks (constants below; an adaptive
+//! run is assumed to take a fixed number of steps). A forecast, not a bound.
 
 use crate::case::Case;
+use solver::problem::MediumModel;
 
 /// Resident memory that does not scale with the grid (program, HDF5 library, small buffers), bytes.
 const BASE_BYTES: f64 = 14.0e6;
@@ -30,6 +32,17 @@ const SECONDS_PER_GRID_CELL: f64 = 5.4e-6;
 /// Time per grid cell of the self/neighbour split of one cell (one more transport solve, warm-started
 /// multigrid hierarchy), on one thread, seconds.
 const DECOMPOSE_SECONDS_PER_GRID_CELL: f64 = 0.85e-6;
+/// Brinkman/Stokes flow solve per grid cell on one thread, seconds: `scripts/bench_brinkman` at 128³ (200
+/// cells, idle machine, 2026-12-02) took 13.0 s wall on 2 threads, i.e. about 22 s on one.
+const VISCOUS_FLOW_SECONDS_PER_GRID_CELL: f64 = 10.5e-6;
+/// One BDF2 time step per grid cell on one thread, seconds: `scripts/bench_transient` at 128³ (idle machine,
+/// 2026-12-02): mean step 0.556 s CPU for 2.1e6 grid cells.
+const STEP_SECONDS_PER_GRID_CELL: f64 = 0.27e-6;
+/// Steps assumed for an adaptive run: the demo chamber from zero to steady state took 39 (4 rejected) in
+/// `scripts/bench_transient`; a run without `stop_at_steady` or with events takes more, hence the headroom.
+const ADAPTIVE_STEPS: f64 = 100.0;
+/// History fields, step right-hand side and sensing window of a transient run, bytes per grid cell.
+const TRANSIENT_BYTES_PER_GRID_CELL: f64 = 48.0;
 /// Parallel efficiency assumed for the threads of one case (common practice for memory-bound stencils).
 const THREAD_EFFICIENCY: f64 = 0.7;
 
@@ -49,10 +62,31 @@ pub struct Forecast {
 }
 
 impl Forecast {
-    /// Forecast for a validated case.
+    /// Forecast for a validated case: the steady Darcy model of [`Forecast::for_grid`], plus the Brinkman/Stokes
+    /// flow solve (once per flow phase) and the time steps of a transient run.
     pub fn of(case: &Case) -> Forecast {
         let decomposed = case.sensing.decompose.choose(case.layout.cells.len()).len();
-        Forecast::for_grid(case.grid.len(), decomposed)
+        let mut forecast = Forecast::for_grid(case.grid.len(), decomposed);
+        let n = case.grid.len() as f64;
+        let transient = case.solve.transient.as_ref();
+        let phases = 1 + transient.map_or(0, |t| usize::from(t.flow_change.is_some()));
+        if !matches!(case.flow.medium, MediumModel::Darcy { .. }) {
+            forecast.seconds_one_thread += VISCOUS_FLOW_SECONDS_PER_GRID_CELL * n * phases as f64;
+        }
+        if let Some(t) = transient {
+            // A transient run has no self/neighbour split; it keeps a few history fields.
+            forecast.seconds_one_thread -= forecast.decompose_seconds_one_thread;
+            forecast.decompose_seconds_one_thread = 0.0;
+            forecast.decomposed_cells = 0;
+            let steps = if t.adaptive.is_some() {
+                ADAPTIVE_STEPS
+            } else {
+                (t.end_time / t.time_step).ceil().max(1.0)
+            };
+            forecast.seconds_one_thread += STEP_SECONDS_PER_GRID_CELL * n * steps;
+            forecast.memory_bytes += TRANSIENT_BYTES_PER_GRID_CELL * n;
+        }
+        forecast
     }
 
     /// Forecast for a grid of `grid_cells` with `decomposed_cells` self/neighbour splits.
@@ -115,6 +149,31 @@ pub fn format_seconds(seconds: f64) -> String {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn viscous_flow_and_time_steps_add_to_the_forecast() {
+        let base = include_str!("../../cases/demo.toml");
+        let parse =
+            |text: &str| Case::parse(text, std::path::Path::new("cases/demo.toml")).expect("case parses");
+        let steady = Forecast::of(&parse(base));
+        let brinkman = Forecast::of(&parse(&base.replace("model = \"darcy\"", "model = \"brinkman\"")));
+        let added = brinkman.seconds_one_thread - steady.seconds_one_thread;
+        assert!((added - VISCOUS_FLOW_SECONDS_PER_GRID_CELL * 1e6).abs() < 1e-9, "{added}");
+        let transient = base.replace(
+            "mode = \"steady\"",
+            "mode = \"transient\"\nend_time = \"10 min\"\ntime_step = \"5 s\"\noutput_every = \"5 min\"",
+        );
+        let stepped = Forecast::of(&parse(&transient));
+        // 120 steps of the demo's 1e6 grid cells, without the split of the steady run.
+        let expected = steady.seconds_one_thread - steady.decompose_seconds_one_thread
+            + 120.0 * STEP_SECONDS_PER_GRID_CELL * 1e6;
+        assert!(
+            (stepped.seconds_one_thread - expected).abs() < 1e-9,
+            "{} vs {expected}",
+            stepped.seconds_one_thread
+        );
+        assert!(stepped.memory_bytes > steady.memory_bytes);
+    }
 
     #[test]
     fn forecast_reproduces_the_calibration_runs() {
