@@ -24,10 +24,9 @@ use plumefield::case::transient::{DEFAULT_ERROR_TOLERANCE, STEADY_DISTANCE};
 use plumefield::case::Case;
 use plumefield::commands::run::steady_case;
 use solver::embedded::FacetStencils;
-use solver::flow::solve_darcy;
+use solver::solve_case::solve_flow;
 use solver::linalg::{KrylovParams, MultigridParams, SteadySolver};
 use solver::post::{cell_sensing, SensingModel};
-use solver::problem::MediumModel;
 use solver::transport::transient::integrate::{outlet_concentration, sensed_rates};
 use solver::transport::transient::{
     initial_state, integrate, solve_transient_case, FlowPhase, SteadyReference, StepReport, TimeStepping,
@@ -223,19 +222,7 @@ fn run(cli: &Cli) -> Result<()> {
     let stencils = FacetStencils::build(&geometry);
     let krylov =
         KrylovParams { relative_tolerance: case.solve.tolerance, max_iterations: case.solve.max_iterations };
-    let MediumModel::Darcy { viscosity, permeability } = case.flow.medium else {
-        bail!("the transient benchmark needs a Darcy medium");
-    };
-    let flow = solve_darcy(
-        &geometry,
-        &stencils,
-        case.layout.cells.len(),
-        &case.boundaries,
-        viscosity,
-        permeability,
-        case.flow.mean_velocity,
-        &krylov,
-    )?;
+    let (flow, _) = solve_flow(&geometry, &stencils, &steady_case(&case), case.flow.mean_velocity)?;
     println!("geometry and flow built in {:.2} s", t.elapsed().as_secs_f64());
 
     // 1. One steady solve.

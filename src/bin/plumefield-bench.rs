@@ -13,11 +13,11 @@ use anyhow::{bail, Context, Result};
 use clap::{Parser, Subcommand};
 use mesh::EmbeddedGeometry;
 use plumefield::case::Case;
+use plumefield::commands::run::steady_case;
 use serde::{Deserialize, Serialize};
 use solver::embedded::FacetStencils;
-use solver::flow::solve_darcy;
+use solver::solve_case::solve_flow;
 use solver::linalg::{system_memory_bytes, KrylovParams, LinearSystem, MultigridParams, SteadySolver};
-use solver::problem::MediumModel;
 use solver::transport::{assemble_transport, TransportAssembly, TransportProblem};
 use std::io::{BufWriter, Write};
 use std::path::{Path, PathBuf};
@@ -174,19 +174,7 @@ fn solve(
     let stencils = FacetStencils::build(&geometry);
     let krylov =
         KrylovParams { relative_tolerance: case.solve.tolerance, max_iterations: case.solve.max_iterations };
-    let MediumModel::Darcy { viscosity, permeability } = case.flow.medium else {
-        bail!("the benchmark needs a Darcy medium");
-    };
-    let flow = solve_darcy(
-        &geometry,
-        &stencils,
-        case.layout.cells.len(),
-        &case.boundaries,
-        viscosity,
-        permeability,
-        case.flow.mean_velocity,
-        &krylov,
-    )?;
+    let (flow, _) = solve_flow(&geometry, &stencils, &steady_case(&case), case.flow.mean_velocity)?;
     println!("geometry and flow built in {:.2} s", t.elapsed().as_secs_f64());
 
     // The transport stage, measured for memory: assembly, multigrid setup and one solve.
