@@ -73,6 +73,7 @@ fn run_draws_figures_and_plot_redraws_them() {
         .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
         .collect();
     assert_eq!(names.len(), 4, "{names:?}");
+    assert!(!out.join("figures/approach_to_steady.png").exists(), "a steady run has no approach figure");
 
     std::fs::remove_dir_all(out.join("figures")).unwrap();
     let plot = plumefield(&["plot", out.to_str().unwrap()]);

@@ -131,6 +131,15 @@ fn transient_outputs_are_read_by_outside_readers() {
     assert_eq!(last, read(&h5, "ligand/concentration"));
     let distance = relative_l2(&last, &read(&h5, "ligand/steady_concentration"));
     assert!(distance < 0.05, "distance to steady after 10 min: {distance:e}");
+    // `plot` on a transient folder adds the approach-to-steady figure (the case itself draws none).
+    assert!(header("cells.csv").contains("steady_bound_rate"));
+    let plot = Command::new(env!("CARGO_BIN_EXE_plumefield")).arg("plot").arg(&out).output().expect("plot");
+    assert!(plot.status.success(), "{}", String::from_utf8_lossy(&plot.stderr));
+    let png = std::fs::read(out.join("figures/approach_to_steady.png")).expect("approach_to_steady.png");
+    assert_eq!(&png[..8], b"\x89PNG\r\n\x1a\n");
+    let be = |o: usize| u32::from_be_bytes([png[o], png[o + 1], png[o + 2], png[o + 3]]);
+    let (w, h, bytes) = (be(16), be(20), png.len());
+    assert!(w >= 600 && h >= 300 && bytes > 20_000, "{w}x{h}, {bytes} bytes");
 
     let python = Command::new("python3").args(["-c", "import h5py, numpy"]).output();
     if !python.map(|o| o.status.success()).unwrap_or(false) {

@@ -5,6 +5,7 @@
 
 pub mod anisotropy_map;
 pub mod anisotropy_profile;
+pub mod approach_to_steady;
 pub mod concentration_slice;
 pub mod direction_error_histogram;
 pub mod run_data;

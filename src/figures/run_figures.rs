@@ -1,11 +1,14 @@
-//! The four figures of a run (DESIGN.md §6), drawn from its output folder into `<dir>/figures/`.
+//! The four figures of a run (DESIGN.md §6), drawn from its output folder into `<dir>/figures/`, and for a
+//! transient run the approach to steady state.
 
 use std::path::{Path, PathBuf};
 
 use anyhow::Context;
 
 use super::run_data::RunFigureData;
-use super::{anisotropy_map, anisotropy_profile, concentration_slice, direction_error_histogram};
+use super::{
+    anisotropy_map, anisotropy_profile, approach_to_steady, concentration_slice, direction_error_histogram,
+};
 
 /// Draws every run figure of output folder `dir`; returns the files written. The slice is skipped when the run
 /// did not write the concentration field.
@@ -28,6 +31,11 @@ pub fn draw_run_figures(dir: &Path) -> anyhow::Result<Vec<PathBuf>> {
     for (name, draw) in figures {
         let path = folder.join(name);
         draw(&data, &path)?;
+        written.push(path);
+    }
+    if approach_to_steady::is_transient(dir) {
+        let path = folder.join("approach_to_steady.png");
+        approach_to_steady::draw(dir, &path)?;
         written.push(path);
     }
     Ok(written)

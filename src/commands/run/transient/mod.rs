@@ -330,6 +330,16 @@ fn final_table(
         "first time the cell's sensed rate reached 99% of its steady value (NaN: not reached)",
         crossing(1),
     ));
+    // With first-order uptake the sensed rate is the bound rate, so the steady reference is the steady bound rate
+    // (the approach-to-steady figure divides `bound_rate` of cells_timeseries.csv by it).
+    if matches!(case.ligand.uptake, solver::problem::SurfaceUptake::FirstOrder { .. }) {
+        columns.push(Column::real(
+            "steady_bound_rate",
+            "molecules/s",
+            "bound rate of the cell in the steady field of the final configuration (the value it approaches)",
+            solution.steady.sensed_rate.clone(),
+        ));
+    }
     CellTable { columns }
 }
 
