@@ -24,9 +24,9 @@ use plumefield::case::transient::{DEFAULT_ERROR_TOLERANCE, STEADY_DISTANCE};
 use plumefield::case::Case;
 use plumefield::commands::run::steady_case;
 use solver::embedded::FacetStencils;
-use solver::solve_case::solve_flow;
 use solver::linalg::{KrylovParams, MultigridParams, SteadySolver};
 use solver::post::{cell_sensing, SensingModel};
+use solver::solve_case::solve_flow;
 use solver::transport::transient::integrate::{outlet_concentration, sensed_rates};
 use solver::transport::transient::{
     initial_state, integrate, solve_transient_case, FlowPhase, SteadyReference, StepReport, TimeStepping,
