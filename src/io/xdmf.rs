@@ -28,6 +28,33 @@ pub fn write_fields_xmf(
     write_atomic(path, text.as_bytes()).with_context(|| format!("cannot write {}", path.display()))
 }
 
+/// The grid-cell mesh of `grid` (corner-point topology, origin and spacing in z y x order), each line
+/// indented by `indent`; shared by the steady and the temporal sidecar.
+pub(super) fn write_mesh(x: &mut String, grid: &mesh::Grid, indent: &str) {
+    let [nx, ny, nz] = grid.shape;
+    let h = format_real(grid.spacing);
+    let [x0, y0, z0] = grid.origin.map(format_real);
+    let (i, j) = (indent, format!("{indent}  "));
+    // `write!` into a String cannot fail; the results are ignored on purpose.
+    let _ = writeln!(
+        x,
+        r#"{i}<Topology TopologyType="3DCoRectMesh" Dimensions="{} {} {}"/>"#,
+        nz + 1,
+        ny + 1,
+        nx + 1
+    );
+    let _ = writeln!(x, r#"{i}<Geometry GeometryType="ORIGIN_DXDYDZ">"#);
+    let _ = writeln!(
+        x,
+        r#"{j}<DataItem Name="Origin" Dimensions="3" NumberType="Float" Precision="8" Format="XML">{z0} {y0} {x0}</DataItem>"#
+    );
+    let _ = writeln!(
+        x,
+        r#"{j}<DataItem Name="Spacing" Dimensions="3" NumberType="Float" Precision="8" Format="XML">{h} {h} {h}</DataItem>"#
+    );
+    let _ = writeln!(x, r#"{i}</Geometry>"#);
+}
+
 /// The XML text of the sidecar.
 pub fn fields_xmf_text(
     h5_file_name: &str,
@@ -36,8 +63,6 @@ pub fn fields_xmf_text(
 ) -> anyhow::Result<String> {
     validate_fields(grid, fields)?;
     let [nx, ny, nz] = grid.shape;
-    let h = format_real(grid.spacing);
-    let [x0, y0, z0] = grid.origin.map(format_real);
     let cells = format!("{nz} {ny} {nx}");
     let file = escape_xml(h5_file_name);
 
@@ -48,23 +73,7 @@ pub fn fields_xmf_text(
     let _ = writeln!(x, r#"<Xdmf xmlns:xi="http://www.w3.org/2001/XInclude" Version="2.0">"#);
     let _ = writeln!(x, r#"  <Domain>"#);
     let _ = writeln!(x, r#"    <Grid Name="plumefield" GridType="Uniform">"#);
-    let _ = writeln!(
-        x,
-        r#"      <Topology TopologyType="3DCoRectMesh" Dimensions="{} {} {}"/>"#,
-        nz + 1,
-        ny + 1,
-        nx + 1
-    );
-    let _ = writeln!(x, r#"      <Geometry GeometryType="ORIGIN_DXDYDZ">"#);
-    let _ = writeln!(
-        x,
-        r#"        <DataItem Name="Origin" Dimensions="3" NumberType="Float" Precision="8" Format="XML">{z0} {y0} {x0}</DataItem>"#
-    );
-    let _ = writeln!(
-        x,
-        r#"        <DataItem Name="Spacing" Dimensions="3" NumberType="Float" Precision="8" Format="XML">{h} {h} {h}</DataItem>"#
-    );
-    let _ = writeln!(x, r#"      </Geometry>"#);
+    write_mesh(&mut x, grid, "      ");
 
     let mut scalars: Vec<(String, String)> = vec![("volume_fraction".into(), "/grid/volume_fraction".into())];
     for field in fields {

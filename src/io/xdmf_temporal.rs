@@ -13,7 +13,7 @@ use anyhow::Context;
 
 use super::atomic::write_atomic;
 use super::number_text::format_real;
-use super::xdmf::{escape_xml, hdf_item};
+use super::xdmf::{escape_xml, hdf_item, write_mesh};
 
 /// One time step of the collection.
 #[derive(Clone, Debug, PartialEq)]
@@ -40,8 +40,6 @@ pub fn write_temporal_xmf(
 /// The XML text of the temporal sidecar.
 pub fn temporal_xmf_text(h5_file_name: &str, grid: &mesh::Grid, steps: &[TemporalGrid]) -> String {
     let [nx, ny, nz] = grid.shape;
-    let h = format_real(grid.spacing);
-    let [x0, y0, z0] = grid.origin.map(format_real);
     let cells = format!("{nz} {ny} {nx}");
     let file = escape_xml(h5_file_name);
     let mut x = String::new();
@@ -57,23 +55,7 @@ pub fn temporal_xmf_text(h5_file_name: &str, grid: &mesh::Grid, steps: &[Tempora
     for (n, step) in steps.iter().enumerate() {
         let _ = writeln!(x, r#"      <Grid Name="t{n:06}" GridType="Uniform">"#);
         let _ = writeln!(x, r#"        <Time Value="{}"/>"#, format_real(step.time));
-        let _ = writeln!(
-            x,
-            r#"        <Topology TopologyType="3DCoRectMesh" Dimensions="{} {} {}"/>"#,
-            nz + 1,
-            ny + 1,
-            nx + 1
-        );
-        let _ = writeln!(x, r#"        <Geometry GeometryType="ORIGIN_DXDYDZ">"#);
-        let _ = writeln!(
-            x,
-            r#"          <DataItem Name="Origin" Dimensions="3" NumberType="Float" Precision="8" Format="XML">{z0} {y0} {x0}</DataItem>"#
-        );
-        let _ = writeln!(
-            x,
-            r#"          <DataItem Name="Spacing" Dimensions="3" NumberType="Float" Precision="8" Format="XML">{h} {h} {h}</DataItem>"#
-        );
-        let _ = writeln!(x, r#"        </Geometry>"#);
+        write_mesh(&mut x, grid, "        ");
         for (label, dataset) in &step.scalars {
             let _ = writeln!(
                 x,
