@@ -42,29 +42,11 @@ fn reset_peak_rss() {
 #[ignore = "timing study of the 128³ benchmark chamber, prints; size from PLUMEFIELD_BENCH_SIZE"]
 fn bench_case() {
     let size: usize = std::env::var("PLUMEFIELD_BENCH_SIZE").ok().and_then(|s| s.parse().ok()).unwrap_or(64);
-    let h = 2e-6;
-    let extent = size as f64 * h;
-    let count = (200 * size * size * size / (128 * 128 * 128)).max(1);
-    let chamber = ChamberBox { lower: [0.0; 3], upper: [extent; 3], periodic: [false; 3] };
-    let spec = RandomLayout {
-        target: RandomTarget::Count(count),
-        radius: 8e-6,
-        secretion_rate: 2000.0 / 3600.0,
-        min_gap: 2e-6,
-        seed: 11,
-    };
-    let layout = random_sequential_addition(&spec, &chamber).expect("layout");
-    let grid = Grid::new([0.0; 3], h, [size; 3]);
-    let boundaries = ChamberBoundaries::new([
-        [ChamberFace::Inlet, ChamberFace::Outlet],
-        [ChamberFace::Wall, ChamberFace::Wall],
-        [ChamberFace::Symmetry, ChamberFace::Symmetry],
-    ]);
+    let (grid, layout, boundaries, medium) = bench_setup(size);
     let base = peak_rss();
     let geometry = EmbeddedGeometry::build(&grid, &layout, [false; 3]);
     let stencils = FacetStencils::build(&geometry);
     let after_geometry = peak_rss();
-    let medium = BrinkmanMedium { viscosity: 1e-3, effective_viscosity: 1e-3, permeability: Some(1.6e-11) };
     let settings = BrinkmanSettings::default();
     reset_peak_rss();
     let t = Instant::now();
@@ -157,8 +139,8 @@ fn iteration_study() {
     }
 }
 
-/// The bench chamber of `size³` grid cells: geometry, layout, boundaries, medium.
-fn bench_chamber(size: usize) -> (EmbeddedGeometry, mesh::Layout, ChamberBoundaries, BrinkmanMedium) {
+/// The bench chamber of `size³` grid cells (h = 2 µm, ~200 cells at 128³): grid, layout, boundaries, medium.
+fn bench_setup(size: usize) -> (Grid, mesh::Layout, ChamberBoundaries, BrinkmanMedium) {
     let h = 2e-6;
     let extent = size as f64 * h;
     let count = (200 * size * size * size / (128 * 128 * 128)).max(1);
@@ -177,8 +159,14 @@ fn bench_chamber(size: usize) -> (EmbeddedGeometry, mesh::Layout, ChamberBoundar
         [ChamberFace::Wall, ChamberFace::Wall],
         [ChamberFace::Symmetry, ChamberFace::Symmetry],
     ]);
-    let geometry = EmbeddedGeometry::build(&grid, &layout, [false; 3]);
     let medium = BrinkmanMedium { viscosity: 1e-3, effective_viscosity: 1e-3, permeability: Some(1.6e-11) };
+    (grid, layout, boundaries, medium)
+}
+
+/// [`bench_setup`] with its embedded geometry built.
+fn bench_chamber(size: usize) -> (EmbeddedGeometry, mesh::Layout, ChamberBoundaries, BrinkmanMedium) {
+    let (grid, layout, boundaries, medium) = bench_setup(size);
+    let geometry = EmbeddedGeometry::build(&grid, &layout, [false; 3]);
     (geometry, layout, boundaries, medium)
 }
 
