@@ -24,7 +24,7 @@ pub mod transfer;
 mod vector;
 
 pub use apply_operator::apply_face_coupled;
-pub use bicgstab::{bicgstab, KrylovParams, SolveError, SolveInfo};
+pub use bicgstab::{bicgstab, bicgstab_with_work, BicgstabWork, KrylovParams, SolveError, SolveInfo};
 pub use multigrid::{Cycle, MultigridParams};
 pub use operator::{AdvectionScheme, FaceCoupledOperator};
 pub use steady_solver::{system_memory_bytes, LinearSystem, SteadySolver};

@@ -57,6 +57,29 @@ pub fn cell_sensing(
     velocity: &[Vec<f64>; 3],
     model: &SensingModel,
 ) -> Vec<CellSensing> {
+    let local_flow = local_flow_per_cell(geometry, layout, velocity);
+    cell_sensing_in_local_flow(geometry, layout, exchanges, c, &local_flow, model)
+}
+
+/// The shell-averaged flow around every cell (m/s), for [`cell_sensing_in_local_flow`]: a time loop whose flow
+/// stays fixed computes it once.
+pub fn local_flow_per_cell(
+    geometry: &EmbeddedGeometry,
+    layout: &Layout,
+    velocity: &[Vec<f64>; 3],
+) -> Vec<[f64; 3]> {
+    layout.cells.iter().map(|cell| shell_mean_velocity(geometry, velocity, cell)).collect()
+}
+
+/// [`cell_sensing`] with the local flow of each cell given (from [`local_flow_per_cell`]).
+pub fn cell_sensing_in_local_flow(
+    geometry: &EmbeddedGeometry,
+    layout: &Layout,
+    exchanges: &[FacetExchange],
+    c: &[f64],
+    local_flow: &[[f64; 3]],
+    model: &SensingModel,
+) -> Vec<CellSensing> {
     let cells = layout.cells.len();
     // Facets are sorted by owner, but do not rely on it: gather per owner.
     let mut by_owner: Vec<Vec<usize>> = vec![Vec::new(); cells];
@@ -68,7 +91,7 @@ pub fn cell_sensing(
         .iter()
         .enumerate()
         .map(|(i, cell)| {
-            let u = shell_mean_velocity(geometry, velocity, cell);
+            let u = local_flow[i];
             let speed = (u[0] * u[0] + u[1] * u[1] + u[2] * u[2]).sqrt();
             // Without flow there is no local direction: use the chamber's flow axis +x.
             let e = if speed > 0.0 { u.map(|v| v / speed) } else { [1.0, 0.0, 0.0] };

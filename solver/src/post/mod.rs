@@ -7,5 +7,7 @@ pub mod integrate_surface;
 pub mod local_flow;
 pub mod mass_balance;
 
-pub use integrate_surface::{cell_sensing, CellSensing, SensingModel};
+pub use integrate_surface::{
+    cell_sensing, cell_sensing_in_local_flow, local_flow_per_cell, CellSensing, SensingModel,
+};
 pub use mass_balance::{mass_balance, MassBalance};

@@ -4,6 +4,7 @@
 use super::balance::{step_balance, BalanceForms, StepBalance};
 use super::bdf::{coefficients, milne_factor, quadratic_extrapolation_weights, MAX_STEP_GROWTH};
 use super::far_field_switch_on::SwitchedOnFarField;
+use super::guess_projection::{projected_guess, HistorySpace, GUESS_HISTORY};
 use super::sensing_window::{cell_rates, WindowCounts};
 use super::sources::{add_facet_sources, cells_on, switched_exchanges};
 use super::state::{Crossings, TransientState};
@@ -12,7 +13,7 @@ use super::{
     FlowPhase, StepReport, TimeStepping, TransientError, TransientObserver, TransientOutput,
     TransientProblem, TransientSettings,
 };
-use crate::post::{cell_sensing, CellSensing};
+use crate::post::{cell_sensing_in_local_flow, local_flow_per_cell, CellSensing};
 use crate::problem::{ChamberFace, SurfaceUptake};
 use crate::transport::advection::deferred_correction;
 use crate::transport::chamber_faces::BoundaryExchange;
@@ -32,6 +33,8 @@ struct PhaseSystem<'a> {
     /// Right-hand side of the chamber faces (inlet inflow).
     boundary_rhs: Vec<f64>,
     upwinded: bool,
+    /// Shell-averaged flow around each cell (the phase's flow is fixed).
+    local_flow: Vec<[f64; 3]>,
 }
 
 impl<'a> PhaseSystem<'a> {
@@ -82,6 +85,7 @@ impl<'a> PhaseSystem<'a> {
             far_field,
             boundary_rhs,
             upwinded: assembly.peclet.upwinded_faces > 0,
+            local_flow: local_flow_per_cell(problem.geometry, problem.layout, phase.velocity),
         }
     }
 }
@@ -206,6 +210,11 @@ pub fn integrate(
         );
     }
     let eps = 1e-9 * (settings.end_time - settings.start_time).abs().max(f64::MIN_POSITIVE);
+    // Grid-sized vectors reused from step to step: a fresh 16 MB vector (128³) costs thousands of page faults.
+    let mut rhs = vec![0.0; n];
+    let mut step_rhs = vec![0.0; n];
+    let mut spare: Vec<Vec<f64>> = Vec::new();
+    let mut base_products = BaseProducts::default();
 
     while state.time < settings.end_time - eps && !state.stopped_at_steady {
         let t = state.time;
@@ -231,6 +240,7 @@ pub fn integrate(
             if new_phase != phase_index {
                 phase_index = new_phase;
                 system = PhaseSystem::build(problem, problem.phases[phase_index], settings);
+                base_products.clear(&mut spare);
                 facets_now = switched_exchanges(geometry, &system.facets, &on);
             }
             let on_new = cells_on(&problem.secretion_start, t_new);
@@ -251,10 +261,9 @@ pub fn integrate(
             system.solver.set_step(sigma, far_field.iter().copied());
 
             // Right-hand side: chamber faces + sources + history.
-            let mut forcing = system.boundary_rhs.clone();
-            add_facet_sources(geometry, &facets_now, &mut forcing);
-            let forcing_norm = forcing.iter().map(|v| v * v).sum::<f64>().sqrt();
-            let mut rhs = forcing;
+            rhs.copy_from_slice(&system.boundary_rhs);
+            add_facet_sources(geometry, &facets_now, &mut rhs);
+            let forcing_norm = rhs.iter().map(|v| v * v).sum::<f64>().sqrt();
             let volume = system.solver.fluid_volume();
             for (p, r) in rhs.iter_mut().enumerate() {
                 let mut past = -alpha[1] * state.concentration[p];
@@ -263,29 +272,43 @@ pub fn integrate(
                 }
                 *r += volume[p] * past / h;
             }
-            let rhs_norm = rhs.iter().map(|v| v * v).sum::<f64>().sqrt();
-            let target =
-                settings.krylov.relative_tolerance * if forcing_norm > 0.0 { forcing_norm } else { rhs_norm };
+            let scale =
+                if forcing_norm > 0.0 { forcing_norm } else { rhs.iter().map(|v| v * v).sum::<f64>().sqrt() };
+            let target = settings.krylov.relative_tolerance * scale;
 
-            // Initial guess: extrapolation of the history.
-            let mut c_new = extrapolate(&state, t_new, history_c1.is_some());
+            // Initial guess: the best combination of the history (see `guess_projection`).
+            let mut c_new = spare.pop().unwrap_or_else(|| vec![0.0; n]);
+            base_products.update(&mut system.solver, &state, &mut spare);
+            initial_guess(
+                &system.solver,
+                &state,
+                &base_products,
+                t_new,
+                history_c1.is_some(),
+                &rhs,
+                &mut c_new,
+            );
             let mut iterations = 0;
             let mut outer = 0;
             loop {
-                let mut step_rhs = rhs.clone();
-                if system.upwinded {
+                let solve_rhs: &[f64] = if system.upwinded {
                     let correction = deferred_correction(
                         geometry,
                         system.phase.face_flux,
                         problem.ligand.diffusivity,
                         &c_new,
                     );
-                    step_rhs.iter_mut().zip(&correction).for_each(|(b, k)| *b += k);
-                }
+                    for ((b, r), k) in step_rhs.iter_mut().zip(&rhs).zip(&correction) {
+                        *b = r + k;
+                    }
+                    &step_rhs
+                } else {
+                    &rhs
+                };
                 let before = system.upwinded.then(|| c_new.clone());
                 let info = system
                     .solver
-                    .solve(&step_rhs, &mut c_new, target, settings.krylov.max_iterations)
+                    .solve(solve_rhs, &mut c_new, target, settings.krylov.max_iterations)
                     .map_err(|e| TransientError::Solve { time: t_new, message: e.to_string() })?;
                 iterations += info.iterations;
                 outer += 1;
@@ -330,6 +353,7 @@ pub fn integrate(
                     if error > 1.0 {
                         state.rejected_steps += 1;
                         dt = h * factor.min(0.9);
+                        spare.push(c_new);
                         continue;
                     }
                 }
@@ -384,8 +408,10 @@ pub fn integrate(
             // Shift the history.
             let old = std::mem::replace(&mut state.concentration, c_new);
             state.previous.insert(0, (t, old));
-            // Two earlier solutions: the adaptive error estimate and the quadratic guess use both.
-            state.previous.truncate(2);
+            // Earlier solutions: the adaptive error estimate and the quadratic extrapolation use two, the guess
+            // projection all of them.
+            let keep = GUESS_HISTORY - 1;
+            spare.extend(state.previous.drain(keep.min(state.previous.len())..).map(|(_, c)| c));
             state.time = t_new;
             state.steps += 1;
             state.krylov_iterations += iterations;
@@ -397,7 +423,7 @@ pub fn integrate(
             };
             // Events restart the history (the next step is first order).
             if restarts.iter().any(|&e| (e - t_new).abs() <= eps) {
-                state.previous.clear();
+                spare.extend(state.previous.drain(..).map(|(_, c)| c));
             }
             let at_output = settings.output_times.iter().any(|&o| (o - t_new).abs() <= eps);
             if let (Some(tol), Some(d)) = (settings.stop_at_steady, distance) {
@@ -455,24 +481,97 @@ fn sense(
     facets: &[FacetExchange],
     c: &[f64],
 ) -> Vec<CellSensing> {
-    cell_sensing(problem.geometry, problem.layout, facets, c, system.phase.velocity, &problem.sensing)
+    cell_sensing_in_local_flow(
+        problem.geometry,
+        problem.layout,
+        facets,
+        c,
+        &system.local_flow,
+        &problem.sensing,
+    )
 }
 
-/// Guess for cⁿ⁺¹: quadratic extrapolation from the last three solutions (error O(Δt³), so the warm-started
-/// solve needs fewer iterations than from the linear one), linear from two, or cⁿ.
-fn extrapolate(state: &TransientState, t_new: f64, with_history: bool) -> Vec<f64> {
-    let c0 = &state.concentration;
+/// Weights of cⁿ, cⁿ⁻¹, cⁿ⁻² extrapolating to `t_new`: quadratic from three solutions (error O(Δt³)), linear from
+/// two, or cⁿ alone.
+fn extrapolation_weights(state: &TransientState, t_new: f64, with_history: bool) -> Vec<f64> {
     match state.previous.as_slice() {
-        [(t1, c1), (t2, c2), ..] if with_history => {
-            let w = quadratic_extrapolation_weights([t_new - state.time, state.time - t1, t1 - t2]);
-            c0.iter().zip(c1).zip(c2).map(|((a, b), c)| w[0] * a + w[1] * b + w[2] * c).collect()
+        [(t1, _), (t2, _), ..] if with_history => {
+            quadratic_extrapolation_weights([t_new - state.time, state.time - t1, t1 - t2]).to_vec()
         }
-        [(t1, c1), ..] if with_history => {
+        [(t1, _), ..] if with_history => {
             let w = (t_new - state.time) / (state.time - t1);
-            c0.iter().zip(c1).map(|(c0, c1)| c0 + w * (c0 - c1)).collect()
+            vec![1.0 + w, -w]
         }
-        _ => c0.clone(),
+        _ => vec![1.0],
     }
+}
+
+/// The history solutions cⁿ, cⁿ⁻¹, … used by the guess, newest first, with their times.
+fn history(state: &TransientState) -> impl Iterator<Item = (f64, &[f64])> {
+    std::iter::once((state.time, state.concentration.as_slice()))
+        .chain(state.previous.iter().map(|(t, c)| (*t, c.as_slice())))
+        .take(GUESS_HISTORY)
+}
+
+/// `A₀ c` of the history solutions, by the solution's time, within one flow phase. A run resumed from a
+/// checkpoint recomputes them from the stored solutions with the same function, so its guesses repeat the
+/// uninterrupted run's bit for bit.
+#[derive(Default)]
+struct BaseProducts {
+    entries: Vec<(u64, Vec<f64>)>,
+}
+
+impl BaseProducts {
+    fn clear(&mut self, spare: &mut Vec<Vec<f64>>) {
+        spare.extend(self.entries.drain(..).map(|(_, v)| v));
+    }
+
+    /// Keeps the products of the current history, computing the missing ones (one per step in a steady run).
+    fn update(&mut self, solver: &mut StepSolver, state: &TransientState, spare: &mut Vec<Vec<f64>>) {
+        let wanted: Vec<u64> = history(state).map(|(t, _)| t.to_bits()).collect();
+        let mut kept = Vec::with_capacity(wanted.len());
+        for (key, c) in history(state) {
+            let key = key.to_bits();
+            match self.entries.iter().position(|(k, _)| *k == key) {
+                Some(pos) => kept.push(self.entries.swap_remove(pos)),
+                None => {
+                    let mut product = spare.pop().unwrap_or_else(|| vec![0.0; c.len()]);
+                    solver.apply_base(c, &mut product);
+                    kept.push((key, product));
+                }
+            }
+        }
+        debug_assert_eq!(kept.len(), wanted.len());
+        self.clear(spare);
+        self.entries = kept;
+    }
+}
+
+/// Guess for cⁿ⁺¹ into `guess`: the extrapolation of the history, improved by the minimal-residual projection
+/// on the history when there are at least two solutions.
+fn initial_guess(
+    solver: &StepSolver,
+    state: &TransientState,
+    products: &BaseProducts,
+    t_new: f64,
+    with_history: bool,
+    rhs: &[f64],
+    guess: &mut [f64],
+) {
+    let anchor = extrapolation_weights(state, t_new, with_history);
+    let solutions: Vec<&[f64]> = history(state).map(|(_, c)| c).collect();
+    if solutions.len() < 2 || products.entries.len() != solutions.len() {
+        guess.copy_from_slice(&state.concentration);
+        return;
+    }
+    let base_products: Vec<&[f64]> = products.entries.iter().map(|(_, v)| v.as_slice()).collect();
+    let space = HistorySpace {
+        solutions: &solutions,
+        base_products: &base_products,
+        step_diagonal: solver.step_diagonal(),
+        base_diagonal: solver.base_diagonal(),
+    };
+    projected_guess(&space, &anchor, rhs, guess);
 }
 
 /// `‖a − b‖ / ‖a‖` (zero when both vanish).

@@ -19,6 +19,7 @@ pub mod bdf;
 pub mod case;
 pub mod error_function;
 pub mod far_field_switch_on;
+pub mod guess_projection;
 pub mod integrate;
 pub mod sensing_window;
 pub mod sources;

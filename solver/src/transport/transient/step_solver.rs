@@ -10,7 +10,9 @@
 
 use crate::linalg::apply_operator::{apply_face_coupled, decouple_inactive_cells};
 use crate::linalg::multigrid::{Multigrid, MultigridWork};
-use crate::linalg::{bicgstab, KrylovParams, LinearSystem, MultigridParams, SolveError, SolveInfo};
+use crate::linalg::{
+    bicgstab_with_work, BicgstabWork, KrylovParams, LinearSystem, MultigridParams, SolveError, SolveInfo,
+};
 use rayon::prelude::*;
 use sprs::CsMat;
 
@@ -94,6 +96,8 @@ pub struct StepSolver {
     steady_far_field: Vec<(usize, f64)>,
     multigrid: MultigridParams,
     rungs: Vec<Rung>,
+    /// Krylov work vectors, kept from step to step.
+    krylov: BicgstabWork,
     /// Hierarchies built so far (for the report).
     pub hierarchies_built: usize,
 }
@@ -127,6 +131,7 @@ impl StepSolver {
             steady_far_field,
             multigrid,
             rungs: Vec::new(),
+            krylov: BicgstabWork::default(),
             hierarchies_built: 0,
         }
     }
@@ -185,6 +190,24 @@ impl StepSolver {
         apply_step(&self.system, &self.correction, x, y);
     }
 
+    /// `y = A₀ x`: the operator without storage and far-field terms (which change from step to step), so a
+    /// product kept from an earlier step serves later ones: `A x = A₀ x + (step − base diagonal) ⊙ x`.
+    pub fn apply_base(&mut self, x: &[f64], y: &mut [f64]) {
+        std::mem::swap(&mut self.system.operator.sink, &mut self.base_sink);
+        apply_step(&self.system, &self.correction, x, y);
+        std::mem::swap(&mut self.system.operator.sink, &mut self.base_sink);
+    }
+
+    /// The diagonal of the current step (base + storage + far field).
+    pub fn step_diagonal(&self) -> &[f64] {
+        &self.system.operator.sink
+    }
+
+    /// The diagonal of `A₀`.
+    pub fn base_diagonal(&self) -> &[f64] {
+        &self.base_sink
+    }
+
     /// Solves the step system for `x` (initial guess on entry) until `‖rhs − A x‖ ≤ target` (absolute).
     ///
     /// BiCGSTAB runs on the step system itself from the guess (its first true residual is the guess's), so a
@@ -212,12 +235,13 @@ impl StepSolver {
             return Err(SolveError::NonFinite { iteration: 0 });
         };
         let (multigrid, work) = (&rung.multigrid, &mut rung.work);
-        bicgstab(
+        bicgstab_with_work(
             |u, y| apply_step(system, correction, u, y),
             |r, z| multigrid.precondition(r, z, work),
             rhs,
             x,
             &params,
+            &mut self.krylov,
         )
     }
 }
