@@ -35,14 +35,16 @@ const DECOMPOSE_SECONDS_PER_GRID_CELL: f64 = 0.85e-6;
 /// Brinkman/Stokes flow solve per grid cell on one thread, seconds: `scripts/bench_brinkman` at 128³ (200
 /// cells, idle machine, 2026-12-02) took 13.0 s wall on 2 threads, i.e. about 22 s on one.
 const VISCOUS_FLOW_SECONDS_PER_GRID_CELL: f64 = 10.5e-6;
-/// One BDF2 time step per grid cell on one thread, seconds: `scripts/bench_transient` at 128³ (idle machine,
-/// 2026-12-02): mean step 0.556 s CPU for 2.1e6 grid cells.
-const STEP_SECONDS_PER_GRID_CELL: f64 = 0.27e-6;
+/// One BDF2 time step per grid cell on one thread, seconds: `scripts/bench_transient` at 128³ (2026-12-02, load
+/// about 2): mean step 0.246 s CPU for 2.1e6 grid cells, with the history-projection guess.
+const STEP_SECONDS_PER_GRID_CELL: f64 = 0.12e-6;
 /// Steps assumed for an adaptive run: the demo chamber from zero to steady state took 39 (4 rejected) in
 /// `scripts/bench_transient`; a run without `stop_at_steady` or with events takes more, hence the headroom.
 const ADAPTIVE_STEPS: f64 = 100.0;
-/// History fields, step right-hand side and sensing window of a transient run, bytes per grid cell.
-const TRANSIENT_BYTES_PER_GRID_CELL: f64 = 48.0;
+/// History fields (four solutions and their operator products for the guess), step vectors, a second multigrid
+/// hierarchy and the sensing window of a transient run, bytes per grid cell: `plumefield run` of
+/// cases/bench128.toml as transient peaked 245 MB above the steady run (117 B per grid cell; 2026-12-02).
+const TRANSIENT_BYTES_PER_GRID_CELL: f64 = 120.0;
 /// Parallel efficiency assumed for the threads of one case (common practice for memory-bound stencils).
 const THREAD_EFFICIENCY: f64 = 0.7;
 
