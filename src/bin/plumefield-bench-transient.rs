@@ -9,7 +9,7 @@
 //!    `--steady-reps`, and its parts once.
 //! 2. The same case switched on at t = 0 from a zero field, fixed BDF2 steps of `--step` seconds until the field
 //!    is within `STEADY_DISTANCE` of the steady one (or `--max-steps`): wall and CPU time of every step (linear
-//!    solve warm-started from the extrapolated history, mass balance, sensing), its Krylov iterations, and the
+//!    solve warm-started from the history projection, mass balance, sensing), its Krylov iterations, and the
 //!    ratio of the mean step to the steady solve — measured in the same process, one after the other.
 //! 3. The demo case run as transient from zero to steady state with adaptive steps (`stop_at_steady`), its total
 //!    wall time (geometry, flow, steady reference, time loop) and step count.

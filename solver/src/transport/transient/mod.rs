@@ -6,8 +6,8 @@
 //!
 //! by implicit variable-step BDF2 ([`bdf`]) on the *assembled steady operator*: the storage term `(α₀/Δt)·φh³`
 //! is added to the operator's diagonal (`FaceCoupledOperator::sink`), the history to the right-hand side, and
-//! each step is one multigrid-preconditioned Krylov solve warm-started from the extrapolated history
-//! ([`step_solver`]). Far-field faces follow the switched-on point-source solution ([`far_field_switch_on`]);
+//! each step is one multigrid-preconditioned Krylov solve ([`step_solver`]) warm-started from the best
+//! combination of the last solutions ([`guess_projection`]). Far-field faces follow the switched-on point-source solution ([`far_field_switch_on`]);
 //! secretion starts per cell ([`sources`]); flow may change in steps ([`FlowPhase`]). Every step closes its
 //! molecule balance ([`balance`]) and advances the per-cell sensing window ([`sensing_window`]).
 //!

@@ -5,7 +5,7 @@
 //! ladder of storage coefficients (σ rounded to a power of √2) with the steady far-field coefficients, and is
 //! reused for every step whose σ falls on that rung: fixed stepping therefore builds two hierarchies (BDF1 and
 //! BDF2), and the preconditioner of a step depends on σ alone — so a run resumed from a checkpoint repeats the
-//! uninterrupted run's arithmetic exactly. The Krylov solve starts from the extrapolated guess and stops at the
+//! uninterrupted run's arithmetic exactly. The Krylov solve starts from the projected guess and stops at the
 //! absolute residual `tol · ‖forcing‖` that a steady solve of the same case reaches.
 
 use crate::linalg::apply_operator::{apply_face_coupled, decouple_inactive_cells};
