@@ -32,11 +32,17 @@ pub struct BalanceForms<'a> {
     pub fluid_volume: &'a [f64],
 }
 
-/// The balance of the step that produced `c_new` from `history` = [cⁿ, cⁿ⁻¹] with `alpha` and `dt`.
+/// Amount of ligand in the fluid, `Σ φh³ c` (molecules).
+pub fn stored_amount(fluid_volume: &[f64], c: &[f64]) -> f64 {
+    fluid_volume.iter().zip(c).map(|(v, c)| v * c).sum()
+}
+
+/// The balance of the step that produced `c_new` with `alpha` and `dt`, given the amounts stored in the history
+/// [cⁿ, cⁿ⁻¹] ([`stored_amount`]; a time loop keeps them from the steps that made those solutions).
 pub fn step_balance(
     forms: &BalanceForms,
     c_new: &[f64],
-    history: [Option<&[f64]>; 2],
+    history_stored: [Option<f64>; 2],
     alpha: [f64; 3],
     dt: f64,
 ) -> StepBalance {
@@ -55,11 +61,11 @@ pub fn step_balance(
         outflow += q;
         gross_inflow += (-q).max(0.0);
     }
-    let stored: f64 = forms.fluid_volume.iter().zip(c_new).map(|(v, c)| v * c).sum();
+    let stored = stored_amount(forms.fluid_volume, c_new);
     let mut change = alpha[0] * stored;
-    for (a, past) in alpha[1..].iter().zip(history) {
-        if let Some(p) = past {
-            change += a * forms.fluid_volume.iter().zip(p).map(|(v, c)| v * c).sum::<f64>();
+    for (a, past) in alpha[1..].iter().zip(history_stored) {
+        if let Some(amount) = past {
+            change += a * amount;
         }
     }
     let accumulation = change / dt;

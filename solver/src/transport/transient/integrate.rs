@@ -1,7 +1,7 @@
 //! The time loop: variable-step BDF2 on the assembled steady operator, cut at every event and output time,
 //! optionally adaptive, with the per-step mass balance, the sensing window and the approach to steady state.
 
-use super::balance::{step_balance, BalanceForms, StepBalance};
+use super::balance::{step_balance, stored_amount, BalanceForms, StepBalance};
 use super::bdf::{coefficients, milne_factor, quadratic_extrapolation_weights, MAX_STEP_GROWTH};
 use super::far_field_switch_on::SwitchedOnFarField;
 use super::guess_projection::{projected_guess, HistorySpace, GUESS_HISTORY};
@@ -215,6 +215,7 @@ pub fn integrate(
     let mut step_rhs = vec![0.0; n];
     let mut spare: Vec<Vec<f64>> = Vec::new();
     let mut base_products = BaseProducts::default();
+    let mut stored = StoredAmounts::default();
 
     while state.time < settings.end_time - eps && !state.stopped_at_steady {
         let t = state.time;
@@ -368,13 +369,13 @@ pub fn integrate(
                 decay: &system.decay,
                 fluid_volume: system.solver.fluid_volume(),
             };
-            let balance = step_balance(
-                &balance_forms,
-                &c_new,
-                [Some(state.concentration.as_slice()), history_c1],
-                alpha,
-                h,
-            );
+            let volume = system.solver.fluid_volume();
+            let history_stored = [
+                Some(stored.amount(volume, state.time, &state.concentration)),
+                history_c1.map(|c1| stored.amount(volume, state.previous[0].0, c1)),
+            ];
+            let balance = step_balance(&balance_forms, &c_new, history_stored, alpha, h);
+            stored.remember(t_new, balance.stored);
             let sensing = sense(problem, &system, &facets_now, &c_new);
             let rates = cell_rates(
                 &sensing,
@@ -544,6 +545,32 @@ impl BaseProducts {
         debug_assert_eq!(kept.len(), wanted.len());
         self.clear(spare);
         self.entries = kept;
+    }
+}
+
+/// Amounts stored in the recent solutions, by time, so that a step's balance does not sum the history again. A
+/// resumed run recomputes them with the same function ([`stored_amount`]), bit for bit.
+#[derive(Default)]
+struct StoredAmounts {
+    entries: Vec<(u64, f64)>,
+}
+
+impl StoredAmounts {
+    fn amount(&mut self, fluid_volume: &[f64], time: f64, c: &[f64]) -> f64 {
+        match self.entries.iter().find(|(t, _)| *t == time.to_bits()) {
+            Some(&(_, amount)) => amount,
+            None => {
+                let amount = stored_amount(fluid_volume, c);
+                self.remember(time, amount);
+                amount
+            }
+        }
+    }
+
+    fn remember(&mut self, time: f64, amount: f64) {
+        self.entries.retain(|(t, _)| *t != time.to_bits());
+        self.entries.insert(0, (time.to_bits(), amount));
+        self.entries.truncate(3);
     }
 }
 
