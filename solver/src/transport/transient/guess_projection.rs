@@ -231,6 +231,34 @@ mod tests {
         }
     }
 
+    /// The projected guess for history `sols` of the operator with diagonal `base` (A₀) and `step` (A).
+    fn projected(
+        base: &[f64],
+        step: &[f64],
+        sols: &[Vec<f64>],
+        anchor: &[f64],
+        b: &[f64],
+        guess: &mut [f64],
+    ) -> GuessResidual {
+        let products: Vec<Vec<f64>> = sols
+            .iter()
+            .map(|c| {
+                let mut y = vec![0.0; c.len()];
+                apply(base, c, &mut y);
+                y
+            })
+            .collect();
+        let sol_refs: Vec<&[f64]> = sols.iter().map(|v| v.as_slice()).collect();
+        let prod_refs: Vec<&[f64]> = products.iter().map(|v| v.as_slice()).collect();
+        let space = HistorySpace {
+            solutions: &sol_refs,
+            base_products: &prod_refs,
+            step_diagonal: step,
+            base_diagonal: base,
+        };
+        projected_guess(&space, anchor, b, guess)
+    }
+
     fn residual(step_diag: &[f64], b: &[f64], x: &[f64]) -> f64 {
         let mut y = vec![0.0; x.len()];
         apply(step_diag, x, &mut y);
@@ -255,25 +283,10 @@ mod tests {
         let exact: Vec<f64> = (0..n).map(|i| modes[0][i] + 1.1 * modes[1][i] + 0.1 * modes[2][i]).collect();
         let mut b = vec![0.0; n];
         apply(&step, &exact, &mut b);
-        let products: Vec<Vec<f64>> = sols
-            .iter()
-            .map(|c| {
-                let mut y = vec![0.0; n];
-                apply(&base, c, &mut y);
-                y
-            })
-            .collect();
-        let sol_refs: Vec<&[f64]> = sols.iter().map(|v| v.as_slice()).collect();
-        let prod_refs: Vec<&[f64]> = products.iter().map(|v| v.as_slice()).collect();
-        let space = HistorySpace {
-            solutions: &sol_refs,
-            base_products: &prod_refs,
-            step_diagonal: &step,
-            base_diagonal: &base,
-        };
+        let guess_for = |anchor: &[f64], guess: &mut [f64]| projected(&base, &step, &sols, anchor, &b, guess);
         let anchor = [3.0, -3.0, 1.0];
         let mut guess = vec![0.0; n];
-        let report = projected_guess(&space, &anchor, &b, &mut guess);
+        let report = guess_for(&anchor, &mut guess);
         let anchor_x: Vec<f64> =
             (0..n).map(|i| anchor.iter().zip(&sols).map(|(w, c)| w * c[i]).sum()).collect();
         let true_anchor = residual(&step, &b, &anchor_x);
@@ -296,25 +309,10 @@ mod tests {
         let b: Vec<f64> = (0..n).map(|i| ((i * 13) % 17) as f64 - 8.0).collect();
         let c0: Vec<f64> = (0..n).map(|i| (i as f64 * 0.05).sin()).collect();
         let c1: Vec<f64> = (0..n).map(|i| (i as f64 * 0.07).cos()).collect();
-        let sols = [c0.clone(), c1.clone(), c1.clone(), c0.clone()];
-        let products: Vec<Vec<f64>> = sols
-            .iter()
-            .map(|c| {
-                let mut y = vec![0.0; n];
-                apply(&base, c, &mut y);
-                y
-            })
-            .collect();
-        let sol_refs: Vec<&[f64]> = sols.iter().map(|v| v.as_slice()).collect();
-        let prod_refs: Vec<&[f64]> = products.iter().map(|v| v.as_slice()).collect();
-        let space = HistorySpace {
-            solutions: &sol_refs,
-            base_products: &prod_refs,
-            step_diagonal: &step,
-            base_diagonal: &base,
-        };
+        let sols = vec![c0.clone(), c1.clone(), c1.clone(), c0.clone()];
+        let guess_for = |anchor: &[f64], guess: &mut [f64]| projected(&base, &step, &sols, anchor, &b, guess);
         let mut guess = vec![0.0; n];
-        let report = projected_guess(&space, &[2.0, -1.0], &b, &mut guess);
+        let report = guess_for(&[2.0, -1.0], &mut guess);
         assert!(report.projected <= report.anchor);
         let at = |t: f64| -> f64 {
             let x: Vec<f64> = (0..n).map(|i| (1.0 - t) * c0[i] + t * c1[i]).collect();
