@@ -10,10 +10,17 @@ use crate::sweep::collect::{collect, write_csv, write_h5, write_timings, ColumnD
 
 pub fn execute(dir: &Path) -> Result<()> {
     let (table, plan, timings) = collect(dir)?;
-    write_csv(&dir.join("sweep.csv"), &table)?;
-    write_h5(&dir.join("sweep.h5"), &table, &plan)?;
-    write_timings(&dir.join("timings.csv"), &plan, &timings)?;
-    let figures = draw_sweep_curves(&table, &plan, &dir.join("figures"))?;
+    // The tables are written while the figures are drawn: a local sweep waits for both after its last case.
+    let (written, figures) = rayon::join(
+        || -> Result<()> {
+            write_csv(&dir.join("sweep.csv"), &table)?;
+            write_h5(&dir.join("sweep.h5"), &table, &plan)?;
+            write_timings(&dir.join("timings.csv"), &plan, &timings)
+        },
+        || draw_sweep_curves(&table, &plan, &dir.join("figures")),
+    );
+    written?;
+    let figures = figures?;
     let count = |what: &str| match table.column("status").map(|c| &c.data) {
         Some(ColumnData::Text(v)) => v.iter().filter(|s| *s == what).count(),
         _ => 0,

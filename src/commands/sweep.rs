@@ -11,7 +11,9 @@ use crate::sweep::done_marker::{case_state, write_failed, CaseState};
 use crate::sweep::forecast::{format_bytes, format_seconds, Forecast};
 use crate::sweep::lock::{LockError, SweepLock};
 use crate::sweep::plan_record::PlanRecord;
-use crate::sweep::run_local::{cases_to_run, run_case, run_cases, CaseEvent, LocalRunParams};
+use crate::sweep::run_local::{
+    cases_to_run, longest_first, run_case, run_cases, CaseEvent, LocalRunParams, OutputSync,
+};
 use crate::sweep::slurm::{self, SlurmParams};
 use crate::sweep::{Plan, SweepError, SweepFile};
 
@@ -203,7 +205,8 @@ fn run_task(plan: &Plan, dir: &Path, task: usize, threads: Option<usize>) -> Res
         .build()
         .map_err(|e| anyhow::anyhow!("cannot start {threads} worker threads: {e}"))?;
     eprintln!("{}: {}", planned.id, plan.describe(task));
-    match pool.install(|| run_case(plan, dir, task, threads)) {
+    // Synced file by file: the task's outputs are collected later, possibly on another node.
+    match pool.install(|| run_case(plan, dir, task, threads, OutputSync::EachFile)) {
         Ok(marker) => {
             eprintln!("{} done in {:.2} s", planned.id, marker.elapsed_s);
             Ok(())
@@ -325,7 +328,14 @@ fn run_locally(plan: &Plan, dir: &Path, options: &SweepOptions) -> Result<()> {
         .with_context(|| format!("cannot create the sweep folder {}", dir.display()))?;
     let _lock = lock(dir, "a local sweep")?;
     // Under the lock: what is done now (another sweep may have finished cases since the check above).
-    let todo = cases_to_run(plan, dir);
+    let mut todo = cases_to_run(plan, dir);
+    // `checked` is in index order (from `cases_to_run`).
+    let forecast_s = |index: usize| {
+        checked
+            .binary_search_by_key(&index, |c| c.index)
+            .map_or(0.0, |k| checked[k].forecast.seconds_one_thread)
+    };
+    longest_first(&mut todo, forecast_s);
     write_plan_record(plan, dir)?;
     let threads = options.threads.unwrap_or_else(cores);
     let largest = checked.iter().map(|c| c.forecast.memory_bytes).fold(0.0, f64::max);

@@ -5,19 +5,55 @@
 //! The temporary file lives in the same directory because `rename` is only atomic within one file system
 //! (POSIX `rename(2)`, common practice). Its name starts with a dot and ends in `.tmp` so that a leftover from
 //! a power cut is recognisably not an output.
+//!
+//! The `fsync`s make each file durable on its own. A caller that has another proof of completeness may skip
+//! them for a stretch of writes ([`without_fsync`]): the cases of a local sweep do, because a case counts as
+//! done only through its done marker (written and synced after the outputs, holding their SHA-256s; see
+//! `sweep::done_marker`). The rename stays, so a killed process still never leaves a half-written file in
+//! place.
 
+use std::cell::Cell;
 use std::fs;
 use std::io::Write;
 use std::path::{Path, PathBuf};
 use std::sync::atomic::{AtomicU64, Ordering};
 
-/// Writes `bytes` to `path` atomically: temporary file, `fsync`, rename, `fsync` of the directory.
+thread_local! {
+    /// Set while this thread runs inside [`without_fsync`].
+    static SKIP_FSYNC: Cell<bool> = const { Cell::new(false) };
+}
+
+/// Runs `f` with the atomic writes made on this thread renamed into place without their `fsync`s (of the file
+/// and of its directory). Only for outputs whose completeness something synced later vouches for: a process
+/// killed part-way leaves them exactly as a synced write would (the page cache outlives the process), but a
+/// power cut or kernel crash may lose them even after the rename. Writes on other threads (e.g. rayon workers
+/// that `f` starts) still sync, which is merely slower.
+pub fn without_fsync<T>(f: impl FnOnce() -> T) -> T {
+    /// Restores the previous setting also when `f` panics.
+    struct Restore(bool);
+    impl Drop for Restore {
+        fn drop(&mut self) {
+            SKIP_FSYNC.with(|skip| skip.set(self.0));
+        }
+    }
+    let _restore = Restore(SKIP_FSYNC.with(|skip| skip.replace(true)));
+    f()
+}
+
+fn fsync_wanted() -> bool {
+    !SKIP_FSYNC.with(Cell::get)
+}
+
+/// Writes `bytes` to `path` atomically: temporary file, `fsync`, rename, `fsync` of the directory (both
+/// `fsync`s skipped inside [`without_fsync`]).
 pub fn write_atomic(path: &Path, bytes: &[u8]) -> std::io::Result<()> {
     let guard = TempGuard::new(path)?;
     {
         let mut file = fs::OpenOptions::new().write(true).create_new(true).open(guard.path())?;
         file.write_all(bytes)?;
-        file.sync_all()?;
+        if fsync_wanted() {
+            file.sync_all()?;
+        }
     }
     guard.commit(path)
 }
@@ -29,7 +65,9 @@ pub fn with_atomic_file<T>(path: &Path, f: impl FnOnce(&Path) -> anyhow::Result<
     let guard = TempGuard::new(path)?;
     let value = f(guard.path())?;
     // The writer has closed the file; flush its contents to disk before the rename makes it visible.
-    fs::File::open(guard.path())?.sync_all()?;
+    if fsync_wanted() {
+        fs::File::open(guard.path())?.sync_all()?;
+    }
     guard.commit(path)?;
     Ok(value)
 }
@@ -68,11 +106,15 @@ impl TempGuard {
         &self.temp
     }
 
-    /// Renames the temporary file onto `destination` and makes the rename durable.
+    /// Renames the temporary file onto `destination` and makes the rename durable (not in [`without_fsync`]).
     fn commit(mut self, destination: &Path) -> std::io::Result<()> {
         fs::rename(&self.temp, destination)?;
         self.armed = false;
-        sync_parent_directory(destination)
+        if fsync_wanted() {
+            sync_parent_directory(destination)
+        } else {
+            Ok(())
+        }
     }
 }
 
@@ -195,6 +237,27 @@ mod tests {
         let path = dir.path().join("nothing.h5");
         let result = with_atomic_file(&path, |_temp| Ok(()));
         assert!(result.is_err());
+        let result = without_fsync(|| with_atomic_file(&path, |_temp| Ok(())));
+        assert!(result.is_err());
         assert!(entries(dir.path()).is_empty());
+    }
+
+    #[test]
+    fn without_fsync_still_writes_atomically_and_is_scoped() {
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("cells.csv");
+        without_fsync(|| {
+            assert!(!fsync_wanted());
+            write_atomic(&path, b"id\n1\n").unwrap();
+            with_atomic_file(&dir.path().join("fields.h5"), |temp| Ok(fs::write(temp, b"h5")?)).unwrap();
+            // Another thread keeps syncing.
+            std::thread::scope(|s| s.spawn(|| assert!(fsync_wanted())).join().unwrap());
+        });
+        assert!(fsync_wanted());
+        assert_eq!(fs::read(&path).unwrap(), b"id\n1\n");
+        assert_eq!(entries(dir.path()), vec!["cells.csv".to_string(), "fields.h5".to_string()]);
+        // A panic inside the scope does not leave the thread skipping syncs.
+        let _ = std::panic::catch_unwind(|| without_fsync(|| panic!("writer bug")));
+        assert!(fsync_wanted());
     }
 }

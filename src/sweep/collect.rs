@@ -9,6 +9,7 @@ use std::path::Path;
 
 use anyhow::{Context, Result};
 use hdf5::types::VarLenUnicode;
+use rayon::prelude::*;
 
 use super::aggregate::p10_median_p90;
 use super::done_marker::{case_state, CaseState};
@@ -116,32 +117,36 @@ struct CaseData {
 pub fn collect(dir: &Path) -> Result<(SweepTable, PlanRecord, Vec<Option<CaseTiming>>)> {
     let plan = PlanRecord::read(dir).map_err(|m| anyhow::Error::new(crate::exit::InputError(m)))?;
     let rows = plan.cases.len();
+    // Cases are read on all cores (a local sweep waits for `collect` after its last case); the first error
+    // in plan order is reported.
+    let read: Vec<Result<(String, Option<CaseData>)>> = plan
+        .cases
+        .par_iter()
+        .map(|case| {
+            let case_dir = dir.join("cases").join(&case.id);
+            Ok(match case_state(&case_dir, &case.sha256) {
+                CaseState::Done(marker) => {
+                    let timing = CaseTiming {
+                        elapsed_s: marker.elapsed_s,
+                        threads: marker.threads,
+                        cpu_s: marker.cpu_s,
+                        runqueue_s: marker.runqueue_s,
+                    };
+                    let read = read_case(&case_dir, timing)
+                        .with_context(|| format!("cannot read the outputs of {}", case.id))?;
+                    ("done".to_string(), Some(read))
+                }
+                CaseState::Failed(_) => ("failed".to_string(), None),
+                CaseState::NotDone { .. } => ("not_done".to_string(), None),
+            })
+        })
+        .collect();
     let mut status = Vec::with_capacity(rows);
     let mut data: Vec<Option<CaseData>> = Vec::with_capacity(rows);
-    for case in &plan.cases {
-        let case_dir = dir.join("cases").join(&case.id);
-        match case_state(&case_dir, &case.sha256) {
-            CaseState::Done(marker) => {
-                let timing = CaseTiming {
-                    elapsed_s: marker.elapsed_s,
-                    threads: marker.threads,
-                    cpu_s: marker.cpu_s,
-                    runqueue_s: marker.runqueue_s,
-                };
-                let read = read_case(&case_dir, timing)
-                    .with_context(|| format!("cannot read the outputs of {}", case.id))?;
-                status.push("done".to_string());
-                data.push(Some(read));
-            }
-            CaseState::Failed(_) => {
-                status.push("failed".to_string());
-                data.push(None);
-            }
-            CaseState::NotDone { .. } => {
-                status.push("not_done".to_string());
-                data.push(None);
-            }
-        }
+    for case in read {
+        let (s, d) = case?;
+        status.push(s);
+        data.push(d);
     }
 
     let mut columns = vec![

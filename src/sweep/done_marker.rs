@@ -4,6 +4,15 @@
 //! outputs) or not done (run again from scratch); a changed sweep file changes the hash and re-runs the case.
 //!
 //! A case that fails gets `failed.json` (the error sentence) instead; it is retried on the next run.
+//!
+//! The outputs of a local sweep's case are written without `fsync` (`io::atomic::without_fsync`); only
+//! `done.json` is synced, after them. That is safe because of what the marker records: the SHA-256 of every
+//! output and the boot id of the machine that wrote them (`unsynced_boot_id`). A killed process cannot lose
+//! written data (it stays in the kernel's page cache), so within the same boot the size check above still
+//! decides. Only a kernel crash or power cut can leave a synced marker beside lost or zero-filled outputs,
+//! and both change the boot id: a marker from another boot (or read on another machine) is therefore checked
+//! against the outputs' SHA-256s, and a mismatch makes the case run again. A marker without the field
+//! (outputs synced one by one, e.g. by a Slurm task) needs only the size check.
 
 use std::fs;
 use std::io::Read;
@@ -46,6 +55,9 @@ pub struct DoneMarker {
     /// after both is time asleep (file syncs, locks). See `thread_time`.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub runqueue_s: Option<f64>,
+    /// Boot id of the machine that wrote the outputs without syncing them; absent when they were synced.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub unsynced_boot_id: Option<String>,
     pub outputs: Vec<OutputRecord>,
 }
 
@@ -79,10 +91,11 @@ pub fn case_state(case_dir: &Path, case_sha256: &str) -> CaseState {
                 return CaseState::NotDone { reason: "the case changed since it ran".into() }
             }
             Ok(marker) => {
-                return match check_outputs(case_dir, &marker, false) {
+                let deep = marker.unsynced_boot_id.as_ref().is_some_and(|id| Some(id) != boot_id().as_ref());
+                return match check_outputs(case_dir, &marker, deep) {
                     Ok(()) => CaseState::Done(marker),
                     Err(reason) => CaseState::NotDone { reason },
-                }
+                };
             }
             Err(e) => return CaseState::NotDone { reason: format!("{} is unreadable: {e}", DONE_FILE) },
         },
@@ -96,6 +109,18 @@ pub fn case_state(case_dir: &Path, case_sha256: &str) -> CaseState {
         Some(record) if record.case_sha256 == case_sha256 => CaseState::Failed(record),
         _ => CaseState::NotDone { reason: "not run yet".into() },
     }
+}
+
+/// This boot of this machine (Linux's random boot id, new at every boot); `None` where there is none.
+pub fn boot_id() -> Option<String> {
+    static BOOT_ID: std::sync::OnceLock<Option<String>> = std::sync::OnceLock::new();
+    BOOT_ID
+        .get_or_init(|| {
+            let text = fs::read_to_string("/proc/sys/kernel/random/boot_id").ok()?;
+            let id = text.trim();
+            (!id.is_empty()).then(|| id.to_string())
+        })
+        .clone()
 }
 
 /// Check every output listed in `marker`: present with its size, and with its SHA-256 when `deep`.
@@ -212,6 +237,7 @@ mod tests {
             threads: 1,
             cpu_s: Some(0.08),
             runqueue_s: None,
+            unsynced_boot_id: None,
             outputs,
         };
         write_done(dir, &marker).unwrap();
@@ -237,6 +263,32 @@ mod tests {
         fs::write(dir.path().join("cells.csv"), "id\n7\n").unwrap();
         assert!(check_outputs(dir.path(), &marker, false).is_ok());
         assert!(check_outputs(dir.path(), &marker, true).unwrap_err().contains("SHA-256"));
+    }
+
+    #[test]
+    fn unsynced_outputs_from_another_boot_are_checked_by_hash() {
+        let dir = tempfile::tempdir().unwrap();
+        let mut marker = finished(dir.path(), "aa");
+        // A same-size corruption, as a power cut can leave in outputs that were never synced.
+        fs::write(dir.path().join("cells.csv"), "id\n9\n").unwrap();
+        let state = |marker: &DoneMarker| {
+            write_done(dir.path(), marker).unwrap();
+            case_state(dir.path(), "aa")
+        };
+        // Synced outputs, or unsynced ones of this boot: sizes decide (a killed process loses no data).
+        assert!(matches!(state(&marker), CaseState::Done(_)));
+        if let Some(this_boot) = boot_id() {
+            marker.unsynced_boot_id = Some(this_boot);
+            assert!(matches!(state(&marker), CaseState::Done(_)));
+        }
+        marker.unsynced_boot_id = Some("another boot".into());
+        assert!(
+            matches!(state(&marker), CaseState::NotDone { ref reason } if reason.contains("SHA-256")),
+            "{:?}",
+            state(&marker)
+        );
+        fs::write(dir.path().join("cells.csv"), "id\n0\n").unwrap();
+        assert!(matches!(state(&marker), CaseState::Done(_)));
     }
 
     #[test]

@@ -3,6 +3,11 @@
 //! `DIR/cases/<id>/` through the `run` command's own functions. A case that fails is recorded and the others go
 //! on. Resumable: cases already done (see `done_marker`) are skipped, and a case interrupted at any point is
 //! started again from an empty folder.
+//!
+//! A case's outputs are written without `fsync` when the done marker can vouch for them ([`OutputSync`]):
+//! each output costs two syncs otherwise, a noticeable share of a tiny case and, with several cases writing
+//! at once, waits on the same disk. Cases are started longest first (by the forecast), so the sweep does not
+//! end with one long case running alone.
 
 use std::fs;
 use std::panic::AssertUnwindSafe;
@@ -12,7 +17,8 @@ use std::sync::Mutex;
 use std::time::Instant;
 
 use super::done_marker::{
-    case_state, record_outputs, write_done, write_failed, CaseState, DoneMarker, FailureRecord, CASE_FILE,
+    boot_id, case_state, record_outputs, write_done, write_failed, CaseState, DoneMarker, FailureRecord,
+    CASE_FILE,
 };
 use super::expand::Plan;
 use super::thread_time::current_pool;
@@ -20,6 +26,7 @@ use crate::case::SolveMode;
 use crate::commands::run::transient::{self, TransientOptions};
 use crate::commands::run::{solution_warnings, steady_case, write_outputs};
 use crate::exit::{one_line, InputError, SolverFailure};
+use crate::io::atomic::without_fsync;
 use crate::io::write_atomic;
 use solver::solve_case::solve_steady_case;
 
@@ -39,6 +46,24 @@ impl LocalRunParams {
         let jobs = jobs.clamp(1, cases.max(1));
         LocalRunParams { jobs, threads_per_job: (threads / jobs).max(1) }
     }
+}
+
+/// How the outputs of a case reach the disk.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum OutputSync {
+    /// Each output synced as it is written, like `run` does (a Slurm task: its outputs are collected later,
+    /// maybe on another machine).
+    EachFile,
+    /// Outputs left to the page cache; the done marker, synced after them, records this boot so that a marker
+    /// found after a crash is checked against the outputs' SHA-256s (see `done_marker`). Falls back to
+    /// `EachFile` where the machine has no boot id.
+    MarkerOnly,
+}
+
+/// Order `indices` longest case first by `seconds` (ties keep their order), so that the cases left at the
+/// end of a parallel run are short ones and no job runs a long case alone while the others idle.
+pub fn longest_first(indices: &mut [usize], seconds: impl Fn(usize) -> f64) {
+    indices.sort_by(|&a, &b| seconds(b).total_cmp(&seconds(a)));
 }
 
 /// Something that happened to one case, for the command's progress lines.
@@ -67,8 +92,8 @@ pub fn cases_to_run(plan: &Plan, dir: &Path) -> Vec<usize> {
         .collect()
 }
 
-/// Run the cases `indices` of `plan` into `dir`, `params.jobs` at a time; `on_event` is called from the job
-/// threads as cases start, finish or fail.
+/// Run the cases `indices` of `plan` into `dir`, in that order, `params.jobs` at a time (their outputs synced
+/// only through the done marker); `on_event` is called from the job threads as cases start, finish or fail.
 pub fn run_cases(
     plan: &Plan,
     dir: &Path,
@@ -88,7 +113,9 @@ pub fn run_cases(
                     let Some(&index) = indices.get(k) else { break };
                     on_event(CaseEvent::Started { index });
                     let outcome = match &pool {
-                        Ok(pool) => pool.install(|| run_case(plan, dir, index, params.threads_per_job)),
+                        Ok(pool) => pool.install(|| {
+                            run_case(plan, dir, index, params.threads_per_job, OutputSync::MarkerOnly)
+                        }),
                         Err(e) => {
                             Err(failure(plan, index, "io", format!("cannot start worker threads: {e}")))
                         }
@@ -121,9 +148,27 @@ fn failure(plan: &Plan, index: usize, kind: &str, error: String) -> FailureRecor
 }
 
 /// Run one case into `DIR/cases/<id>/` on the current rayon pool: empty the folder, write `case.toml`, solve,
-/// write the outputs, then `done.json` last. A panic inside the solver is caught and recorded as a failure.
-pub fn run_case(plan: &Plan, dir: &Path, index: usize, threads: usize) -> Result<DoneMarker, FailureRecord> {
+/// write the outputs, then `done.json` last (always synced). A panic inside the solver is caught and recorded
+/// as a failure.
+pub fn run_case(
+    plan: &Plan,
+    dir: &Path,
+    index: usize,
+    threads: usize,
+    sync: OutputSync,
+) -> Result<DoneMarker, FailureRecord> {
     let started = Instant::now();
+    let unsynced_boot_id = match sync {
+        OutputSync::MarkerOnly => boot_id(),
+        OutputSync::EachFile => None,
+    };
+    let write = |f: &mut dyn FnMut() -> Result<(), FailureRecord>| {
+        if unsynced_boot_id.is_some() {
+            without_fsync(f)
+        } else {
+            f()
+        }
+    };
     let times_before = current_pool();
     let case_dir = plan.case_dir(dir, index);
     let io_failure = |what: &str, e: &dyn std::fmt::Display| {
@@ -136,8 +181,10 @@ pub fn run_case(plan: &Plan, dir: &Path, index: usize, threads: usize) -> Result
     }
     fs::create_dir_all(&case_dir).map_err(|e| io_failure("cannot create", &e))?;
     let planned = &plan.cases[index];
-    write_atomic(&case_dir.join(CASE_FILE), planned.text.as_bytes())
-        .map_err(|e| io_failure("cannot write case.toml in", &e))?;
+    write(&mut || {
+        write_atomic(&case_dir.join(CASE_FILE), planned.text.as_bytes())
+            .map_err(|e| io_failure("cannot write case.toml in", &e))
+    })?;
 
     let case = plan
         .parse_case(index)
@@ -153,12 +200,14 @@ pub fn run_case(plan: &Plan, dir: &Path, index: usize, threads: usize) -> Result
     if case.solve.mode == SolveMode::Transient {
         // The `run` command's transient path, without its progress bar: several cases run at once.
         let options = TransientOptions { quiet: true, ..TransientOptions::default() };
-        std::panic::catch_unwind(AssertUnwindSafe(|| transient::execute(&case, &case_dir, &options)))
-            .map_err(caught)?
-            .map_err(|e| {
-                let kind = if e.downcast_ref::<InputError>().is_some() { "input" } else { "solver" };
-                failure(plan, index, kind, one_line(&e))
-            })?;
+        write(&mut || {
+            std::panic::catch_unwind(AssertUnwindSafe(|| transient::execute(&case, &case_dir, &options)))
+                .map_err(caught)?
+                .map_err(|e| {
+                    let kind = if e.downcast_ref::<InputError>().is_some() { "input" } else { "solver" };
+                    failure(plan, index, kind, one_line(&e))
+                })
+        })?;
     } else {
         let solved = std::panic::catch_unwind(AssertUnwindSafe(|| {
             solve_steady_case(&steady_case(&case), &mut |_| {})
@@ -173,8 +222,10 @@ pub fn run_case(plan: &Plan, dir: &Path, index: usize, threads: usize) -> Result
             )
         })?;
         let warnings = solution_warnings(&solved);
-        write_outputs(&case, &solved, &warnings, &case_dir, started, Instant::now())
-            .map_err(|e| failure(plan, index, "io", one_line(&e)))?;
+        write(&mut || {
+            write_outputs(&case, &solved, &warnings, &case_dir, started, Instant::now())
+                .map_err(|e| failure(plan, index, "io", one_line(&e)))
+        })?;
     }
     let outputs = record_outputs(&case_dir).map_err(|e| io_failure("cannot list the outputs in", &e))?;
     let spent = times_before.zip(current_pool()).map(|(before, after)| before.until(&after));
@@ -185,6 +236,7 @@ pub fn run_case(plan: &Plan, dir: &Path, index: usize, threads: usize) -> Result
         threads,
         cpu_s: spent.map(|t| t.cpu_s),
         runqueue_s: spent.map(|t| t.runqueue_s),
+        unsynced_boot_id,
         outputs,
     };
     write_done(&case_dir, &marker).map_err(|e| io_failure("cannot write done.json in", &e))?;
@@ -201,5 +253,13 @@ mod tests {
         assert_eq!(LocalRunParams::divide(2, 4, 10), LocalRunParams { jobs: 4, threads_per_job: 1 });
         assert_eq!(LocalRunParams::divide(8, 4, 2), LocalRunParams { jobs: 2, threads_per_job: 4 });
         assert_eq!(LocalRunParams::divide(2, 0, 5), LocalRunParams { jobs: 1, threads_per_job: 2 });
+    }
+
+    #[test]
+    fn longest_cases_start_first_and_ties_keep_plan_order() {
+        let seconds = [1.0, 5.0, 1.0, 3.0, 5.0];
+        let mut indices = vec![0, 1, 2, 3, 4];
+        longest_first(&mut indices, |i| seconds[i]);
+        assert_eq!(indices, [1, 4, 3, 0, 2]);
     }
 }

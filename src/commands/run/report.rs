@@ -124,14 +124,20 @@ pub fn write_outputs(
         command_line: std::env::args().collect::<Vec<_>>().join(" "),
     };
     write_cells_csv(&out_dir.join("cells.csv"), &table)?;
-    write_fields_h5(
-        &out_dir.join("fields.h5"),
-        &case.grid,
-        &solved.geometry.volume_fraction,
-        &fields,
-        &table,
-        &provenance,
-    )?;
+    // One hold of HDF5's process-wide lock for the whole file (the library runs one call at a time anyway):
+    // cases of a sweep writing at once then take turns file by file and drift apart, instead of alternating
+    // call by call, which doubled both writes and kept the cases in step to collide again
+    // (measured with scripts/bench_sweep).
+    hdf5::sync::sync(|| {
+        write_fields_h5(
+            &out_dir.join("fields.h5"),
+            &case.grid,
+            &solved.geometry.volume_fraction,
+            &fields,
+            &table,
+            &provenance,
+        )
+    })?;
     write_fields_xmf(&out_dir.join("fields.xmf"), "fields.h5", &case.grid, &fields)?;
 
     let chamber_volume: f64 = case.chamber_size.iter().product();
