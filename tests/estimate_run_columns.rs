@@ -4,41 +4,16 @@
 use std::path::Path;
 use std::process::Command;
 
+mod common;
+
 /// A small Darcy channel with a few cells (seconds to solve).
+/// `decompose`: the value of `[sensing] decompose` as TOML text.
 fn case_text(decompose: &str) -> String {
-    format!(
-        r#"title = "estimate columns"
-[chamber]
-size = ["120 um", "48 um", "48 um"]
-[grid]
-spacing = "2 um"
-[medium]
-model = "darcy"
-viscosity = "1e-3 Pa s"
-permeability = "1e-13 m^2"
-[flow]
-mean_velocity = "1 um/s"
-[boundaries]
-x_min = "inlet"
-x_max = "outlet"
-y_min = "wall"
-y_max = "wall"
-z_min = "symmetry"
-z_max = "symmetry"
-[ligand]
-diffusivity = "1e-10 m^2/s"
-[cells]
-radius = "8 um"
-secretion_rate = "2000 /h"
-uptake = {{ model = "first_order", rate_constant = "1e-6 m/s" }}
-layout = {{ kind = "random", count = 6, min_gap = "2 um", seed = 3 }}
-[sensing]
-integration_time = "1 h"
-{decompose}
-[output]
-figures = false
-"#
-    )
+    common::small_chamber(&[
+        ("chamber.size", r#"["120 um", "48 um", "48 um"]"#),
+        ("flow.mean_velocity", r#""1 um/s""#),
+        ("sensing.decompose", decompose),
+    ])
 }
 
 fn run(dir: &Path, text: &str) -> std::process::Output {
@@ -58,7 +33,7 @@ fn column(rows: &[csv::StringRecord], header: &csv::StringRecord, name: &str) ->
 #[test]
 fn estimate_and_split_columns_follow_the_contract_columns() {
     let dir = tempfile::tempdir().unwrap();
-    let out = run(dir.path(), &case_text("decompose = [0, 2]"));
+    let out = run(dir.path(), &case_text("[0, 2]"));
     assert!(out.status.success(), "{}", String::from_utf8_lossy(&out.stderr));
     let mut reader = csv::Reader::from_path(dir.path().join("out/cells.csv")).unwrap();
     let header = reader.headers().unwrap().clone();
@@ -106,10 +81,10 @@ fn estimate_and_split_columns_follow_the_contract_columns() {
 fn bad_decompose_values_are_input_errors_naming_the_key() {
     let dir = tempfile::tempdir().unwrap();
     for (value, needle) in [
-        ("decompose = \"some\"", "sensing.decompose"),
-        ("decompose = \"sample:0\"", "sensing.decompose"),
-        ("decompose = [1, -2]", "sensing.decompose[1]"),
-        ("decompose = [0, 99]", "sensing.decompose lists cell id 99"),
+        ("\"some\"", "sensing.decompose"),
+        ("\"sample:0\"", "sensing.decompose"),
+        ("[1, -2]", "sensing.decompose[1]"),
+        ("[0, 99]", "sensing.decompose lists cell id 99"),
     ] {
         let out = run(dir.path(), &case_text(value));
         assert_eq!(out.status.code(), Some(2), "{value}");

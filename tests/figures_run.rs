@@ -4,34 +4,19 @@
 use std::path::Path;
 use std::process::Command;
 
-const CASE: &str = r#"title = "figures"
-[chamber]
-size = ["96 um", "48 um", "32 um"]
-[grid]
-spacing = "2 um"
-[medium]
-model = "darcy"
-viscosity = "1e-3 Pa s"
-permeability = "1e-13 m^2"
-[flow]
-mean_velocity = "1 um/s"
-[boundaries]
-x_min = "inlet"
-x_max = "outlet"
-y_min = "wall"
-y_max = "wall"
-z_min = "symmetry"
-z_max = "symmetry"
-[ligand]
-diffusivity = "1e-10 m^2/s"
-[cells]
-radius = "6 um"
-secretion_rate = "2000 /h"
-uptake = { model = "first_order", rate_constant = "1e-6 m/s" }
-layout = { kind = "random", count = 5, min_gap = "2 um", seed = 5 }
-[sensing]
-decompose = "none"
-"#;
+mod common;
+
+/// The small chamber with smaller cells, five of them, and figures on (`figures`).
+fn case_text(figures: bool) -> String {
+    common::small_chamber(&[
+        ("chamber.size", r#"["96 um", "48 um", "32 um"]"#),
+        ("flow.mean_velocity", r#""1 um/s""#),
+        ("cells.radius", r#""6 um""#),
+        ("cells.layout", r#"{ kind = "random", count = 5, min_gap = "2 um", seed = 5 }"#),
+        ("sensing.decompose", r#""none""#),
+        ("output.figures", if figures { "true" } else { "false" }),
+    ])
+}
 
 const FIGURES: [&str; 4] = [
     "concentration_slice.png",
@@ -56,7 +41,7 @@ fn png_size(path: &Path) -> (u32, u32) {
 fn run_draws_figures_and_plot_redraws_them() {
     let dir = tempfile::tempdir().unwrap();
     let case = dir.path().join("case.toml");
-    std::fs::write(&case, CASE).unwrap();
+    std::fs::write(&case, case_text(true)).unwrap();
     let out = dir.path().join("out");
     let run = plumefield(&["run", case.to_str().unwrap(), "-o", out.to_str().unwrap()]);
     assert!(run.status.success(), "{}", String::from_utf8_lossy(&run.stderr));
@@ -91,7 +76,7 @@ fn run_draws_figures_and_plot_redraws_them() {
 fn figures_false_draws_nothing() {
     let dir = tempfile::tempdir().unwrap();
     let case = dir.path().join("case.toml");
-    std::fs::write(&case, format!("{CASE}[output]\nfigures = false\n")).unwrap();
+    std::fs::write(&case, case_text(false)).unwrap();
     let out = dir.path().join("out");
     let run = plumefield(&["run", case.to_str().unwrap(), "-o", out.to_str().unwrap()]);
     assert!(run.status.success(), "{}", String::from_utf8_lossy(&run.stderr));

@@ -4,51 +4,25 @@
 use std::path::{Path, PathBuf};
 use std::process::{Command, Output};
 
+mod common;
+
 const CONTRACT_COLUMNS: &str = "id,x,y,z,radius,secretion_rate,mean_surface_concentration,bound_rate,anisotropy_x,anisotropy_y,anisotropy_z,anisotropy_along_flow,front_back_contrast,direction_error,drag_x,drag_y,drag_z,local_speed";
 
-fn small_chamber(extra_solve: &str, boundaries: &str) -> String {
-    format!(
-        r#"title = "small test chamber"
-[chamber]
-size = ["96 um", "48 um", "48 um"]
-[grid]
-spacing = "2 um"
-[medium]
-model = "darcy"
-viscosity = "1e-3 Pa s"
-permeability = "1e-13 m^2"
-[flow]
-mean_velocity = "2 um/s"
-[boundaries]
-{boundaries}
-[ligand]
-diffusivity = "1e-10 m^2/s"
-decay_rate = "1e-3 /s"
-inlet_concentration = "1 pM"
-[cells]
-radius = "8 um"
-secretion_rate = "2000 /h"
-uptake = {{ model = "first_order", rate_constant = "1e-6 m/s" }}
-layout = {{ kind = "random", count = 6, min_gap = "2 um", seed = 3 }}
-[solve]
-mode = "steady"
-tolerance = 1e-8
-{extra_solve}
-[sensing]
-integration_time = "1 h"
-[output]
-fields = ["concentration", "velocity", "pressure"]
-figures = false
-"#
-    )
+/// The small chamber with bulk decay, ligand coming in at the inlet and all fields written; `changes` on top.
+fn small_chamber(changes: &[(&str, &str)]) -> String {
+    let mut all = vec![
+        ("ligand.decay_rate", r#""1e-3 /s""#),
+        ("ligand.inlet_concentration", r#""1 pM""#),
+        ("solve.mode", r#""steady""#),
+        ("output.fields", r#"["concentration", "velocity", "pressure"]"#),
+    ];
+    all.extend_from_slice(changes);
+    common::small_chamber(&all)
 }
 
-const INLET_OUTLET: &str = r#"x_min = "inlet"
-x_max = "outlet"
-y_min = "wall"
-y_max = "wall"
-z_min = "periodic"
-z_max = "periodic""#;
+/// Inlet and outlet along x, walls in y, periodic in z.
+const INLET_OUTLET: [(&str, &str); 2] =
+    [("boundaries.z_min", r#""periodic""#), ("boundaries.z_max", r#""periodic""#)];
 
 fn run(case_text: &str, name: &str) -> (PathBuf, Output) {
     let dir = std::env::temp_dir().join(format!("plumefield-e2e-{}-{name}", std::process::id()));
@@ -75,7 +49,7 @@ fn summary_number(summary: &str, path: &[&str]) -> f64 {
 
 #[test]
 fn run_writes_contract_outputs_with_closed_mass_balance() {
-    let (out, output) = run(&small_chamber("", INLET_OUTLET), "ok");
+    let (out, output) = run(&small_chamber(&INLET_OUTLET), "ok");
     let stderr = String::from_utf8_lossy(&output.stderr);
     assert_eq!(output.status.code(), Some(0), "stderr: {stderr}");
     for file in ["cells.csv", "fields.h5", "fields.xmf", "summary.json"] {
@@ -126,7 +100,8 @@ fn run_writes_contract_outputs_with_closed_mass_balance() {
 
 #[test]
 fn solver_failure_exits_1_and_writes_nothing() {
-    let (out, output) = run(&small_chamber("max_iterations = 1", INLET_OUTLET), "fail");
+    let (out, output) =
+        run(&small_chamber(&[&INLET_OUTLET[..], &[("solve.max_iterations", "1")]].concat()), "fail");
     let stderr = String::from_utf8_lossy(&output.stderr);
     assert_eq!(output.status.code(), Some(1), "stderr: {stderr}");
     assert!(stderr.contains("residual"), "the message names the residual reached: {stderr}");
@@ -137,13 +112,16 @@ fn solver_failure_exits_1_and_writes_nothing() {
 
 #[test]
 fn no_flow_far_field_case_runs() {
-    let boundaries = r#"x_min = "far_field"
-x_max = "far_field"
-y_min = "far_field"
-y_max = "far_field"
-z_min = "far_field"
-z_max = "far_field""#;
-    let text = small_chamber("", boundaries).replace(r#"mean_velocity = "2 um/s""#, "mean_velocity = 0");
+    let far = r#""far_field""#;
+    let text = small_chamber(&[
+        ("boundaries.x_min", far),
+        ("boundaries.x_max", far),
+        ("boundaries.y_min", far),
+        ("boundaries.y_max", far),
+        ("boundaries.z_min", far),
+        ("boundaries.z_max", far),
+        ("flow.mean_velocity", "0"),
+    ]);
     let (out, output) = run(&text, "noflow");
     assert_eq!(output.status.code(), Some(0), "stderr: {}", String::from_utf8_lossy(&output.stderr));
     let csv = std::fs::read_to_string(out.join("cells.csv")).expect("cells.csv");

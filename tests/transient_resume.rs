@@ -7,53 +7,30 @@ use std::path::{Path, PathBuf};
 use std::process::{Command, Output, Stdio};
 use std::time::{Duration, Instant};
 
+mod common;
+
 /// Small chamber, fixed steps, a flow change and a late sensing window, so that the resumed part crosses an
 /// event and output times. About 240 steps on a 40×20×10 grid: a second or two.
 fn case_text(end_time: &str) -> String {
-    format!(
-        r#"title = "restart test chamber"
-[chamber]
-size = ["160 um", "80 um", "40 um"]
-[grid]
-spacing = "4 um"
-[medium]
-model = "darcy"
-viscosity = "1e-3 Pa s"
-permeability = "1e-13 m^2"
-[flow]
-mean_velocity = "1 um/s"
-change_at = "5 min"
-mean_velocity_after = "3 um/s"
-[boundaries]
-x_min = "inlet"
-x_max = "outlet"
-y_min = "wall"
-y_max = "wall"
-z_min = "symmetry"
-z_max = "symmetry"
-[ligand]
-diffusivity = "1e-10 m^2/s"
-decay_rate = "1e-4 /s"
-inlet_concentration = 0.0
-[cells]
-radius = "10 um"
-secretion_rate = "2000 /h"
-uptake = {{ model = "first_order", rate_constant = "1e-6 m/s" }}
-layout = {{ kind = "random", count = 5, min_gap = "3 um", seed = 5 }}
-[solve]
-mode = "transient"
-tolerance = 1e-8
-end_time = "{end_time}"
-time_step = "5 s"
-output_every = "1 min"
-[sensing]
-integration_time = "10 min"
-window_start = "2 min"
-[output]
-fields = ["concentration", "velocity", "pressure"]
-figures = false
-"#
-    )
+    let end_time = format!("\"{end_time}\"");
+    common::small_chamber(&[
+        ("chamber.size", r#"["160 um", "80 um", "40 um"]"#),
+        ("grid.spacing", r#""4 um""#),
+        ("flow.mean_velocity", r#""1 um/s""#),
+        ("flow.change_at", r#""5 min""#),
+        ("flow.mean_velocity_after", r#""3 um/s""#),
+        ("ligand.decay_rate", r#""1e-4 /s""#),
+        ("ligand.inlet_concentration", "0.0"),
+        ("cells.radius", r#""10 um""#),
+        ("cells.layout", r#"{ kind = "random", count = 5, min_gap = "3 um", seed = 5 }"#),
+        ("solve.mode", r#""transient""#),
+        ("solve.end_time", &end_time),
+        ("solve.time_step", r#""5 s""#),
+        ("solve.output_every", r#""1 min""#),
+        ("sensing.integration_time", r#""10 min""#),
+        ("sensing.window_start", r#""2 min""#),
+        ("output.fields", r#"["concentration", "velocity", "pressure"]"#),
+    ])
 }
 
 fn folder(name: &str) -> PathBuf {

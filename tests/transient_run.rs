@@ -5,54 +5,34 @@
 use std::path::{Path, PathBuf};
 use std::process::{Command, Output};
 
-/// A small chamber; `solve` holds the `[solve]` keys.
-fn case_text(solve: &str, spacing: &str) -> String {
-    format!(
-        r#"title = "transient test chamber"
-[chamber]
-size = ["120 um", "60 um", "40 um"]
-[grid]
-spacing = "{spacing}"
-[medium]
-model = "darcy"
-viscosity = "1e-3 Pa s"
-permeability = "1e-13 m^2"
-[flow]
-mean_velocity = "2 um/s"
-[boundaries]
-x_min = "inlet"
-x_max = "outlet"
-y_min = "wall"
-y_max = "wall"
-z_min = "symmetry"
-z_max = "symmetry"
-[ligand]
-diffusivity = "1e-10 m^2/s"
-decay_rate = "1e-4 /s"
-inlet_concentration = 0.0
-[cells]
-radius = "10 um"
-secretion_rate = "2000 /h"
-uptake = {{ model = "first_order", rate_constant = "1e-6 m/s" }}
-layout = {{ kind = "random", count = 4, min_gap = "3 um", seed = 2 }}
-[solve]
-tolerance = 1e-8
-{solve}
-[sensing]
-integration_time = "10 min"
-[output]
-fields = ["concentration", "velocity", "pressure"]
-figures = false
-"#
-    )
+mod common;
+
+/// This file's chamber: the small chamber with bigger cells, four of them, bulk decay and a clean inlet;
+/// `changes` on top.
+fn case_text(changes: &[(&str, &str)]) -> String {
+    let mut all = vec![
+        ("chamber.size", r#"["120 um", "60 um", "40 um"]"#),
+        ("grid.spacing", r#""4 um""#),
+        ("ligand.decay_rate", r#""1e-4 /s""#),
+        ("ligand.inlet_concentration", "0.0"),
+        ("cells.radius", r#""10 um""#),
+        ("cells.layout", r#"{ kind = "random", count = 4, min_gap = "3 um", seed = 2 }"#),
+        ("sensing.integration_time", r#""10 min""#),
+        ("output.fields", r#"["concentration", "velocity", "pressure"]"#),
+    ];
+    all.extend_from_slice(changes);
+    common::small_chamber(&all)
 }
 
 const CONTRACT_COLUMNS: &str = "id,x,y,z,radius,secretion_rate,mean_surface_concentration,bound_rate,anisotropy_x,anisotropy_y,anisotropy_z,anisotropy_along_flow,front_back_contrast,direction_error,drag_x,drag_y,drag_z,local_speed";
 
-const TRANSIENT: &str = r#"mode = "transient"
-end_time = "10 min"
-time_step = "10 s"
-output_every = "2 min""#;
+const TRANSIENT: [(&str, &str); 4] = [
+    ("solve.mode", r#""transient""#),
+    ("solve.end_time", r#""10 min""#),
+    ("solve.time_step", r#""10 s""#),
+    ("solve.output_every", r#""2 min""#),
+];
+const STEADY: (&str, &str) = ("solve.mode", r#""steady""#);
 
 fn folder(name: &str) -> PathBuf {
     let dir = std::env::temp_dir().join(format!("plumefield-transient-{}-{name}", std::process::id()));
@@ -91,7 +71,7 @@ fn relative_l2(a: &[f64], b: &[f64]) -> f64 {
 #[test]
 fn transient_outputs_are_read_by_outside_readers() {
     let dir = folder("outputs");
-    let (out, output) = run(&dir, "case.toml", &case_text(TRANSIENT, "4 um"), &[]);
+    let (out, output) = run(&dir, "case.toml", &case_text(&TRANSIENT), &[]);
     let stderr = String::from_utf8_lossy(&output.stderr);
     assert_eq!(output.status.code(), Some(0), "{stderr}");
     for name in ["fields.h5", "fields.xmf", "cells.csv", "cells_timeseries.csv", "summary.json"] {
@@ -162,14 +142,14 @@ fn transient_outputs_are_read_by_outside_readers() {
 #[test]
 fn steady_fields_as_initial_condition_stay_steady_and_stop_early() {
     let dir = folder("initial");
-    let (steady_out, output) = run(&dir, "steady.toml", &case_text("mode = \"steady\"", "4 um"), &[]);
+    let (steady_out, output) = run(&dir, "steady.toml", &case_text(&[STEADY]), &[]);
     assert_eq!(output.status.code(), Some(0), "{}", String::from_utf8_lossy(&output.stderr));
 
-    let solve = format!(
-        "{TRANSIENT}\ninitial_condition = \"{}\"\nstop_at_steady = true",
-        steady_out.join("fields.h5").display()
-    );
-    let (out, output) = run(&dir, "from_steady.toml", &case_text(&solve, "4 um"), &[]);
+    let initial = format!("\"{}\"", steady_out.join("fields.h5").display());
+    let solve =
+        [&TRANSIENT[..], &[("solve.initial_condition", initial.as_str()), ("solve.stop_at_steady", "true")]]
+            .concat();
+    let (out, output) = run(&dir, "from_steady.toml", &case_text(&solve), &[]);
     let stderr = String::from_utf8_lossy(&output.stderr);
     assert_eq!(output.status.code(), Some(0), "{stderr}");
     assert!(stderr.contains("steady state reached"), "{stderr}");
@@ -189,14 +169,13 @@ fn steady_fields_as_initial_condition_stay_steady_and_stop_early() {
 #[test]
 fn brinkman_flow_runs_transient_and_matches_the_steady_run() {
     let dir = folder("brinkman");
-    let brinkman = |solve: &str| {
-        case_text(solve, "4 um")
-            .replace("model = \"darcy\"", "model = \"brinkman\"")
-            .replace("permeability = \"1e-13 m^2\"", "permeability = \"1e-10 m^2\"")
+    let brinkman = |solve: &[(&str, &str)]| {
+        let medium = [("medium.model", r#""brinkman""#), ("medium.permeability", r#""1e-10 m^2""#)];
+        case_text(&[solve, &medium[..]].concat())
     };
-    let (steady_out, output) = run(&dir, "steady.toml", &brinkman("mode = \"steady\""), &[]);
+    let (steady_out, output) = run(&dir, "steady.toml", &brinkman(&[STEADY]), &[]);
     assert_eq!(output.status.code(), Some(0), "{}", String::from_utf8_lossy(&output.stderr));
-    let (out, output) = run(&dir, "transient.toml", &brinkman(TRANSIENT), &[]);
+    let (out, output) = run(&dir, "transient.toml", &brinkman(&TRANSIENT), &[]);
     assert_eq!(output.status.code(), Some(0), "{}", String::from_utf8_lossy(&output.stderr));
     let steady = read(&steady_out.join("fields.h5"), "ligand/concentration");
     let reference = read(&out.join("fields.h5"), "ligand/steady_concentration");
@@ -220,23 +199,25 @@ fn brinkman_flow_runs_transient_and_matches_the_steady_run() {
 fn transient_input_errors_exit_2_with_the_name() {
     let dir = folder("errors");
     // Missing initial-condition file.
-    let solve = format!("{TRANSIENT}\ninitial_condition = \"nowhere/fields.h5\"");
-    let (_, output) = run(&dir, "missing.toml", &case_text(&solve, "4 um"), &[]);
+    let solve = [&TRANSIENT[..], &[("solve.initial_condition", r#""nowhere/fields.h5""#)]].concat();
+    let (_, output) = run(&dir, "missing.toml", &case_text(&solve), &[]);
     let stderr = String::from_utf8_lossy(&output.stderr);
     assert_eq!(output.status.code(), Some(2), "{stderr}");
     assert!(stderr.contains("nowhere/fields.h5") && stderr.contains("initial_condition"), "{stderr}");
 
     // A fields.h5 of another grid.
-    let (other, output) = run(&dir, "coarse.toml", &case_text("mode = \"steady\"", "2.5 um"), &[]);
+    let (other, output) =
+        run(&dir, "coarse.toml", &case_text(&[STEADY, ("grid.spacing", r#""2.5 um""#)]), &[]);
     assert_eq!(output.status.code(), Some(0), "{}", String::from_utf8_lossy(&output.stderr));
-    let solve = format!("{TRANSIENT}\ninitial_condition = \"{}\"", other.join("fields.h5").display());
-    let (_, output) = run(&dir, "mismatch.toml", &case_text(&solve, "4 um"), &[]);
+    let initial = format!("\"{}\"", other.join("fields.h5").display());
+    let solve = [&TRANSIENT[..], &[("solve.initial_condition", initial.as_str())]].concat();
+    let (_, output) = run(&dir, "mismatch.toml", &case_text(&solve), &[]);
     let stderr = String::from_utf8_lossy(&output.stderr);
     assert_eq!(output.status.code(), Some(2), "{stderr}");
     assert!(stderr.contains("grid") && stderr.contains("differs"), "{stderr}");
 
     // Restart options on a steady case.
-    let (_, output) = run(&dir, "steady.toml", &case_text("mode = \"steady\"", "4 um"), &["--resume"]);
+    let (_, output) = run(&dir, "steady.toml", &case_text(&[STEADY]), &["--resume"]);
     assert_eq!(output.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&output.stderr).contains("transient"));
 }
