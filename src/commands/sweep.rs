@@ -101,10 +101,13 @@ struct Checked {
     cells: usize,
 }
 
-/// Validate the cases `indices` and forecast each (errors name the axis; exit code 2).
+/// Validate the cases `indices` and forecast each (errors name the axis; exit code 2). Cases are parsed on
+/// all cores (a sweep's start-up is serial time before its first case); the first error in plan order is
+/// reported.
 fn validate(plan: &Plan, indices: &[usize]) -> Result<Vec<Checked>> {
-    indices
-        .iter()
+    use rayon::prelude::*;
+    let checked: Vec<Result<Checked>> = indices
+        .par_iter()
         .map(|&index| {
             let case = plan.parse_case(index).map_err(input)?;
             Ok(Checked {
@@ -114,7 +117,8 @@ fn validate(plan: &Plan, indices: &[usize]) -> Result<Vec<Checked>> {
                 cells: case.layout.cells.len(),
             })
         })
-        .collect()
+        .collect();
+    checked.into_iter().collect()
 }
 
 pub fn execute(options: &SweepOptions) -> Result<()> {
@@ -323,6 +327,13 @@ fn lock(dir: &Path, purpose: &str) -> Result<SweepLock> {
 }
 
 fn run_locally(plan: &Plan, dir: &Path, options: &SweepOptions) -> Result<()> {
+    // What every case needs once per process — the git revision stamped into the outputs (a `git` child
+    // process) and the HDF5 library's set-up — is done beside the case checks, not inside the first cases,
+    // whose jobs would otherwise wait for it one after the other.
+    let warm_up = std::thread::spawn(|| {
+        crate::io::git_revision();
+        hdf5::sync::sync(|| ());
+    });
     let checked = validate(plan, &cases_to_run(plan, dir))?;
     std::fs::create_dir_all(dir)
         .with_context(|| format!("cannot create the sweep folder {}", dir.display()))?;
@@ -351,6 +362,8 @@ fn run_locally(plan: &Plan, dir: &Path, options: &SweepOptions) -> Result<()> {
         if params.threads_per_job == 1 { "" } else { "s" },
         dir.display()
     );
+    // Nothing to report: a panic in the warm-up would recur, and be recorded, in the first case.
+    let _ = warm_up.join();
     let counter = std::sync::atomic::AtomicUsize::new(0);
     let total = todo.len();
     let summary = run_cases(plan, dir, &todo, params, &|event| match event {
