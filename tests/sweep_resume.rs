@@ -97,9 +97,10 @@ fn killed_and_interrupted_sweeps_resume_without_repeating_work() {
     assert_eq!(resumed, fresh, "the resumed sweep's table differs from an uninterrupted run's");
 }
 
-/// A local sweep writes its cases' outputs without `fsync` and syncs only the done marker, which records the
-/// boot. A power cut can leave such a marker beside outputs of the right size but lost contents; the next
-/// boot's sweep must then check the outputs' SHA-256s and run the damaged case again, and only that case.
+/// A local sweep writes its cases' outputs and done markers without `fsync`; the marker records the boot. A
+/// power cut can leave a marker beside outputs of the right size but lost contents, or a marker whose own
+/// contents were lost; the next boot's sweep must then check the outputs' SHA-256s and run the damaged cases
+/// again, and only those.
 #[cfg(target_os = "linux")]
 #[test]
 fn unsynced_outputs_damaged_by_a_crash_are_run_again_after_reboot() {
@@ -122,9 +123,10 @@ fn unsynced_outputs_damaged_by_a_crash_are_run_again_after_reboot() {
         assert_case_intact(&case_dir(i));
         assert_eq!(marker(i)["unsynced_boot_id"], this_boot.as_str(), "case {i}");
     }
-    // As after a power cut and reboot: markers written in an earlier boot; case 1's cells.csv kept its size
-    // but lost its contents (zeros, as delayed allocation can leave), the others survived.
-    for i in 0..3 {
+    // As after a power cut and reboot: markers written in an earlier boot; case 1's cells.csv and case 2's
+    // done.json kept their sizes but lost their contents (zeros, as delayed allocation can leave); case 0
+    // survived whole.
+    for i in 0..2 {
         let mut m = marker(i);
         m["unsynced_boot_id"] = "an earlier boot".into();
         std::fs::write(case_dir(i).join("done.json"), serde_json::to_vec_pretty(&m).unwrap()).unwrap();
@@ -132,14 +134,20 @@ fn unsynced_outputs_damaged_by_a_crash_are_run_again_after_reboot() {
     let cells = case_dir(1).join("cells.csv");
     let size = std::fs::metadata(&cells).unwrap().len() as usize;
     std::fs::write(&cells, vec![0u8; size]).unwrap();
+    let done_2 = case_dir(2).join("done.json");
+    let size = std::fs::metadata(&done_2).unwrap().len() as usize;
+    std::fs::write(&done_2, vec![0u8; size]).unwrap();
 
     let out = pf(&args);
     assert_eq!(out.status.code(), Some(0), "{}", show(&out));
     let stderr = text(&out.stderr);
-    assert!(stderr.contains("2 already done, 1 to run"), "{stderr}");
-    assert!(stderr.contains("case-0001 done in"), "{stderr}");
-    assert_case_intact(&case_dir(1));
-    assert_eq!(marker(1)["unsynced_boot_id"], this_boot.as_str());
+    assert!(stderr.contains("1 already done, 2 to run"), "{stderr}");
+    assert!(!stderr.contains("case-0000 done in"), "{stderr}");
+    for i in 1..3 {
+        assert!(stderr.contains(&format!("case-{i:04} done in")), "{stderr}");
+        assert_case_intact(&case_dir(i));
+        assert_eq!(marker(i)["unsynced_boot_id"], this_boot.as_str());
+    }
     assert_eq!(std::fs::read_to_string(out_dir.join("sweep.csv")).unwrap(), table);
 }
 

@@ -10,6 +10,7 @@ use crate::exit::{one_line, InputError, SolverFailure};
 use crate::sweep::done_marker::{case_state, write_failed, CaseState};
 use crate::sweep::forecast::{format_bytes, format_seconds, Forecast};
 use crate::sweep::lock::{LockError, SweepLock};
+use crate::sweep::memory_reuse;
 use crate::sweep::plan_record::PlanRecord;
 use crate::sweep::run_local::{
     cases_to_run, longest_first, run_case, run_cases, CaseEvent, LocalRunParams, OutputSync,
@@ -327,6 +328,8 @@ fn lock(dir: &Path, purpose: &str) -> Result<SweepLock> {
 }
 
 fn run_locally(plan: &Plan, dir: &Path, options: &SweepOptions) -> Result<()> {
+    // Many cases in one process: freed arrays are kept for the next case instead of being unmapped.
+    memory_reuse::keep_freed_memory();
     // What every case needs once per process — the git revision stamped into the outputs (a `git` child
     // process) and the HDF5 library's set-up — is done beside the case checks, not inside the first cases,
     // whose jobs would otherwise wait for it one after the other.

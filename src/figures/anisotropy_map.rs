@@ -8,7 +8,7 @@ use plotters::prelude::*;
 
 use super::concentration_slice::arrow;
 use super::run_data::RunFigureData;
-use super::style::{drawing, register_fonts, tick, write_png_atomically, FONT};
+use super::style::{drawing, register_fonts, tick, write_png, FONT};
 
 pub fn draw(data: &RunFigureData, path: &Path) -> anyhow::Result<()> {
     register_fonts();
@@ -23,11 +23,10 @@ pub fn draw(data: &RunFigureData, path: &Path) -> anyhow::Result<()> {
     let reference = magnitudes.get((magnitudes.len() * 3) / 4).copied().unwrap_or(0.0);
     let radius = data.cells.first().map_or(1e-5, |c| c.radius) * um;
     let scale = if reference > 0.0 { 1.5 * radius / reference } else { 0.0 };
-    write_png_atomically(path, |tmp| {
-        let root = BitMapBackend::new(tmp, (width, height)).into_drawing_area();
+    write_png(path, (width, height), |root| {
         drawing(root.fill(&WHITE))?;
         let mut chart = drawing(
-            ChartBuilder::on(&root)
+            ChartBuilder::on(root)
                 .caption("Anisotropy of the sensed flux per cell (x–y projection)", (FONT, 20))
                 .margin(12)
                 .x_label_area_size(45)

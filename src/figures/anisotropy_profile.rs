@@ -7,7 +7,7 @@ use std::path::Path;
 use plotters::prelude::*;
 
 use super::run_data::RunFigureData;
-use super::style::{drawing, register_fonts, tick, write_png_atomically, FONT};
+use super::style::{drawing, register_fonts, tick, write_png, FONT};
 
 pub fn draw(data: &RunFigureData, path: &Path) -> anyhow::Result<()> {
     register_fonts();
@@ -29,11 +29,10 @@ pub fn draw(data: &RunFigureData, path: &Path) -> anyhow::Result<()> {
     let (lo, hi) = (pick(0.01).min(0.0), pick(0.99).max(0.0));
     let pad = 0.08 * (hi - lo).max(1e-12);
     let (lo, hi) = (lo - pad, hi + pad);
-    write_png_atomically(path, |tmp| {
-        let root = BitMapBackend::new(tmp, (1000, 620)).into_drawing_area();
+    write_png(path, (1000, 620), |root| {
         drawing(root.fill(&WHITE))?;
         let mut chart = drawing(
-            ChartBuilder::on(&root)
+            ChartBuilder::on(root)
                 .caption("Anisotropy along the flow against downstream position", (FONT, 20))
                 .margin(14)
                 .x_label_area_size(48)

@@ -13,7 +13,7 @@ use std::path::Path;
 use anyhow::{anyhow, Context};
 use plotters::prelude::*;
 
-use super::style::{drawing, register_fonts, viridis, write_png_atomically, FONT};
+use super::style::{drawing, register_fonts, viridis, write_png, FONT};
 
 /// Whether the run folder holds a transient run (`summary.json` → `solve_mode`).
 pub fn is_transient(dir: &Path) -> bool {
@@ -198,11 +198,10 @@ pub fn draw(dir: &Path, path: &Path) -> anyhow::Result<()> {
     let guide = RGBColor(120, 120, 120);
     let flow_colour = RGBColor(200, 30, 30);
     let window_colour = RGBColor(90, 90, 90);
-    write_png_atomically(path, |tmp| {
-        let root = BitMapBackend::new(tmp, (1000, 600)).into_drawing_area();
+    write_png(path, (1000, 600), |root| {
         drawing(root.fill(&WHITE))?;
         let mut chart = drawing(
-            ChartBuilder::on(&root)
+            ChartBuilder::on(root)
                 .caption(format!("Approach to steady state: {}", data.title), (FONT, 20))
                 .margin(14)
                 .x_label_area_size(48)

@@ -7,7 +7,7 @@ use std::path::Path;
 use plotters::prelude::*;
 
 use super::run_data::{MidPlane, RunFigureData};
-use super::style::{drawing, register_fonts, tick, viridis, write_png_atomically, FONT};
+use super::style::{drawing, register_fonts, tick, viridis, write_png, FONT};
 
 /// Arrows across the chamber length.
 const ARROWS_ALONG_X: usize = 16;
@@ -25,8 +25,7 @@ pub fn draw(data: &RunFigureData, path: &Path) -> anyhow::Result<()> {
     let lo = finite.iter().copied().fold(f64::INFINITY, f64::min);
     let hi = finite.iter().copied().fold(f64::NEG_INFINITY, f64::max);
     let (lo, hi) = if lo < hi { (lo, hi) } else { (lo, lo + 1.0) };
-    write_png_atomically(path, |tmp| {
-        let root = BitMapBackend::new(tmp, (width, height)).into_drawing_area();
+    write_png(path, (width, height), |root| {
         drawing(root.fill(&WHITE))?;
         let (main, bar) = root.split_horizontally(width - 150);
         let mut chart = drawing(

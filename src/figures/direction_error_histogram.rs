@@ -6,7 +6,7 @@ use std::path::Path;
 use plotters::prelude::*;
 
 use super::run_data::RunFigureData;
-use super::style::{drawing, register_fonts, write_png_atomically, FONT};
+use super::style::{drawing, register_fonts, write_png, FONT};
 
 const BINS: usize = 30;
 
@@ -35,11 +35,10 @@ pub fn draw(data: &RunFigureData, path: &Path) -> anyhow::Result<()> {
     let top = counts.iter().copied().max().unwrap_or(0).max(1) as f64 * 1.15;
     let below = logs.iter().filter(|&&v| v < 0.0).count();
     let time = data.integration_time.map_or(String::new(), |t| format!(" over {:.3} h", t / 3600.0));
-    write_png_atomically(path, |tmp| {
-        let root = BitMapBackend::new(tmp, (1000, 600)).into_drawing_area();
+    write_png(path, (1000, 600), |root| {
         drawing(root.fill(&WHITE))?;
         let mut chart = drawing(
-            ChartBuilder::on(&root)
+            ChartBuilder::on(root)
                 .caption(format!("Direction error per cell{time}"), (FONT, 20))
                 .margin(14)
                 .x_label_area_size(48)

@@ -6,8 +6,13 @@ use std::path::Path;
 use std::sync::Once;
 
 use anyhow::{anyhow, Context};
+use plotters::coord::Shift;
+use plotters::prelude::{BitMapBackend, DrawingArea, IntoDrawingArea};
 use plotters::style::colors::colormaps::ViridisRGB;
 use plotters::style::{FontStyle, RGBColor};
+
+use crate::io::atomic::without_fsync;
+use crate::io::write_atomic;
 
 /// Font family name registered for all figure text.
 pub const FONT: &str = "sans-serif";
@@ -31,20 +36,40 @@ pub fn drawing<T, E: std::fmt::Display>(result: Result<T, E>) -> anyhow::Result<
     result.map_err(|e| anyhow!("cannot draw the figure: {e}"))
 }
 
-/// Draws into `<stem>.tmp.png` beside `path` with `draw`, then renames it to `path`, so an interrupted run
-/// never leaves a half-drawn figure under the final name.
-pub fn write_png_atomically(
+/// A figure being drawn: plotters' bitmap backend over an in-memory RGB buffer.
+pub type Figure<'a> = DrawingArea<BitMapBackend<'a>, Shift>;
+
+/// Draws a figure of `size` (width, height) pixels with `draw` in memory, encodes it as PNG and writes it to
+/// `path` atomically (temporary file renamed into place), so an interrupted run never leaves a half-drawn
+/// figure under the final name. Figures are not synced to disk: they are drawn again from the tables.
+///
+/// Encoded here rather than by plotters (which saves through the `image` crate with adaptive row filters and
+/// default deflate): the fixed Paeth filter with fast deflate gives files of the same size in less time. On
+/// the 16 figures of a 24-case sweep: 2.7 MB either way, `collect` 97 → 72 ms of CPU (measured; the Sub and
+/// Up filters gave 2.6–2.9× larger files, default deflate 4× smaller files at twice the CPU).
+pub fn write_png(
     path: &Path,
-    draw: impl FnOnce(&Path) -> anyhow::Result<()>,
+    size: (u32, u32),
+    draw: impl FnOnce(&Figure) -> anyhow::Result<()>,
 ) -> anyhow::Result<()> {
-    let stem = path.file_stem().and_then(|s| s.to_str()).unwrap_or("figure");
-    let temporary = path.with_file_name(format!("{stem}.tmp.png"));
-    let result = draw(&temporary);
-    if let Err(e) = result {
-        let _ = std::fs::remove_file(&temporary);
-        return Err(e);
+    let mut pixels = vec![0u8; 3 * size.0 as usize * size.1 as usize];
+    {
+        let root = BitMapBackend::with_buffer(&mut pixels, size).into_drawing_area();
+        draw(&root)?;
+        drawing(root.present())?;
     }
-    std::fs::rename(&temporary, path).with_context(|| format!("cannot write {}", path.display()))
+    let mut encoded = Vec::with_capacity(pixels.len() / 8);
+    let mut encoder = png::Encoder::new(&mut encoded, size.0, size.1);
+    encoder.set_color(png::ColorType::Rgb);
+    encoder.set_depth(png::BitDepth::Eight);
+    encoder.set_compression(png::Compression::Fast);
+    encoder.set_filter(png::FilterType::Paeth);
+    encoder.set_adaptive_filter(png::AdaptiveFilterType::NonAdaptive);
+    let encoding = |e: png::EncodingError| anyhow!("cannot encode {} as PNG: {e}", path.display());
+    let mut writer = encoder.write_header().map_err(encoding)?;
+    writer.write_image_data(&pixels).map_err(encoding)?;
+    writer.finish().map_err(encoding)?;
+    without_fsync(|| write_atomic(path, &encoded)).with_context(|| format!("cannot write {}", path.display()))
 }
 
 /// Compact number for axis ticks: plain for moderate magnitudes, otherwise scientific with 2 digits.

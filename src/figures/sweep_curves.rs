@@ -9,6 +9,7 @@ use anyhow::{Context, Result};
 use plotters::prelude::*;
 use rayon::prelude::*;
 
+use super::style::{register_fonts, write_png, FONT};
 use crate::sweep::axis::Scale;
 use crate::sweep::collect::{ColumnData, ColumnRole, SweepTable};
 use crate::sweep::plan_record::PlanRecord;
@@ -22,15 +23,6 @@ const PLOTTED_METRICS: [&str; 4] = [
 ];
 
 const SIZE: (u32, u32) = (800, 560);
-const FONT: &str = "sans-serif";
-
-fn register_font() {
-    static ONCE: std::sync::Once = std::sync::Once::new();
-    ONCE.call_once(|| {
-        // DejaVu Sans ships inside the `dejavu` crate, so figures need no system fonts.
-        let _ = plotters::style::register_font(FONT, FontStyle::Normal, dejavu::sans::regular());
-    });
-}
 
 /// One curve to draw: y (and optional p10/p90) against a parameter.
 struct Metric<'a> {
@@ -74,7 +66,7 @@ pub fn draw_sweep_curves(table: &SweepTable, plan: &PlanRecord, out_dir: &Path) 
         return Ok(Vec::new());
     }
     std::fs::create_dir_all(out_dir).with_context(|| format!("cannot create {}", out_dir.display()))?;
-    register_font();
+    register_fonts();
     let mut figures = Vec::new();
     for &(a, x) in &parameters {
         // Series: cases with equal values on every other non-replicate axis.
@@ -143,15 +135,11 @@ fn draw_one(
     let (x0, x1) = padded(rows.iter().map(|&r| tx(x[r])));
     let (y0, y1) = padded(y_values.into_iter());
 
-    // Plotters writes the PNG by its extension, so the temporary name ends in .png too; renamed when complete.
-    let name = file.file_name().map(|n| n.to_string_lossy().into_owned()).unwrap_or_default();
-    let temp = file.with_file_name(format!(".{}.{}.png", name, std::process::id()));
-    let result = (|| -> Result<()> {
-        let root = BitMapBackend::new(&temp, SIZE).into_drawing_area();
+    write_png(file, SIZE, |root| {
         root.fill(&WHITE)?;
         let label =
             |n: &str, u: &str| if u.is_empty() || u == "1" { n.to_string() } else { format!("{n} [{u}]") };
-        let mut chart = ChartBuilder::on(&root)
+        let mut chart = ChartBuilder::on(root)
             .caption(format!("{} vs {}", metric.name, x_name), (FONT, 20))
             .margin(12)
             .x_label_area_size(45)
@@ -205,18 +193,8 @@ fn draw_one(
                 .label_font((FONT, 12))
                 .draw()?;
         }
-        root.present()?;
         Ok(())
-    })();
-    match result {
-        Ok(()) => {
-            std::fs::rename(&temp, file).with_context(|| format!("cannot move {} into place", temp.display()))
-        }
-        Err(e) => {
-            let _ = std::fs::remove_file(&temp);
-            Err(e)
-        }
-    }
+    })
 }
 
 /// The range of `values` padded by 5% (or ±1 around a single value; 0..1 when there is none).

@@ -5,14 +5,15 @@
 //!
 //! A case that fails gets `failed.json` (the error sentence) instead; it is retried on the next run.
 //!
-//! The outputs of a local sweep's case are written without `fsync` (`io::atomic::without_fsync`); only
-//! `done.json` is synced, after them. That is safe because of what the marker records: the SHA-256 of every
+//! The outputs of a local sweep's case, and its `done.json`, are written without `fsync`
+//! (`io::atomic::without_fsync`). That is safe because of what the marker records: the SHA-256 of every
 //! output and the boot id of the machine that wrote them (`unsynced_boot_id`). A killed process cannot lose
 //! written data (it stays in the kernel's page cache), so within the same boot the size check above still
-//! decides. Only a kernel crash or power cut can leave a synced marker beside lost or zero-filled outputs,
-//! and both change the boot id: a marker from another boot (or read on another machine) is therefore checked
-//! against the outputs' SHA-256s, and a mismatch makes the case run again. A marker without the field
-//! (outputs synced one by one, e.g. by a Slurm task) needs only the size check.
+//! decides. Only a kernel crash or power cut can lose or zero-fill unsynced files, and both change the boot
+//! id. What such a crash can leave is then one of: no marker, or an unreadable one (the case runs again), or
+//! a marker from another boot, which is checked against the outputs' SHA-256s (a mismatch makes the case run
+//! again). The marker itself therefore needs no sync either. A marker without the field (outputs and marker
+//! synced one by one, e.g. by a Slurm task) needs only the size check.
 
 use std::fs;
 use std::io::Read;

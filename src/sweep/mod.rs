@@ -13,6 +13,7 @@ pub mod error;
 pub mod expand;
 pub mod forecast;
 pub mod lock;
+pub mod memory_reuse;
 pub mod plan_record;
 pub mod run_local;
 pub mod slurm;

@@ -54,10 +54,10 @@ pub enum OutputSync {
     /// Each output synced as it is written, like `run` does (a Slurm task: its outputs are collected later,
     /// maybe on another machine).
     EachFile,
-    /// Outputs left to the page cache; the done marker, synced after them, records this boot so that a marker
-    /// found after a crash is checked against the outputs' SHA-256s (see `done_marker`). Falls back to
-    /// `EachFile` where the machine has no boot id.
-    MarkerOnly,
+    /// Outputs and done marker left to the page cache, nothing synced: the marker, written last, records this
+    /// boot, so that a marker found after a crash is checked against the outputs' SHA-256s (see
+    /// `done_marker`). Falls back to `EachFile` where the machine has no boot id.
+    CheckedByMarker,
 }
 
 /// Order `indices` longest case first by `seconds` (ties keep their order), so that the cases left at the
@@ -92,8 +92,8 @@ pub fn cases_to_run(plan: &Plan, dir: &Path) -> Vec<usize> {
         .collect()
 }
 
-/// Run the cases `indices` of `plan` into `dir`, in that order, `params.jobs` at a time (their outputs synced
-/// only through the done marker); `on_event` is called from the job threads as cases start, finish or fail.
+/// Run the cases `indices` of `plan` into `dir`, in that order, `params.jobs` at a time (their outputs
+/// unsynced, checked through the done marker); `on_event` is called from the job threads as cases start, finish or fail.
 pub fn run_cases(
     plan: &Plan,
     dir: &Path,
@@ -114,7 +114,7 @@ pub fn run_cases(
                     on_event(CaseEvent::Started { index });
                     let outcome = match &pool {
                         Ok(pool) => pool.install(|| {
-                            run_case(plan, dir, index, params.threads_per_job, OutputSync::MarkerOnly)
+                            run_case(plan, dir, index, params.threads_per_job, OutputSync::CheckedByMarker)
                         }),
                         Err(e) => {
                             Err(failure(plan, index, "io", format!("cannot start worker threads: {e}")))
@@ -148,7 +148,7 @@ fn failure(plan: &Plan, index: usize, kind: &str, error: String) -> FailureRecor
 }
 
 /// Run one case into `DIR/cases/<id>/` on the current rayon pool: empty the folder, write `case.toml`, solve,
-/// write the outputs, then `done.json` last (always synced). A panic inside the solver is caught and recorded
+/// write the outputs, then `done.json` last (synced as the outputs are: see [`OutputSync`]). A panic inside the solver is caught and recorded
 /// as a failure.
 pub fn run_case(
     plan: &Plan,
@@ -159,11 +159,12 @@ pub fn run_case(
 ) -> Result<DoneMarker, FailureRecord> {
     let started = Instant::now();
     let unsynced_boot_id = match sync {
-        OutputSync::MarkerOnly => boot_id(),
+        OutputSync::CheckedByMarker => boot_id(),
         OutputSync::EachFile => None,
     };
+    let unsynced = unsynced_boot_id.is_some();
     let write = |f: &mut dyn FnMut() -> Result<(), FailureRecord>| {
-        if unsynced_boot_id.is_some() {
+        if unsynced {
             without_fsync(f)
         } else {
             f()
@@ -239,7 +240,7 @@ pub fn run_case(
         unsynced_boot_id,
         outputs,
     };
-    write_done(&case_dir, &marker).map_err(|e| io_failure("cannot write done.json in", &e))?;
+    write(&mut || write_done(&case_dir, &marker).map_err(|e| io_failure("cannot write done.json in", &e)))?;
     Ok(marker)
 }
 
