@@ -445,8 +445,12 @@ fn write_outputs(
         timeseries: &series,
         provenance: &provenance,
     };
-    write_transient_fields_h5(&out_dir.join("fields.h5"), &file, &mut |i| {
-        Ok(read_part(out_dir, &case.sha256, outputs[i].index, cells, grid_len)?.concentration)
+    // One hold of HDF5's process-wide lock for the whole file, as `report.rs` does for steady runs: transient
+    // cases of a sweep writing at once take turns file by file instead of alternating call by call.
+    hdf5::sync::sync(|| {
+        write_transient_fields_h5(&out_dir.join("fields.h5"), &file, &mut |i| {
+            Ok(read_part(out_dir, &case.sha256, outputs[i].index, cells, grid_len)?.concentration)
+        })
     })?;
     let has = |f: OutputField| case.output.fields.contains(&f);
     let steps: Vec<TemporalGrid> = outputs
