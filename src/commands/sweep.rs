@@ -13,7 +13,8 @@ use crate::sweep::lock::{LockError, SweepLock};
 use crate::sweep::memory_reuse;
 use crate::sweep::plan_record::PlanRecord;
 use crate::sweep::run_local::{
-    cases_to_run, longest_first, run_case, run_cases, CaseEvent, LocalRunParams, OutputSync,
+    cases_to_run, cases_to_run_settling_markers, longest_first, run_case, run_cases, CaseEvent,
+    LocalRunParams, OutputSync,
 };
 use crate::sweep::slurm::{self, SlurmParams};
 use crate::sweep::{Plan, SweepError, SweepFile};
@@ -342,7 +343,7 @@ fn run_locally(plan: &Plan, dir: &Path, options: &SweepOptions) -> Result<()> {
         .with_context(|| format!("cannot create the sweep folder {}", dir.display()))?;
     let _lock = lock(dir, "a local sweep")?;
     // Under the lock: what is done now (another sweep may have finished cases since the check above).
-    let mut todo = cases_to_run(plan, dir);
+    let mut todo = cases_to_run_settling_markers(plan, dir);
     // `checked` is in index order (from `cases_to_run`).
     let forecast_s = |index: usize| {
         checked

@@ -92,8 +92,7 @@ pub fn case_state(case_dir: &Path, case_sha256: &str) -> CaseState {
                 return CaseState::NotDone { reason: "the case changed since it ran".into() }
             }
             Ok(marker) => {
-                let deep = marker.unsynced_boot_id.as_ref().is_some_and(|id| Some(id) != boot_id().as_ref());
-                return match check_outputs(case_dir, &marker, deep) {
+                return match check_outputs(case_dir, &marker, from_another_boot(&marker)) {
                     Ok(()) => CaseState::Done(marker),
                     Err(reason) => CaseState::NotDone { reason },
                 };
@@ -213,6 +212,24 @@ pub fn write_done(case_dir: &Path, marker: &DoneMarker) -> std::io::Result<()> {
         Err(e) if e.kind() != std::io::ErrorKind::NotFound => Err(e),
         _ => Ok(()),
     }
+}
+
+/// For a marker from another boot whose outputs just passed the SHA-256 check ([`case_state`]): sync the
+/// outputs (they were read back intact, and the sync also flushes a disk's own write cache), then rewrite the
+/// marker, synced, without the boot id, so later sweeps and collects need only the size check again instead
+/// of hashing every output after each reboot. Returns the new marker.
+pub fn mark_outputs_durable(case_dir: &Path, marker: &DoneMarker) -> std::io::Result<DoneMarker> {
+    for output in &marker.outputs {
+        fs::File::open(case_dir.join(&output.file))?.sync_all()?;
+    }
+    let durable = DoneMarker { unsynced_boot_id: None, ..marker.clone() };
+    write_done(case_dir, &durable)?;
+    Ok(durable)
+}
+
+/// Whether `marker` came from another boot with unsynced outputs (so [`case_state`] checks their SHA-256s).
+pub fn from_another_boot(marker: &DoneMarker) -> bool {
+    marker.unsynced_boot_id.as_ref().is_some_and(|id| Some(id) != boot_id().as_ref())
 }
 
 /// Write `failed.json` atomically.

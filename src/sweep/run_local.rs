@@ -17,8 +17,8 @@ use std::sync::Mutex;
 use std::time::Instant;
 
 use super::done_marker::{
-    boot_id, case_state, record_outputs, write_done, write_failed, CaseState, DoneMarker, FailureRecord,
-    CASE_FILE,
+    boot_id, case_state, from_another_boot, mark_outputs_durable, record_outputs, write_done, write_failed,
+    CaseState, DoneMarker, FailureRecord, CASE_FILE,
 };
 use super::expand::Plan;
 use super::thread_time::current_pool;
@@ -92,8 +92,30 @@ pub fn cases_to_run(plan: &Plan, dir: &Path) -> Vec<usize> {
         .collect()
 }
 
+/// [`cases_to_run`], for a sweep that holds `DIR/sweep.lock`: also settles each done case whose marker came
+/// from another boot (its outputs have just passed the SHA-256 check) with
+/// [`mark_outputs_durable`](super::done_marker::mark_outputs_durable), so that later runs check sizes only.
+/// Best effort: a case that cannot be settled is simply checked again next time.
+pub fn cases_to_run_settling_markers(plan: &Plan, dir: &Path) -> Vec<usize> {
+    (0..plan.cases.len())
+        .filter(|&i| {
+            let case_dir = plan.case_dir(dir, i);
+            match case_state(&case_dir, &plan.cases[i].sha256) {
+                CaseState::Done(marker) => {
+                    if from_another_boot(&marker) {
+                        let _ = mark_outputs_durable(&case_dir, &marker);
+                    }
+                    false
+                }
+                _ => true,
+            }
+        })
+        .collect()
+}
+
 /// Run the cases `indices` of `plan` into `dir`, in that order, `params.jobs` at a time (their outputs
-/// unsynced, checked through the done marker); `on_event` is called from the job threads as cases start, finish or fail.
+/// unsynced, checked through the done marker); `on_event` is called from the job threads as cases start,
+/// finish or fail.
 pub fn run_cases(
     plan: &Plan,
     dir: &Path,
