@@ -1,43 +1,14 @@
-//! Shared helpers of the sweep end-to-end tests: a tiny base case, sweep files in a temporary folder, and
-//! the real binary.
+//! Shared helpers of the sweep end-to-end tests: the tiny example base case, sweep files in a temporary
+//! folder, and the real binary.
 
 #![allow(dead_code)]
 
 use std::path::{Path, PathBuf};
 use std::process::{Command, Output};
 
-/// A 48 × 24 × 16 grid with six cells: about a tenth of a second per case.
-pub const BASE: &str = r#"
-title = "tiny sweep test chamber"
-[chamber]
-size = ["120 um", "60 um", "40 um"]
-[grid]
-spacing = "2.5 um"
-[medium]
-model = "darcy"
-viscosity = "1e-3 Pa s"
-permeability = "1e-13 m^2"
-[flow]
-mean_velocity = "1 um/s"
-[boundaries]
-x_min = "inlet"
-x_max = "outlet"
-y_min = "wall"
-y_max = "wall"
-z_min = "symmetry"
-z_max = "symmetry"
-[ligand]
-diffusivity = "1e-10 m^2/s"
-decay_rate = "1e-4 /s"
-[cells]
-radius = "8 um"
-secretion_rate = "2000 /h"
-uptake = { model = "first_order", rate_constant = "1e-6 m/s" }
-layout = { kind = "random", count = 6, min_gap = "2 um", seed = 7 }
-[output]
-fields = ["concentration"]
-figures = false
-"#;
+/// The example sweeps' base case (a 48 × 24 × 16 grid with six cells: about a tenth of a second per case), the
+/// one `scripts/bench_sweep` uses too.
+pub const BASE: &str = include_str!("../../cases/tiny_sweep_base.toml");
 
 pub fn binary() -> PathBuf {
     PathBuf::from(env!("CARGO_BIN_EXE_plumefield"))
