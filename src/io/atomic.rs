@@ -9,8 +9,8 @@
 //! The `fsync`s make each file durable on its own. A caller that has another proof of completeness may skip
 //! them for a stretch of writes ([`without_fsync`]): the cases of a local sweep do, because a case counts as
 //! done only through its done marker (written after the outputs, holding their SHA-256s and the boot id, so
-//! that a crash is caught on the next boot; see `sweep::done_marker`). The rename stays, so a killed process still never leaves a half-written file in
-//! place.
+//! that a crash is caught on the next boot; see `sweep::done_marker`). The rename stays, so a killed process
+//! still never leaves a half-written file in place.
 
 use std::cell::Cell;
 use std::fs;
@@ -25,9 +25,9 @@ thread_local! {
 
 /// Runs `f` with the atomic writes made on this thread renamed into place without their `fsync`s (of the file
 /// and of its directory). Only for outputs whose completeness something checked after a crash vouches for (a
-/// sweep's done marker and its boot id): a process
-/// killed part-way leaves them exactly as a synced write would (the page cache outlives the process), but a
-/// power cut or kernel crash may lose them even after the rename. Writes on other threads (e.g. rayon workers
+/// sweep's done marker and its boot id), or that are drawn again anyway (figures): a process killed part-way
+/// leaves them exactly as a synced write would (the page cache outlives the process), but a power cut or
+/// kernel crash may lose them even after the rename. Writes on other threads (e.g. rayon workers
 /// that `f` starts) still sync, which is merely slower.
 pub fn without_fsync<T>(f: impl FnOnce() -> T) -> T {
     /// Restores the previous setting also when `f` panics.

@@ -87,9 +87,7 @@ pub struct RunSummary {
 
 /// The indices of `plan`'s cases that are not done in `dir` (failed ones included: they are retried).
 pub fn cases_to_run(plan: &Plan, dir: &Path) -> Vec<usize> {
-    (0..plan.cases.len())
-        .filter(|&i| !matches!(case_state(&plan.case_dir(dir, i), &plan.cases[i].sha256), CaseState::Done(_)))
-        .collect()
+    cases_not_done(plan, dir, false)
 }
 
 /// [`cases_to_run`], for a sweep that holds `DIR/sweep.lock`: also settles each done case whose marker came
@@ -97,12 +95,16 @@ pub fn cases_to_run(plan: &Plan, dir: &Path) -> Vec<usize> {
 /// [`mark_outputs_durable`](super::done_marker::mark_outputs_durable), so that later runs check sizes only.
 /// Best effort: a case that cannot be settled is simply checked again next time.
 pub fn cases_to_run_settling_markers(plan: &Plan, dir: &Path) -> Vec<usize> {
+    cases_not_done(plan, dir, true)
+}
+
+fn cases_not_done(plan: &Plan, dir: &Path, settle: bool) -> Vec<usize> {
     (0..plan.cases.len())
         .filter(|&i| {
             let case_dir = plan.case_dir(dir, i);
             match case_state(&case_dir, &plan.cases[i].sha256) {
                 CaseState::Done(marker) => {
-                    if from_another_boot(&marker) {
+                    if settle && from_another_boot(&marker) {
                         let _ = mark_outputs_durable(&case_dir, &marker);
                     }
                     false
@@ -170,8 +172,8 @@ fn failure(plan: &Plan, index: usize, kind: &str, error: String) -> FailureRecor
 }
 
 /// Run one case into `DIR/cases/<id>/` on the current rayon pool: empty the folder, write `case.toml`, solve,
-/// write the outputs, then `done.json` last (synced as the outputs are: see [`OutputSync`]). A panic inside the solver is caught and recorded
-/// as a failure.
+/// write the outputs, then `done.json` last (synced as the outputs are: see [`OutputSync`]). A panic inside
+/// the solver is caught and recorded as a failure.
 pub fn run_case(
     plan: &Plan,
     dir: &Path,
