@@ -174,11 +174,7 @@ pub fn write_outputs(
             "write": write_started.elapsed().as_secs_f64(), "total": started.elapsed().as_secs_f64()
         },
         "flow": {
-            "model": match case.flow.medium {
-                solver::problem::MediumModel::Darcy { .. } => "darcy",
-                solver::problem::MediumModel::Brinkman { .. } => "brinkman",
-                solver::problem::MediumModel::Stokes { .. } => "stokes",
-            },
+            "model": case.flow.medium.name(),
             "screening_length_resolved": solved.flow_resolution.is_none(),
             "expected_drag_error": solved.flow_resolution.as_ref().map(|w| w.expected_drag_error),
             "suggested_spacing": solved.flow_resolution.as_ref().map(|w| w.suggested_spacing),
