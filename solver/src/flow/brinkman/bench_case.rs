@@ -50,8 +50,8 @@ fn bench_case() {
     let settings = BrinkmanSettings::default();
     reset_peak_rss();
     let t = Instant::now();
-    let flow = solve_brinkman(&geometry, &stencils, &layout, &boundaries, &medium, 1e-6, &settings)
-        .expect("flow solves");
+    let flow =
+        solve_brinkman(&geometry, &layout, &boundaries, &medium, 1e-6, &settings).expect("flow solves");
     let t_flow = t.elapsed().as_secs_f64();
     let flow_peak = peak_rss();
     let ligand = LigandParameters {
@@ -107,10 +107,8 @@ fn sphere_iterations(n: usize, alpha: f64, settings: &BrinkmanSettings) -> (usiz
     let k = (radius / alpha) * (radius / alpha);
     let medium = BrinkmanMedium { viscosity: 1.0, effective_viscosity: 1.0, permeability: Some(k) };
     let geometry = EmbeddedGeometry::build(&grid, &layout, boundaries.periodic_axes());
-    let stencils = FacetStencils::build(&geometry);
     let t = Instant::now();
-    let sol =
-        solve_brinkman(&geometry, &stencils, &layout, &boundaries, &medium, 1.0, settings).expect("solves");
+    let sol = solve_brinkman(&geometry, &layout, &boundaries, &medium, 1.0, settings).expect("solves");
     (sol.field.iterations, t.elapsed().as_secs_f64())
 }
 
@@ -221,12 +219,16 @@ fn part_timing() {
     reset_peak_rss();
     let mut x = vec![0.0; rhs.len()];
     let t = Instant::now();
-    let info = super::lean_bicgstab::lean_bicgstab(
-        |v, y| system.apply(v, y),
+    let info = crate::linalg::bicgstab(
+        &|v: &[f64], y: &mut [f64]| system.apply(v, y),
         |r, z| system.precondition(r, z, &mut work),
-        &rhs_sparse,
+        crate::linalg::RightHandSide::Sparse(&rhs_sparse),
         &mut x,
-        &settings.krylov,
+        &crate::linalg::BicgstabParams {
+            krylov: settings.krylov.clone(),
+            shadow: crate::linalg::Shadow::Unstored,
+        },
+        &mut crate::linalg::BicgstabWork::default(),
     )
     .expect("solves");
     println!(
