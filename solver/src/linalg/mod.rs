@@ -18,7 +18,7 @@ pub mod real;
 mod smooth;
 pub mod steady_solver;
 pub mod stencil;
-#[doc(hidden)]
+#[cfg(any(test, feature = "test-problems"))]
 pub mod test_problems;
 pub mod transfer;
 mod vector;
