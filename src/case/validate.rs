@@ -261,6 +261,7 @@ pub(super) fn validate(raw: RawCase, text: &str, path: &Path) -> Result<Case, Ca
         sha256: String::new(),
         chamber_size: fitted.size,
         grid: fitted.grid,
+        grid_key: fitted.key,
         boundaries,
         flow: FlowParameters { medium: medium_model, mean_velocity },
         ligand,

@@ -4,6 +4,7 @@
 
 pub mod atomic;
 pub mod binary_record;
+pub mod bounded_read;
 pub mod cells_csv;
 pub mod fields_h5;
 pub mod initial_field;
