@@ -49,17 +49,16 @@ pub fn parse_memory_size(text: &str) -> Result<f64, String> {
     Ok(bytes)
 }
 
-/// A field of `/proc/meminfo` in bytes (`MemAvailable`, `MemTotal`).
-fn meminfo(field: &str) -> Option<f64> {
-    let text = std::fs::read_to_string("/proc/meminfo").ok()?;
-    let line = text.lines().find(|l| l.strip_prefix(field).is_some_and(|rest| rest.starts_with(':')))?;
-    let kib: f64 = line.split_whitespace().nth(1)?.parse().ok()?;
-    Some(kib * 1024.0)
-}
-
 /// This machine's available memory (`MemAvailable`), bytes.
 pub fn available_bytes() -> Option<f64> {
-    meminfo("MemAvailable")
+    numkit::meter::available_memory_bytes().map(|bytes| bytes as f64)
+}
+
+/// This machine's total memory, bytes (`sysinfo(2)`, the figure `MemTotal` shows).
+fn total_bytes() -> Option<f64> {
+    // SAFETY: `sysinfo` only writes into the zeroed struct it is given.
+    let mut info: libc::sysinfo = unsafe { std::mem::zeroed() };
+    (unsafe { libc::sysinfo(&mut info) } == 0).then(|| info.totalram as f64 * f64::from(info.mem_unit.max(1)))
 }
 
 /// The Slurm job's memory on this node from its environment, bytes, with the variable it came from.
@@ -99,7 +98,7 @@ pub fn run_budget(max_memory: Option<f64>) -> Option<MemoryBudget> {
 pub fn node_budget(node_memory: Option<f64>) -> Option<MemoryBudget> {
     match node_memory {
         Some(bytes) => Some(MemoryBudget { bytes, source: "--node-memory".into() }),
-        None => meminfo("MemTotal").map(|bytes| MemoryBudget {
+        None => total_bytes().map(|bytes| MemoryBudget {
             bytes,
             source: "this machine's memory (MemTotal; give the compute nodes' with --node-memory)".into(),
         }),
