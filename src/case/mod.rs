@@ -116,6 +116,9 @@ pub struct Case {
     pub output: OutputSettings,
     /// Things the modeller should know but that do not stop a run (e.g. radius under 4 grid spacings).
     pub warnings: Vec<String>,
+    /// Every file the case reads: the case file, a layout file, an initial field (an output folder must not
+    /// hold them).
+    pub input_files: Vec<std::path::PathBuf>,
 }
 
 impl Case {
