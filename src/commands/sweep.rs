@@ -16,7 +16,7 @@ use crate::sweep::run_local::{
     cases_to_run, cases_to_run_settling_markers, longest_first, run_case, run_cases, CaseEvent,
     LocalRunParams, OutputSync,
 };
-use crate::sweep::slurm::{self, SlurmParams};
+use crate::sweep::slurm::{self, SlurmOptions, SlurmParams};
 use crate::sweep::{Plan, SweepError, SweepFile};
 
 /// Command-line options of `plumefield sweep`.
@@ -269,9 +269,34 @@ fn run_task(plan: &Plan, dir: &Path, task: usize, threads: Option<usize>) -> Res
     }
 }
 
+/// The Slurm options of this command line, each one not given taken from the earlier writing for `dir`.
+fn slurm_options(options: &SweepOptions, dir: &Path) -> Result<SlurmOptions> {
+    let setup =
+        match &options.setup {
+            None => None,
+            Some(path) => {
+                let bytes = crate::io::bounded_read::read_bounded(path, 64 << 10, "set-up file")
+                    .map_err(|e| InputError(format!("--setup {}: cannot read it: {e}", path.display())))?;
+                Some(String::from_utf8(bytes).map_err(|_| {
+                    InputError(format!("--setup {}: the file is not UTF-8 text", path.display()))
+                })?)
+            }
+        };
+    let given = SlurmOptions {
+        threads: options.threads,
+        max_running: options.max_running,
+        partition: options.partition.clone(),
+        account: options.account.clone(),
+        qos: options.qos.clone(),
+        setup,
+    };
+    Ok(given.or(SlurmOptions::remembered(dir)))
+}
+
 fn write_slurm(plan: &Plan, dir: &Path, options: &SweepOptions) -> Result<()> {
+    let slurm_options = slurm_options(options, dir)?;
     let checked = validate(plan, &cases_to_run(plan, dir))?;
-    warn_about_node_memory(plan, &checked, options.threads.unwrap_or(1), options.node_memory);
+    warn_about_node_memory(plan, &checked, slurm_options.threads.unwrap_or(1), options.node_memory);
     std::fs::create_dir_all(dir)
         .with_context(|| format!("cannot create the sweep folder {}", dir.display()))?;
     let dir = std::fs::canonicalize(dir).with_context(|| format!("cannot resolve {}", dir.display()))?;
@@ -295,11 +320,17 @@ fn write_slurm(plan: &Plan, dir: &Path, options: &SweepOptions) -> Result<()> {
         .with_context(|| format!("cannot resolve {}", plan.sweep.path.display()))?;
     let exe = std::env::current_exe().context("cannot find the plumefield executable for the job script")?;
     let (max_array_size, size_source) = slurm::max_array_size().map_err(InputError)?;
+    slurm_options
+        .remember(&dir)
+        .with_context(|| format!("cannot keep the Slurm options in {}", dir.display()))?;
     let params = SlurmParams {
-        cpus_per_task: options.threads.unwrap_or(1),
-        max_running: options.max_running,
-        partition: options.partition.clone(),
+        cpus_per_task: slurm_options.threads.unwrap_or(1),
+        max_running: slurm_options.max_running,
+        partition: slurm_options.partition.clone(),
         max_array_size,
+        account: slurm_options.account.clone(),
+        qos: slurm_options.qos.clone(),
+        setup: slurm_options.setup.clone(),
     };
     let stem = plan
         .sweep
@@ -321,7 +352,7 @@ fn write_slurm(plan: &Plan, dir: &Path, options: &SweepOptions) -> Result<()> {
             format!(
                 "{} (--array={}{offset})",
                 script.display(),
-                slurm::array_spec(&chunk.ids, options.max_running)
+                slurm::array_spec(&chunk.ids, slurm_options.max_running)
             )
         })
         .collect();
@@ -333,7 +364,7 @@ fn write_slurm(plan: &Plan, dir: &Path, options: &SweepOptions) -> Result<()> {
             missing.first().copied().unwrap_or(0),
             missing.last().copied().unwrap_or(0),
             scripts.chunks.len(),
-            if options.max_running.is_some() { ", each after the previous one (--max-running)" } else { "" }
+            if slurm_options.max_running.is_some() { ", each after the previous one (--max-running)" } else { "" }
         );
     }
     println!(
@@ -346,8 +377,8 @@ fn write_slurm(plan: &Plan, dir: &Path, options: &SweepOptions) -> Result<()> {
         scripts.collect_script.display()
     );
     if options.submit {
-        let submitted =
-            slurm::submit(&scripts, options.max_running.is_some()).map_err(|e| anyhow::anyhow!("{e}"))?;
+        let submitted = slurm::submit(&scripts, slurm_options.max_running.is_some())
+            .map_err(|e| anyhow::anyhow!("{e}"))?;
         println!(
             "submitted array job{} {} and collect job {}",
             if submitted.array_jobs.len() == 1 { "" } else { "s" },
