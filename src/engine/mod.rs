@@ -1,7 +1,10 @@
-//! `plumefield run CASE`: geometry → flow → transport → per-cell sensing → outputs.
+//! The run engine behind `plumefield run` and the cases of a local sweep: case → geometry → flow → transport →
+//! per-cell sensing → outputs, for steady runs (here and `report.rs`) and transient runs (`transient/`), with
+//! one output schema (`crate::outputs`) and one summary builder (`summary.rs`).
 //!
 //! Nothing is written until every solve has succeeded; each output file is written atomically.
 
+pub mod estimates;
 mod report;
 mod stages;
 mod summary;

@@ -290,7 +290,7 @@ fn final_table(
         &flow.pressure,
     );
     columns.push(pressure_front_back_column(front_back));
-    columns.extend(crate::commands::estimate::estimate_columns(
+    columns.extend(crate::engine::estimates::estimate_columns(
         case,
         &sensing_of(&part.sensed, case.layout.cells.len()),
     ));

@@ -23,7 +23,7 @@ pub fn cell_table(case: &Case, solved: &SolvedCase) -> CellTable {
     let mut table = CellTable { columns: cell_columns(&state, RunKind::Steady) };
     table.columns.push(pressure_front_back_column(solved.pressure_front_back.clone()));
     // Estimates beside the measured columns, after the contract columns (DESIGN.md §6).
-    table.columns.extend(crate::commands::estimate::estimate_columns(case, &solved.sensing));
+    table.columns.extend(crate::engine::estimates::estimate_columns(case, &solved.sensing));
     table
 }
 
@@ -90,7 +90,7 @@ pub fn write_outputs(
     write_started: Instant,
 ) -> Result<()> {
     let mut table = cell_table(case, solved);
-    let split = crate::commands::estimate::split_self_and_neighbours(case, solved)?;
+    let split = crate::engine::estimates::split_self_and_neighbours(case, solved)?;
     table.columns.extend(split.columns);
     let fields = field_data(case, solved);
     let provenance = Provenance {
