@@ -8,7 +8,7 @@ use plotters::prelude::*;
 
 use super::concentration_slice::arrow;
 use super::run_data::RunFigureData;
-use super::style::{drawing, register_fonts, tick, write_png, FONT};
+use super::style::{drawing, register_fonts, significant, write_png, FONT};
 
 pub fn draw(data: &RunFigureData, path: &Path) -> anyhow::Result<()> {
     register_fonts();
@@ -77,7 +77,7 @@ pub fn draw(data: &RunFigureData, path: &Path) -> anyhow::Result<()> {
         let key = if reference > 0.0 {
             format!(
                 "arrow of 1.5 radii: |A| = {} (75th percentile), clipped at 3 radii; blue: richer downstream, red: upstream",
-                tick(reference)
+                significant(reference, 3)
             )
         } else {
             "no anisotropy to show".to_string()

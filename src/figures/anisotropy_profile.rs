@@ -7,7 +7,7 @@ use std::path::Path;
 use plotters::prelude::*;
 
 use super::run_data::RunFigureData;
-use super::style::{drawing, register_fonts, tick, write_png, FONT};
+use super::style::{drawing, register_fonts, significant, write_png, FONT};
 
 pub fn draw(data: &RunFigureData, path: &Path) -> anyhow::Result<()> {
     register_fonts();
@@ -45,7 +45,7 @@ pub fn draw(data: &RunFigureData, path: &Path) -> anyhow::Result<()> {
                 .light_line_style(RGBColor(235, 235, 235))
                 .x_desc("x (µm), downstream")
                 .y_desc("anisotropy along flow (1)")
-                .y_label_formatter(&|v| tick(*v))
+                .y_label_formatter(&|v| significant(*v, 3))
                 .label_style((FONT, 14))
                 .axis_desc_style((FONT, 15))
                 .draw(),

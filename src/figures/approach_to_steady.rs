@@ -13,7 +13,7 @@ use std::path::Path;
 use anyhow::{anyhow, Context};
 use plotters::prelude::*;
 
-use super::style::{drawing, register_fonts, viridis, write_png, FONT};
+use super::style::{colour_maps, drawing, register_fonts, write_png, FONT};
 
 /// Whether the run folder holds a transient run (`summary.json` → `solve_mode`).
 pub fn is_transient(dir: &Path) -> bool {
@@ -193,8 +193,8 @@ pub fn draw(dir: &Path, path: &Path) -> anyhow::Result<()> {
     } else {
         SeriesLabelPosition::UpperRight
     };
-    let outlet_colour = viridis(0.15);
-    let cell_colour = viridis(0.6);
+    let outlet_colour = colour_maps::field(0.15);
+    let cell_colour = colour_maps::field(0.6);
     let guide = RGBColor(120, 120, 120);
     let flow_colour = RGBColor(200, 30, 30);
     let window_colour = RGBColor(90, 90, 90);
@@ -214,7 +214,7 @@ pub fn draw(dir: &Path, path: &Path) -> anyhow::Result<()> {
                 .light_line_style(RGBColor(235, 235, 235))
                 .x_desc(format!("simulated time ({unit_name})"))
                 .y_desc("fraction of the steady value (1)")
-                .x_label_formatter(&|v| super::style::tick(*v))
+                .x_label_formatter(&|v| super::style::significant(*v, 3))
                 .y_label_formatter(&|v| format!("{:.2}", if v.abs() < 1e-9 { 0.0 } else { *v }))
                 .label_style((FONT, 14))
                 .axis_desc_style((FONT, 15))
@@ -273,7 +273,7 @@ pub fn draw(dir: &Path, path: &Path) -> anyhow::Result<()> {
                 vec![(at / unit, y_lo), (at / unit, y_hi)],
                 colour.stroke_width(2),
             ))))?
-            .label(format!("{what} at {} {unit_name}", super::style::tick(at / unit)))
+            .label(format!("{what} at {} {unit_name}", super::style::significant(at / unit, 3)))
             .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], colour.stroke_width(2)));
         }
         if data.cells.is_empty() {

@@ -7,7 +7,7 @@ use std::path::Path;
 use plotters::prelude::*;
 
 use super::run_data::{MidPlane, RunFigureData};
-use super::style::{drawing, register_fonts, tick, viridis, write_png, FONT};
+use super::style::{colour_maps, drawing, register_fonts, significant, write_png, FONT};
 
 /// Arrows across the chamber length.
 const ARROWS_ALONG_X: usize = 16;
@@ -50,8 +50,11 @@ pub fn draw(data: &RunFigureData, path: &Path) -> anyhow::Result<()> {
         drawing(chart.draw_series((0..plane.ny).flat_map(|j| (0..plane.nx).map(move |i| (i, j))).map(
             |(i, j)| {
                 let c = plane.concentration[i + plane.nx * j];
-                let colour =
-                    if c.is_finite() { viridis((c - lo) / (hi - lo)) } else { RGBColor(200, 200, 200) };
+                let colour = if c.is_finite() {
+                    colour_maps::field((c - lo) / (hi - lo))
+                } else {
+                    RGBColor(200, 200, 200)
+                };
                 let (x0, y0) = (i as f64 * h, j as f64 * h);
                 Rectangle::new([(x0, y0), (x0 + h, y0 + h)], colour.filled())
             },
@@ -150,7 +153,7 @@ pub fn colour_bar<DB: DrawingBackend>(
     drawing(chart.draw_series((0..steps).map(|s| {
         let (a, b) =
             (lo + (hi - lo) * s as f64 / steps as f64, lo + (hi - lo) * (s + 1) as f64 / steps as f64);
-        Rectangle::new([(0.0, a), (1.0, b)], viridis((s as f64 + 0.5) / steps as f64).filled())
+        Rectangle::new([(0.0, a), (1.0, b)], colour_maps::field((s as f64 + 0.5) / steps as f64).filled())
     })))?;
     drawing(
         chart
@@ -158,7 +161,7 @@ pub fn colour_bar<DB: DrawingBackend>(
             .disable_mesh()
             .disable_x_axis()
             .y_labels(6)
-            .y_label_formatter(&|v| tick(*v))
+            .y_label_formatter(&|v| significant(*v, 3))
             .label_style((FONT, 13))
             .y_desc(label)
             .axis_desc_style((FONT, 14))
