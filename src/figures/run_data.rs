@@ -44,6 +44,19 @@ pub struct RunFigureData {
     /// Isolated-cell low-Péclet anisotropy.
     pub isolated_anisotropy: Option<f64>,
     pub integration_time: Option<f64>,
+    /// The direction error below which a cell reads its cue (`readable_error` of the summary; 1 without it).
+    pub readable_error: f64,
+}
+
+/// The first number under key `key` anywhere in `value` (depth first).
+pub fn find_number(value: &serde_json::Value, key: &str) -> Option<f64> {
+    match value {
+        serde_json::Value::Object(map) => {
+            map.get(key).and_then(|v| v.as_f64()).or_else(|| map.values().find_map(|v| find_number(v, key)))
+        }
+        serde_json::Value::Array(items) => items.iter().find_map(|v| find_number(v, key)),
+        _ => None,
+    }
 }
 
 impl RunFigureData {
@@ -91,6 +104,7 @@ impl RunFigureData {
             meanfield_profile,
             isolated_anisotropy: estimates["isolated_anisotropy"].as_f64(),
             integration_time: estimates["case"]["integration_time"].as_f64(),
+            readable_error: find_number(&summary, "readable_error").filter(|e| *e > 0.0).unwrap_or(1.0),
         })
     }
 }

@@ -119,6 +119,23 @@ impl Axis {
         Axis { scale, label, range, ticks, tick_labels }
     }
 
+    /// The same axis grown at the top so that `pixels` of an axis `height` pixels long stay free above the data
+    /// (room for a legend that must not cover data).
+    pub fn with_headroom(&self, pixels: f64, height: f64) -> Axis {
+        let (lo, hi) = self.range;
+        let grown = hi + (hi - lo) * pixels / (height - pixels).max(1.0);
+        let label = self.label.clone();
+        let mut axis = Axis::between(self.unmap(lo), self.unmap(grown), self.scale, "");
+        axis.label = label;
+        axis.range.0 = lo;
+        let keep: Vec<bool> = axis.ticks.iter().map(|t| *t >= lo).collect();
+        let mut k = keep.iter();
+        axis.ticks.retain(|_| *k.next().unwrap_or(&false));
+        let mut k = keep.iter();
+        axis.tick_labels.retain(|_| *k.next().unwrap_or(&false));
+        axis
+    }
+
     /// Plot coordinate of a value (display units); NaN for a value a log axis cannot show.
     pub fn map(&self, v: f64) -> f64 {
         match self.scale {

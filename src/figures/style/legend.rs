@@ -35,6 +35,11 @@ impl Legend {
         self.entries.push((swatch, text.into()));
     }
 
+    /// Height in pixels of a legend of `rows` entries, with its inset from the plot edge.
+    pub fn room(rows: usize) -> f64 {
+        (2 * PAD + ROW * rows as i32 + 12) as f64
+    }
+
     /// Width and height in pixels.
     pub fn size(&self, area: &Figure) -> (i32, i32) {
         let font = TextStyle::from((FONT, LEGEND_FONT).into_font());

@@ -21,7 +21,7 @@ use anyhow::{anyhow, Context};
 use plotters::chart::{ChartBuilder, ChartContext};
 use plotters::coord::cartesian::Cartesian2d;
 use plotters::coord::Shift;
-use plotters::prelude::{BitMapBackend, DrawingArea, IntoDrawingArea};
+use plotters::prelude::{BitMapBackend, DrawingArea, IntoDrawingArea, Rectangle};
 use plotters::style::text_anchor::{HPos, Pos, VPos};
 use plotters::style::{Color, FontStyle, IntoFont, RGBColor, TextStyle};
 
@@ -173,4 +173,69 @@ pub fn write_png(
     writer.write_image_data(&pixels).map_err(encoding)?;
     writer.finish().map_err(encoding)?;
     without_fsync(|| write_atomic(path, &encoded)).with_context(|| format!("cannot write {}", path.display()))
+}
+
+/// A vertical colour bar on `area`: `colour` of the fraction along `axis` (display units), ticks and label from
+/// the axis.
+pub fn colour_bar(area: &Figure, axis: &Axis, colour: impl Fn(f64) -> RGBColor) -> anyhow::Result<()> {
+    let flat = Axis {
+        label: String::new(),
+        ticks: vec![],
+        tick_labels: vec![],
+        ..Axis::between(0.0, 1.0, Scale::Linear, "")
+    };
+    let mut chart = drawing(
+        ChartBuilder::on(area)
+            .margin_top(8)
+            .margin_bottom(58)
+            .margin_left(6)
+            .margin_right(8)
+            .right_y_label_area_size(86)
+            .build_cartesian_2d(flat.coord(), axis.coord()),
+    )?;
+    let (lo, hi) = axis.range;
+    let steps = 160;
+    drawing(chart.draw_series((0..steps).map(|s| {
+        let (a, b) =
+            (lo + (hi - lo) * s as f64 / steps as f64, lo + (hi - lo) * (s + 1) as f64 / steps as f64);
+        Rectangle::new([(0.0, a), (1.0, b)], colour((s as f64 + 0.5) / steps as f64).filled())
+    })))?;
+    drawing(
+        chart
+            .configure_mesh()
+            .disable_mesh()
+            .disable_x_axis()
+            .axis_style(INK.stroke_width(1))
+            .y_label_formatter(&|v| axis.tick_text(*v))
+            .label_style((FONT, 13).into_font().color(&INK))
+            .y_desc(axis.label.as_str())
+            .axis_desc_style((FONT, 14).into_font().color(&INK))
+            .draw(),
+    )?;
+    Ok(())
+}
+
+/// Shaft and two head strokes of an arrow from `from` to `to`; `head` is the head length over the arrow length.
+pub fn arrow(from: (f64, f64), to: (f64, f64), head: f64) -> Vec<Vec<(f64, f64)>> {
+    let (dx, dy) = (to.0 - from.0, to.1 - from.1);
+    let back = |angle: f64| {
+        let (c, s) = (angle.cos(), angle.sin());
+        (to.0 - head * (c * dx - s * dy), to.1 - head * (s * dx + c * dy))
+    };
+    vec![vec![from, to], vec![back(0.45), to, back(-0.45)]]
+}
+
+/// A smooth disc outline (closed polygon of 72 vertices) in plot units.
+pub fn disc(centre: (f64, f64), radius: f64) -> Vec<(f64, f64)> {
+    (0..72)
+        .map(|s| {
+            let t = s as f64 / 72.0 * std::f64::consts::TAU;
+            (centre.0 + radius * t.cos(), centre.1 + radius * t.sin())
+        })
+        .collect()
+}
+
+/// A note in muted text at pixel `at` of `root` (counts of values not drawn, scale keys).
+pub fn note(root: &Figure, text: &str, at: (i32, i32)) -> anyhow::Result<()> {
+    drawing(root.draw_text(text, &text_style(14, &MUTED, HPos::Left, VPos::Top), at))
 }

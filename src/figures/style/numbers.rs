@@ -66,9 +66,20 @@ pub fn superscript(n: i32) -> String {
         .collect()
 }
 
-/// Labels for `ticks` with the fewest significant digits (at least 1, at most 8) that make every label differ.
+/// Labels for `ticks` with the fewest significant digits (at least 1, at most 8) that state every tick's value
+/// (to a thousandth of the smallest gap) and make every label differ.
 pub fn tick_labels(ticks: &[f64]) -> Vec<String> {
+    let gap =
+        ticks.windows(2).map(|w| (w[1] - w[0]).abs()).filter(|g| *g > 0.0).fold(f64::INFINITY, f64::min);
+    let exact = |t: f64, digits: usize| {
+        t == 0.0
+            || !gap.is_finite()
+            || (round_to(t, digits, t.abs().log10().floor() as i32) - t).abs() <= 1e-3 * gap
+    };
     for digits in 1..=8 {
+        if !ticks.iter().all(|&t| exact(t, digits)) {
+            continue;
+        }
         let labels: Vec<String> = ticks.iter().map(|&t| significant(t, digits)).collect();
         let mut sorted = labels.clone();
         sorted.sort();
@@ -138,6 +149,9 @@ mod tests {
         let labels = tick_labels(&ticks);
         assert_eq!(labels, ["0.011", "0.0112", "0.0114", "0.0116"]);
         assert_eq!(tick_labels(&[0.0, 0.5, 1.0]), ["0", "0.5", "1"]);
+        // 1.5 is never rounded to "2", even when the labels would still differ.
+        assert_eq!(tick_labels(&[0.0, 0.5, 1.0, 1.5]), ["0", "0.5", "1", "1.5"]);
+        assert_eq!(tick_labels(&[100.0, 150.0, 200.0]), ["100", "150", "200"]);
     }
 
     #[test]

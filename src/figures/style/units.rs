@@ -1,4 +1,4 @@
-//! Display units: each quantity shown in the unit a modeller reads (µm, µm/s, nM, s/min/h), converted from the
+//! Display units: each quantity shown in the unit a modeller reads (µm, µm/s, nM/pM/fM, s/min/h), converted from the
 //! SI values the tables hold, with the unit written in every axis label.
 
 use crate::case::units::{parse_unit, Dimension, AVOGADRO};
@@ -33,7 +33,19 @@ impl DisplayUnit {
             Dimension::AREA => shown(1e12, "µm²"),
             Dimension::VELOCITY => shown(1e6, "µm/s"),
             Dimension::DIFFUSIVITY => shown(1e12, "µm²/s"),
-            Dimension::CONCENTRATION => shown(1.0 / (AVOGADRO * 1e3 * 1e-9), "nM"),
+            Dimension::CONCENTRATION => {
+                // nM for what a cell biologist calls a concentration; pM and fM for the small clouds of one
+                // cell, so numbers stay between 0.1 and 1000.
+                let nanomolar = (typical * factor).abs() / (AVOGADRO * 1e3 * 1e-9);
+                let (per, label) = if nanomolar >= 0.1 || nanomolar == 0.0 {
+                    (1e-9, "nM")
+                } else if nanomolar >= 1e-4 {
+                    (1e-12, "pM")
+                } else {
+                    (1e-15, "fM")
+                };
+                shown(1.0 / (AVOGADRO * 1e3 * per), label)
+            }
             Dimension::TIME => {
                 let t = (typical * factor).abs();
                 if t >= 3.0 * 3600.0 {
@@ -73,6 +85,8 @@ mod tests {
         assert!((v.factor - 1e6).abs() < 1e-6);
         let c = DisplayUnit::of("molecules/m^3", 1e17);
         assert_eq!(c.label, "nM");
+        assert_eq!(DisplayUnit::of("molecules/m^3", 6e14).label, "pM");
+        assert_eq!(DisplayUnit::of("molecules/m^3", 6e10).label, "fM");
         // 1 nM = 6.022e17 molecules/m³ (SI Brochure 2019, Avogadro constant).
         assert!((6.022_140_76e17 * c.factor - 1.0).abs() < 1e-12);
         assert_eq!(DisplayUnit::of("s", 7200.0).label, "min");
