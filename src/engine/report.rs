@@ -3,8 +3,7 @@
 use super::summary::{mass_balance, RunMeasures, RunSections};
 use crate::case::{Case, OutputField};
 use crate::io::cells_csv::write_cells_csv;
-use crate::io::fields_h5::{write_fields_h5, FieldData, Provenance};
-use crate::io::provenance::git_revision;
+use crate::io::fields_h5::{write_fields_h5, FieldData};
 use crate::io::table::CellTable;
 use crate::io::xdmf::write_fields_xmf;
 use crate::outputs::columns::{cell_columns, pressure_front_back_column, CellState, RunKind};
@@ -93,13 +92,7 @@ pub fn write_outputs(
     let split = crate::engine::estimates::split_self_and_neighbours(case, solved)?;
     table.columns.extend(split.columns);
     let fields = field_data(case, solved);
-    let provenance = Provenance {
-        version: env!("CARGO_PKG_VERSION").to_string(),
-        git_revision: git_revision(),
-        case_sha256: case.sha256.clone(),
-        case_text: case.source_text.clone(),
-        command_line: std::env::args().collect::<Vec<_>>().join(" "),
-    };
+    let provenance = super::run_provenance(case);
     write_cells_csv(&out_dir.join("cells.csv"), &table)?;
     // One hold of HDF5's process-wide lock for the whole file (the library runs one call at a time anyway):
     // cases of a sweep writing at once then take turns file by file and drift apart, instead of alternating

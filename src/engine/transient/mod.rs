@@ -28,9 +28,8 @@ use crate::case::transient::{InitialCondition, TransientSolve, STEADY_DISTANCE};
 use crate::case::{Case, OutputField};
 use crate::exit::{InputError, SolverFailure};
 use crate::io::cells_csv::write_cells_csv;
-use crate::io::fields_h5::{FieldData, Provenance};
+use crate::io::fields_h5::FieldData;
 use crate::io::initial_field::read_initial_concentration;
-use crate::io::provenance::git_revision;
 use crate::io::table::{CellTable, Column, ColumnValues};
 use crate::io::transient_h5::{output_dataset_name, write_transient_fields_h5, OutputTime, TransientFile};
 use crate::io::xdmf_temporal::{write_temporal_xmf, TemporalGrid};
@@ -406,13 +405,7 @@ fn write_outputs(
             flow_group: flow_group(phase_at(t, p.time, eps), phases).to_string(),
         })
         .collect();
-    let provenance = Provenance {
-        version: env!("CARGO_PKG_VERSION").to_string(),
-        git_revision: git_revision(),
-        case_sha256: case.sha256.clone(),
-        case_text: case.source_text.clone(),
-        command_line: std::env::args().collect::<Vec<_>>().join(" "),
-    };
+    let provenance = super::run_provenance(case);
 
     write_cells_csv(&out_dir.join("cells.csv"), &table)?;
     write_cells_csv(&out_dir.join("cells_timeseries.csv"), &series)?;
