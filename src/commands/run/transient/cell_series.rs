@@ -8,7 +8,7 @@
 
 use crate::case::Case;
 use crate::io::table::Column;
-use solver::transport::transient::TransientOutput;
+use solver::solve_transient::TransientOutput;
 
 /// The time-dependent per-cell columns kept at every output time: (name, unit, description).
 pub const SENSED: [(&str, &str, &str); 14] = [

@@ -4,7 +4,7 @@
 //! mass balance, the step counts and the output times.
 
 use serde_json::{json, Value};
-use solver::transport::transient::{Crossings, FRACTIONS};
+use solver::solve_transient::{Crossings, FRACTIONS};
 
 /// Quantile `q` of `values` with +∞ for "not reached": linear interpolation between order statistics
 /// (Hyndman & Fan 1996, definition 7, the default of R and NumPy); `None` when it touches a value not reached.

@@ -1,23 +1,25 @@
 //! The time loop: variable-step BDF2 on the assembled steady operator, cut at every event and output time,
 //! optionally adaptive, with the per-step mass balance, the sensing window and the approach to steady state.
 
-use super::balance::{step_balance, stored_amount, BalanceForms, StepBalance};
-use super::bdf::{coefficients, milne_factor, quadratic_extrapolation_weights, MAX_STEP_GROWTH};
-use super::far_field_switch_on::SwitchedOnFarField;
-use super::guess_projection::{projected_guess, HistorySpace, GUESS_HISTORY};
-use super::sensing_window::{cell_rates, WindowCounts};
-use super::sources::{add_facet_sources, cells_on, switched_exchanges};
 use super::state::{Crossings, TransientState};
-use super::step_solver::StepSolver;
 use super::{
     FlowPhase, StepReport, TimeStepping, TransientError, TransientObserver, TransientOutput,
     TransientProblem, TransientSettings,
 };
+use crate::post::sensing_window::{cell_rates, WindowCounts};
 use crate::post::{cell_sensing_in_local_flow, local_flow_per_cell, CellSensing};
 use crate::problem::{ChamberFace, SurfaceUptake};
 use crate::transport::advection::deferred_correction;
 use crate::transport::chamber_faces::BoundaryExchange;
 use crate::transport::surface_exchange::{released_per_cell, FacetExchange};
+use crate::transport::transient::balance::{step_balance, stored_amount, BalanceForms, StepBalance};
+use crate::transport::transient::bdf::{
+    coefficients, milne_factor, quadratic_extrapolation_weights, MAX_STEP_GROWTH,
+};
+use crate::transport::transient::far_field_switch_on::SwitchedOnFarField;
+use crate::transport::transient::guess_projection::{projected_guess, HistorySpace, GUESS_HISTORY};
+use crate::transport::transient::sources::{add_facet_sources, cells_on, switched_exchanges};
+use crate::transport::transient::step_solver::StepSolver;
 use crate::transport::{assemble_transport, TransportProblem};
 
 /// Everything that stays fixed during one flow phase.
