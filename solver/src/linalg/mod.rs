@@ -22,7 +22,7 @@ mod smooth;
 pub mod sparse_correction;
 pub mod steady_solver;
 pub mod stencil;
-#[doc(hidden)]
+#[cfg(any(test, feature = "test-problems"))]
 pub mod test_problems;
 pub mod transfer;
 mod vector;

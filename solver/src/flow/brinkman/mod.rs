@@ -28,8 +28,6 @@ pub mod staggered_grid;
 pub mod surface_force;
 
 #[cfg(test)]
-mod bench_case;
-#[cfg(test)]
 mod tests;
 
 pub use chamber_velocity::VelocityData;

@@ -153,27 +153,3 @@ fn iterations_stay_flat_to_128() {
     }
     assert!(counts.iter().flatten().all(|&c| c <= 25), "{counts:?}");
 }
-
-#[test]
-#[ignore]
-fn debug_channel() {
-    let medium = BrinkmanMedium { viscosity: 1.0, effective_viscosity: 1.0, permeability: Some(0.1) };
-    let (g, profile) = channel_reference(&medium, 1.0);
-    for ny in [8, 16, 32, 64, 128] {
-        let (grid, boundaries) = channel(ny, 4, [ChamberFace::Periodic; 2]);
-        let sol = solve(&grid, &Layout::default(), &boundaries, &medium, 1.0);
-        let mut worst: f64 = 0.0;
-        let mut l1 = 0.0;
-        for j in 0..ny {
-            let y = grid.cell_centre(0, j, 0)[1];
-            let e = (sol.field.velocity[0][grid.index(1, j, 1)] - profile(y)).abs();
-            worst = worst.max(e);
-            l1 += e / ny as f64;
-        }
-        println!(
-            "{ny} max {worst:.3e} mean {l1:.3e} g {:.3e} it {}",
-            (sol.field.pressure_drop / grid.extent()[0] - g) / g,
-            sol.field.iterations
-        );
-    }
-}
