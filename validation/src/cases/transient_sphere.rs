@@ -12,7 +12,7 @@ use super::transient_setup::{run_transient, TransientRun};
 use super::{Check, Tier, VerifyError};
 use crate::reference::sphere_steady::SecretingSphere;
 use solver::problem::{LigandParameters, SurfaceUptake};
-use solver::transport::transient::{TimeStepping, TransientError};
+use solver::solve_transient::{TimeStepping, TransientError};
 
 const RADIUS: f64 = 8e-6;
 const DIFFUSIVITY: f64 = 1e-10;

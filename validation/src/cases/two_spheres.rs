@@ -200,10 +200,8 @@ mod tests {
         use super::super::transient_setup::Recorder;
         use solver::linalg::{KrylovParams, MultigridParams};
         use solver::solve_case::SteadyCase;
-        use solver::transport::transient::integrate::relative_change;
-        use solver::transport::transient::{
-            solve_transient_case, TimeStepping, TransientCase, TransientSettings,
-        };
+        use solver::solve_transient::integrate::relative_change;
+        use solver::solve_transient::{solve_transient_case, TimeStepping, TransientCase, TransientSettings};
 
         let d = 1e-10;
         let unit = RADIUS * RADIUS / d;
