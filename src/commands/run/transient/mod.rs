@@ -300,7 +300,7 @@ fn final_table(
     let mut columns = time_columns(case, &part.sensed, &flow.drag, &t.secretion_start);
     let tail = columns.split_off(CONTRACT_COLUMNS);
     let stencils = solver::embedded::FacetStencils::build(&solution.geometry);
-    let front_back = solver::post::pressure_front_back(
+    let front_back = solver::post::pressure_front_back::pressure_front_back(
         &solution.geometry,
         &stencils,
         &case.layout,
