@@ -4,7 +4,6 @@ pub mod collect;
 pub mod estimate;
 pub mod layout;
 pub mod memory_budget;
-pub mod not_yet;
 pub mod plot;
 pub mod run;
 pub mod sweep;
