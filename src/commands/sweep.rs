@@ -458,14 +458,14 @@ fn run_locally(plan: &Plan, dir: &Path, options: &SweepOptions) -> Result<()> {
         CaseEvent::Finished { index, elapsed_s } => {
             let k = counter.fetch_add(1, std::sync::atomic::Ordering::SeqCst) + 1;
             eprintln!(
-                "[{k}/{total}] {} done in {elapsed_s:.2} s ({})",
+                "sweep ▸ {k} of {total} · {} done in {elapsed_s:.2} s · {}",
                 plan.cases[index].id,
                 plan.describe(index)
             );
         }
         CaseEvent::Failed { index, error } => {
             let k = counter.fetch_add(1, std::sync::atomic::Ordering::SeqCst) + 1;
-            eprintln!("[{k}/{total}] {} FAILED: {error}", plan.cases[index].id);
+            eprintln!("sweep ▸ {k} of {total} · {} FAILED: {error}", plan.cases[index].id);
         }
     });
     super::collect::execute(dir)?;
