@@ -5,6 +5,7 @@
 //! the file, the line and the dotted key ([`CaseError`]).
 
 mod boundaries;
+pub mod bounded_read;
 mod cells;
 mod decompose;
 mod error;
@@ -125,7 +126,7 @@ impl Case {
     /// Read, parse and validate a case file. Relative paths inside it (layout files) are taken relative to the
     /// file's folder.
     pub fn load(path: &Path) -> Result<Case, CaseError> {
-        use crate::io::bounded_read::{read_bounded, TEXT_INPUT_LIMIT};
+        use bounded_read::{read_bounded, TEXT_INPUT_LIMIT};
         let bytes = read_bounded(path, TEXT_INPUT_LIMIT, "case file")
             .map_err(|error| CaseError::Read { path: path.to_path_buf(), error: error.into() })?;
         let text = String::from_utf8(bytes).map_err(|_| CaseError::Syntax {

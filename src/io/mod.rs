@@ -4,9 +4,9 @@
 
 pub mod atomic;
 pub mod binary_record;
-pub mod bounded_read;
 pub mod cells_csv;
 pub mod fields_h5;
+pub mod folder_lock;
 pub mod initial_field;
 pub mod number_text;
 pub mod output_folder;

@@ -12,7 +12,8 @@ pub mod done_marker;
 pub mod error;
 pub mod expand;
 pub mod forecast;
-pub mod lock;
+/// The sweep folder's lock (shared with the output folder of `run`).
+pub use crate::io::folder_lock as lock;
 pub mod memory_reuse;
 pub mod plan_record;
 pub mod run_local;
