@@ -3,6 +3,7 @@
 //! Nothing is written until every solve has succeeded; each output file is written atomically.
 
 mod report;
+pub mod sensing_outputs;
 mod stages;
 pub mod transient;
 

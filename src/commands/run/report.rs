@@ -139,6 +139,7 @@ pub fn write_outputs(
         )
     })?;
     write_fields_xmf(&out_dir.join("fields.xmf"), "fields.h5", &case.grid, &fields)?;
+    let sensing = super::sensing_outputs::write_sensing_outputs(case, &table, out_dir)?;
 
     let chamber_volume: f64 = case.chamber_size.iter().product();
     let fluid_volume: f64 = solved.geometry.volume_fraction.iter().sum::<f64>() * case.grid.cell_volume();
@@ -215,12 +216,14 @@ pub fn write_outputs(
             "case": crate::commands::estimate::CaseEstimates::for_case(case).to_json(),
         },
         "cells": { "count": count, "volume_fraction": cell_volume_fraction, "number_density": number_density },
+        "sensing": sensing,
         "warnings": case.warnings.iter().chain(warnings).collect::<Vec<_>>(),
         "units": {
             "grid.spacing": "m", "timing_s": "s", "flow.mean_velocity": "m/s", "flow.max_divergence": "1/s",
             "flow.pressure_drop": "Pa", "mass_balance": "molecules/s", "estimates.meanfield_outlet_concentration": "molecules/m^3",
             "estimates.measured_outlet_concentration": "molecules/m^3", "estimates.isolated_anisotropy": "1",
-            "cells.number_density": "1/m^3",
+            "cells.number_density": "1/m^3", "sensing.statistics_margin": "m", "sensing.by_position.x_low": "m",
+            "sensing.by_position.x_high": "m",
             "cells.csv": table.columns.iter().map(|c| (c.name.clone(), serde_json::Value::from(c.unit.clone()))).collect::<serde_json::Map<_, _>>(),
         },
     });

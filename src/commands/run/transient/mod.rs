@@ -471,8 +471,10 @@ fn write_outputs(
         .collect();
     write_temporal_xmf(&out_dir.join("fields.xmf"), "fields.h5", &case.grid, &steps)?;
 
-    let summary =
+    let sensing = crate::commands::run::sensing_outputs::write_sensing_outputs(case, &table, out_dir)?;
+    let mut summary =
         summary_json(case, t, solution, final_part, &parts, &table, started, write_started, checkpoints);
+    summary["sensing"] = serde_json::to_value(&sensing)?;
     write_summary_json(&out_dir.join("summary.json"), &summary)?;
     if case.output.figures {
         crate::figures::run_figures::draw_run_figures(out_dir)?;
