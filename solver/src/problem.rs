@@ -83,6 +83,17 @@ pub enum MediumModel {
     Stokes { viscosity: f64 },
 }
 
+impl MediumModel {
+    /// The model's name in case files and reports: "darcy", "brinkman" or "stokes".
+    pub fn name(&self) -> &'static str {
+        match self {
+            MediumModel::Darcy { .. } => "darcy",
+            MediumModel::Brinkman { .. } => "brinkman",
+            MediumModel::Stokes { .. } => "stokes",
+        }
+    }
+}
+
 /// Flow settings: the medium and the mean superficial velocity along +x (m/s, ≥ 0; zero means no flow).
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct FlowParameters {

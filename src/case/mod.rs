@@ -20,7 +20,7 @@ mod tests;
 
 use std::path::{Path, PathBuf};
 
-use sha2::{Digest, Sha256};
+use numkit::sha256_hex;
 
 pub use error::CaseError;
 
@@ -145,11 +145,6 @@ impl Case {
         case.sha256 = sha256_hex(text.as_bytes());
         Ok(case)
     }
-}
-
-/// Lower-case hex SHA-256 of `bytes`.
-pub fn sha256_hex(bytes: &[u8]) -> String {
-    Sha256::digest(bytes).iter().map(|b| format!("{b:02x}")).collect()
 }
 
 /// A TOML or serde error as one sentence that names the key (found from the error's span) and the line.

@@ -9,6 +9,7 @@
 use std::fmt::Write as _;
 use std::path::Path;
 
+use numkit::quantile_sorted;
 use serde_json::json;
 use solver::flow::brinkman::resolution::check_resolution;
 use solver::flow::brinkman::{BrinkmanMedium, ResolutionWarning};
@@ -19,7 +20,7 @@ use solver::post::estimates::{
     ColumnInlet, IsolatedFlow, MeanFieldColumn, SensingEstimate,
 };
 use solver::post::{CellSensing, SensingModel};
-use solver::problem::{ChamberFace, MediumModel, SurfaceUptake};
+use solver::problem::{ChamberFace, SurfaceUptake};
 use solver::solve_case::SteadySolution;
 
 use crate::case::Case;
@@ -529,15 +530,6 @@ fn forecast(case: &Case) -> Forecast {
     }
 }
 
-/// The flow model a medium implies, for reports.
-pub fn medium_name(medium: &MediumModel) -> &'static str {
-    match medium {
-        MediumModel::Darcy { .. } => "darcy",
-        MediumModel::Brinkman { .. } => "brinkman",
-        MediumModel::Stokes { .. } => "stokes",
-    }
-}
-
 /// Whether the first-order estimates apply to the uptake model.
 pub fn estimates_apply(uptake: SurfaceUptake) -> bool {
     !matches!(uptake, SurfaceUptake::Absorbing)
@@ -694,22 +686,12 @@ pub fn column_aggregates(table: &CellTable) -> serde_json::Value {
         let ColumnValues::Real(values) = &column.values else { continue };
         let mut finite: Vec<f64> = values.iter().copied().filter(|v| v.is_finite()).collect();
         finite.sort_by(f64::total_cmp);
-        let q = |p: f64| quantile(&finite, p);
+        // No finite value: null in the JSON.
+        let q = |p: f64| Some(quantile_sorted(&finite, p)).filter(|x| !x.is_nan());
         out.insert(
             name.to_string(),
             json!({ "median": q(0.5), "p10": q(0.1), "p90": q(0.9), "count": finite.len() }),
         );
     }
     serde_json::Value::Object(out)
-}
-
-/// `p`-quantile of sorted values (linear between order statistics); `None` when empty.
-pub fn quantile(sorted: &[f64], p: f64) -> Option<f64> {
-    if sorted.is_empty() {
-        return None;
-    }
-    let x = p.clamp(0.0, 1.0) * (sorted.len() - 1) as f64;
-    let (i, t) = (x.floor() as usize, x - x.floor());
-    let j = (i + 1).min(sorted.len() - 1);
-    Some(sorted[i] + t * (sorted[j] - sorted[i]))
 }

@@ -400,12 +400,7 @@ fn run_locally(plan: &Plan, dir: &Path, options: &SweepOptions) -> Result<()> {
 
 /// One job per core, but no more than 80% of the available memory holds (each job needs `case_bytes`).
 fn memory_limited_jobs(threads: usize, case_bytes: f64) -> usize {
-    let available = std::fs::read_to_string("/proc/meminfo").ok().and_then(|text| {
-        text.lines()
-            .find(|l| l.starts_with("MemAvailable:"))
-            .and_then(|l| l.split_whitespace().nth(1)?.parse::<f64>().ok())
-            .map(|kib| kib * 1024.0)
-    });
+    let available = numkit::meter::available_memory_bytes().map(|bytes| bytes as f64);
     match available {
         Some(bytes) if case_bytes > 0.0 => threads.min((0.8 * bytes / case_bytes).floor().max(1.0) as usize),
         _ => threads,

@@ -11,6 +11,7 @@ use std::collections::HashMap;
 use std::path::Path;
 
 use anyhow::{anyhow, Context};
+use numkit::quantile_sorted;
 use plotters::prelude::*;
 
 use super::style::{drawing, register_fonts, viridis, write_png, FONT};
@@ -40,14 +41,6 @@ struct Approach {
     cells_counted: usize,
     flow_change: Option<f64>,
     window_start: Option<f64>,
-}
-
-/// Quantile `q` of sorted `v` by linear interpolation between order statistics (Hyndman & Fan 1996,
-/// definition 7, as in the summary's quantiles).
-fn quantile(v: &[f64], q: f64) -> f64 {
-    let position = q * (v.len() - 1) as f64;
-    let (lo, hi) = (position.floor() as usize, position.ceil() as usize);
-    v[lo] + (position - lo as f64) * (v[hi] - v[lo])
 }
 
 fn read_json(path: &Path) -> anyhow::Result<serde_json::Value> {
@@ -141,9 +134,9 @@ impl Approach {
             for (time, v) in cell_fractions(&dir.join("cells_timeseries.csv"), &steady)? {
                 cells.push(Band {
                     time,
-                    p10: quantile(&v, 0.1),
-                    median: quantile(&v, 0.5),
-                    p90: quantile(&v, 0.9),
+                    p10: quantile_sorted(&v, 0.1),
+                    median: quantile_sorted(&v, 0.5),
+                    p90: quantile_sorted(&v, 0.9),
                 });
             }
         }
@@ -305,13 +298,5 @@ mod tests {
         assert_eq!(time_unit(90.0).1, "s");
         assert_eq!(time_unit(1800.0).1, "min");
         assert_eq!(time_unit(10.0 * 3600.0).1, "h");
-    }
-
-    #[test]
-    fn quantile_interpolates_between_order_statistics() {
-        let v = [1.0, 2.0, 3.0, 4.0, 5.0];
-        assert!((quantile(&v, 0.1) - 1.4).abs() < 1e-15);
-        assert_eq!(quantile(&v, 0.5), 3.0);
-        assert_eq!(quantile(&[7.0], 0.9), 7.0);
     }
 }

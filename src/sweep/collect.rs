@@ -93,7 +93,7 @@ const CELL_QUANTITIES: [(&str, &str, &str); 4] = [
     ("signal_fraction", "1", "fraction of the sensed signal from the cell's own secretion"),
 ];
 
-/// Where the time of one finished case went (a row of `timings.csv`; see `thread_time`).
+/// Where the time of one finished case went (a row of `timings.csv`; see `numkit::meter`).
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct CaseTiming {
     /// Wall time, seconds.

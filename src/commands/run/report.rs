@@ -9,7 +9,7 @@ use crate::io::table::{CellTable, Column};
 use crate::io::xdmf::write_fields_xmf;
 use anyhow::Result;
 use serde_json::json;
-use solver::post::estimates::{isolated_darcy_anisotropy, meanfield_outlet_concentration};
+use solver::post::estimates::meanfield_outlet_concentration;
 use solver::problem::ChamberFace;
 use solver::solve_case::SteadySolution as SolvedCase;
 use std::path::Path;
@@ -147,13 +147,8 @@ pub fn write_outputs(
     let count = case.layout.cells.len();
     let number_density = count as f64 / chamber_volume;
     let d = case.ligand.diffusivity;
-    let isolated = isolated_darcy_anisotropy(
-        case.flow.mean_velocity,
-        case.cell_radius,
-        d,
-        case.ligand.decay_rate,
-        case.ligand.uptake,
-    );
+    // The isolated-cell estimate of the case's own flow model (Darcy, Brinkman or Stokes).
+    let case_estimates = crate::commands::estimate::CaseEstimates::for_case(case);
     let meanfield = meanfield_outlet_concentration(
         number_density,
         case.secretion_rate,
@@ -180,11 +175,7 @@ pub fn write_outputs(
             "write": write_started.elapsed().as_secs_f64(), "total": started.elapsed().as_secs_f64()
         },
         "flow": {
-            "model": match case.flow.medium {
-                solver::problem::MediumModel::Darcy { .. } => "darcy",
-                solver::problem::MediumModel::Brinkman { .. } => "brinkman",
-                solver::problem::MediumModel::Stokes { .. } => "stokes",
-            },
+            "model": case.flow.medium.name(),
             "screening_length_resolved": solved.flow_resolution.is_none(),
             "expected_drag_error": solved.flow_resolution.as_ref().map(|w| w.expected_drag_error),
             "suggested_spacing": solved.flow_resolution.as_ref().map(|w| w.suggested_spacing),
@@ -208,12 +199,12 @@ pub fn write_outputs(
         "estimates": {
             "meanfield_outlet_concentration": meanfield,
             "measured_outlet_concentration": measured_outlet_concentration(case, solved),
-            "isolated_anisotropy": isolated,
+            "isolated_anisotropy": case_estimates.isolated_anisotropy,
             "peclet_cell": case.flow.mean_velocity * case.cell_radius / d,
             "peclet_chamber": case.flow.mean_velocity * case.chamber_size[0] / d,
             "per_cell": crate::commands::estimate::column_aggregates(&table),
             "self_neighbour": split.summary,
-            "case": crate::commands::estimate::CaseEstimates::for_case(case).to_json(),
+            "case": case_estimates.to_json(),
         },
         "cells": { "count": count, "volume_fraction": cell_volume_fraction, "number_density": number_density },
         "sensing": sensing,

@@ -17,7 +17,6 @@
 pub mod balance;
 pub mod bdf;
 pub mod case;
-pub mod error_function;
 pub mod far_field_switch_on;
 pub mod guess_projection;
 pub mod integrate;

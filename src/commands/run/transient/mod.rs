@@ -520,7 +520,7 @@ fn summary_json(
             "write": write_started.elapsed().as_secs_f64(), "total": started.elapsed().as_secs_f64(),
         },
         "flow": {
-            "model": "darcy",
+            "model": crate::commands::estimate::medium_name(&case.flow.medium),
             "mean_velocity": case.flow.mean_velocity,
             "change": t.flow_change.map(|(at, after)| json!({ "time": at, "mean_velocity_after": after })),
             "iterations": last_flow.iterations,
@@ -564,8 +564,7 @@ fn summary_json(
                 case.chamber_size[0], case.ligand.inlet_concentration,
             ).filter(|_| case.boundaries.faces[0][0] == ChamberFace::Inlet),
             "measured_outlet_concentration": final_part.outlet_concentration,
-            "isolated_anisotropy": solver::post::estimates::isolated_darcy_anisotropy(
-                case.flow.mean_velocity, case.cell_radius, case.ligand.diffusivity, case.ligand.decay_rate, case.ligand.uptake),
+            "isolated_anisotropy": estimates.isolated_anisotropy,
             "per_cell": crate::commands::estimate::column_aggregates(table),
             "case": estimates.to_json(),
         },

@@ -9,18 +9,9 @@ use solver::transport::transient::{Crossings, FRACTIONS};
 /// Quantile `q` of `values` with +∞ for "not reached": linear interpolation between order statistics
 /// (Hyndman & Fan 1996, definition 7, the default of R and NumPy); `None` when it touches a value not reached.
 pub fn quantile_reached(values: &[Option<f64>], q: f64) -> Option<f64> {
-    if values.is_empty() {
-        return None;
-    }
-    let mut sorted: Vec<f64> = values.iter().map(|v| v.unwrap_or(f64::INFINITY)).collect();
-    sorted.sort_by(f64::total_cmp);
-    let position = q * (sorted.len() - 1) as f64;
-    let (lo, hi) = (position.floor() as usize, position.ceil() as usize);
-    let (a, b) = (sorted[lo], sorted[hi]);
-    if !a.is_finite() || !b.is_finite() {
-        return None;
-    }
-    Some(a + (position - lo as f64) * (b - a))
+    let times: Vec<f64> = values.iter().map(|v| v.unwrap_or(f64::INFINITY)).collect();
+    // Interpolating towards a value not reached gives +∞; no values give NaN.
+    Some(numkit::quantile(&times, q)).filter(|t| t.is_finite())
 }
 
 /// The approach-to-steady section: per fraction, the outlet crossing time and the cell quantiles.
