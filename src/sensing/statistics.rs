@@ -3,14 +3,14 @@
 //!
 //! A cell *fails* when its counting-noise `direction_error` exceeds `readable_error`, or is not a finite
 //! number (no contrast at all gives ∞). Quantiles interpolate between order statistics with ∞ taking part
-//! in the ordering and NaN left out (the sweep table's percentile rule). The chamber's x range, less
+//! in the ordering and NaN left out (`numkit::quantile`). The chamber's x range, less
 //! `margin` at each end, is cut into `position_bins` equal slabs; a cell belongs to the slab of its centre.
 
 use std::collections::BTreeMap;
 
 use serde::{Serialize, Serializer};
 
-use crate::sweep::aggregate::percentile_sorted;
+use numkit::{quantile_sorted, sorted_without_nan};
 
 /// The `[sensing]` keys that shape the statistics.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -54,9 +54,8 @@ pub struct Spread {
 
 impl Spread {
     pub fn of(values: impl Iterator<Item = f64>) -> Spread {
-        let mut sorted: Vec<f64> = values.filter(|v| !v.is_nan()).collect();
-        sorted.sort_by(f64::total_cmp);
-        let q = |p| percentile_sorted(&sorted, p);
+        let sorted = sorted_without_nan(&values.collect::<Vec<_>>());
+        let q = |p| quantile_sorted(&sorted, p);
         Spread { p10: q(0.1), median: q(0.5), p90: q(0.9), count: sorted.len() }
     }
 }

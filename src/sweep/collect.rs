@@ -216,6 +216,9 @@ pub fn collect(dir: &Path) -> Result<(SweepTable, PlanRecord, Vec<Option<CaseTim
             });
         }
     }
+    let summaries: Vec<Option<&serde_json::Value>> =
+        data.iter().map(|d| d.as_ref().map(|d| &d.summary)).collect();
+    columns.extend(super::sensing_columns::sensing_columns(&summaries));
     let timings = data.iter().map(|d| d.as_ref().map(|d| d.timing)).collect();
     Ok((SweepTable { columns, rows }, plan, timings))
 }

@@ -520,7 +520,7 @@ fn summary_json(
             "write": write_started.elapsed().as_secs_f64(), "total": started.elapsed().as_secs_f64(),
         },
         "flow": {
-            "model": crate::commands::estimate::medium_name(&case.flow.medium),
+            "model": case.flow.medium.name(),
             "mean_velocity": case.flow.mean_velocity,
             "change": t.flow_change.map(|(at, after)| json!({ "time": at, "mean_velocity_after": after })),
             "iterations": last_flow.iterations,
