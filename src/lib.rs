@@ -6,5 +6,6 @@ pub mod commands;
 pub mod exit;
 pub mod figures;
 pub mod io;
+pub mod outputs;
 pub mod sensing;
 pub mod sweep;

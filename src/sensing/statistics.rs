@@ -8,7 +8,7 @@
 
 use std::collections::BTreeMap;
 
-use serde::{Serialize, Serializer};
+use serde::{Deserialize, Deserializer, Serialize, Serializer};
 
 use numkit::{quantile_sorted, sorted_without_nan};
 
@@ -40,13 +40,13 @@ pub struct CellValues<'a> {
 }
 
 /// p10, median and p90 of some cells' values (NaN when none has a value).
-#[derive(Clone, Copy, Debug, PartialEq, Serialize)]
+#[derive(Clone, Copy, Debug, PartialEq, Serialize, Deserialize)]
 pub struct Spread {
-    #[serde(serialize_with = "real_or_text")]
+    #[serde(serialize_with = "real_or_text", deserialize_with = "real_from_text")]
     pub p10: f64,
-    #[serde(serialize_with = "real_or_text")]
+    #[serde(serialize_with = "real_or_text", deserialize_with = "real_from_text")]
     pub median: f64,
-    #[serde(serialize_with = "real_or_text")]
+    #[serde(serialize_with = "real_or_text", deserialize_with = "real_from_text")]
     pub p90: f64,
     /// Cells with a value (not NaN).
     pub count: usize,
@@ -61,7 +61,7 @@ impl Spread {
 }
 
 /// One slab along the flow.
-#[derive(Clone, Debug, PartialEq, Serialize)]
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct Slab {
     pub index: usize,
     /// x range (m), lower bound inclusive.
@@ -70,14 +70,14 @@ pub struct Slab {
     pub cells: usize,
     pub failed: usize,
     /// `failed / cells`; NaN (null) for an empty slab.
-    #[serde(serialize_with = "real_or_text")]
+    #[serde(serialize_with = "real_or_text", deserialize_with = "real_from_text")]
     pub failed_fraction: f64,
     pub direction_error: Spread,
     pub quantities: BTreeMap<String, Spread>,
 }
 
 /// The `sensing` object of `summary.json`.
-#[derive(Clone, Debug, PartialEq, Serialize)]
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct SensingStatistics {
     pub readable_error: f64,
     /// `[sensing] statistics_margin` (m).
@@ -87,7 +87,7 @@ pub struct SensingStatistics {
     pub cells_left_out: usize,
     pub failed: usize,
     /// `failed / cells_counted`; NaN (null) without counted cells.
-    #[serde(serialize_with = "real_or_text")]
+    #[serde(serialize_with = "real_or_text", deserialize_with = "real_from_text")]
     pub failed_fraction: f64,
     pub direction_error: Spread,
     pub by_position: Vec<Slab>,
@@ -163,6 +163,11 @@ pub fn real_or_text<S: Serializer>(x: &f64, s: S) -> Result<S::Ok, S::Error> {
     }
 }
 
+/// Reads what [`real_or_text`] wrote.
+pub fn real_from_text<'de, D: Deserializer<'de>>(d: D) -> Result<f64, D::Error> {
+    Ok(json_real(&serde_json::Value::deserialize(d)?))
+}
+
 /// The number a `summary.json` value stands for: numbers, `"inf"`/`"-inf"`; NaN for anything else.
 pub fn json_real(value: &serde_json::Value) -> f64 {
     match value {
@@ -226,5 +231,8 @@ mod tests {
         assert_eq!(json_real(&j["median"]), f64::INFINITY);
         assert_eq!(json_real(&j["p10"]), 1.0);
         assert!(json_real(&j["p90"]).is_nan());
+        let back: Spread = serde_json::from_value(j).unwrap();
+        assert_eq!((back.p10, back.median, back.count), (1.0, f64::INFINITY, 2));
+        assert!(back.p90.is_nan());
     }
 }

@@ -40,14 +40,14 @@ fn leaves(json: &serde_json::Value, path: &str, out: &mut Vec<(String, f64)>) {
     }
 }
 
-/// The sensing columns of a sweep from each case's summary (`None`: not done); the union of the cases' paths,
-/// in order of first appearance; NaN where a case lacks a path.
-pub fn sensing_columns(summaries: &[Option<&serde_json::Value>]) -> Vec<SweepColumn> {
-    let per_case: Vec<Vec<(String, f64)>> = summaries
+/// The sensing columns of a sweep from each case's `sensing` object as JSON (`None`: not done, or a run
+/// without one); the union of the cases' paths, in order of first appearance; NaN where a case lacks a path.
+pub fn sensing_columns(sensing: &[Option<serde_json::Value>]) -> Vec<SweepColumn> {
+    let per_case: Vec<Vec<(String, f64)>> = sensing
         .iter()
         .map(|s| {
             let mut out = Vec::new();
-            if let Some(sensing) = s.and_then(|s| s.get("sensing")) {
+            if let Some(sensing) = s {
                 leaves(sensing, "sensing", &mut out);
             }
             out
@@ -85,11 +85,11 @@ mod tests {
 
     #[test]
     fn paths_units_and_missing_values() {
-        let a = json!({ "sensing": { "failed_fraction": 0.25, "direction_error": { "median": "inf", "count": 3 },
+        let a = json!({ "failed_fraction": 0.25, "direction_error": { "median": "inf", "count": 3 },
             "by_position": [ { "index": 0, "x_low": 0.0, "failed_fraction": null,
-                               "quantities": { "self_bound_rate": { "median": 2.0 } } } ] } });
-        let b = json!({ "sensing": { "failed_fraction": 0.5 } });
-        let columns = sensing_columns(&[Some(&a), None, Some(&b)]);
+                               "quantities": { "self_bound_rate": { "median": 2.0 } } } ] });
+        let b = json!({ "failed_fraction": 0.5 });
+        let columns = sensing_columns(&[Some(a), None, Some(b)]);
         let names: Vec<&str> = columns.iter().map(|c| c.name.as_str()).collect();
         assert_eq!(
             names,

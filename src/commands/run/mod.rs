@@ -5,6 +5,7 @@
 mod report;
 pub mod sensing_outputs;
 mod stages;
+mod summary;
 pub mod transient;
 
 use crate::case::{Case, SolveMode};

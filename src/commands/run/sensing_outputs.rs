@@ -9,6 +9,7 @@ use crate::case::Case;
 use crate::commands::estimate::SPLIT_COLUMNS;
 use crate::io::sensing_by_position::write_sensing_by_position;
 use crate::io::{CellTable, ColumnValues};
+use crate::outputs::RunSummary;
 use crate::sensing::statistics::{sensing_statistics, CellValues, SensingStatistics, StatisticsSettings};
 
 /// File name in the run folder.
@@ -48,10 +49,9 @@ pub fn run_statistics(case: &Case, table: &CellTable) -> SensingStatistics {
     sensing_statistics(&cells, [x0, x0 + case.chamber_size[0]], &settings)
 }
 
-/// Computes the statistics and writes `sensing_by_position.csv` into `out_dir`.
-pub fn write_sensing_outputs(case: &Case, table: &CellTable, out_dir: &Path) -> Result<SensingStatistics> {
-    let stats = run_statistics(case, table);
+/// Writes `sensing_by_position.csv` into `out_dir` from the statistics in `summary`.
+pub fn write_sensing_by_position_of(summary: &RunSummary, table: &CellTable, out_dir: &Path) -> Result<()> {
+    let Some(stats) = &summary.sensing else { return Ok(()) };
     let unit = |name: &str| table.column(name).map_or_else(|| "1".to_string(), |c| c.unit.clone());
-    write_sensing_by_position(&out_dir.join(SENSING_BY_POSITION), &stats, &unit)?;
-    Ok(stats)
+    write_sensing_by_position(&out_dir.join(SENSING_BY_POSITION), stats, &unit)
 }
