@@ -537,10 +537,17 @@ pub fn estimates_apply(uptake: SurfaceUptake) -> bool {
     !matches!(uptake, SurfaceUptake::Absorbing)
 }
 
-/// Load the case, print the estimates (table, or JSON with `json`).
-pub fn execute(case_path: &Path, json: bool) -> anyhow::Result<()> {
+/// Load the case, print the estimates (table, or JSON with `json`); warn on stderr when the run forecast
+/// exceeds the node's memory (`node_memory`, else this machine's).
+pub fn execute(case_path: &Path, json: bool, node_memory: Option<f64>) -> anyhow::Result<()> {
     let case = Case::load(case_path)?;
     let estimates = CaseEstimates::for_case(&case);
+    if let Some(budget) = super::memory_budget::node_budget(node_memory) {
+        let threads = std::thread::available_parallelism().map_or(1, |n| n.get());
+        if let Some(warning) = super::memory_budget::over_budget(&case, threads, &budget) {
+            eprintln!("warning: {warning}; `plumefield run` would refuse it");
+        }
+    }
     if json {
         println!("{}", serde_json::to_string_pretty(&estimates.to_json())?);
     } else {

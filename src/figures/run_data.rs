@@ -45,7 +45,12 @@ pub struct RunFigureData {
     /// Isolated-cell low-Péclet anisotropy.
     pub isolated_anisotropy: Option<f64>,
     pub integration_time: Option<f64>,
+    /// The direction error below which a cell reads its cue (`readable_error` of the summary; 1 without it).
+    pub readable_error: f64,
 }
+
+/// The readable level drawn for summaries without a `sensing` section (older versions).
+const DEFAULT_READABLE_ERROR: f64 = 1.0;
 
 impl RunFigureData {
     /// Reads a run's output folder. `cells.csv` and `summary.json` are required; the slice needs
@@ -79,6 +84,7 @@ impl RunFigureData {
             meanfield_profile,
             isolated_anisotropy: estimates.isolated_anisotropy,
             integration_time: estimates.case["integration_time"].as_f64(),
+            readable_error: summary.sensing.as_ref().map_or(DEFAULT_READABLE_ERROR, |s| s.readable_error),
         })
     }
 }

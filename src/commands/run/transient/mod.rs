@@ -300,7 +300,7 @@ fn final_table(
     let mut columns = time_columns(case, &part.sensed, &flow.drag, &t.secretion_start);
     let tail = columns.split_off(CONTRACT_COLUMNS);
     let stencils = solver::embedded::FacetStencils::build(&solution.geometry);
-    let front_back = solver::post::pressure_front_back(
+    let front_back = solver::post::pressure_front_back::pressure_front_back(
         &solution.geometry,
         &stencils,
         &case.layout,
@@ -476,7 +476,6 @@ fn write_outputs(
 
     let summary =
         run_summary(case, t, solution, final_part, &parts, &table, started, write_started, checkpoints);
-    crate::commands::run::sensing_outputs::write_sensing_by_position_of(&summary, &table, out_dir)?;
     summary.write(&out_dir.join("summary.json"))?;
     if case.output.figures {
         crate::figures::run_figures::draw_run_figures(out_dir)?;
