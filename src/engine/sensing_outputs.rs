@@ -6,7 +6,7 @@ use std::path::Path;
 use anyhow::Result;
 
 use crate::case::Case;
-use crate::commands::estimate::SPLIT_COLUMNS;
+use crate::engine::estimates::SPLIT_COLUMNS;
 use crate::io::sensing_by_position::write_sensing_by_position;
 use crate::io::{CellTable, ColumnValues};
 use crate::outputs::RunSummary;
