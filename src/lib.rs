@@ -8,4 +8,5 @@ pub mod exit;
 pub mod figures;
 pub mod io;
 pub mod outputs;
+pub mod sensing;
 pub mod sweep;

@@ -52,6 +52,13 @@ pub struct SensingSettings {
     pub integration_time: f64,
     /// Which cells get the self/neighbour split; default `sample:4` (see `decompose.rs`).
     pub decompose: solver::post::decompose::DecomposeSelection,
+    /// Direction error above which a cell counts as unable to read the flow direction; default 1.
+    pub readable_error: f64,
+    /// Slabs along x for the position-resolved statistics; default 8.
+    pub position_bins: usize,
+    /// Cells whose centre lies closer than this to the x_min or x_max face are left out of the
+    /// statistics (m); default 0.
+    pub statistics_margin: f64,
 }
 
 /// A field that `run` writes to `fields.h5`.

@@ -189,6 +189,9 @@ pub struct RawSensing {
     pub decompose: Value<toml::Value>,
     /// Transient: cumulative counts start here.
     pub window_start: Value<RawNumber>,
+    pub readable_error: Value<RawNumber>,
+    pub position_bins: Value<RawNumber>,
+    pub statistics_margin: Value<RawNumber>,
 }
 
 #[derive(Debug, Default, Deserialize)]

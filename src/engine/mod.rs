@@ -6,6 +6,7 @@
 
 pub mod estimates;
 mod report;
+pub mod sensing_outputs;
 mod stages;
 mod summary;
 pub mod transient;

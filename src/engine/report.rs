@@ -160,6 +160,7 @@ pub fn write_outputs(
         self_neighbour: Some(split.summary),
     };
     let summary = RunSummary::build(&measures, sections);
+    crate::engine::sensing_outputs::write_sensing_by_position_of(&summary, &table, out_dir)?;
     summary.write(&out_dir.join("summary.json"))?;
     if case.output.figures {
         crate::figures::run_figures::draw_run_figures(out_dir)?;

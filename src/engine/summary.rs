@@ -54,6 +54,9 @@ fn units(table: &CellTable) -> BTreeMap<String, Unit> {
         one("estimates.measured_outlet_concentration", "molecules/m^3"),
         one("estimates.isolated_anisotropy", "1"),
         one("cells.number_density", "1/m^3"),
+        one("sensing.statistics_margin", "m"),
+        one("sensing.by_position.x_low", "m"),
+        one("sensing.by_position.x_high", "m"),
     ]
     .into_iter()
     .collect();
@@ -131,6 +134,7 @@ impl RunSummary {
                 case: estimates.to_json(),
             },
             cells: CellsSummary { count, volume_fraction: cell_volume_fraction, number_density },
+            sensing: Some(super::sensing_outputs::run_statistics(case, m.table)),
             warnings: case.warnings.iter().chain(m.warnings).cloned().collect(),
             units,
         }

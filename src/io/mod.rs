@@ -11,6 +11,7 @@ pub mod initial_field;
 pub mod number_text;
 pub mod output_folder;
 pub mod provenance;
+pub mod sensing_by_position;
 pub mod summary_json;
 pub mod table;
 pub mod transient_h5;

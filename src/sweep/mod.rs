@@ -16,7 +16,9 @@ pub mod forecast;
 pub use crate::io::folder_lock as lock;
 pub mod memory_reuse;
 pub mod plan_record;
+pub mod replicate_groups;
 pub mod run_local;
+pub mod sensing_columns;
 pub mod slurm;
 pub mod sweep_file;
 

@@ -446,6 +446,7 @@ fn write_outputs(
 
     let summary =
         run_summary(case, t, solution, final_part, &parts, &table, started, write_started, checkpoints);
+    crate::engine::sensing_outputs::write_sensing_by_position_of(&summary, &table, out_dir)?;
     summary.write(&out_dir.join("summary.json"))?;
     if case.output.figures {
         crate::figures::run_figures::draw_run_figures(out_dir)?;
