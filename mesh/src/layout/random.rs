@@ -376,6 +376,29 @@ mod tests {
         assert_no_pair_closer(&placed.layout, &c, 2.0 * a + 0.2e-6);
         assert!(stats.nearest_gap_quantiles[0].1 >= 0.2e-6 * (1.0 - 1e-9));
         assert_eq!(placed, random_layout(&spec, &c, &PlacementRegion::WHOLE_CHAMBER).unwrap(), "seeded");
+        // Pair distribution g(r) over [D, 2D) in bins of D/20 (D = 2a + gap): a dense random packing has its
+        // highest peak at contact, r → D⁺ (Bernal & Mason 1960; Finney 1970 [memory]), far above g at 2D.
+        let d = 2.0 * a + 0.2e-6;
+        let mut counts = [0usize; 20];
+        let cells = &placed.layout.cells;
+        for (n, p) in cells.iter().enumerate() {
+            for q in &cells[n + 1..] {
+                let bin = ((c.distance(p.centre, q.centre) / d - 1.0) * 20.0).floor();
+                if (0.0..20.0).contains(&bin) {
+                    counts[bin as usize] += 1;
+                }
+            }
+        }
+        let g: Vec<f64> = (0..20)
+            .map(|k| {
+                let (r0, r1) = (d * (1.0 + k as f64 / 20.0), d * (1.0 + (k + 1) as f64 / 20.0));
+                let shell = 4.0 / 3.0 * std::f64::consts::PI * (r1.powi(3) - r0.powi(3));
+                counts[k] as f64 / (0.5 * 2000.0 * 2000.0 / c.volume() * shell)
+            })
+            .collect();
+        let peak = (0..20).max_by(|&i, &j| g[i].total_cmp(&g[j])).unwrap();
+        assert_eq!(peak, 0, "g(r) = {g:?}");
+        assert!(g[0] > 3.0 * g[19], "g(r) = {g:?}");
     }
 
     #[test]
