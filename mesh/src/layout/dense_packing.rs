@@ -13,8 +13,8 @@
 //! the layout's own seeded generator.
 
 use super::neighbours::BucketGrid;
-use super::prng::Xoshiro256StarStar;
 use super::region::CentreRegion;
+use numkit::Xoshiro256StarStar;
 
 /// Stopping rules of [`grow_and_relax`].
 #[derive(Clone, Copy, Debug, PartialEq)]

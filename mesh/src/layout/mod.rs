@@ -10,7 +10,6 @@ pub mod dense_packing;
 pub mod error;
 pub mod lattice;
 pub mod neighbours;
-pub mod prng;
 pub mod random;
 pub mod region;
 pub mod resolution;

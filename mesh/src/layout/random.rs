@@ -8,10 +8,10 @@ use super::chamber::ChamberBox;
 use super::dense_packing::{grow_and_relax, PackingParams};
 use super::error::LayoutError;
 use super::neighbours::BucketGrid;
-use super::prng::Xoshiro256StarStar;
 use super::region::{CentreRegion, PlacementRegion};
 use super::validate::check_cell_values;
 use super::{Cell, Layout};
+use numkit::Xoshiro256StarStar;
 
 /// Volume fraction of random close packing of equal spheres: 0.64 (Scott & Kilgour 1969, J. Phys. D 2, 863;
 /// Berryman 1983, Phys. Rev. A 27, 1053: 0.64 ± 0.02 [memory]). No random packing method goes beyond it.

@@ -4,7 +4,7 @@
 use super::chamber::ChamberBox;
 use super::error::LayoutError;
 use super::micrometres;
-use super::prng::Xoshiro256StarStar;
+use numkit::Xoshiro256StarStar;
 
 /// The part of the chamber a random layout fills.
 #[derive(Clone, Copy, Debug, PartialEq)]

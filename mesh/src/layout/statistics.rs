@@ -3,6 +3,7 @@
 use super::chamber::ChamberBox;
 use super::neighbours::BucketGrid;
 use super::Layout;
+use numkit::quantile_sorted;
 
 /// Quantiles at which nearest-neighbour centre distances are reported.
 pub const NEAREST_NEIGHBOUR_QUANTILES: [f64; 5] = [0.1, 0.25, 0.5, 0.75, 0.9];
@@ -38,7 +39,7 @@ impl Layout {
             nearest.sort_by(f64::total_cmp);
             gaps.sort_by(f64::total_cmp);
             let at = |sorted: &[f64]| -> Vec<(f64, f64)> {
-                NEAREST_NEIGHBOUR_QUANTILES.iter().map(|&q| (q, quantile(sorted, q))).collect()
+                NEAREST_NEIGHBOUR_QUANTILES.iter().map(|&q| (q, quantile_sorted(sorted, q))).collect()
             };
             let mut gap_quantiles = vec![(0.0, gaps[0])];
             gap_quantiles.extend(at(&gaps));
@@ -98,15 +99,6 @@ pub struct ClosePairs {
     pub closest: Option<(usize, usize, f64)>,
 }
 
-/// Linear interpolation between order statistics of sorted data.
-fn quantile(sorted: &[f64], q: f64) -> f64 {
-    let position = q * (sorted.len() - 1) as f64;
-    let below = position.floor() as usize;
-    let above = (below + 1).min(sorted.len() - 1);
-    let weight = position - below as f64;
-    sorted[below] * (1.0 - weight) + sorted[above] * weight
-}
-
 /// For each cell, the distance to its nearest other centre and its smallest surface gap, by expanding rings
 /// of buckets: after ring r no unvisited centre is closer than r bucket edges (nor any unvisited surface
 /// closer than that less both radii), so the search stops once both bests are below.
@@ -147,9 +139,9 @@ fn nearest_neighbours(layout: &Layout, chamber: &ChamberBox) -> Vec<(f64, f64)> 
 
 #[cfg(test)]
 mod tests {
-    use super::super::prng::Xoshiro256StarStar;
     use super::super::Cell;
     use super::*;
+    use numkit::Xoshiro256StarStar;
 
     #[test]
     fn lattice_statistics_are_exact() {
@@ -225,11 +217,5 @@ mod tests {
         assert!(count > 0);
         assert_eq!(close.count, count);
         assert_eq!(close.closest.map(|c| c.2), Some(smallest));
-    }
-
-    #[test]
-    fn quantiles_interpolate() {
-        assert_eq!(quantile(&[1.0, 2.0, 3.0, 4.0, 5.0], 0.25), 2.0);
-        assert!((quantile(&[0.0, 10.0], 0.1) - 1.0).abs() < 1e-15);
     }
 }
