@@ -227,7 +227,12 @@ pub(super) fn validate(raw: RawCase, text: &str, path: &Path) -> Result<Case, Ca
         .as_ref()
         .and_then(|l| l.get_ref().path.as_ref())
         .map(|p| path.parent().unwrap_or(Path::new("")).join(p.get_ref()));
-    let placed = super::cells::build_layout(&src, &cells, cells_span.as_ref(), &cell_defaults, &chamber_box)?;
+    let setting = super::cells::LayoutSetting {
+        chamber: &chamber_box,
+        spacing: fitted.grid.spacing,
+        faces: &boundaries.faces,
+    };
+    let placed = super::cells::build_layout(&src, &cells, cells_span.as_ref(), &cell_defaults, &setting)?;
     let resolution = super::cells::check_resolution(&src, &placed, fitted.grid.spacing)?;
     warnings.extend(resolution);
 
