@@ -1,4 +1,5 @@
-//! `summary.json` names the run's own flow model and carries the isolated-cell estimate of that model, for
+//! `summary.json` reads back through its type (`RunSummary`) and is written again byte for byte, and it names
+//! the run's own flow model and carries the isolated-cell estimate of that model, for
 //! steady and transient runs of each flow model (Darcy, Brinkman, Stokes). The expected anisotropy comes from
 //! the independent reference implementation (`validation::reference::low_peclet`, shared/REFERENCES.md E.3/E.6:
 //! `A = Pe·J_β / (3[2 + 2β + β² + Bi(1 + β)])`, Darcy J = 3/4, Stokes J_β closed form, Brinkman by quadrature).
@@ -6,6 +7,7 @@
 use std::path::PathBuf;
 use std::process::Command;
 
+use plumefield::outputs::RunSummary;
 use validation::reference::low_peclet::{anisotropy_per_peclet_with_decay, Flow};
 
 mod common;
@@ -59,7 +61,18 @@ fn run_summary(model: &str, transient: bool) -> serde_json::Value {
         .output()
         .expect("run the binary");
     assert_eq!(output.status.code(), Some(0), "{}", String::from_utf8_lossy(&output.stderr));
-    let text = std::fs::read_to_string(out.join("summary.json")).expect("summary.json");
+    let path = out.join("summary.json");
+    let text = std::fs::read_to_string(&path).expect("summary.json");
+    // Read back through its type and written again, the summary is the same byte for byte.
+    let typed = RunSummary::read(&path).expect("summary.json reads as a RunSummary");
+    let again = dir.join("again.json");
+    typed.write(&again).expect("write the summary again");
+    let again = std::fs::read_to_string(&again).expect("again.json");
+    let first_difference = text.lines().zip(again.lines()).find(|(a, b)| a != b);
+    assert!(
+        again == text,
+        "{model} {mode}: the summary read back and written again differs; first: {first_difference:?}"
+    );
     let _ = std::fs::remove_dir_all(&dir);
     serde_json::from_str(&text).expect("summary parses")
 }

@@ -6,6 +6,7 @@
 //! The formulas live in `solver::post::estimates`; this file only applies them to a case, and the same
 //! [`CaseEstimates`] feeds the estimate columns that `run` writes beside the measured ones.
 
+use std::collections::BTreeMap;
 use std::fmt::Write as _;
 use std::path::Path;
 
@@ -26,6 +27,7 @@ use solver::solve_case::SteadySolution;
 use crate::case::Case;
 use crate::exit::{InputError, SolverFailure};
 use crate::io::table::{CellTable, Column, ColumnValues};
+use crate::outputs::summary::{ColumnQuantiles, SplitCost, SplitSummary};
 
 /// The mean-field background of the chamber, or why there is none.
 #[derive(Clone, Debug, PartialEq)]
@@ -597,10 +599,11 @@ pub fn estimate_columns(case: &Case, sensing: &[CellSensing]) -> Vec<Column> {
 pub const SPLIT_COLUMNS: [&str; 4] =
     ["self_anisotropy_along_flow", "self_bound_rate", "neighbour_bound_rate", "signal_fraction"];
 
-/// The self/neighbour split of a run: its `cells.csv` columns and its summary.
+/// The self/neighbour split of a run: its `cells.csv` columns, its summary and its cost (when it ran).
 pub struct SelfNeighbourSplit {
     pub columns: Vec<Column>,
-    pub summary: serde_json::Value,
+    pub summary: SplitSummary,
+    pub cost: Option<SplitCost>,
 }
 
 /// Solves the own field of each cell chosen by `[sensing] decompose` (one extra right-hand side each, on the
@@ -618,7 +621,12 @@ pub fn split_self_and_neighbours(case: &Case, solved: &SteadySolution) -> anyhow
     }
     let chosen = case.sensing.decompose.choose(cells);
     let mut columns: Vec<Vec<f64>> = vec![vec![f64::NAN; cells]; SPLIT_COLUMNS.len()];
-    let mut summary = json!({ "selection": format!("{:?}", case.sensing.decompose), "cells": chosen.len() });
+    let mut summary = SplitSummary {
+        selection: format!("{:?}", case.sensing.decompose),
+        cells: chosen.len(),
+        iterations: None,
+    };
+    let mut cost = None;
     if !chosen.is_empty() {
         let inputs = DecomposeInputs {
             geometry: &solved.geometry,
@@ -648,14 +656,12 @@ pub fn split_self_and_neighbours(case: &Case, solved: &SteadySolution) -> anyhow
             columns[2][s.cell] = s.neighbour_bound_rate;
             columns[3][s.cell] = s.signal_fraction;
         }
-        summary = json!({
-            "selection": format!("{:?}", case.sensing.decompose),
-            "cells": chosen.len(),
-            "setup_s": split.setup_seconds,
-            "solve_s": split.solve_seconds,
-            "seconds_per_right_hand_side": split.solve_seconds / split.right_hand_sides.max(1) as f64,
-            "transport_s": solved.timing[2],
-            "iterations": split.cells.iter().map(|s| s.iterations).collect::<Vec<_>>(),
+        summary.iterations = Some(split.cells.iter().map(|s| s.iterations).collect());
+        cost = Some(SplitCost {
+            setup_s: split.setup_seconds,
+            solve_s: split.solve_seconds,
+            seconds_per_right_hand_side: split.solve_seconds / split.right_hand_sides.max(1) as f64,
+            transport_s: solved.timing[2],
         });
     }
     let descriptions = [
@@ -670,13 +676,13 @@ pub fn split_self_and_neighbours(case: &Case, solved: &SteadySolution) -> anyhow
         .zip(columns)
         .map(|((name, (unit, description)), values)| Column::real(name, unit, description, values))
         .collect();
-    Ok(SelfNeighbourSplit { columns, summary })
+    Ok(SelfNeighbourSplit { columns, summary, cost })
 }
 
 /// Median, 10th and 90th percentile (linear interpolation between order statistics, common practice) of every
 /// estimate, ratio and split column of `table`, over the finite values.
-pub fn column_aggregates(table: &CellTable) -> serde_json::Value {
-    let mut out = serde_json::Map::new();
+pub fn column_aggregates(table: &CellTable) -> BTreeMap<String, ColumnQuantiles> {
+    let mut out = BTreeMap::new();
     for name in ESTIMATE_COLUMNS
         .iter()
         .chain(SPLIT_COLUMNS.iter())
@@ -690,8 +696,8 @@ pub fn column_aggregates(table: &CellTable) -> serde_json::Value {
         let q = |p: f64| Some(quantile_sorted(&finite, p)).filter(|x| !x.is_nan());
         out.insert(
             name.to_string(),
-            json!({ "median": q(0.5), "p10": q(0.1), "p90": q(0.9), "count": finite.len() }),
+            ColumnQuantiles { median: q(0.5), p10: q(0.1), p90: q(0.9), count: finite.len() },
         );
     }
-    serde_json::Value::Object(out)
+    out
 }

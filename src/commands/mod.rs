@@ -3,7 +3,6 @@
 pub mod collect;
 pub mod estimate;
 pub mod layout;
-pub mod not_yet;
 pub mod plot;
 pub mod run;
 pub mod sweep;

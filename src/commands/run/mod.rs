@@ -4,6 +4,7 @@
 
 mod report;
 mod stages;
+mod summary;
 pub mod transient;
 
 use crate::case::{Case, SolveMode};

@@ -310,7 +310,7 @@ pub fn integrate(
                 let info = system
                     .solver
                     .solve(solve_rhs, &mut c_new, target, settings.krylov.max_iterations)
-                    .map_err(|e| TransientError::Solve { time: t_new, message: e.to_string() })?;
+                    .map_err(|source| TransientError::Solve { time: t_new, source })?;
                 iterations += info.iterations;
                 outer += 1;
                 let Some(before) = before else { break };
@@ -319,19 +319,11 @@ pub fn integrate(
                     break;
                 }
                 if outer >= settings.max_outer_iterations {
-                    return Err(TransientError::Solve {
-                        time: t_new,
-                        message: format!(
-                            "deferred-correction iterations did not settle (change {change:.3e})"
-                        ),
-                    });
+                    return Err(TransientError::OuterNoConvergence { time: t_new, change });
                 }
             }
             if c_new.iter().any(|v| !v.is_finite()) {
-                return Err(TransientError::Solve {
-                    time: t_new,
-                    message: "non-finite concentration".into(),
-                });
+                return Err(TransientError::NonFinite { time: t_new });
             }
 
             // Embedded error estimate (needs two earlier solutions at BDF2).
