@@ -3,6 +3,7 @@
 
 pub mod case;
 pub mod commands;
+pub mod engine;
 pub mod exit;
 pub mod figures;
 pub mod io;

@@ -49,16 +49,8 @@ pub struct RunFigureData {
     pub readable_error: f64,
 }
 
-/// The first number under key `key` anywhere in `value` (depth first).
-pub fn find_number(value: &serde_json::Value, key: &str) -> Option<f64> {
-    match value {
-        serde_json::Value::Object(map) => {
-            map.get(key).and_then(|v| v.as_f64()).or_else(|| map.values().find_map(|v| find_number(v, key)))
-        }
-        serde_json::Value::Array(items) => items.iter().find_map(|v| find_number(v, key)),
-        _ => None,
-    }
-}
+/// The readable level drawn until the summary carries the run's own `readable_error`.
+const DEFAULT_READABLE_ERROR: f64 = 1.0;
 
 impl RunFigureData {
     /// Reads a run's output folder. `cells.csv` and `summary.json` are required; the slice needs
@@ -92,11 +84,7 @@ impl RunFigureData {
             meanfield_profile,
             isolated_anisotropy: estimates.isolated_anisotropy,
             integration_time: estimates.case["integration_time"].as_f64(),
-            readable_error: serde_json::to_value(&summary)
-                .ok()
-                .and_then(|v| find_number(&v, "readable_error"))
-                .filter(|e| *e > 0.0)
-                .unwrap_or(1.0),
+            readable_error: DEFAULT_READABLE_ERROR,
         })
     }
 }

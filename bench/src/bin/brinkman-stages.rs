@@ -45,8 +45,8 @@ fn stages(size: usize) {
     let settings = BrinkmanSettings::default();
     meter::reset_peak_resident();
     let t = Instant::now();
-    let flow = solve_brinkman(&geometry, &stencils, &layout, &boundaries, &medium, 1e-6, &settings)
-        .expect("flow solves");
+    let flow =
+        solve_brinkman(&geometry, &layout, &boundaries, &medium, 1e-6, &settings).expect("flow solves");
     let t_flow = t.elapsed().as_secs_f64();
     let flow_peak = peak_rss();
     let ligand = LigandParameters {
@@ -102,10 +102,8 @@ fn sphere_iterations(n: usize, alpha: f64, settings: &BrinkmanSettings) -> (usiz
     let k = (radius / alpha) * (radius / alpha);
     let medium = BrinkmanMedium { viscosity: 1.0, effective_viscosity: 1.0, permeability: Some(k) };
     let geometry = EmbeddedGeometry::build(&grid, &layout, boundaries.periodic_axes());
-    let stencils = FacetStencils::build(&geometry);
     let t = Instant::now();
-    let sol =
-        solve_brinkman(&geometry, &stencils, &layout, &boundaries, &medium, 1.0, settings).expect("solves");
+    let sol = solve_brinkman(&geometry, &layout, &boundaries, &medium, 1.0, settings).expect("solves");
     (sol.field.iterations, t.elapsed().as_secs_f64())
 }
 

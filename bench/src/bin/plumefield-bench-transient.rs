@@ -22,7 +22,7 @@ use clap::Parser;
 use mesh::{EmbeddedGeometry, Grid};
 use plumefield::case::transient::{DEFAULT_ERROR_TOLERANCE, STEADY_DISTANCE};
 use plumefield::case::Case;
-use plumefield::commands::run::steady_case;
+use plumefield::engine::steady_case;
 use plumefield_bench::{load_average, thread_cpu_seconds as cpu_seconds};
 use solver::embedded::FacetStencils;
 use solver::linalg::{KrylovParams, MultigridParams, SteadySolver};

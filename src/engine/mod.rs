@@ -1,7 +1,10 @@
-//! `plumefield run CASE`: geometry → flow → transport → per-cell sensing → outputs.
+//! The run engine behind `plumefield run` and the cases of a local sweep: case → geometry → flow → transport →
+//! per-cell sensing → outputs, for steady runs (here and `report.rs`) and transient runs (`transient/`), with
+//! one output schema (`crate::outputs`) and one summary builder (`summary.rs`).
 //!
 //! Nothing is written until every solve has succeeded; each output file is written atomically.
 
+pub mod estimates;
 mod report;
 mod stages;
 mod summary;
@@ -9,6 +12,7 @@ pub mod transient;
 
 use crate::case::{Case, SolveMode};
 use crate::exit::{InputError, SolverFailure};
+use crate::io::output_folder::{OutputFolder, OutputFolderError};
 use anyhow::{Context, Result};
 use solver::linalg::KrylovParams;
 use solver::solve_case::{solve_steady_case, SteadyCase, SteadySolution};
@@ -16,6 +20,17 @@ use std::path::Path;
 use std::time::Instant;
 
 pub use report::{cell_table, write_outputs};
+
+/// The provenance that every `fields.h5` of a run carries.
+fn run_provenance(case: &Case) -> crate::io::fields_h5::Provenance {
+    crate::io::fields_h5::Provenance {
+        version: env!("CARGO_PKG_VERSION").to_string(),
+        git_revision: crate::io::provenance::git_revision(),
+        case_sha256: case.sha256.clone(),
+        case_text: case.source_text.clone(),
+        command_line: std::env::args().collect::<Vec<_>>().join(" "),
+    }
+}
 
 /// The numerical view of a validated case.
 pub fn steady_case(case: &Case) -> SteadyCase<'_> {
@@ -55,6 +70,14 @@ fn flow_resolution_warning(case: &Case) -> Option<String> {
     solver::flow::brinkman::resolution::check_resolution(&medium, case.grid.spacing).map(|w| w.to_string())
 }
 
+/// An output-folder problem as bad input (exit code 2) or a write failure (exit code 1).
+fn folder_error(error: OutputFolderError) -> anyhow::Error {
+    match error {
+        OutputFolderError::Refused(message) => InputError(message).into(),
+        io => anyhow::Error::new(io),
+    }
+}
+
 /// Solves `case` and writes `fields.h5`, `fields.xmf`, `cells.csv` and `summary.json` into `out_dir`.
 pub fn execute(case: &Case, out_dir: &Path, threads: Option<usize>) -> Result<()> {
     execute_with(case, out_dir, threads, &transient::TransientOptions::default())
@@ -67,16 +90,21 @@ pub fn execute_with(
     _threads: Option<usize>,
     options: &transient::TransientOptions,
 ) -> Result<()> {
-    if case.solve.mode == SolveMode::Transient {
-        return transient::execute(case, out_dir, options);
-    }
-    if options.resume || options.checkpoint_every.is_some() {
+    let transient = case.solve.mode == SolveMode::Transient;
+    if !transient && (options.resume || options.checkpoint_every.is_some()) {
         return Err(InputError(
             "--checkpoint-every and --resume apply to solve.mode = \"transient\" only (a steady run has no time steps)"
                 .into(),
         )
         .into());
     }
+    // Checked and locked before the solve; the run writes beside it and the folder is replaced whole.
+    let folder = OutputFolder::prepare(out_dir, &case.input_files, options.resume).map_err(folder_error)?;
+    if transient {
+        transient::execute(case, folder.staging(), options)?;
+        return folder.commit().map_err(folder_error);
+    }
+    let staging = folder.staging().to_path_buf();
     for warning in &case.warnings {
         eprintln!("warning: {warning}");
     }
@@ -93,9 +121,9 @@ pub fn execute_with(
     }
     progress.stage("writing outputs");
     let write_started = Instant::now();
-    std::fs::create_dir_all(out_dir)
-        .with_context(|| format!("cannot create output folder {}", out_dir.display()))?;
-    report::write_outputs(case, &solved, &warnings, out_dir, started, write_started)?;
+    report::write_outputs(case, &solved, &warnings, &staging, started, write_started)
+        .with_context(|| format!("cannot write the outputs of {}", out_dir.display()))?;
+    folder.commit().map_err(folder_error)?;
     progress.finish(&format!(
         "done in {:.1} s: {} cells, mass balance closes to {:.1e}; outputs in {}",
         started.elapsed().as_secs_f64(),

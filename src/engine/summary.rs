@@ -8,7 +8,7 @@ use solver::post::estimates::meanfield_outlet_concentration;
 use solver::problem::ChamberFace;
 
 use crate::case::Case;
-use crate::commands::estimate::{column_aggregates, CaseEstimates};
+use crate::engine::estimates::{column_aggregates, CaseEstimates};
 use crate::io::provenance::git_revision;
 use crate::io::table::CellTable;
 use crate::outputs::summary::{
