@@ -96,8 +96,7 @@ pub fn write_outputs(
     write_cells_csv(&out_dir.join("cells.csv"), &table)?;
     // One hold of HDF5's process-wide lock for the whole file (the library runs one call at a time anyway):
     // cases of a sweep writing at once then take turns file by file and drift apart, instead of alternating
-    // call by call, which doubled both writes and kept the cases in step to collide again
-    // (measured with scripts/bench_sweep).
+    // call by call, which doubled both writes and kept the cases in step to collide again.
     hdf5::sync::sync(|| {
         write_fields_h5(
             &out_dir.join("fields.h5"),

@@ -28,8 +28,8 @@ use solver::embedded::FacetStencils;
 use solver::linalg::{KrylovParams, MultigridParams, SteadySolver};
 use solver::post::{cell_sensing, SensingModel};
 use solver::solve_case::solve_flow;
-use solver::transport::transient::integrate::{outlet_concentration, sensed_rates};
-use solver::transport::transient::{
+use solver::solve_transient::integrate::{outlet_concentration, sensed_rates};
+use solver::solve_transient::{
     initial_state, integrate, solve_transient_case, FlowPhase, SteadyReference, StepReport, TimeStepping,
     TransientCase, TransientObserver, TransientOutput, TransientProblem, TransientSettings, TransientState,
 };

@@ -197,11 +197,10 @@ mod tests {
     }
 
     #[test]
-    fn thousands_of_cells_are_fast() {
+    fn thousands_of_cells_are_placed() {
+        // A timing belongs in the benchmark records, not in a test a loaded machine can fail.
         let c = ChamberBox { lower: [0.0; 3], upper: [1e-3, 1e-3, 0.4e-3], periodic: [false; 3] };
-        let start = std::time::Instant::now();
         let layout = random_sequential_addition(&spec(RandomTarget::VolumeFraction(0.2), 11), &c).unwrap();
         assert!(layout.cells.len() > 18_000);
-        assert!(start.elapsed().as_secs_f64() < 5.0, "{:?}", start.elapsed());
     }
 }

@@ -10,7 +10,7 @@ use crate::case::Case;
 use crate::io::table::Column;
 use crate::outputs::columns::{cell_columns, CellState, RunKind};
 use solver::post::CellSensing;
-use solver::transport::transient::TransientOutput;
+use solver::solve_transient::TransientOutput;
 
 /// Values of [`CellSensing`] kept per cell at every output time, in the order [`sensing_of`] reads them:
 /// mean surface concentration, bound rate, anisotropy x, y, z, along the flow, front–back contrast, direction

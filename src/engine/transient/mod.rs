@@ -1,5 +1,5 @@
 //! `plumefield run CASE` for `[solve] mode = "transient"`: the case as a `TransientCase`, the time loop of
-//! `solver::transport::transient` with progress, restart records and checkpoints, then the outputs:
+//! `solver::solve_transient` with progress, restart records and checkpoints, then the outputs:
 //! `fields.h5` (steady layout for the final state + one dataset per output time), the temporal `fields.xmf`,
 //! `cells.csv` (final time), `cells_timeseries.csv` (every output time, long format), `summary.json`, figures.
 //!
@@ -20,7 +20,7 @@ use std::time::Instant;
 use anyhow::{Context, Result};
 use solver::linalg::MultigridParams;
 use solver::problem::ChamberFace;
-use solver::transport::transient::{
+use solver::solve_transient::{
     solve_transient_case, TimeStepping, TransientCase, TransientError, TransientSettings, TransientSolution,
 };
 

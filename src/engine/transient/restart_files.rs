@@ -12,7 +12,7 @@
 use std::path::{Path, PathBuf};
 
 use anyhow::Context;
-use solver::transport::transient::{StepBalance, TransientOutput, TransientState};
+use solver::solve_transient::{StepBalance, TransientOutput, TransientState};
 
 use super::cell_series::{sensed_values, RECORD_VALUES};
 use crate::exit::InputError;
