@@ -87,6 +87,17 @@ fn failing_case_is_recorded_and_counted_in_the_exit_code() {
     let out = pf(&["collect", out_dir.to_str().unwrap()]);
     assert_eq!(out.status.code(), Some(0), "{}", show(&out));
     assert_eq!(std::fs::read(&csv).unwrap(), table);
+
+    // The figures pass the checks that need no eyes, and the failed case is stated, not drawn.
+    let (table, plan, _) = plumefield::sweep::collect::collect(&out_dir).unwrap();
+    let drawn =
+        plumefield::figures::sweep_curves::draw_sweep_figures(&table, &plan, &dir.path().join("figures"))
+            .unwrap();
+    assert!(!drawn.is_empty());
+    for (path, record) in &drawn {
+        assert_eq!(record.check(), Ok(()), "{}", path.display());
+        assert!(record.notes.iter().any(|n| n.contains("1 cases failed")), "{:?}", record.notes);
+    }
 }
 
 #[test]

@@ -1,7 +1,10 @@
 //! Figures of a collected sweep: each metric against each swept parameter, one PNG per pair, in
-//! `DIR/figures/<metric>_vs_<parameter>.png`. Per-cell aggregates are drawn as the median with a p10–p90 bar;
-//! the cases that share the values of the other axes form one series, joined through the mean over replicate
-//! seeds. A parameter swept on a log scale gets a log axis.
+//! `DIR/figures/<metric>_vs_<parameter>.png`. Names in words with display units. Cases that share the values of
+//! every other non-replicate axis (numeric or text) form one series; at each parameter value the series shows
+//! the mean over replicate seeds with its 95 % Student-t interval (for per-cell quantities, of the cases'
+//! medians over their cells). A parameter swept on a log scale gets a log axis, as do positive metrics spanning
+//! more than two decades; a text-valued parameter is an axis of categories, never averaged over. The direction
+//! error figures carry the readable level. Legends sit where no data are.
 
 use std::path::{Path, PathBuf};
 
@@ -9,8 +12,12 @@ use anyhow::{Context, Result};
 use plotters::prelude::*;
 use rayon::prelude::*;
 
-use super::style::{register_fonts, write_png, FONT};
-use crate::sweep::axis::Scale;
+use super::style::legend::along;
+use super::style::{
+    axis_label, chart, choose_scale, colour_maps, drawing, place_legend, plot_box, register_fonts,
+    significant, titled, write_png, Axis, DisplayUnit, FigureRecord, Legend, Scale, Swatch, LEVEL,
+};
+use crate::sweep::axis::Scale as SweepScale;
 use crate::sweep::collect::{ColumnData, ColumnRole, SweepTable};
 use crate::sweep::plan_record::PlanRecord;
 
@@ -22,14 +29,26 @@ const PLOTTED_METRICS: [&str; 4] = [
     "cells.volume_fraction",
 ];
 
-const SIZE: (u32, u32) = (800, 560);
+/// The direction error a cell must stay below to read its cue, until the summary carries `readable_error`.
+const READABLE_ERROR: f64 = 1.0;
 
-/// One curve to draw: y (and optional p10/p90) against a parameter.
+const SIZE: (u32, u32) = (900, 600);
+const PLOT_HEIGHT: f64 = 440.0;
+
+/// One quantity to draw against the parameters.
 struct Metric<'a> {
     name: &'a str,
+    /// Its description, and a short name in words for the axis.
+    words: String,
+    short: String,
     unit: &'a str,
     y: &'a [f64],
-    band: Option<(&'a [f64], &'a [f64])>,
+}
+
+/// The x values of one parameter: numbers (SI) or text categories.
+enum Values<'a> {
+    Numbers(&'a [f64]),
+    Categories(Vec<String>),
 }
 
 fn real<'a>(table: &'a SweepTable, name: &str) -> Option<&'a [f64]> {
@@ -39,186 +58,330 @@ fn real<'a>(table: &'a SweepTable, name: &str) -> Option<&'a [f64]> {
     }
 }
 
-/// Draw every metric against every numeric, non-replicate swept parameter; returns the files written.
+/// A dotted case key in words: `flow.mean_velocity` → "flow mean velocity", `cells.radius` → "cell radius".
+pub fn key_in_words(key: &str) -> String {
+    key.split('.')
+        .map(|part| if part == "cells" { "cell".to_string() } else { part.replace('_', " ") })
+        .collect::<Vec<_>>()
+        .join(" ")
+}
+
+/// Student-t 0.975 quantile for `dof` degrees of freedom (Abramowitz & Stegun 1964, Table 26.10; from memory,
+/// to 3 decimals): the half-width of a 95 % interval of a mean is this times the standard error.
+pub fn t_975(dof: usize) -> f64 {
+    const TABLE: [f64; 30] = [
+        12.706, 4.303, 3.182, 2.776, 2.571, 2.447, 2.365, 2.306, 2.262, 2.228, 2.201, 2.179, 2.160, 2.145,
+        2.131, 2.120, 2.110, 2.101, 2.093, 2.086, 2.080, 2.074, 2.069, 2.064, 2.060, 2.056, 2.052, 2.048,
+        2.045, 2.042,
+    ];
+    match dof {
+        0 => f64::NAN,
+        1..=30 => TABLE[dof - 1],
+        31..=40 => 2.021,
+        41..=60 => 2.000,
+        61..=120 => 1.980,
+        _ => 1.960,
+    }
+}
+
+/// Mean and 95 % half-width (NaN for a single value) of `values`.
+pub fn mean_interval(values: &[f64]) -> (f64, f64) {
+    let n = values.len();
+    let mean = values.iter().sum::<f64>() / n as f64;
+    if n < 2 {
+        return (mean, f64::NAN);
+    }
+    let variance = values.iter().map(|v| (v - mean).powi(2)).sum::<f64>() / (n - 1) as f64;
+    (mean, t_975(n - 1) * (variance / n as f64).sqrt())
+}
+
+/// Draw every metric against every non-replicate swept parameter; returns the files written.
 pub fn draw_sweep_curves(table: &SweepTable, plan: &PlanRecord, out_dir: &Path) -> Result<Vec<PathBuf>> {
+    Ok(draw_sweep_figures(table, plan, out_dir)?.into_iter().map(|(p, _)| p).collect())
+}
+
+/// As [`draw_sweep_curves`], with what each figure shows.
+pub fn draw_sweep_figures(
+    table: &SweepTable,
+    plan: &PlanRecord,
+    out_dir: &Path,
+) -> Result<Vec<(PathBuf, FigureRecord)>> {
     let mut metrics = Vec::new();
     for column in &table.columns {
-        if let ColumnRole::Aggregate { quantity, stat: "median" } = &column.role {
-            let band = real(table, &format!("{quantity}_p10")).zip(real(table, &format!("{quantity}_p90")));
-            if let ColumnData::Real(y) = &column.data {
-                metrics.push(Metric { name: &column.name, unit: &column.unit, y, band });
-            }
+        if let (ColumnRole::Aggregate { stat: "median", .. }, ColumnData::Real(y)) =
+            (&column.role, &column.data)
+        {
+            let what = column.description.split_once(": ").map_or(column.description.as_str(), |d| d.1);
+            let words = format!("{what}, median over a case's cells");
+            let short =
+                format!("{}, median over cells", key_in_words(column.name.trim_end_matches("_median")));
+            metrics.push(Metric { name: &column.name, words, short, unit: &column.unit, y });
         }
     }
     for name in PLOTTED_METRICS {
         if let (Some(column), Some(y)) = (table.column(name), real(table, name)) {
-            metrics.push(Metric { name, unit: &column.unit, y, band: None });
+            let short = key_in_words(name.rsplit('.').next().unwrap_or(name));
+            metrics.push(Metric { name, words: column.description.clone(), short, unit: &column.unit, y });
         }
     }
-    let parameters: Vec<(usize, &[f64])> = plan
+    let parameters: Vec<(usize, Values)> = plan
         .axes
         .iter()
         .enumerate()
         .filter(|(_, axis)| !axis.replicate)
-        .filter_map(|(a, axis)| real(table, &axis.key).map(|x| (a, x)))
+        .filter_map(|(a, axis)| match &table.column(&axis.key)?.data {
+            ColumnData::Real(v) => Some((a, Values::Numbers(v))),
+            ColumnData::Text(v) => Some((a, Values::Categories(v.clone()))),
+        })
         .collect();
     if parameters.is_empty() || metrics.is_empty() {
         return Ok(Vec::new());
     }
     std::fs::create_dir_all(out_dir).with_context(|| format!("cannot create {}", out_dir.display()))?;
     register_fonts();
-    let mut figures = Vec::new();
-    for &(a, x) in &parameters {
-        // Series: cases with equal values on every other non-replicate axis.
-        let others: Vec<usize> = parameters.iter().map(|(b, _)| *b).filter(|&b| b != a).collect();
-        let series_key = |row: usize| -> String {
-            others
-                .iter()
-                .map(|&b| {
-                    format!("{} = {}", plan.axes[b].key, plan.cases[row].values[b].text.trim_matches('"'))
-                })
-                .collect::<Vec<_>>()
-                .join(", ")
-        };
-        let mut series: Vec<(String, Vec<usize>)> = Vec::new();
-        for row in 0..table.rows {
-            let key = series_key(row);
-            match series.iter_mut().find(|(k, _)| *k == key) {
-                Some((_, rows)) => rows.push(row),
-                None => series.push((key, vec![row])),
-            }
-        }
-        figures.push((a, x, series));
-    }
+    let done: Vec<bool> = match table.column("status").map(|c| &c.data) {
+        Some(ColumnData::Text(s)) => s.iter().map(|s| s == "done").collect(),
+        _ => vec![true; table.rows],
+    };
     // Drawn on all cores: rasterising and compressing the PNGs is most of `collect`'s time, which a local
     // sweep spends after its cases, with the other cores idle.
     let pairs: Vec<(usize, &Metric)> =
-        (0..figures.len()).flat_map(|f| metrics.iter().map(move |m| (f, m))).collect();
+        (0..parameters.len()).flat_map(|p| metrics.iter().map(move |m| (p, m))).collect();
     pairs
         .par_iter()
-        .map(|&(f, metric)| {
-            let (a, x, series) = &figures[f];
+        .map(|&(p, metric)| {
+            let (a, values) = &parameters[p];
             let axis = &plan.axes[*a];
+            // Series: cases with equal values on every other non-replicate axis, text axes included.
+            let others: Vec<usize> = parameters.iter().map(|(b, _)| *b).filter(|b| b != a).collect();
+            let mut series: Vec<(String, Vec<usize>)> = Vec::new();
+            for row in (0..table.rows).filter(|&r| done[r]) {
+                let key = others
+                    .iter()
+                    .map(|&b| {
+                        let v = &plan.cases[row].values[b];
+                        let shown = match (v.si, plan.axes[b].unit.as_deref()) {
+                            (Some(si), Some(unit)) => {
+                                let u = DisplayUnit::of(unit, si);
+                                format!("{} {}", significant(si * u.factor, 3), u.label)
+                            }
+                            _ => v.text.trim_matches('"').to_string(),
+                        };
+                        format!("{} = {}", key_in_words(&plan.axes[b].key), shown.trim())
+                    })
+                    .collect::<Vec<_>>()
+                    .join(", ");
+                match series.iter_mut().find(|(k, _)| *k == key) {
+                    Some((_, rows)) => rows.push(row),
+                    None => series.push((key, vec![row])),
+                }
+            }
             let file = out_dir.join(format!("{}_vs_{}.png", metric.name, axis.key));
-            draw_one(
-                &file,
-                axis.key.as_str(),
-                axis.unit.as_deref().unwrap_or(""),
-                axis.scale == Scale::Log,
-                x,
-                metric,
-                series,
-            )
-            .with_context(|| format!("cannot draw {}", file.display()))?;
-            Ok(file)
+            let x_words = key_in_words(&axis.key);
+            let unfinished = done.iter().filter(|d| !**d).count();
+            let unit = axis.unit.as_deref().unwrap_or("");
+            let log = axis.scale == SweepScale::Log;
+            let record = draw_one(&file, &x_words, unit, log, values, metric, &series, unfinished)
+                .with_context(|| format!("cannot draw {}", file.display()))?;
+            Ok((file, record))
         })
         .collect()
 }
 
+/// One point of a series: x in plot units, mean, half-width, seeds.
+struct Group {
+    x: f64,
+    x_shown: f64,
+    mean: f64,
+    half: f64,
+}
+
+#[allow(clippy::too_many_arguments)]
 fn draw_one(
     file: &Path,
-    x_name: &str,
+    x_words: &str,
     x_unit: &str,
     log_x: bool,
-    x: &[f64],
+    values: &Values,
     metric: &Metric,
     series: &[(String, Vec<usize>)],
-) -> Result<()> {
-    let tx = |v: f64| if log_x { v.log10() } else { v };
-    let finite = |v: f64| v.is_finite();
-    let usable = |row: usize| finite(tx(x[row])) && finite(metric.y[row]);
-    let rows: Vec<usize> = (0..x.len()).filter(|&r| usable(r)).collect();
-    let mut y_values: Vec<f64> = rows.iter().map(|&r| metric.y[r]).collect();
-    if let Some((lo, hi)) = metric.band {
-        y_values.extend(rows.iter().flat_map(|&r| [lo[r], hi[r]]).filter(|v| v.is_finite()));
-    }
-    let (x0, x1) = padded(rows.iter().map(|&r| tx(x[r])));
-    let (y0, y1) = padded(y_values.into_iter());
-
-    write_png(file, SIZE, |root| {
-        root.fill(&WHITE)?;
-        let label =
-            |n: &str, u: &str| if u.is_empty() || u == "1" { n.to_string() } else { format!("{n} [{u}]") };
-        let mut chart = ChartBuilder::on(root)
-            .caption(format!("{} vs {}", metric.name, x_name), (FONT, 20))
-            .margin(12)
-            .x_label_area_size(45)
-            .y_label_area_size(80)
-            .build_cartesian_2d(x0..x1, y0..y1)?;
-        let x_label =
-            if log_x { format!("{} (log scale)", label(x_name, x_unit)) } else { label(x_name, x_unit) };
-        chart
-            .configure_mesh()
-            // Major grid lines only: the default light lines clutter the curves and cost `collect` CPU time.
-            .max_light_lines(0)
-            .x_desc(x_label)
-            .y_desc(label(metric.name, metric.unit))
-            .x_label_formatter(&|v| short(if log_x { 10f64.powf(*v) } else { *v }))
-            .y_label_formatter(&|v| short(*v))
-            .label_style((FONT, 13))
-            .draw()?;
-        for (s, (key, members)) in series.iter().enumerate() {
-            let colour = Palette99::pick(s).to_rgba();
-            let points: Vec<usize> = members.iter().copied().filter(|&r| usable(r)).collect();
-            // Mean over replicates at each x, joined in x order.
-            let mut xs: Vec<f64> = points.iter().map(|&r| tx(x[r])).collect();
-            xs.sort_by(f64::total_cmp);
-            xs.dedup();
-            let line: Vec<(f64, f64)> = xs
-                .iter()
-                .map(|&xv| {
-                    let ys: Vec<f64> =
-                        points.iter().filter(|&&r| tx(x[r]) == xv).map(|&r| metric.y[r]).collect();
-                    (xv, ys.iter().sum::<f64>() / ys.len() as f64)
-                })
-                .collect();
-            let drawn = chart.draw_series(std::iter::once(PathElement::new(line, colour.stroke_width(2))))?;
-            if series.len() > 1 && series.len() <= 8 {
-                drawn.label(key.clone()).legend(move |(lx, ly)| {
-                    PathElement::new(vec![(lx, ly), (lx + 18, ly)], colour.stroke_width(2))
-                });
-            }
-            if let Some((lo, hi)) = metric.band {
-                chart.draw_series(points.iter().filter(|&&r| lo[r].is_finite() && hi[r].is_finite()).map(
-                    |&r| PathElement::new(vec![(tx(x[r]), lo[r]), (tx(x[r]), hi[r])], colour.stroke_width(1)),
-                ))?;
-            }
-            chart.draw_series(
-                points.iter().map(|&r| Circle::new((tx(x[r]), metric.y[r]), 4, colour.filled())),
-            )?;
+    unfinished: usize,
+) -> Result<FigureRecord> {
+    register_fonts();
+    let y_unit =
+        DisplayUnit::of(metric.unit, metric.y.iter().copied().find(|v| v.is_finite()).unwrap_or(1.0));
+    let rows: Vec<usize> = series.iter().flat_map(|s| s.1.iter().copied()).collect();
+    let (x, categories, x_unit) = match values {
+        Values::Numbers(xs) => {
+            let unit = DisplayUnit::of(x_unit, xs.iter().copied().find(|v| v.is_finite()).unwrap_or(1.0));
+            let shown: Vec<f64> = rows.iter().map(|&r| xs[r] * unit.factor).collect();
+            let scale = choose_scale(&shown, log_x);
+            (Axis::fit(&shown, scale, false, &axis_label(x_words, &unit)), None, unit)
         }
-        if series.len() > 1 && series.len() <= 8 {
-            chart
-                .configure_series_labels()
-                .background_style(WHITE.mix(0.8))
-                .border_style(BLACK)
-                .label_font((FONT, 12))
-                .draw()?;
+        Values::Categories(names) => {
+            let mut order: Vec<String> = Vec::new();
+            for &r in &rows {
+                if !order.contains(&names[r]) {
+                    order.push(names[r].clone());
+                }
+            }
+            let mut axis = Axis::between(
+                -0.5,
+                order.len() as f64 - 0.5,
+                Scale::Linear,
+                &format!("{x_words} (category)"),
+            );
+            axis.range = (-0.5, order.len() as f64 - 0.5);
+            axis.ticks = (0..order.len()).map(|k| k as f64).collect();
+            axis.tick_labels = order.clone();
+            (axis, Some(order), DisplayUnit::dimensionless())
         }
-        Ok(())
-    })
-}
-
-/// The range of `values` padded by 5% (or ±1 around a single value; 0..1 when there is none).
-fn padded(values: impl Iterator<Item = f64>) -> (f64, f64) {
-    let (lo, hi) = values.fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), v| (lo.min(v), hi.max(v)));
-    if !lo.is_finite() || !hi.is_finite() {
-        return (0.0, 1.0);
+    };
+    let x_of = |row: usize| -> f64 {
+        match values {
+            Values::Numbers(xs) => xs[row] * x_unit.factor,
+            Values::Categories(names) => {
+                categories.as_ref().and_then(|c| c.iter().position(|n| *n == names[row])).unwrap_or(0) as f64
+            }
+        }
+    };
+    let mut not_drawn = 0;
+    let mut groups: Vec<Vec<Group>> = Vec::new();
+    for (_, members) in series {
+        let mut xs: Vec<f64> = members.iter().map(|&r| x_of(r)).filter(|v| v.is_finite()).collect();
+        xs.sort_by(f64::total_cmp);
+        xs.dedup();
+        let mut line = Vec::new();
+        for xv in xs {
+            let ys: Vec<f64> =
+                members.iter().filter(|&&r| x_of(r) == xv).map(|&r| metric.y[r] * y_unit.factor).collect();
+            let finite: Vec<f64> = ys.iter().copied().filter(|v| v.is_finite()).collect();
+            not_drawn += ys.len() - finite.len();
+            if finite.is_empty() {
+                continue;
+            }
+            let (mean, half) = mean_interval(&finite);
+            line.push(Group { x: x.map(xv), x_shown: xv, mean, half });
+        }
+        groups.push(line);
     }
-    let span = hi - lo;
-    let pad = if span > 0.0 { 0.05 * span } else { (0.1 * lo.abs()).max(1e-30) };
-    (lo - pad, hi + pad)
-}
-
-/// Tick text: plain for moderate magnitudes, scientific otherwise.
-fn short(v: f64) -> String {
-    if v == 0.0 {
-        "0".into()
-    } else if (1e-2..1e4).contains(&v.abs()) {
-        format!("{}", (v * 1e3).round() / 1e3)
+    let mut y_values: Vec<f64> =
+        groups.iter().flatten().flat_map(|g| [g.mean, g.mean - g.half, g.mean + g.half]).collect();
+    let direction_error = metric.name.starts_with("direction_error");
+    if direction_error {
+        y_values.push(READABLE_ERROR);
+    }
+    let positive = y_values.iter().filter(|v| v.is_finite()).all(|v| *v > 0.0);
+    let y_scale = choose_scale(&y_values, false);
+    // On a log axis a lower interval end at or below zero cannot be drawn: such intervals are cut at the axis.
+    let y_values: Vec<f64> = y_values.into_iter().filter(|v| y_scale != Scale::Log || *v > 0.0).collect();
+    let mut legend = Legend::default();
+    let named = series.len() > 1 && series.len() <= 8;
+    if named {
+        for (s, (key, _)) in series.iter().enumerate() {
+            legend.add(Swatch::Line(colour_maps::series(s)), key.clone());
+        }
+    }
+    let seeds = series.iter().flat_map(|s| &s.1).count() as f64
+        / groups.iter().map(Vec::len).sum::<usize>().max(1) as f64;
+    legend.add(
+        Swatch::Blank,
+        format!("mean over seeds with 95 % interval ({} cases per point on average)", significant(seeds, 2)),
+    );
+    if direction_error {
+        legend.add(
+            Swatch::Dashed(LEVEL),
+            format!("readable level: error = {}", significant(READABLE_ERROR, 2)),
+        );
+    }
+    if not_drawn > 0 {
+        legend.add(Swatch::Blank, format!("{not_drawn} cases with a non-finite value, not drawn"));
+    }
+    if unfinished > 0 {
+        legend.add(Swatch::Blank, format!("{unfinished} cases failed or not done, not drawn"));
+    }
+    let not_drawn = not_drawn + unfinished;
+    let y = Axis::fit(&y_values, y_scale, false, &axis_label(&metric.short, &y_unit))
+        .with_headroom(super::style::legend::Legend::room(legend.entries.len()), PLOT_HEIGHT);
+    let mut record = FigureRecord {
+        file: file.display().to_string(),
+        not_drawn,
+        categories: categories.clone(),
+        y_positive_quantity: positive,
+        ..Default::default()
+    };
+    let title = format!("{} against {}", capitalised(&metric.words), x_words);
+    let title = if title.chars().count() > 80 {
+        format!("{} against {}", capitalised(&metric.short), x_words)
     } else {
-        format!("{v:.2e}")
-    }
+        title
+    };
+    write_png(file, SIZE, |root| {
+        let body = titled(root, &title, None)?;
+        let mut plot = chart(&body, &x, &y)?;
+        let mut occupied = Vec::new();
+        // Series side by side at a shared x, a few pixels apart, so their intervals do not overlap.
+        let dodge = |s: usize| (s as f64 - 0.5 * (groups.len() as f64 - 1.0)) * 6.0;
+        for (s, line) in groups.iter().enumerate() {
+            let colour = colour_maps::series(s);
+            let at = |g: &Group, v: f64| {
+                let (px, py) = plot.backend_coord(&(g.x, y.map(v)));
+                (px + dodge(s) as i32, py)
+            };
+            let pixels: Vec<(i32, i32)> = line.iter().map(|g| at(g, g.mean)).collect();
+            occupied.extend(along(&pixels));
+            drawing(root.draw(&PathElement::new(pixels.clone(), colour.stroke_width(2))))?;
+            for g in line {
+                if g.half.is_finite() {
+                    let lo = if y.scale == Scale::Log && g.mean - g.half <= 0.0 {
+                        y.unmap(y.range.0)
+                    } else {
+                        g.mean - g.half
+                    };
+                    let (top, bottom) = (at(g, g.mean + g.half), at(g, lo));
+                    occupied.extend(along(&[top, bottom]));
+                    drawing(root.draw(&PathElement::new(vec![top, bottom], colour.stroke_width(2))))?;
+                    for end in [top, bottom] {
+                        drawing(root.draw(&PathElement::new(
+                            vec![(end.0 - 4, end.1), (end.0 + 4, end.1)],
+                            colour.stroke_width(2),
+                        )))?;
+                    }
+                    record.points.push((g.x_shown, g.mean + g.half));
+                    if lo > 0.0 || y.scale != Scale::Log {
+                        record.points.push((g.x_shown, lo));
+                    }
+                }
+                drawing(root.draw(&Circle::new(at(g, g.mean), 4, colour.filled())))?;
+                record.points.push((g.x_shown, g.mean));
+            }
+        }
+        if direction_error {
+            let level = y.map(READABLE_ERROR);
+            let (x0, x1) = x.range;
+            for d in (0..40).step_by(2) {
+                let (a, b) = (x0 + (x1 - x0) * d as f64 / 40.0, x0 + (x1 - x0) * (d + 1) as f64 / 40.0);
+                drawing(plot.draw_series(std::iter::once(PathElement::new(
+                    vec![(a, level), (b, level)],
+                    LEVEL.stroke_width(2),
+                ))))?;
+            }
+            occupied.extend(along(&[plot.backend_coord(&(x0, level)), plot.backend_coord(&(x1, level))]));
+        }
+        let plot_px = plot_box(&plot);
+        record.legend = place_legend(root, &legend, plot_px, &occupied, plot_px.0)?;
+        record.notes.extend(legend.entries.iter().map(|e| e.1.clone()));
+        record.occupied = occupied;
+        Ok(())
+    })?;
+    record.x = Some(x);
+    record.y = Some(y);
+    Ok(record)
+}
+
+fn capitalised(text: &str) -> String {
+    let mut chars = text.chars();
+    chars.next().map_or(String::new(), |c| c.to_uppercase().chain(chars).collect())
 }
 
 #[cfg(test)]
@@ -226,11 +389,43 @@ mod tests {
     use super::*;
 
     #[test]
-    fn ranges_and_ticks() {
-        assert_eq!(padded([1.0, 3.0].into_iter()), (0.9, 3.1));
-        assert_eq!(padded([2.0].into_iter()), (1.8, 2.2));
-        assert_eq!(padded(std::iter::empty()), (0.0, 1.0));
-        assert_eq!(short(1.5e-6), "1.50e-6");
-        assert_eq!(short(0.25), "0.25");
+    fn words_and_intervals() {
+        assert_eq!(key_in_words("flow.mean_velocity"), "flow mean velocity");
+        assert_eq!(key_in_words("cells.uptake.rate_constant"), "cell uptake rate constant");
+        // Two values 1 and 3: mean 2, s = √2, half-width t(1) s/√2 = 12.706.
+        let (mean, half) = mean_interval(&[1.0, 3.0]);
+        assert_eq!(mean, 2.0);
+        assert!((half - 12.706).abs() < 1e-9, "{half}");
+        assert!(mean_interval(&[4.0]).1.is_nan());
+        assert_eq!(t_975(1000), 1.96);
+    }
+
+    #[test]
+    fn text_valued_axis_is_drawn_as_categories_never_averaged() {
+        // Two uptake tables (text) × two seeds: each table is its own category with its own mean.
+        let names: Vec<String> = ["table A", "table A", "table B", "table B"].map(String::from).to_vec();
+        let y = [0.5, 0.7, 3.0, 5.0];
+        let metric = Metric {
+            name: "direction_error_median",
+            words: "direction error".into(),
+            short: "direction error".into(),
+            unit: "1",
+            y: &y,
+        };
+        let dir = tempfile::tempdir().unwrap();
+        let file = dir.path().join("f.png");
+        let series = vec![(String::new(), vec![0, 1, 2, 3])];
+        let record =
+            draw_one(&file, "uptake table", "", false, &Values::Categories(names), &metric, &series, 0)
+                .unwrap();
+        assert_eq!(record.check(), Ok(()));
+        assert_eq!(record.categories.as_deref(), Some(&["table A".to_string(), "table B".to_string()][..]));
+        // Means per category (0.6 at position 0, 4 at position 1), not one mean over both.
+        assert!(
+            record.points.contains(&(0.0, 0.6)) && record.points.contains(&(1.0, 4.0)),
+            "{:?}",
+            record.points
+        );
+        assert!(record.notes.iter().any(|n| n.contains("readable level")));
     }
 }
