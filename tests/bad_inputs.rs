@@ -154,6 +154,28 @@ fn sizes_that_overflow_name_their_real_cause() {
 }
 
 #[test]
+fn impossible_layouts_are_refused_before_allocating() {
+    let dir = folder("layouts");
+    let out = dir.join("out");
+    // A 1 nm lattice would ask for ~10^15 cells; a random count of 10^9 for ~10^5 times the chamber.
+    let lattice = write_case(
+        &dir,
+        "lattice.toml",
+        &[("cells.layout", r#"{ kind = "lattice", spacing = ["1 nm", "1 nm", "1 nm"] }"#)],
+    );
+    let random = write_case(
+        &dir,
+        "random.toml",
+        &[("cells.layout", r#"{ kind = "random", count = 1000000000, min_gap = "1 um", seed = 1 }"#)],
+    );
+    for case in [&lattice, &random] {
+        refused(&["run", s(case), "-o", s(&out)], &["cells.layout"], &out);
+        refused(&["estimate", s(case)], &["cells.layout"], &out);
+    }
+    let _ = std::fs::remove_dir_all(&dir);
+}
+
+#[test]
 fn a_duplicate_key_is_named() {
     let dir = folder("duplicate");
     let out = dir.join("out");

@@ -50,6 +50,14 @@ pub fn lattice(
             });
         }
     }
+    // Refused before anything is allocated: a spacing closer than a diameter (along an axis with two or more
+    // cells) overlaps neighbours, and such a request can ask for any number of cells.
+    for a in 0..3 {
+        if counts[a] > 1 && spacing[a] < 2.0 * radius {
+            let second = counts[..a].iter().fold(1usize, |n, &c| n.saturating_mul(c));
+            return Err(LayoutError::Overlap { first: 0, second, gap: spacing[a] - 2.0 * radius });
+        }
+    }
     let mut cells = Vec::with_capacity(counts.iter().product());
     for k in 0..counts[2] {
         for j in 0..counts[1] {
@@ -68,6 +76,14 @@ pub fn lattice(
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn spacing_closer_than_a_diameter_is_refused_before_allocating() {
+        // 1 nm spacing in a 1 mm box would ask for 10^18 cells; the diameter check refuses it first.
+        let c = ChamberBox { lower: [0.0; 3], upper: [1e-3; 3], periodic: [false; 3] };
+        let err = lattice([1e-9; 3], &c, 5e-6, 1.0).unwrap_err();
+        assert!(matches!(err, LayoutError::Overlap { first: 0, second: 1, .. }), "{err}");
+    }
 
     #[test]
     fn counts_positions_and_order() {
