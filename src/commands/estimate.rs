@@ -21,9 +21,10 @@ use solver::post::estimates::{
 use solver::post::{CellSensing, SensingModel};
 use solver::problem::{ChamberFace, MediumModel, SurfaceUptake};
 use solver::solve_case::SteadySolution;
+use solver::transport::boundary_layer::{check_boundary_layer, BoundaryLayerWarning};
 
 use crate::case::Case;
-use crate::exit::{InputError, SolverFailure};
+use crate::exit::InputError;
 use crate::io::table::{CellTable, Column, ColumnValues};
 
 /// The mean-field background of the chamber, or why there is none.
@@ -111,6 +112,8 @@ pub struct CaseEstimates {
     /// Brinkman resolution guard at the case's grid (the same one `run` reports): set when √(μ_e K/μ) spans
     /// fewer than two spacings, with the expected drag error and the spacing that resolves it.
     pub flow_resolution: Option<ResolutionWarning>,
+    /// Boundary-layer guard at the case's grid (as `run` reports it), from the stream's cell Péclet number.
+    pub boundary_layer: Option<BoundaryLayerWarning>,
     fluid_fraction: f64,
     chamber_volume: f64,
 }
@@ -166,6 +169,7 @@ impl CaseEstimates {
             typical_cell,
             flow_resolution: BrinkmanMedium::from_model(case.flow.medium)
                 .and_then(|medium| check_resolution(&medium, case.grid.spacing)),
+            boundary_layer: boundary_layer_warning(case),
             fluid_fraction,
             chamber_volume,
         };
@@ -317,6 +321,10 @@ impl CaseEstimates {
                 "screening_length": w.screening_length, "spacing": w.spacing,
                 "expected_drag_error": w.expected_drag_error, "suggested_spacing": w.suggested_spacing,
                 "message": w.to_string(),
+            })),
+            "boundary_layer": self.boundary_layer.as_ref().map(|w| json!({
+                "surface_peclet": w.surface_peclet, "expected_error": w.expected_error,
+                "suggested_spacing": w.suggested_spacing, "message": w.to_string(),
             })),
             "radius": self.radius,
             "peclet_cell": self.peclet_cell,
@@ -543,6 +551,13 @@ pub fn estimates_apply(uptake: SurfaceUptake) -> bool {
     !matches!(uptake, SurfaceUptake::Absorbing)
 }
 
+/// The boundary-layer guard before a solve: the stream's cell Péclet number `U h / D` stands for the one at
+/// the cell surfaces (the solve reports the measured one).
+pub fn boundary_layer_warning(case: &Case) -> Option<BoundaryLayerWarning> {
+    let h = case.grid.spacing;
+    check_boundary_layer(case.flow.mean_velocity * h / case.ligand.diffusivity, h)
+}
+
 /// Load the case, print the estimates (table, or JSON with `json`).
 pub fn execute(case_path: &Path, json: bool) -> anyhow::Result<()> {
     let case = Case::load(case_path)?;
@@ -554,6 +569,9 @@ pub fn execute(case_path: &Path, json: bool) -> anyhow::Result<()> {
             eprintln!("warning: {warning}");
         }
         if let Some(warning) = &estimates.flow_resolution {
+            eprintln!("warning: {warning}");
+        }
+        if let Some(warning) = &estimates.boundary_layer {
             eprintln!("warning: {warning}");
         }
         print!("{}", estimates.table(&case));
@@ -609,6 +627,8 @@ pub const SPLIT_COLUMNS: [&str; 4] =
 pub struct SelfNeighbourSplit {
     pub columns: Vec<Column>,
     pub summary: serde_json::Value,
+    /// One line per failed split (its cells keep NaN); the main result stands.
+    pub warnings: Vec<String>,
 }
 
 /// Solves the own field of each cell chosen by `[sensing] decompose` (one extra right-hand side each, on the
@@ -627,13 +647,12 @@ pub fn split_self_and_neighbours(case: &Case, solved: &SteadySolution) -> anyhow
     let chosen = case.sensing.decompose.choose(cells);
     let mut columns: Vec<Vec<f64>> = vec![vec![f64::NAN; cells]; SPLIT_COLUMNS.len()];
     let mut summary = json!({ "selection": format!("{:?}", case.sensing.decompose), "cells": chosen.len() });
+    let mut warnings = Vec::new();
     if !chosen.is_empty() {
         let inputs = DecomposeInputs {
             geometry: &solved.geometry,
             layout: &case.layout,
             assembly: &solved.transport.assembly,
-            face_flux: &solved.flow.face_flux,
-            diffusivity: case.ligand.diffusivity,
             total: &solved.transport.concentration,
             sensing: &solved.sensing,
             model: SensingModel {
@@ -646,10 +665,18 @@ pub fn split_self_and_neighbours(case: &Case, solved: &SteadySolution) -> anyhow
                 max_iterations: case.solve.max_iterations,
             },
             multigrid: MultigridParams::default(),
-            max_outer_iterations: 50,
         };
-        let split = decompose(&inputs, &chosen, false)
-            .map_err(|e| anyhow::Error::new(SolverFailure { message: e.to_string() }))?;
+        let split = match decompose(&inputs, &chosen, false) {
+            Ok(split) => split,
+            Err(e) => {
+                warnings.push(format!("the self/neighbour split failed ({e}); its columns are NaN"));
+                summary["failed"] = json!(chosen);
+                return Ok(split_columns(columns, summary, warnings));
+            }
+        };
+        for e in &split.failed {
+            warnings.push(format!("the self/neighbour split of a cell failed ({e}); its columns are NaN"));
+        }
         for s in &split.cells {
             columns[0][s.cell] = s.self_anisotropy_along_flow;
             columns[1][s.cell] = s.self_bound_rate;
@@ -664,8 +691,17 @@ pub fn split_self_and_neighbours(case: &Case, solved: &SteadySolution) -> anyhow
             "seconds_per_right_hand_side": split.solve_seconds / split.right_hand_sides.max(1) as f64,
             "transport_s": solved.timing[2],
             "iterations": split.cells.iter().map(|s| s.iterations).collect::<Vec<_>>(),
+            "failed": split.failed.len(),
         });
     }
+    Ok(split_columns(columns, summary, warnings))
+}
+
+fn split_columns(
+    columns: Vec<Vec<f64>>,
+    summary: serde_json::Value,
+    warnings: Vec<String>,
+) -> SelfNeighbourSplit {
     let descriptions = [
         ("1", "anisotropy along the local flow of the cell's own field alone (its secretion in the full geometry and flow); NaN if not decomposed"),
         ("molecules/s", "ligand bound from the cell's own secretion"),
@@ -678,7 +714,7 @@ pub fn split_self_and_neighbours(case: &Case, solved: &SteadySolution) -> anyhow
         .zip(columns)
         .map(|((name, (unit, description)), values)| Column::real(name, unit, description, values))
         .collect();
-    Ok(SelfNeighbourSplit { columns, summary })
+    SelfNeighbourSplit { columns, summary, warnings }
 }
 
 /// Median, 10th and 90th percentile (linear interpolation between order statistics, common practice) of every

@@ -114,6 +114,9 @@ pub fn write_outputs(
 ) -> Result<()> {
     let mut table = cell_table(case, solved);
     let split = crate::commands::estimate::split_self_and_neighbours(case, solved)?;
+    for warning in &split.warnings {
+        eprintln!("warning: {warning}");
+    }
     table.columns.extend(split.columns);
     let fields = field_data(case, solved);
     let provenance = Provenance {
@@ -195,7 +198,6 @@ pub fn write_outputs(
         },
         "transport": {
             "iterations": solved.transport.iterations,
-            "outer_iterations": solved.transport.outer_iterations,
             "relative_residual": solved.transport.relative_residual,
             "max_cell_peclet": solved.transport.assembly.peclet.max_cell_peclet,
             "upwinded_faces": solved.transport.assembly.peclet.upwinded_faces,
@@ -215,7 +217,7 @@ pub fn write_outputs(
             "case": crate::commands::estimate::CaseEstimates::for_case(case).to_json(),
         },
         "cells": { "count": count, "volume_fraction": cell_volume_fraction, "number_density": number_density },
-        "warnings": case.warnings.iter().chain(warnings).collect::<Vec<_>>(),
+        "warnings": case.warnings.iter().chain(warnings).chain(&split.warnings).collect::<Vec<_>>(),
         "units": {
             "grid.spacing": "m", "timing_s": "s", "flow.mean_velocity": "m/s", "flow.max_divergence": "1/s",
             "flow.pressure_drop": "Pa", "mass_balance": "molecules/s", "estimates.meanfield_outlet_concentration": "molecules/m^3",

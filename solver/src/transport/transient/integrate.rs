@@ -15,7 +15,6 @@ use super::{
 };
 use crate::post::{cell_sensing_in_local_flow, local_flow_per_cell, CellSensing};
 use crate::problem::{ChamberFace, SurfaceUptake};
-use crate::transport::advection::deferred_correction;
 use crate::transport::chamber_faces::BoundaryExchange;
 use crate::transport::surface_exchange::{released_per_cell, FacetExchange};
 use crate::transport::{assemble_transport, TransportProblem};
@@ -32,7 +31,6 @@ struct PhaseSystem<'a> {
     far_field: SwitchedOnFarField,
     /// Right-hand side of the chamber faces (inlet inflow).
     boundary_rhs: Vec<f64>,
-    upwinded: bool,
     /// Shell-averaged flow around each cell (the phase's flow is fixed).
     local_flow: Vec<[f64; 3]>,
 }
@@ -84,7 +82,6 @@ impl<'a> PhaseSystem<'a> {
             decay: assembly.decay,
             far_field,
             boundary_rhs,
-            upwinded: assembly.peclet.upwinded_faces > 0,
             local_flow: local_flow_per_cell(problem.geometry, problem.layout, phase.velocity),
         }
     }
@@ -212,7 +209,6 @@ pub fn integrate(
     let eps = 1e-9 * (settings.end_time - settings.start_time).abs().max(f64::MIN_POSITIVE);
     // Grid-sized vectors reused from step to step: a fresh 16 MB vector (128³) costs thousands of page faults.
     let mut rhs = vec![0.0; n];
-    let mut step_rhs = vec![0.0; n];
     let mut spare: Vec<Vec<f64>> = Vec::new();
     let mut base_products = BaseProducts::default();
     let mut stored = StoredAmounts::default();
@@ -289,44 +285,11 @@ pub fn integrate(
                 &rhs,
                 &mut c_new,
             );
-            let mut iterations = 0;
-            let mut outer = 0;
-            loop {
-                let solve_rhs: &[f64] = if system.upwinded {
-                    let correction = deferred_correction(
-                        geometry,
-                        system.phase.face_flux,
-                        problem.ligand.diffusivity,
-                        &c_new,
-                    );
-                    for ((b, r), k) in step_rhs.iter_mut().zip(&rhs).zip(&correction) {
-                        *b = r + k;
-                    }
-                    &step_rhs
-                } else {
-                    &rhs
-                };
-                let before = system.upwinded.then(|| c_new.clone());
-                let info = system
-                    .solver
-                    .solve(solve_rhs, &mut c_new, target, settings.krylov.max_iterations)
-                    .map_err(|e| TransientError::Solve { time: t_new, message: e.to_string() })?;
-                iterations += info.iterations;
-                outer += 1;
-                let Some(before) = before else { break };
-                let change = relative_change(&before, &c_new);
-                if change <= settings.krylov.relative_tolerance {
-                    break;
-                }
-                if outer >= settings.max_outer_iterations {
-                    return Err(TransientError::Solve {
-                        time: t_new,
-                        message: format!(
-                            "deferred-correction iterations did not settle (change {change:.3e})"
-                        ),
-                    });
-                }
-            }
+            let iterations = system
+                .solver
+                .solve(&rhs, &mut c_new, target, settings.krylov.max_iterations)
+                .map_err(|e| TransientError::Solve { time: t_new, message: e.to_string() })?
+                .iterations;
             if c_new.iter().any(|v| !v.is_finite()) {
                 return Err(TransientError::Solve {
                     time: t_new,

@@ -100,7 +100,6 @@ pub struct TransientSettings {
     /// of the same forcing would reach.
     pub krylov: KrylovParams,
     pub multigrid: MultigridParams,
-    pub max_outer_iterations: usize,
     /// Cumulative counts start here (s).
     pub window_start: f64,
     pub steady: Option<SteadyReference>,

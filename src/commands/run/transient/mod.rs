@@ -44,9 +44,6 @@ use observer::RunObserver;
 use progress::{human_time, TransientProgress};
 use restart_files::{parts_dir, read_checkpoint, read_part, OutputPart};
 
-/// Outer deferred-correction iterations per step at most (as the steady solve).
-const MAX_OUTER_ITERATIONS: usize = 50;
-
 /// Output times `k · output_every` (k ≥ 1) up to the end time (the end time itself is always written).
 pub fn output_times(t: &TransientSolve) -> Vec<f64> {
     let mut times = Vec::new();
@@ -80,7 +77,6 @@ pub fn transient_case<'a>(case: &'a Case, t: &TransientSolve) -> TransientCase<'
         output_times: output_times(t),
         krylov: steady.krylov.clone(),
         multigrid: MultigridParams::default(),
-        max_outer_iterations: MAX_OUTER_ITERATIONS,
         window_start: t.window_start,
         steady: None,
         stop_at_steady: t.stop_at_steady,
