@@ -6,4 +6,5 @@ pub mod commands;
 pub mod exit;
 pub mod figures;
 pub mod io;
+pub mod outputs;
 pub mod sweep;

@@ -36,9 +36,14 @@ enum Command {
         /// of simulated time (a time with a unit, e.g. "30 min").
         #[arg(long, value_name = "N or TIME")]
         checkpoint_every: Option<String>,
-        /// Transient runs: continue from DIR/checkpoint.bin (same case file) instead of starting over.
+        /// Transient runs: continue from the checkpoint a killed run left (same case file) instead of starting
+        /// over.
         #[arg(long)]
         resume: bool,
+        /// Memory the run may use, e.g. "16G" or "500 MB" [default: the Slurm job's allocation or this
+        /// machine's available memory]. A case forecast to need more is refused before it starts.
+        #[arg(long, value_name = "SIZE", value_parser = memory_size)]
+        max_memory: Option<f64>,
     },
     /// Cheap estimates without a solve: Péclet numbers, isolated-cell anisotropy, mean-field background,
     /// direction error along the chamber, memory and time forecast.
@@ -47,6 +52,10 @@ enum Command {
         /// Print JSON instead of the table.
         #[arg(long)]
         json: bool,
+        /// Memory of the machine the case will run on, e.g. "192G" [default: this machine's]; a warning
+        /// says when the forecast exceeds it.
+        #[arg(long, value_name = "SIZE", value_parser = memory_size)]
+        node_memory: Option<f64>,
     },
     /// Redraw the figures of a run from its output folder into DIR/figures.
     Plot { dir: PathBuf },
@@ -89,6 +98,19 @@ enum Command {
         /// With --slurm: the partition to submit to.
         #[arg(long, requires = "slurm")]
         partition: Option<String>,
+        /// With --slurm: the account to charge.
+        #[arg(long, requires = "slurm")]
+        account: Option<String>,
+        /// With --slurm: the quality of service.
+        #[arg(long, requires = "slurm")]
+        qos: Option<String>,
+        /// With --slurm: a file of shell lines each task runs first (e.g. module loads).
+        #[arg(long, value_name = "FILE", requires = "slurm")]
+        setup: Option<PathBuf>,
+        /// Memory of one compute node, e.g. "192G" [default: this machine's]: --plan and --slurm warn about
+        /// cases forecast to need more.
+        #[arg(long, value_name = "SIZE", value_parser = memory_size)]
+        node_memory: Option<f64>,
         /// Run case N only (what each Slurm array task does).
         #[arg(long, value_name = "N", conflicts_with = "slurm")]
         task: Option<usize>,
@@ -100,6 +122,11 @@ enum Command {
     Collect { dir: PathBuf },
 }
 
+/// A `--max-memory`/`--node-memory` value.
+fn memory_size(text: &str) -> Result<f64, String> {
+    commands::memory_budget::parse_memory_size(text)
+}
+
 /// `out/<case file stem>`.
 fn default_output(case: &Path) -> PathBuf {
     let stem = case.file_stem().map(|s| s.to_string_lossy().into_owned()).unwrap_or_else(|| "case".into());
@@ -108,15 +135,13 @@ fn default_output(case: &Path) -> PathBuf {
 
 fn run_command(command: Command) -> anyhow::Result<()> {
     match command {
-        Command::Run { case, output, threads, checkpoint_every, resume } => {
+        Command::Run { case, output, threads, checkpoint_every, resume, max_memory } => {
             let checkpoint_every = checkpoint_every
                 .as_deref()
                 .map(commands::run::transient::CheckpointEvery::parse)
                 .transpose()?;
             if let Some(n) = threads {
-                if n == 0 {
-                    return Err(InputError("--threads must be at least 1".into()).into());
-                }
+                commands::check_thread_count("--threads", n)?;
                 rayon::ThreadPoolBuilder::new()
                     .num_threads(n)
                     .build_global()
@@ -124,13 +149,22 @@ fn run_command(command: Command) -> anyhow::Result<()> {
             }
             let out_dir = output.unwrap_or_else(|| default_output(&case));
             let case = Case::load(&case)?;
+            let budget = commands::memory_budget::run_budget(max_memory);
+            if let Some(budget) = budget {
+                let threads = threads.unwrap_or_else(rayon::current_num_threads);
+                if let Some(refusal) = commands::memory_budget::over_budget(&case, threads, &budget) {
+                    return Err(InputError(format!("{refusal} (or give --max-memory)")).into());
+                }
+            }
             let options =
                 commands::run::transient::TransientOptions { checkpoint_every, resume, quiet: false };
             commands::run::execute_with(&case, &out_dir, threads, &options)
         }
         Command::Layout { case, output } => commands::layout::execute(&case, &output),
         Command::Verify { quick } => commands::verify::execute(quick),
-        Command::Estimate { case, json } => commands::estimate::execute(&case, json),
+        Command::Estimate { case, json, node_memory } => {
+            commands::estimate::execute(&case, json, node_memory)
+        }
         Command::Plot { dir } => commands::plot::execute(&dir),
         Command::Sweep {
             sweep,
@@ -141,6 +175,10 @@ fn run_command(command: Command) -> anyhow::Result<()> {
             submit,
             max_running,
             partition,
+            account,
+            qos,
+            setup,
+            node_memory,
             task,
             plan,
         } => commands::sweep::execute(&commands::sweep::SweepOptions {
@@ -152,6 +190,10 @@ fn run_command(command: Command) -> anyhow::Result<()> {
             submit,
             max_running,
             partition,
+            account,
+            qos,
+            setup,
+            node_memory,
             task,
             plan,
         }),

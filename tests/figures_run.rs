@@ -68,6 +68,15 @@ fn run_draws_figures_and_plot_redraws_them() {
         assert_eq!(std::fs::metadata(out.join("figures").join(name)).unwrap().len(), size, "{name}");
     }
 
+    // What can be checked without eyes, on every figure: no NaN plotted, ranges holding every finite value,
+    // non-finite values stated, log axes where positive data span decades, legends clear of the data.
+    let drawn = plumefield::figures::run_figures::draw_run_figures(&out).expect("figures");
+    assert_eq!(drawn.len(), FIGURES.len());
+    for (path, record) in &drawn {
+        assert_eq!(record.check(), Ok(()), "{}", path.display());
+        assert!(record.x.is_some() && record.y.is_some(), "{}", path.display());
+    }
+
     let missing = plumefield(&["plot", dir.path().join("nothing").to_str().unwrap()]);
     assert_eq!(missing.status.code(), Some(2));
 }

@@ -40,6 +40,12 @@ fn folder(name: &str) -> PathBuf {
     dir
 }
 
+/// Where a run into `dir` writes until it is complete.
+fn staging(dir: &Path) -> PathBuf {
+    let name = dir.file_name().map(|n| n.to_string_lossy().into_owned()).unwrap_or_default();
+    dir.with_file_name(format!(".{name}.partial"))
+}
+
 fn plumefield(args: &[&str]) -> Output {
     Command::new(env!("CARGO_BIN_EXE_plumefield")).args(args).output().expect("run the binary")
 }
@@ -121,7 +127,8 @@ fn killed_run_resumes_to_the_uninterrupted_result() {
         .stderr(Stdio::null())
         .spawn()
         .expect("start the run");
-    let checkpoint = resumed.join("checkpoint.bin");
+    // The run writes beside its output folder until it is complete (the folder is replaced whole).
+    let checkpoint = staging(&resumed).join("checkpoint.bin");
     let started = Instant::now();
     while !checkpoint.exists() {
         assert!(child.try_wait().expect("poll").is_none(), "the run ended before writing a checkpoint");
@@ -142,6 +149,7 @@ fn killed_run_resumes_to_the_uninterrupted_result() {
     assert!(stderr.contains("resuming from"), "{stderr}");
     assert!(!checkpoint.exists(), "the checkpoint of a finished run is left behind");
     assert!(!resumed.join("transient_parts").exists());
+    assert!(!staging(&resumed).exists(), "the staging folder of a finished run is left behind");
 
     let cells = compare_csv(&reference.join("cells.csv"), &resumed.join("cells.csv"));
     let series = compare_csv(&reference.join("cells_timeseries.csv"), &resumed.join("cells_timeseries.csv"));
@@ -180,7 +188,7 @@ fn resume_refuses_another_case_and_a_missing_checkpoint() {
         .stderr(Stdio::null())
         .spawn()
         .expect("start the run");
-    let checkpoint = out_dir.join("checkpoint.bin");
+    let checkpoint = staging(&out_dir).join("checkpoint.bin");
     let started = Instant::now();
     while !checkpoint.exists() && child.try_wait().expect("poll").is_none() {
         assert!(started.elapsed() < Duration::from_secs(120), "no checkpoint after two minutes");

@@ -120,6 +120,13 @@ fn transient_outputs_are_read_by_outside_readers() {
     let be = |o: usize| u32::from_be_bytes([png[o], png[o + 1], png[o + 2], png[o + 3]]);
     let (w, h, bytes) = (be(16), be(20), png.len());
     assert!(w >= 600 && h >= 300 && bytes > 20_000, "{w}x{h}, {bytes} bytes");
+    // Every figure of the transient folder, the readable fraction over time among them, passes the checks
+    // that need no eyes.
+    let drawn = plumefield::figures::run_figures::draw_run_figures(&out).expect("figures");
+    assert!(drawn.iter().any(|(p, _)| p.ends_with("readable_cue_over_time.png")), "{drawn:?}");
+    for (path, record) in &drawn {
+        assert_eq!(record.check(), Ok(()), "{}", path.display());
+    }
 
     let python = Command::new("python3").args(["-c", "import h5py, numpy"]).output();
     if !python.map(|o| o.status.success()).unwrap_or(false) {

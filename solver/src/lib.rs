@@ -9,6 +9,7 @@
 //! - [`transport`]: steady advection–diffusion–uptake–decay of the secreted ligand.
 //! - [`post`]: per-cell surface integrals, mass balance, counting noise.
 
+pub mod boundaries;
 pub mod embedded;
 pub mod flow;
 pub mod linalg;

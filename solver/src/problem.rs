@@ -2,51 +2,7 @@
 //!
 //! Sign conventions are stated where each type is defined.
 
-/// What a chamber face does, for flow and ligand alike.
-#[derive(Clone, Copy, Debug, PartialEq, Eq)]
-pub enum ChamberFace {
-    /// Flow enters with the prescribed mean superficial velocity; ligand concentration is fixed (Dirichlet).
-    Inlet,
-    /// Pressure is fixed (zero); ligand leaves by advection only (zero diffusive flux).
-    Outlet,
-    /// No flow and no ligand flux through the face.
-    Wall,
-    /// Mirror plane: no normal flow, no ligand flux (identical to `Wall` for Darcy flow and transport).
-    Symmetry,
-    /// Paired with the opposite face of the same axis.
-    Periodic,
-    /// Open boundary far from the cells: the flow takes the undisturbed uniform stream and the ligand obeys the
-    /// strength-free asymptotic Robin condition of point sources in that stream.
-    FarField,
-}
-
-/// Which point sources the far-field Robin condition assumes outside the chamber.
-#[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
-pub enum FarFieldSources {
-    /// Every cell at its own position, weighted by its secretion rate (superposed point-source fields).
-    #[default]
-    Cells,
-    /// One source at the secretion-weighted centroid of the cells (DESIGN.md §4); cheaper for huge layouts.
-    Centroid,
-}
-
-/// The six chamber faces, indexed `[axis][0 = min side, 1 = max side]`, and how far-field faces see the cells.
-#[derive(Clone, Copy, Debug, PartialEq, Eq)]
-pub struct ChamberBoundaries {
-    pub faces: [[ChamberFace; 2]; 3],
-    pub far_field_sources: FarFieldSources,
-}
-
-impl ChamberBoundaries {
-    /// The given faces with the default far-field sources (the cells).
-    pub fn new(faces: [[ChamberFace; 2]; 3]) -> Self {
-        ChamberBoundaries { faces, far_field_sources: FarFieldSources::default() }
-    }
-
-    pub fn periodic_axes(&self) -> [bool; 3] {
-        [0, 1, 2].map(|a| self.faces[a][0] == ChamberFace::Periodic)
-    }
-}
+pub use crate::boundaries::{ChamberBoundaries, ChamberFace, FarFieldSources};
 
 /// First-order binding of ligand at a cell surface. Sign: the bound flux density (molecules m^-2 s^-1) is
 /// `rate_constant · c_surface` and leaves the fluid.
@@ -81,6 +37,17 @@ pub enum MediumModel {
     Brinkman { viscosity: f64, permeability: f64, effective_viscosity: f64 },
     /// `−μ∇²u + ∇p = 0`, `∇·u = 0`, no slip on cells.
     Stokes { viscosity: f64 },
+}
+
+impl MediumModel {
+    /// The model's name in case files and reports: "darcy", "brinkman" or "stokes".
+    pub fn name(&self) -> &'static str {
+        match self {
+            MediumModel::Darcy { .. } => "darcy",
+            MediumModel::Brinkman { .. } => "brinkman",
+            MediumModel::Stokes { .. } => "stokes",
+        }
+    }
 }
 
 /// Flow settings: the medium and the mean superficial velocity along +x (m/s, ≥ 0; zero means no flow).

@@ -2,13 +2,12 @@
 //! Used by the `run` command and by the verification cases alike.
 
 use crate::embedded::FacetStencils;
-use crate::flow::brinkman::front_back::pressure_front_back;
 use crate::flow::brinkman::{
     solve_brinkman, BrinkmanError, BrinkmanMedium, BrinkmanSettings, ResolutionWarning,
 };
 use crate::flow::{solve_darcy, DarcyError, FlowField};
 use crate::linalg::KrylovParams;
-use crate::post::{cell_sensing, mass_balance, CellSensing, MassBalance, SensingModel};
+use crate::post::{cell_sensing, mass_balance, pressure_front_back, CellSensing, MassBalance, SensingModel};
 use crate::problem::{ChamberBoundaries, FlowParameters, LigandParameters, MediumModel};
 use crate::transport::{solve_steady, SteadyTransport, TransportError, TransportProblem, TransportSettings};
 use mesh::{EmbeddedGeometry, Grid, Layout};
@@ -96,15 +95,8 @@ pub fn solve_flow(
                 },
                 ..BrinkmanSettings::default()
             };
-            let solved = solve_brinkman(
-                geometry,
-                stencils,
-                case.layout,
-                &case.boundaries,
-                &medium,
-                mean_velocity,
-                &settings,
-            )?;
+            let solved =
+                solve_brinkman(geometry, case.layout, &case.boundaries, &medium, mean_velocity, &settings)?;
             Ok((solved.field, solved.resolution))
         }
     }

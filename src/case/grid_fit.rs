@@ -16,6 +16,8 @@ const MAX_CELLS_PER_AXIS: usize = 100_000;
 pub(super) struct FittedGrid {
     pub size: [f64; 3],
     pub grid: mesh::Grid,
+    /// The key that set the spacing: `grid.spacing` or `grid.cells_per_radius`.
+    pub key: &'static str,
 }
 
 /// Whole number of cells of `spacing` in `size`, if it fits within [`FIT_TOLERANCE`].
@@ -97,6 +99,47 @@ pub(super) fn fit_grid(
         }
     };
 
+    // Said before divisibility, which means nothing at such sizes; the ratio is a float, so it cannot overflow.
+    const AXES: [&str; 3] = ["x", "y", "z"];
+    for a in 0..3 {
+        let ratio = size[a] / spacing;
+        if ratio > MAX_CELLS_PER_AXIS as f64 + 0.5 {
+            // A chamber over a metre long is the mistake itself; otherwise the grid is too fine.
+            let size_key = format!("chamber.size[{a}]");
+            let (blame, blame_span) =
+                if size[a] > 1.0 { (size_key.as_str(), sizes[a].span()) } else { (key, span.clone()) };
+            return Err(src.error(
+                blame,
+                Some(&blame_span),
+                format!(
+                    "{size_key} = {} with a grid spacing of {} gives {ratio:.3e} grid cells along {}, more than \
+                     {MAX_CELLS_PER_AXIS}; use a smaller chamber.size or a coarser {key}",
+                    if size[a] > 1.0 { format!("{:.3e} m", size[a]) } else { micrometres(size[a]) },
+                    micrometres(spacing),
+                    AXES[a]
+                ),
+            ));
+        }
+    }
+    // When the radius sets the spacing, a cell wider than the chamber shows up as a spacing that does not
+    // divide it; say what is really wrong.
+    if key == "grid.cells_per_radius" {
+        if let Some(a) = (0..3).find(|&a| 2.0 * cell_radius >= size[a]) {
+            return Err(src.error(
+                "cells.radius",
+                None,
+                format!(
+                    "cells.radius = {} makes a cell {} across, as wide as or wider than the chamber's {} along {}; \
+                     use a smaller cells.radius or a larger chamber.size",
+                    micrometres(cell_radius),
+                    micrometres(2.0 * cell_radius),
+                    micrometres(size[a]),
+                    AXES[a]
+                ),
+            ));
+        }
+    }
+
     let counts: Vec<Option<usize>> = size.iter().map(|&s| cells_along(s, spacing)).collect();
     if counts.iter().any(Option::is_none) {
         let ratios: Vec<String> = size.iter().map(|s| format!("{:.3}", s / spacing)).collect();
@@ -127,17 +170,7 @@ pub(super) fn fit_grid(
         ));
     }
     let shape = [0, 1, 2].map(|a| counts[a].unwrap_or(1));
-    if shape.iter().any(|&n| n > MAX_CELLS_PER_AXIS) {
-        return Err(src.error(
-            key,
-            Some(&span),
-            format!(
-                "{key} gives a grid of {} x {} x {} cells, more than {MAX_CELLS_PER_AXIS} along one axis; use a coarser grid",
-                shape[0], shape[1], shape[2]
-            ),
-        ));
-    }
-    Ok(FittedGrid { size, grid: mesh::Grid::new([0.0; 3], spacing, shape) })
+    Ok(FittedGrid { size, grid: mesh::Grid::new([0.0; 3], spacing, shape), key })
 }
 
 #[cfg(test)]

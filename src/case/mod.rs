@@ -20,7 +20,7 @@ mod tests;
 
 use std::path::{Path, PathBuf};
 
-use sha2::{Digest, Sha256};
+use numkit::sha256_hex;
 
 pub use error::CaseError;
 
@@ -98,6 +98,8 @@ pub struct Case {
     pub chamber_size: [f64; 3],
     /// Origin 0, spacing h, shape = size / h.
     pub grid: mesh::Grid,
+    /// The key that set the grid spacing (`grid.spacing` or `grid.cells_per_radius`), for messages.
+    pub grid_key: &'static str,
     pub boundaries: solver::problem::ChamberBoundaries,
     pub flow: solver::problem::FlowParameters,
     pub ligand: solver::problem::LigandParameters,
@@ -114,14 +116,18 @@ pub struct Case {
     pub output: OutputSettings,
     /// Things the modeller should know but that do not stop a run (e.g. radius under 4 grid spacings).
     pub warnings: Vec<String>,
+    /// Every file the case reads: the case file, a layout file, an initial field (an output folder must not
+    /// hold them).
+    pub input_files: Vec<std::path::PathBuf>,
 }
 
 impl Case {
     /// Read, parse and validate a case file. Relative paths inside it (layout files) are taken relative to the
     /// file's folder.
     pub fn load(path: &Path) -> Result<Case, CaseError> {
-        let bytes =
-            std::fs::read(path).map_err(|error| CaseError::Read { path: path.to_path_buf(), error })?;
+        use crate::io::bounded_read::{read_bounded, TEXT_INPUT_LIMIT};
+        let bytes = read_bounded(path, TEXT_INPUT_LIMIT, "case file")
+            .map_err(|error| CaseError::Read { path: path.to_path_buf(), error: error.into() })?;
         let text = String::from_utf8(bytes).map_err(|_| CaseError::Syntax {
             path: path.to_path_buf(),
             key: None,
@@ -140,17 +146,17 @@ impl Case {
     }
 }
 
-/// Lower-case hex SHA-256 of `bytes`.
-pub fn sha256_hex(bytes: &[u8]) -> String {
-    Sha256::digest(bytes).iter().map(|b| format!("{b:02x}")).collect()
-}
-
 /// A TOML or serde error as one sentence that names the key (found from the error's span) and the line.
 fn syntax_error(error: &toml::de::Error, text: &str, path: &Path) -> CaseError {
     let span = error.span();
     let line = span.as_ref().map(|s| source_map::line_of(text, s.start));
     let key = span.as_ref().and_then(|s| source_map::KeyMap::parse(text)?.path_at(s).map(str::to_string));
     let detail = error.message().trim().replace('\n', "; ");
+    if let (Some(span), true) = (&span, detail.starts_with("duplicate key")) {
+        let key = duplicated_key(text, span.clone());
+        let message = format!("{key} is given twice; keep one");
+        return CaseError::Syntax { path: path.to_path_buf(), key: Some(key), line, message };
+    }
     let message = match (&key, detail.strip_prefix("unknown field ")) {
         (Some(key), Some(rest)) => {
             let expected = rest.split_once(", expected ").map(|(_, e)| e).unwrap_or("");
@@ -164,4 +170,26 @@ fn syntax_error(error: &toml::de::Error, text: &str, path: &Path) -> CaseError {
         (None, _) => format!("invalid TOML: {detail}"),
     };
     CaseError::Syntax { path: path.to_path_buf(), key, line, message }
+}
+
+/// The dotted name of the key written at `span` (a duplicate, which the key map cannot parse): the enclosing
+/// `[table]` header, if any, and the key as written.
+fn duplicated_key(text: &str, span: std::ops::Range<usize>) -> String {
+    let at_span = text.get(span.clone()).unwrap_or("").trim();
+    if at_span.starts_with('[') {
+        return at_span.trim_matches(['[', ']']).trim().to_string();
+    }
+    let written = at_span.split('=').next().unwrap_or("").trim().trim_matches(['[', ']']).trim();
+    let before = text.get(..span.start).unwrap_or("");
+    let header = before
+        .lines()
+        .rev()
+        .map(str::trim)
+        .find(|l| l.starts_with('['))
+        .map(|l| l.trim_start_matches('[').split(']').next().unwrap_or("").trim().to_string());
+    match header {
+        // The span may be the header itself (a table given twice).
+        Some(h) if !h.is_empty() && h != written => format!("{h}.{written}"),
+        _ => written.to_string(),
+    }
 }

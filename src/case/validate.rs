@@ -222,6 +222,11 @@ pub(super) fn validate(raw: RawCase, text: &str, path: &Path) -> Result<Case, Ca
         upper: fitted.size,
         periodic: boundaries.periodic_axes(),
     };
+    let layout_file = cells
+        .layout
+        .as_ref()
+        .and_then(|l| l.get_ref().path.as_ref())
+        .map(|p| path.parent().unwrap_or(Path::new("")).join(p.get_ref()));
     let placed = super::cells::build_layout(&src, &cells, cells_span.as_ref(), &cell_defaults, &chamber_box)?;
     let resolution = super::cells::check_resolution(&src, &placed, fitted.grid.spacing)?;
     warnings.extend(resolution);
@@ -253,6 +258,12 @@ pub(super) fn validate(raw: RawCase, text: &str, path: &Path) -> Result<Case, Ca
     }
     let (output, _) = section(raw.output);
     let output = validate_output(&src, &output)?;
+    let mut input_files = vec![path.to_path_buf()];
+    input_files.extend(layout_file);
+    if let Some(super::transient::InitialCondition::Fields(p)) = solve.transient.as_ref().map(|t| &t.initial)
+    {
+        input_files.push(p.clone());
+    }
 
     Ok(Case {
         title,
@@ -261,6 +272,7 @@ pub(super) fn validate(raw: RawCase, text: &str, path: &Path) -> Result<Case, Ca
         sha256: String::new(),
         chamber_size: fitted.size,
         grid: fitted.grid,
+        grid_key: fitted.key,
         boundaries,
         flow: FlowParameters { medium: medium_model, mean_velocity },
         ligand,
@@ -272,6 +284,7 @@ pub(super) fn validate(raw: RawCase, text: &str, path: &Path) -> Result<Case, Ca
         sensing,
         output,
         warnings,
+        input_files,
     })
 }
 

@@ -6,26 +6,29 @@
 //! The formulas live in `solver::post::estimates`; this file only applies them to a case, and the same
 //! [`CaseEstimates`] feeds the estimate columns that `run` writes beside the measured ones.
 
+use std::collections::BTreeMap;
 use std::fmt::Write as _;
 use std::path::Path;
 
+use numkit::quantile_sorted;
 use serde_json::json;
 use solver::flow::brinkman::resolution::check_resolution;
 use solver::flow::brinkman::{BrinkmanMedium, ResolutionWarning};
 use solver::linalg::{KrylovParams, MultigridParams};
-use solver::post::decompose::{decompose, DecomposeInputs, DecomposeSelection};
+use solver::post::decompose::{decompose, DecomposeInputs, DecomposeSelection, Decomposition};
 use solver::post::estimates::{
     biot_number, estimate_cell_sensing, homogenised_source_and_sink, isolated_anisotropy, CellEstimateInputs,
     ColumnInlet, IsolatedFlow, MeanFieldColumn, SensingEstimate,
 };
 use solver::post::{CellSensing, SensingModel};
-use solver::problem::{ChamberFace, MediumModel, SurfaceUptake};
+use solver::problem::{ChamberFace, SurfaceUptake};
 use solver::solve_case::SteadySolution;
 use solver::transport::boundary_layer::{check_boundary_layer, BoundaryLayerWarning};
 
 use crate::case::Case;
 use crate::exit::InputError;
 use crate::io::table::{CellTable, Column, ColumnValues};
+use crate::outputs::summary::{ColumnQuantiles, SplitCost, SplitSummary};
 
 /// The mean-field background of the chamber, or why there is none.
 #[derive(Clone, Debug, PartialEq)]
@@ -537,15 +540,6 @@ fn forecast(case: &Case) -> Forecast {
     }
 }
 
-/// The flow model a medium implies, for reports.
-pub fn medium_name(medium: &MediumModel) -> &'static str {
-    match medium {
-        MediumModel::Darcy { .. } => "darcy",
-        MediumModel::Brinkman { .. } => "brinkman",
-        MediumModel::Stokes { .. } => "stokes",
-    }
-}
-
 /// Whether the first-order estimates apply to the uptake model.
 pub fn estimates_apply(uptake: SurfaceUptake) -> bool {
     !matches!(uptake, SurfaceUptake::Absorbing)
@@ -558,10 +552,17 @@ pub fn boundary_layer_warning(case: &Case) -> Option<BoundaryLayerWarning> {
     check_boundary_layer(case.flow.mean_velocity * h / case.ligand.diffusivity, h)
 }
 
-/// Load the case, print the estimates (table, or JSON with `json`).
-pub fn execute(case_path: &Path, json: bool) -> anyhow::Result<()> {
+/// Load the case, print the estimates (table, or JSON with `json`); warn on stderr when the run forecast
+/// exceeds the node's memory (`node_memory`, else this machine's).
+pub fn execute(case_path: &Path, json: bool, node_memory: Option<f64>) -> anyhow::Result<()> {
     let case = Case::load(case_path)?;
     let estimates = CaseEstimates::for_case(&case);
+    if let Some(budget) = super::memory_budget::node_budget(node_memory) {
+        let threads = std::thread::available_parallelism().map_or(1, |n| n.get());
+        if let Some(warning) = super::memory_budget::over_budget(&case, threads, &budget) {
+            eprintln!("warning: {warning}; `plumefield run` would refuse it");
+        }
+    }
     if json {
         println!("{}", serde_json::to_string_pretty(&estimates.to_json())?);
     } else {
@@ -623,10 +624,11 @@ pub fn estimate_columns(case: &Case, sensing: &[CellSensing]) -> Vec<Column> {
 pub const SPLIT_COLUMNS: [&str; 4] =
     ["self_anisotropy_along_flow", "self_bound_rate", "neighbour_bound_rate", "signal_fraction"];
 
-/// The self/neighbour split of a run: its `cells.csv` columns and its summary.
+/// The self/neighbour split of a run: its `cells.csv` columns, its summary and its cost (when it ran).
 pub struct SelfNeighbourSplit {
     pub columns: Vec<Column>,
-    pub summary: serde_json::Value,
+    pub summary: SplitSummary,
+    pub cost: Option<SplitCost>,
     /// One line per failed split (its cells keep NaN); the main result stands.
     pub warnings: Vec<String>,
 }
@@ -646,7 +648,12 @@ pub fn split_self_and_neighbours(case: &Case, solved: &SteadySolution) -> anyhow
     }
     let chosen = case.sensing.decompose.choose(cells);
     let mut columns: Vec<Vec<f64>> = vec![vec![f64::NAN; cells]; SPLIT_COLUMNS.len()];
-    let mut summary = json!({ "selection": format!("{:?}", case.sensing.decompose), "cells": chosen.len() });
+    let mut summary = SplitSummary {
+        selection: format!("{:?}", case.sensing.decompose),
+        cells: chosen.len(),
+        iterations: None,
+    };
+    let mut cost = None;
     let mut warnings = Vec::new();
     if !chosen.is_empty() {
         let inputs = DecomposeInputs {
@@ -666,42 +673,24 @@ pub fn split_self_and_neighbours(case: &Case, solved: &SteadySolution) -> anyhow
             },
             multigrid: MultigridParams::default(),
         };
-        let split = match decompose(&inputs, &chosen, false) {
-            Ok(split) => split,
-            Err(e) => {
-                warnings.push(format!("the self/neighbour split failed ({e}); its columns are NaN"));
-                summary["failed"] = json!(chosen);
-                return Ok(split_columns(columns, summary, warnings));
+        match decompose(&inputs, &chosen, false) {
+            Ok(split) => {
+                for e in &split.failed {
+                    warnings.push(format!(
+                        "the self/neighbour split of a cell failed ({e}); its columns are NaN"
+                    ));
+                }
+                record_split(&split, &mut columns, &mut summary);
+                cost = Some(SplitCost {
+                    setup_s: split.setup_seconds,
+                    solve_s: split.solve_seconds,
+                    seconds_per_right_hand_side: split.solve_seconds / split.right_hand_sides.max(1) as f64,
+                    transport_s: solved.timing[2],
+                });
             }
-        };
-        for e in &split.failed {
-            warnings.push(format!("the self/neighbour split of a cell failed ({e}); its columns are NaN"));
+            Err(e) => warnings.push(format!("the self/neighbour split failed ({e}); its columns are NaN")),
         }
-        for s in &split.cells {
-            columns[0][s.cell] = s.self_anisotropy_along_flow;
-            columns[1][s.cell] = s.self_bound_rate;
-            columns[2][s.cell] = s.neighbour_bound_rate;
-            columns[3][s.cell] = s.signal_fraction;
-        }
-        summary = json!({
-            "selection": format!("{:?}", case.sensing.decompose),
-            "cells": chosen.len(),
-            "setup_s": split.setup_seconds,
-            "solve_s": split.solve_seconds,
-            "seconds_per_right_hand_side": split.solve_seconds / split.right_hand_sides.max(1) as f64,
-            "transport_s": solved.timing[2],
-            "iterations": split.cells.iter().map(|s| s.iterations).collect::<Vec<_>>(),
-            "failed": split.failed.len(),
-        });
     }
-    Ok(split_columns(columns, summary, warnings))
-}
-
-fn split_columns(
-    columns: Vec<Vec<f64>>,
-    summary: serde_json::Value,
-    warnings: Vec<String>,
-) -> SelfNeighbourSplit {
     let descriptions = [
         ("1", "anisotropy along the local flow of the cell's own field alone (its secretion in the full geometry and flow); NaN if not decomposed"),
         ("molecules/s", "ligand bound from the cell's own secretion"),
@@ -714,13 +703,24 @@ fn split_columns(
         .zip(columns)
         .map(|((name, (unit, description)), values)| Column::real(name, unit, description, values))
         .collect();
-    SelfNeighbourSplit { columns, summary, warnings }
+    Ok(SelfNeighbourSplit { columns, summary, cost, warnings })
+}
+
+/// The split cells' values into the columns, and their iterations into the summary.
+fn record_split(split: &Decomposition, columns: &mut [Vec<f64>], summary: &mut SplitSummary) {
+    for s in &split.cells {
+        columns[0][s.cell] = s.self_anisotropy_along_flow;
+        columns[1][s.cell] = s.self_bound_rate;
+        columns[2][s.cell] = s.neighbour_bound_rate;
+        columns[3][s.cell] = s.signal_fraction;
+    }
+    summary.iterations = Some(split.cells.iter().map(|s| s.iterations).collect());
 }
 
 /// Median, 10th and 90th percentile (linear interpolation between order statistics, common practice) of every
 /// estimate, ratio and split column of `table`, over the finite values.
-pub fn column_aggregates(table: &CellTable) -> serde_json::Value {
-    let mut out = serde_json::Map::new();
+pub fn column_aggregates(table: &CellTable) -> BTreeMap<String, ColumnQuantiles> {
+    let mut out = BTreeMap::new();
     for name in ESTIMATE_COLUMNS
         .iter()
         .chain(SPLIT_COLUMNS.iter())
@@ -730,22 +730,12 @@ pub fn column_aggregates(table: &CellTable) -> serde_json::Value {
         let ColumnValues::Real(values) = &column.values else { continue };
         let mut finite: Vec<f64> = values.iter().copied().filter(|v| v.is_finite()).collect();
         finite.sort_by(f64::total_cmp);
-        let q = |p: f64| quantile(&finite, p);
+        // No finite value: null in the JSON.
+        let q = |p: f64| Some(quantile_sorted(&finite, p)).filter(|x| !x.is_nan());
         out.insert(
             name.to_string(),
-            json!({ "median": q(0.5), "p10": q(0.1), "p90": q(0.9), "count": finite.len() }),
+            ColumnQuantiles { median: q(0.5), p10: q(0.1), p90: q(0.9), count: finite.len() },
         );
     }
-    serde_json::Value::Object(out)
-}
-
-/// `p`-quantile of sorted values (linear between order statistics); `None` when empty.
-pub fn quantile(sorted: &[f64], p: f64) -> Option<f64> {
-    if sorted.is_empty() {
-        return None;
-    }
-    let x = p.clamp(0.0, 1.0) * (sorted.len() - 1) as f64;
-    let (i, t) = (x.floor() as usize, x - x.floor());
-    let j = (i + 1).min(sorted.len() - 1);
-    Some(sorted[i] + t * (sorted[j] - sorted[i]))
+    out
 }

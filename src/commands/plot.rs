@@ -4,7 +4,7 @@ use std::path::Path;
 
 /// Draws `DIR/figures/*.png` and lists them.
 pub fn execute(dir: &Path) -> anyhow::Result<()> {
-    for path in crate::figures::run_figures::draw_run_figures(dir)? {
+    for (path, _) in crate::figures::run_figures::draw_run_figures(dir)? {
         println!("wrote {}", path.display());
     }
     Ok(())

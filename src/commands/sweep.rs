@@ -16,7 +16,7 @@ use crate::sweep::run_local::{
     cases_to_run, cases_to_run_settling_markers, longest_first, run_case, run_cases, CaseEvent,
     LocalRunParams, OutputSync,
 };
-use crate::sweep::slurm::{self, SlurmParams};
+use crate::sweep::slurm::{self, SlurmOptions, SlurmParams};
 use crate::sweep::{Plan, SweepError, SweepFile};
 
 /// Command-line options of `plumefield sweep`.
@@ -37,6 +37,14 @@ pub struct SweepOptions {
     pub max_running: Option<usize>,
     /// `--partition NAME`.
     pub partition: Option<String>,
+    /// `--account NAME`.
+    pub account: Option<String>,
+    /// `--qos NAME`.
+    pub qos: Option<String>,
+    /// `--setup FILE`: shell lines each Slurm task runs first.
+    pub setup: Option<PathBuf>,
+    /// `--node-memory`: a compute node's memory, bytes, for the warnings of `--plan` and `--slurm`.
+    pub node_memory: Option<f64>,
     /// `--task N`: run case N only.
     pub task: Option<usize>,
     /// `--plan`: list the cases, run nothing.
@@ -124,14 +132,26 @@ fn validate(plan: &Plan, indices: &[usize]) -> Result<Vec<Checked>> {
 }
 
 pub fn execute(options: &SweepOptions) -> Result<()> {
-    if options.threads == Some(0) || options.jobs == Some(0) {
-        return Err(InputError("--threads and --jobs must be at least 1".into()).into());
+    // Slurm tasks run on other machines, with up to a node's cores each.
+    const MAX_TASK_THREADS: usize = 1024;
+    match (options.threads, options.slurm.is_some()) {
+        (Some(n), true) if n == 0 || n > MAX_TASK_THREADS => {
+            return Err(InputError(format!(
+                "--threads {n} with --slurm asks for {n} CPUs per task; give 1 to {MAX_TASK_THREADS}"
+            ))
+            .into())
+        }
+        (Some(n), false) => super::check_thread_count("--threads", n)?,
+        _ => {}
+    }
+    if let Some(jobs) = options.jobs {
+        super::check_thread_count("--jobs", jobs)?;
     }
     let sweep = SweepFile::load(&options.sweep).map_err(input)?;
     let plan = Plan::expand(sweep).map_err(input)?;
     let dir = sweep_dir(options, &plan.sweep)?;
     if options.plan {
-        return print_plan(&plan, &dir);
+        return print_plan(&plan, &dir, options.node_memory);
     }
     if let Some(task) = options.task {
         return run_task(&plan, &dir, task, options.threads);
@@ -142,9 +162,28 @@ pub fn execute(options: &SweepOptions) -> Result<()> {
     run_locally(&plan, &dir, options)
 }
 
-fn print_plan(plan: &Plan, dir: &Path) -> Result<()> {
+/// A warning on stderr when the largest of `checked` is forecast to need more than a compute node has.
+fn warn_about_node_memory(plan: &Plan, checked: &[Checked], threads: usize, node_memory: Option<f64>) {
+    let Some(budget) = super::memory_budget::node_budget(node_memory) else { return };
+    let largest = checked.iter().max_by(|a, b| a.forecast.memory_bytes.total_cmp(&b.forecast.memory_bytes));
+    if let Some(c) = largest {
+        let needed = c.forecast.memory_bytes_on(threads);
+        if needed > budget.bytes {
+            eprintln!(
+                "warning: {} needs about {}, more than the {} of {}; such cases would be refused",
+                plan.cases[c.index].id,
+                format_bytes(needed),
+                format_bytes(budget.bytes),
+                budget.source
+            );
+        }
+    }
+}
+
+fn print_plan(plan: &Plan, dir: &Path, node_memory: Option<f64>) -> Result<()> {
     let all: Vec<usize> = (0..plan.cases.len()).collect();
     let checked = validate(plan, &all)?;
+    warn_about_node_memory(plan, &checked, 1, node_memory);
     println!(
         "sweep {} → {} ({} cases, base {})",
         plan.sweep.path.display(),
@@ -177,7 +216,7 @@ fn print_plan(plan: &Plan, dir: &Path) -> Result<()> {
         );
     }
     println!(
-        "largest case needs about {}; all cases about {} of one core (forecast from grid size; see src/sweep/forecast.rs)",
+        "largest case needs about {}; all cases about {} of one core (forecast from the grid size)",
         format_bytes(memory),
         format_seconds(seconds)
     );
@@ -230,8 +269,34 @@ fn run_task(plan: &Plan, dir: &Path, task: usize, threads: Option<usize>) -> Res
     }
 }
 
+/// The Slurm options of this command line, each one not given taken from the earlier writing for `dir`.
+fn slurm_options(options: &SweepOptions, dir: &Path) -> Result<SlurmOptions> {
+    let setup =
+        match &options.setup {
+            None => None,
+            Some(path) => {
+                let bytes = crate::io::bounded_read::read_bounded(path, 64 << 10, "set-up file")
+                    .map_err(|e| InputError(format!("--setup {}: cannot read it: {e}", path.display())))?;
+                Some(String::from_utf8(bytes).map_err(|_| {
+                    InputError(format!("--setup {}: the file is not UTF-8 text", path.display()))
+                })?)
+            }
+        };
+    let given = SlurmOptions {
+        threads: options.threads,
+        max_running: options.max_running,
+        partition: options.partition.clone(),
+        account: options.account.clone(),
+        qos: options.qos.clone(),
+        setup,
+    };
+    Ok(given.or(SlurmOptions::remembered(dir)))
+}
+
 fn write_slurm(plan: &Plan, dir: &Path, options: &SweepOptions) -> Result<()> {
+    let slurm_options = slurm_options(options, dir)?;
     let checked = validate(plan, &cases_to_run(plan, dir))?;
+    warn_about_node_memory(plan, &checked, slurm_options.threads.unwrap_or(1), options.node_memory);
     std::fs::create_dir_all(dir)
         .with_context(|| format!("cannot create the sweep folder {}", dir.display()))?;
     let dir = std::fs::canonicalize(dir).with_context(|| format!("cannot resolve {}", dir.display()))?;
@@ -255,11 +320,17 @@ fn write_slurm(plan: &Plan, dir: &Path, options: &SweepOptions) -> Result<()> {
         .with_context(|| format!("cannot resolve {}", plan.sweep.path.display()))?;
     let exe = std::env::current_exe().context("cannot find the plumefield executable for the job script")?;
     let (max_array_size, size_source) = slurm::max_array_size().map_err(InputError)?;
+    slurm_options
+        .remember(&dir)
+        .with_context(|| format!("cannot keep the Slurm options in {}", dir.display()))?;
     let params = SlurmParams {
-        cpus_per_task: options.threads.unwrap_or(1),
-        max_running: options.max_running,
-        partition: options.partition.clone(),
+        cpus_per_task: slurm_options.threads.unwrap_or(1),
+        max_running: slurm_options.max_running,
+        partition: slurm_options.partition.clone(),
         max_array_size,
+        account: slurm_options.account.clone(),
+        qos: slurm_options.qos.clone(),
+        setup: slurm_options.setup.clone(),
     };
     let stem = plan
         .sweep
@@ -281,7 +352,7 @@ fn write_slurm(plan: &Plan, dir: &Path, options: &SweepOptions) -> Result<()> {
             format!(
                 "{} (--array={}{offset})",
                 script.display(),
-                slurm::array_spec(&chunk.ids, options.max_running)
+                slurm::array_spec(&chunk.ids, slurm_options.max_running)
             )
         })
         .collect();
@@ -293,7 +364,7 @@ fn write_slurm(plan: &Plan, dir: &Path, options: &SweepOptions) -> Result<()> {
             missing.first().copied().unwrap_or(0),
             missing.last().copied().unwrap_or(0),
             scripts.chunks.len(),
-            if options.max_running.is_some() { ", each after the previous one (--max-running)" } else { "" }
+            if slurm_options.max_running.is_some() { ", each after the previous one (--max-running)" } else { "" }
         );
     }
     println!(
@@ -306,8 +377,8 @@ fn write_slurm(plan: &Plan, dir: &Path, options: &SweepOptions) -> Result<()> {
         scripts.collect_script.display()
     );
     if options.submit {
-        let submitted =
-            slurm::submit(&scripts, options.max_running.is_some()).map_err(|e| anyhow::anyhow!("{e}"))?;
+        let submitted = slurm::submit(&scripts, slurm_options.max_running.is_some())
+            .map_err(|e| anyhow::anyhow!("{e}"))?;
         println!(
             "submitted array job{} {} and collect job {}",
             if submitted.array_jobs.len() == 1 { "" } else { "s" },
@@ -354,6 +425,18 @@ fn run_locally(plan: &Plan, dir: &Path, options: &SweepOptions) -> Result<()> {
     write_plan_record(plan, dir)?;
     let threads = options.threads.unwrap_or_else(cores);
     let largest = checked.iter().map(|c| c.forecast.memory_bytes).fold(0.0, f64::max);
+    if let Some(budget) = super::memory_budget::run_budget(None) {
+        if largest > budget.bytes {
+            return Err(InputError(format!(
+                "the largest case needs about {}, more than the {} of {}; use a coarser grid in the base case \
+                 or the axes, or run the sweep on a cluster (--slurm)",
+                format_bytes(largest),
+                format_bytes(budget.bytes),
+                budget.source
+            ))
+            .into());
+        }
+    }
     let jobs = options.jobs.unwrap_or_else(|| memory_limited_jobs(threads, largest));
     let params = LocalRunParams::divide(threads, jobs, todo.len());
     eprintln!(
@@ -375,14 +458,14 @@ fn run_locally(plan: &Plan, dir: &Path, options: &SweepOptions) -> Result<()> {
         CaseEvent::Finished { index, elapsed_s } => {
             let k = counter.fetch_add(1, std::sync::atomic::Ordering::SeqCst) + 1;
             eprintln!(
-                "[{k}/{total}] {} done in {elapsed_s:.2} s ({})",
+                "sweep ▸ {k} of {total} · {} done in {elapsed_s:.2} s · {}",
                 plan.cases[index].id,
                 plan.describe(index)
             );
         }
         CaseEvent::Failed { index, error } => {
             let k = counter.fetch_add(1, std::sync::atomic::Ordering::SeqCst) + 1;
-            eprintln!("[{k}/{total}] {} FAILED: {error}", plan.cases[index].id);
+            eprintln!("sweep ▸ {k} of {total} · {} FAILED: {error}", plan.cases[index].id);
         }
     });
     super::collect::execute(dir)?;
@@ -400,13 +483,7 @@ fn run_locally(plan: &Plan, dir: &Path, options: &SweepOptions) -> Result<()> {
 
 /// One job per core, but no more than 80% of the available memory holds (each job needs `case_bytes`).
 fn memory_limited_jobs(threads: usize, case_bytes: f64) -> usize {
-    let available = std::fs::read_to_string("/proc/meminfo").ok().and_then(|text| {
-        text.lines()
-            .find(|l| l.starts_with("MemAvailable:"))
-            .and_then(|l| l.split_whitespace().nth(1)?.parse::<f64>().ok())
-            .map(|kib| kib * 1024.0)
-    });
-    match available {
+    match super::memory_budget::available_bytes() {
         Some(bytes) if case_bytes > 0.0 => threads.min((0.8 * bytes / case_bytes).floor().max(1.0) as usize),
         _ => threads,
     }

@@ -1,88 +1,150 @@
-//! Per-cell anisotropy arrows over the layout (seen from above, x–y): each cell's outline and an arrow of the
-//! in-plane part of its anisotropy vector, scaled so the 75th-percentile magnitude spans 1.5 radii and clipped at
-//! 3 radii (crowded inlets would otherwise cover the picture); a scale key gives the reference magnitude.
+//! Per-cell anisotropy over the layout, readable for hundreds of cells at every depth: the chamber seen from
+//! above is cut into square tiles about two cell diameters wide; each tile is coloured by the mean anisotropy
+//! along the flow of the cells whose centres it holds (at any depth) on the signed colour map, and carries one
+//! arrow of the mean in-plane direction of those cells, as long as their agreement (the length of the mean of
+//! their unit vectors: nearly a tile when all point alike, nothing when they cancel). Overlapping circles of
+//! a 3-D layout projected onto one plane hide each other; tile averages do not.
 
 use std::path::Path;
 
 use plotters::prelude::*;
 
-use super::concentration_slice::arrow;
 use super::run_data::RunFigureData;
-use super::style::{drawing, register_fonts, tick, write_png, FONT};
+use super::style::{
+    arrow, chart, colour_bar, colour_maps, drawing, note, plot_box, register_fonts, significant, titled,
+    write_png, Axis, FigureRecord, Scale, INK, MUTED,
+};
 
-pub fn draw(data: &RunFigureData, path: &Path) -> anyhow::Result<()> {
+/// Most tiles along the flow.
+const MOST_TILES: usize = 24;
+
+/// One tile's cells: count, mean anisotropy along the flow, resultant of in-plane unit directions.
+#[derive(Clone, Copy, Default)]
+struct Tile {
+    count: usize,
+    sum_along: f64,
+    sum_direction: [f64; 2],
+}
+
+pub fn draw(data: &RunFigureData, path: &Path) -> anyhow::Result<FigureRecord> {
     register_fonts();
     let um = 1e6;
     let (lx, ly) = (data.extent[0] * um, data.extent[1] * um);
-    let plot_w = 900.0;
-    let plot_h = (plot_w * ly / lx).clamp(160.0, 900.0);
-    let (width, height) = (plot_w as u32 + 90, plot_h as u32 + 130);
-    let mut magnitudes: Vec<f64> =
-        data.cells.iter().map(|c| c.anisotropy[0].hypot(c.anisotropy[1])).filter(|m| m.is_finite()).collect();
-    magnitudes.sort_by(f64::total_cmp);
-    let reference = magnitudes.get((magnitudes.len() * 3) / 4).copied().unwrap_or(0.0);
-    let radius = data.cells.first().map_or(1e-5, |c| c.radius) * um;
-    let scale = if reference > 0.0 { 1.5 * radius / reference } else { 0.0 };
+    let radius = data.cells.iter().map(|c| c.radius).find(|r| r.is_finite()).unwrap_or(1e-5) * um;
+    let along_x = ((lx / (4.0 * radius)).round() as usize).clamp(1, MOST_TILES);
+    let side = lx / along_x as f64;
+    let along_y = ((ly / side).round() as usize).max(1);
+    let side_y = ly / along_y as f64;
+    let mut tiles = vec![Tile::default(); along_x * along_y];
+    let mut not_drawn = 0;
+    for cell in &data.cells {
+        let (x, y) = (cell.centre[0] * um, cell.centre[1] * um);
+        let a = cell.anisotropy;
+        if !(x.is_finite()
+            && y.is_finite()
+            && cell.anisotropy_along_flow.is_finite()
+            && a.iter().all(|v| v.is_finite()))
+        {
+            not_drawn += 1;
+            continue;
+        }
+        let (i, j) = (((x / side) as usize).min(along_x - 1), ((y / side_y) as usize).min(along_y - 1));
+        let tile = &mut tiles[i + along_x * j];
+        tile.count += 1;
+        tile.sum_along += cell.anisotropy_along_flow;
+        let planar = a[0].hypot(a[1]);
+        if planar > 0.0 {
+            tile.sum_direction[0] += a[0] / planar;
+            tile.sum_direction[1] += a[1] / planar;
+        }
+    }
+    let top = tiles
+        .iter()
+        .filter(|t| t.count > 0)
+        .map(|t| (t.sum_along / t.count as f64).abs())
+        .fold(0.0, f64::max);
+    let top = if top > 0.0 { top } else { 1.0 };
+    let most = tiles.iter().map(|t| t.count).max().unwrap_or(0);
+    let drawn_cells: usize = tiles.iter().map(|t| t.count).sum();
+
+    let plot_w = 860.0;
+    let plot_h = (plot_w * ly / lx).clamp(160.0, 860.0);
+    let (main_w, main_h) = (plot_w as u32 + 112, plot_h as u32 + 66);
+    let (width, height) = (main_w + 150, main_h + 58 + 62);
+    let x = Axis { range: (0.0, lx), ..Axis::between(0.0, lx, Scale::Linear, "x (µm), flow along +x") };
+    let y = Axis { range: (0.0, ly), ..Axis::between(0.0, ly, Scale::Linear, "y (µm)") };
+    let colour_axis =
+        Axis::between(-top, top, Scale::Linear, "tile mean of the anisotropy along the flow (dimensionless)");
+    let mut record = FigureRecord { file: path.display().to_string(), not_drawn, ..Default::default() };
     write_png(path, (width, height), |root| {
-        drawing(root.fill(&WHITE))?;
-        let mut chart = drawing(
-            ChartBuilder::on(root)
-                .caption("Anisotropy of the sensed flux per cell (x–y projection)", (FONT, 20))
-                .margin(12)
-                .x_label_area_size(45)
-                .margin_bottom(40)
-                .y_label_area_size(60)
-                .build_cartesian_2d(0.0..lx, 0.0..ly),
-        )?;
-        drawing(
-            chart
-                .configure_mesh()
-                .disable_mesh()
-                .x_desc("x (µm), flow along +x")
-                .y_desc("y (µm)")
-                .label_style((FONT, 14))
-                .axis_desc_style((FONT, 15))
-                .draw(),
-        )?;
-        for cell in &data.cells {
-            let (cx, cy, r) = (cell.centre[0] * um, cell.centre[1] * um, cell.radius * um);
-            let outline: Vec<(f64, f64)> = (0..=40)
-                .map(|s| {
-                    let t = s as f64 / 40.0 * std::f64::consts::TAU;
-                    (cx + r * t.cos(), cy + r * t.sin())
-                })
-                .collect();
-            drawing(chart.draw_series(std::iter::once(PathElement::new(
-                outline,
-                RGBColor(170, 170, 170).stroke_width(1),
-            ))))?;
-            let (mut ax, mut ay) = (cell.anisotropy[0] * scale, cell.anisotropy[1] * scale);
-            let length = ax.hypot(ay);
-            if length > 3.0 * r {
-                (ax, ay) = (ax * 3.0 * r / length, ay * 3.0 * r / length);
-            }
-            if scale > 0.0 && ax.is_finite() && ay.is_finite() && ax.hypot(ay) > 0.05 * r {
-                let colour = if cell.anisotropy_along_flow >= 0.0 {
-                    RGBColor(33, 102, 172)
-                } else {
-                    RGBColor(178, 24, 43)
-                };
-                for seg in arrow((cx, cy), (cx + ax, cy + ay), 0.3) {
-                    drawing(
-                        chart.draw_series(std::iter::once(PathElement::new(seg, colour.stroke_width(2)))),
-                    )?;
+        let subtitle = format!(
+            "seen from above: {} µm tiles, each averaging the cells at every depth ({drawn_cells} cells, up to {most} per tile)",
+            significant(side, 2)
+        );
+        let body = titled(root, "Which way cells sense the cue, across the chamber", Some(&subtitle))?;
+        let (upper, _) = body.split_vertically(main_h);
+        let (main, bar) = upper.split_horizontally(main_w);
+        let mut plot = chart(&main, &x, &y)?;
+        for j in 0..along_y {
+            for i in 0..along_x {
+                let tile = tiles[i + along_x * j];
+                let (x0, y0) = (i as f64 * side, j as f64 * side_y);
+                if tile.count == 0 {
+                    continue;
+                }
+                let mean = tile.sum_along / tile.count as f64;
+                drawing(plot.draw_series(std::iter::once(Rectangle::new(
+                    [(x0, y0), (x0 + side, y0 + side_y)],
+                    colour_maps::signed(0.5 + 0.5 * mean / top).filled(),
+                ))))?;
+                let n = tile.count as f64;
+                let (dx, dy) = (tile.sum_direction[0] / n, tile.sum_direction[1] / n);
+                let half = 0.45 * side.min(side_y);
+                let centre = (x0 + 0.5 * side, y0 + 0.5 * side_y);
+                record.points.push((centre.0, centre.1));
+                if dx.hypot(dy) > 0.05 {
+                    let from = (centre.0 - dx * half, centre.1 - dy * half);
+                    let to = (centre.0 + dx * half, centre.1 + dy * half);
+                    for seg in arrow(from, to, 0.3) {
+                        drawing(
+                            plot.draw_series(std::iter::once(PathElement::new(seg, INK.stroke_width(2)))),
+                        )?;
+                    }
                 }
             }
         }
-        let key = if reference > 0.0 {
-            format!(
-                "arrow of 1.5 radii: |A| = {} (75th percentile), clipped at 3 radii; blue: richer downstream, red: upstream",
-                tick(reference)
-            )
-        } else {
-            "no anisotropy to show".to_string()
-        };
-        drawing(root.draw(&Text::new(key, (70, height as i32 - 28), (FONT, 14).into_font())))?;
+        // Tile borders, light, so empty tiles read as empty rather than as zero.
+        for i in 0..=along_x {
+            let x0 = i as f64 * side;
+            drawing(
+                plot.draw_series(std::iter::once(PathElement::new(
+                    vec![(x0, 0.0), (x0, ly)],
+                    MUTED.mix(0.25),
+                ))),
+            )?;
+        }
+        for j in 0..=along_y {
+            let y0 = j as f64 * side_y;
+            drawing(
+                plot.draw_series(std::iter::once(PathElement::new(
+                    vec![(0.0, y0), (lx, y0)],
+                    MUTED.mix(0.25),
+                ))),
+            )?;
+        }
+        let left = plot_box(&plot).0 .0;
+        let key = "arrow: mean in-plane direction of the tile's cells, its length their agreement (nearly a tile when all point alike); blank tiles hold no cell";
+        note(root, key, (left, height as i32 - 54))?;
+        record.notes.push(key.to_string());
+        if not_drawn > 0 {
+            let text = format!("{not_drawn} cells without a finite anisotropy (no bound flux) are left out");
+            note(root, &text, (left, height as i32 - 34))?;
+            record.notes.push(text);
+        }
+        colour_bar(&bar, &colour_axis, colour_maps::signed)?;
         Ok(())
-    })
+    })?;
+    record.x = Some(x);
+    record.y = Some(y);
+    Ok(record)
 }

@@ -1,102 +1,99 @@
-//! Anisotropy along the flow against downstream position: the measured value of every cell, the estimate
-//! from the mean-field background (own cloud + background uptake + background gradient), and the isolated-cell
-//! low-Péclet value.
+//! Anisotropy along the flow against downstream position: the measured value of every cell, the estimate from
+//! the mean-field background (own cloud + background uptake + background gradient) over the span the cells
+//! occupy (nearer the inlet than the first cell's centre it describes no cell, and its inlet value would only
+//! stretch the axis), and the isolated-cell low-Péclet value.
 
 use std::path::Path;
 
 use plotters::prelude::*;
 
 use super::run_data::RunFigureData;
-use super::style::{drawing, register_fonts, tick, write_png, FONT};
+use super::style::legend::along;
+use super::style::{
+    chart, choose_scale, colour_maps, drawing, place_legend, plot_box, register_fonts, titled, write_png,
+    Axis, FigureRecord, Legend, Swatch, INK,
+};
 
-pub fn draw(data: &RunFigureData, path: &Path) -> anyhow::Result<()> {
+/// Height of the plot area in pixels (for the legend's headroom).
+const PLOT_HEIGHT: f64 = 500.0;
+
+pub fn draw(data: &RunFigureData, path: &Path) -> anyhow::Result<FigureRecord> {
     register_fonts();
     let um = 1e6;
     let lx = data.extent[0] * um;
     let measured: Vec<(f64, f64)> = data
         .cells
         .iter()
-        .filter(|c| c.anisotropy_along_flow.is_finite())
+        .filter(|c| c.anisotropy_along_flow.is_finite() && c.centre[0].is_finite())
         .map(|c| (c.centre[0] * um, c.anisotropy_along_flow))
         .collect();
-    let mut values: Vec<f64> = measured.iter().map(|p| p.1).collect();
-    values.extend(data.meanfield_profile.iter().map(|p| p.1).filter(|v| v.is_finite()));
+    let not_drawn = data.cells.len() - measured.len();
+    let (first, last) =
+        measured.iter().fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), p| (a.min(p.0), b.max(p.0)));
+    let estimate: Vec<(f64, f64)> = data
+        .meanfield_profile
+        .iter()
+        .map(|&(x, a)| (x * um, a))
+        .filter(|&(x, a)| a.is_finite() && x >= first && x <= last)
+        .collect();
+    let mut values: Vec<f64> = measured.iter().chain(&estimate).map(|p| p.1).collect();
     values.extend(data.isolated_anisotropy);
-    values.sort_by(f64::total_cmp);
-    let pick =
-        |q: f64| values.get(((values.len() as f64 - 1.0) * q).round() as usize).copied().unwrap_or(0.0);
-    // Robust range: 1st to 99th percentile, always including 0.
-    let (lo, hi) = (pick(0.01).min(0.0), pick(0.99).max(0.0));
-    let pad = 0.08 * (hi - lo).max(1e-12);
-    let (lo, hi) = (lo - pad, hi + pad);
-    write_png(path, (1000, 620), |root| {
-        drawing(root.fill(&WHITE))?;
-        let mut chart = drawing(
-            ChartBuilder::on(root)
-                .caption("Anisotropy along the flow against downstream position", (FONT, 20))
-                .margin(14)
-                .x_label_area_size(48)
-                .y_label_area_size(78)
-                .build_cartesian_2d(0.0..lx, lo..hi),
-        )?;
-        drawing(
-            chart
-                .configure_mesh()
-                .light_line_style(RGBColor(235, 235, 235))
-                .x_desc("x (µm), downstream")
-                .y_desc("anisotropy along flow (1)")
-                .y_label_formatter(&|v| tick(*v))
-                .label_style((FONT, 14))
-                .axis_desc_style((FONT, 15))
-                .draw(),
-        )?;
-        let clipped = |v: f64| v.clamp(lo, hi);
-        drawing(
-            chart.draw_series(
-                measured.iter().map(|&(x, a)| {
-                    Circle::new((x, clipped(a)), 3, RGBColor(49, 104, 142).mix(0.75).filled())
-                }),
-            ),
-        )?
-        .label("measured (per cell)")
-        .legend(|(x, y)| Circle::new((x + 10, y), 4, RGBColor(49, 104, 142).filled()));
-        if !data.meanfield_profile.is_empty() {
-            let line: Vec<(f64, f64)> =
-                data.meanfield_profile.iter().map(|&(x, a)| (x * um, clipped(a))).collect();
-            drawing(
-                chart.draw_series(std::iter::once(PathElement::new(
-                    line,
-                    RGBColor(230, 97, 1).stroke_width(3),
-                ))),
-            )?
-            .label("mean-field estimate (typical cell)")
-            .legend(|(x, y)| {
-                PathElement::new(vec![(x, y), (x + 20, y)], RGBColor(230, 97, 1).stroke_width(3))
-            });
+    let scale = choose_scale(&values, false);
+    let rows = 1
+        + usize::from(!estimate.is_empty())
+        + usize::from(data.isolated_anisotropy.is_some())
+        + usize::from(not_drawn > 0);
+    let y = Axis::fit(&values, scale, true, "anisotropy along the flow (dimensionless)")
+        .with_headroom(Legend::room(rows), PLOT_HEIGHT);
+    let x = Axis::between(0.0, lx, super::style::Scale::Linear, "x (µm), downstream");
+    let mut record = FigureRecord { file: path.display().to_string(), not_drawn, ..Default::default() };
+    let dots = colour_maps::series(0);
+    let line = colour_maps::series(1);
+    write_png(path, (1000, 640), |root| {
+        let body = titled(root, "Anisotropy along the flow, inlet to outlet", None)?;
+        let mut plot = chart(&body, &x, &y)?;
+        let map = |(px, py): (f64, f64)| (x.map(px), y.map(py));
+        drawing(plot.draw_series(measured.iter().map(|&p| Circle::new(map(p), 3, dots.mix(0.8).filled()))))?;
+        let mut occupied: Vec<(i32, i32)> = measured.iter().map(|&p| plot.backend_coord(&map(p))).collect();
+        let mut legend = Legend::default();
+        legend.add(Swatch::Dot(dots), format!("measured, {} cells", measured.len()));
+        if !estimate.is_empty() {
+            let path_points: Vec<(f64, f64)> = estimate.iter().map(|&p| map(p)).collect();
+            let pixels: Vec<(i32, i32)> = path_points.iter().map(|p| plot.backend_coord(p)).collect();
+            occupied.extend(along(&pixels));
+            drawing(plot.draw_series(std::iter::once(PathElement::new(path_points, line.stroke_width(3)))))?;
+            legend.add(Swatch::Line(line), "mean-field estimate for a typical cell");
         }
         if let Some(a) = data.isolated_anisotropy {
-            let dashes: Vec<PathElement<(f64, f64)>> = (0..40)
-                .filter(|s| s % 2 == 0)
-                .map(|s| {
-                    PathElement::new(
-                        vec![(lx * s as f64 / 40.0, clipped(a)), (lx * (s + 1) as f64 / 40.0, clipped(a))],
-                        BLACK.stroke_width(2),
-                    )
-                })
-                .collect();
-            drawing(chart.draw_series(dashes))?
-                .label("isolated cell, first order in Pe")
-                .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 8, y)], BLACK.stroke_width(2)));
+            let level = y.map(a);
+            let (x0, x1) = x.range;
+            let dashes = 50;
+            for d in (0..dashes).step_by(2) {
+                let (a0, a1) = (
+                    x0 + (x1 - x0) * d as f64 / dashes as f64,
+                    x0 + (x1 - x0) * (d + 1) as f64 / dashes as f64,
+                );
+                drawing(plot.draw_series(std::iter::once(PathElement::new(
+                    vec![(a0, level), (a1, level)],
+                    INK.stroke_width(2),
+                ))))?;
+            }
+            occupied.extend(along(&[plot.backend_coord(&(x0, level)), plot.backend_coord(&(x1, level))]));
+            legend.add(Swatch::Dashed(INK), "isolated cell, first order in the Péclet number");
+            record.points.push((0.0, a));
         }
-        drawing(
-            chart
-                .configure_series_labels()
-                .position(SeriesLabelPosition::UpperRight)
-                .background_style(WHITE.mix(0.85))
-                .border_style(RGBColor(160, 160, 160))
-                .label_font((FONT, 14))
-                .draw(),
-        )?;
+        if not_drawn > 0 {
+            legend.add(Swatch::Blank, format!("{not_drawn} cells without a finite anisotropy, not drawn"));
+        }
+        let plot_px = plot_box(&plot);
+        record.legend = place_legend(root, &legend, plot_px, &occupied, (plot_px.0 .0, plot_px.0 .1))?;
+        record.notes.extend(legend.entries.iter().map(|e| e.1.clone()));
+        record.occupied = occupied;
         Ok(())
-    })
+    })?;
+    record.points.extend(measured);
+    record.points.extend(estimate);
+    record.x = Some(x);
+    record.y = Some(y);
+    Ok(record)
 }

@@ -1,19 +1,28 @@
 //! Approach to steady state of a transient run: against simulated time, the outlet concentration and each cell's
 //! bound rate as fractions of their steady values (the cells as median with a p10–p90 band), with guides at
 //! 90% and 99% (the `time_to_steady` thresholds of summary.json) and markers at the flow change and at
-//! `window_start`.
+//! `window_start`. The time axis is logarithmic when steady state comes early (before a tenth of the run) or the
+//! output times span more than two decades. A second figure shows the fraction of cells with a readable cue
+//! (direction error at most the readable level) against time, from the instantaneous counts and from the counts
+//! accumulated since `window_start`.
 //!
 //! Read from the run folder alone: `summary.json` → `transient` (output times, outlet concentration and its
 //! steady value), `cells_timeseries.csv` (`time`, `id`, `bound_rate`) and the final `cells.csv`
 //! (`id`, `steady_bound_rate`, written for first-order uptake, where the bound rate is the sensed rate).
 
 use std::collections::HashMap;
-use std::path::Path;
+use std::path::{Path, PathBuf};
 
 use anyhow::{anyhow, Context};
+use numkit::quantile_sorted;
 use plotters::prelude::*;
 
-use super::style::{drawing, register_fonts, viridis, write_png, FONT};
+use super::direction_error_histogram::failed_text;
+use super::style::legend::along;
+use super::style::{
+    chart, colour_maps, drawing, place_legend, plot_box, register_fonts, significant, titled, write_png,
+    Axis, DisplayUnit, FigureRecord, Legend, Scale, Swatch, LEVEL, MUTED,
+};
 
 /// Whether the run folder holds a transient run (`summary.json` → `solve_mode`).
 pub fn is_transient(dir: &Path) -> bool {
@@ -40,14 +49,8 @@ struct Approach {
     cells_counted: usize,
     flow_change: Option<f64>,
     window_start: Option<f64>,
-}
-
-/// Quantile `q` of sorted `v` by linear interpolation between order statistics (Hyndman & Fan 1996,
-/// definition 7, as in the summary's quantiles).
-fn quantile(v: &[f64], q: f64) -> f64 {
-    let position = q * (v.len() - 1) as f64;
-    let (lo, hi) = (position.floor() as usize, position.ceil() as usize);
-    v[lo] + (position - lo as f64) * (v[hi] - v[lo])
+    /// When the outlet concentration came within 1 % of steady.
+    steady_at: Option<f64>,
 }
 
 fn read_json(path: &Path) -> anyhow::Result<serde_json::Value> {
@@ -141,9 +144,9 @@ impl Approach {
             for (time, v) in cell_fractions(&dir.join("cells_timeseries.csv"), &steady)? {
                 cells.push(Band {
                     time,
-                    p10: quantile(&v, 0.1),
-                    median: quantile(&v, 0.5),
-                    p90: quantile(&v, 0.9),
+                    p10: quantile_sorted(&v, 0.1),
+                    median: quantile_sorted(&v, 0.5),
+                    p90: quantile_sorted(&v, 0.9),
                 });
             }
         }
@@ -160,140 +163,246 @@ impl Approach {
             cells_counted: steady.len(),
             flow_change: summary["flow"]["change"]["time"].as_f64(),
             window_start: transient["window_start"].as_f64().filter(|t| *t > 0.0),
+            steady_at: transient["time_to_steady"]["99_percent"]["outlet_concentration"].as_f64(),
         })
     }
 }
 
-/// Time unit for a run of `length` seconds: (seconds per unit, label).
-fn time_unit(length: f64) -> (f64, &'static str) {
-    if length < 300.0 {
-        (1.0, "s")
-    } else if length < 3.0 * 3600.0 {
-        (60.0, "min")
-    } else {
-        (3600.0, "h")
-    }
+/// Per output time: cells counted, and how many read their cue from the instantaneous direction error and from
+/// the error of the counts accumulated since `window_start` (when the column exists).
+struct Readable {
+    time: f64,
+    cells: usize,
+    now: usize,
+    window: Option<usize>,
 }
 
-/// Draws `figures/approach_to_steady.png` of the transient run folder `dir` into `path`.
-pub fn draw(dir: &Path, path: &Path) -> anyhow::Result<()> {
-    register_fonts();
+fn readable_counts(path: &Path, level: f64) -> anyhow::Result<Vec<Readable>> {
+    let mut reader =
+        csv::Reader::from_path(path).with_context(|| format!("cannot read {}", path.display()))?;
+    let header = reader.headers()?.clone();
+    let find = |name: &str| header.iter().position(|h| h == name);
+    let (Some(time), Some(error)) = (find("time"), find("direction_error")) else { return Ok(Vec::new()) };
+    let window = find("window_direction_error");
+    let mut out: Vec<Readable> = Vec::new();
+    for record in reader.records() {
+        let record = record?;
+        let number = |i: usize| record.get(i).and_then(|s| s.parse::<f64>().ok());
+        let Some(t) = number(time) else { continue };
+        if out.last().map_or(true, |r| r.time != t) {
+            out.push(Readable { time: t, cells: 0, now: 0, window: window.map(|_| 0) });
+        }
+        let row = out.last_mut().expect("pushed above");
+        row.cells += 1;
+        row.now += usize::from(number(error).is_some_and(|e| e <= level));
+        if let (Some(count), Some(w)) = (row.window.as_mut(), window) {
+            *count += usize::from(number(w).is_some_and(|e| e <= level));
+        }
+    }
+    Ok(out)
+}
+
+/// Draws `approach_to_steady.png` and `readable_cue_over_time.png` of the transient run folder `dir` into
+/// `folder`.
+pub fn draw_all(
+    dir: &Path,
+    folder: &Path,
+    readable_error: f64,
+) -> anyhow::Result<Vec<(PathBuf, FigureRecord)>> {
     let data = Approach::read(dir)?;
-    let (unit, unit_name) = time_unit(data.final_time);
-    let x_end = data.final_time / unit;
-    let values = data.outlet.iter().map(|p| p.1).chain(data.cells.iter().flat_map(|b| [b.p10, b.p90]));
-    let (lo, hi) =
-        values.filter(|v| v.is_finite()).fold((0.0_f64, 1.0_f64), |(lo, hi), v| (lo.min(v), hi.max(v)));
-    // A little headroom above the top value; 0 always shown.
-    let (y_lo, y_hi) = (lo - 0.03 * (hi - lo), hi + 0.08 * (hi - lo));
-    // The legend goes where the curves are not at the end of the run: low when they end near steady.
-    let last = data.outlet.last().map(|p| p.1).into_iter().chain(data.cells.last().map(|b| b.p10));
-    let legend_at = if last.fold(f64::INFINITY, f64::min) > y_lo + 0.5 * (y_hi - y_lo) {
-        SeriesLabelPosition::LowerRight
+    let times: Vec<f64> = data.outlet.iter().map(|p| p.0).chain(data.cells.iter().map(|b| b.time)).collect();
+    let first = times.iter().copied().filter(|t| *t > 0.0).fold(f64::INFINITY, f64::min);
+    let early = data.steady_at.is_some_and(|t| t < 0.1 * data.final_time);
+    let scale = if first.is_finite() && (early || data.final_time / first > 100.0) {
+        Scale::Log
     } else {
-        SeriesLabelPosition::UpperRight
+        Scale::Linear
     };
-    let outlet_colour = viridis(0.15);
-    let cell_colour = viridis(0.6);
-    let guide = RGBColor(120, 120, 120);
-    let flow_colour = RGBColor(200, 30, 30);
-    let window_colour = RGBColor(90, 90, 90);
-    write_png(path, (1000, 600), |root| {
-        drawing(root.fill(&WHITE))?;
-        let mut chart = drawing(
-            ChartBuilder::on(root)
-                .caption(format!("Approach to steady state: {}", data.title), (FONT, 20))
-                .margin(14)
-                .x_label_area_size(48)
-                .y_label_area_size(64)
-                .build_cartesian_2d(0.0..x_end, y_lo..y_hi),
-        )?;
-        drawing(
-            chart
-                .configure_mesh()
-                .light_line_style(RGBColor(235, 235, 235))
-                .x_desc(format!("simulated time ({unit_name})"))
-                .y_desc("fraction of the steady value (1)")
-                .x_label_formatter(&|v| super::style::tick(*v))
-                .y_label_formatter(&|v| format!("{:.2}", if v.abs() < 1e-9 { 0.0 } else { *v }))
-                .label_style((FONT, 14))
-                .axis_desc_style((FONT, 15))
-                .draw(),
-        )?;
-        if !data.cells.is_empty() {
-            let mut outline: Vec<(f64, f64)> = data.cells.iter().map(|b| (b.time / unit, b.p90)).collect();
-            outline.extend(data.cells.iter().rev().map(|b| (b.time / unit, b.p10)));
+    let unit = DisplayUnit::of("s", data.final_time);
+    let x_label = format!("simulated time ({})", unit.label);
+    let (x_lo, x_hi) = if scale == Scale::Log {
+        (first * unit.factor, data.final_time * unit.factor)
+    } else {
+        (0.0, data.final_time * unit.factor)
+    };
+    let x = Axis::between(x_lo, x_hi, scale, &x_label);
+    let approach = folder.join("approach_to_steady.png");
+    let mut drawn = vec![(approach.clone(), draw_approach(&data, &approach, &x, &unit)?)];
+    let counts = readable_counts(&dir.join("cells_timeseries.csv"), readable_error)?;
+    if !counts.is_empty() {
+        let path = folder.join("readable_cue_over_time.png");
+        let record = draw_readable(&data, &counts, readable_error, &path, &x, &unit)?;
+        drawn.push((path, record));
+    }
+    Ok(drawn)
+}
+
+const PLOT_HEIGHT: f64 = 470.0;
+
+fn draw_approach(data: &Approach, path: &Path, x: &Axis, unit: &DisplayUnit) -> anyhow::Result<FigureRecord> {
+    register_fonts();
+    let log = x.scale == Scale::Log;
+    let shown = |t: f64| !log || t > 0.0;
+    let outlet: Vec<(f64, f64)> =
+        data.outlet.iter().filter(|p| shown(p.0)).map(|&(t, f)| (t * unit.factor, f)).collect();
+    let cells: Vec<&Band> = data.cells.iter().filter(|b| shown(b.time)).collect();
+    let mut values: Vec<f64> =
+        outlet.iter().map(|p| p.1).chain(cells.iter().flat_map(|b| [b.p10, b.p90])).collect();
+    values.extend([0.0, 1.0]);
+    let mut legend = Legend::default();
+    let outlet_colour = colour_maps::series(0);
+    let cell_colour = colour_maps::series(2);
+    if !cells.is_empty() {
+        legend.add(
+            Swatch::Band(cell_colour),
+            format!("cells' bound rate: median and p10–p90 of {} cells", data.cells_counted),
+        );
+    } else {
+        legend.add(Swatch::Blank, "cells: no steady bound rate (written for first-order uptake only)");
+    }
+    if !outlet.is_empty() {
+        legend.add(Swatch::Line(outlet_colour), "outlet concentration");
+    }
+    legend.add(Swatch::Dashed(MUTED), "90 % and 99 % of steady");
+    let markers: Vec<(f64, RGBColor, &str)> =
+        [(data.flow_change, LEVEL, "flow change"), (data.window_start, MUTED, "sensing window opens")]
+            .into_iter()
+            .filter_map(|(at, c, what)| {
+                at.filter(|t| x.contains(*t * unit.factor)).map(|t| (t * unit.factor, c, what))
+            })
+            .collect();
+    for (at, colour, what) in &markers {
+        legend.add(Swatch::Line(*colour), format!("{what} at {} {}", significant(*at, 3), unit.label));
+    }
+    let y = Axis::fit(&values, Scale::Linear, true, "fraction of the steady value (dimensionless)")
+        .with_headroom(Legend::room(legend.entries.len()), PLOT_HEIGHT);
+    let mut record = FigureRecord { file: path.display().to_string(), ..Default::default() };
+    let subtitle = if log { Some("log time axis: steady state comes early in the run") } else { None };
+    write_png(path, (1000, 620), |root| {
+        let body = titled(root, &format!("Approach to steady state: {}", data.title), subtitle)?;
+        let mut plot = chart(&body, x, &y)?;
+        let map = |(t, f): (f64, f64)| (x.map(t), y.map(f));
+        let mut occupied = Vec::new();
+        if !cells.is_empty() {
+            let mut outline: Vec<(f64, f64)> =
+                cells.iter().map(|b| map((b.time * unit.factor, b.p90))).collect();
+            outline.extend(cells.iter().rev().map(|b| map((b.time * unit.factor, b.p10))));
+            occupied.extend(outline.iter().map(|p| plot.backend_coord(p)));
             drawing(
-                chart.draw_series(std::iter::once(Polygon::new(outline, cell_colour.mix(0.25).filled()))),
-            )?
-            .label(format!("cells' bound rate, p10-p90 over {} cells", data.cells_counted))
-            .legend(move |(x, y)| {
-                Rectangle::new([(x, y - 6), (x + 20, y + 6)], cell_colour.mix(0.25).filled())
-            });
-            drawing(chart.draw_series(std::iter::once(PathElement::new(
-                data.cells.iter().map(|b| (b.time / unit, b.median)).collect::<Vec<_>>(),
-                cell_colour.stroke_width(3),
-            ))))?
-            .label("cells' bound rate, median (dots: output times)")
-            .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], cell_colour.stroke_width(3)));
+                plot.draw_series(std::iter::once(Polygon::new(outline, cell_colour.mix(0.25).filled()))),
+            )?;
+            let median: Vec<(f64, f64)> =
+                cells.iter().map(|b| map((b.time * unit.factor, b.median))).collect();
+            let pixels: Vec<(i32, i32)> = median.iter().map(|p| plot.backend_coord(p)).collect();
+            occupied.extend(along(&pixels));
+            drawing(
+                plot.draw_series(std::iter::once(PathElement::new(median, cell_colour.stroke_width(3)))),
+            )?;
+            record.points.extend(cells.iter().flat_map(|b| {
+                [
+                    (b.time * unit.factor, b.p10),
+                    (b.time * unit.factor, b.median),
+                    (b.time * unit.factor, b.p90),
+                ]
+            }));
         }
-        let dots =
-            data.cells.iter().map(|b| Circle::new((b.time / unit, b.median), 3, cell_colour.filled())).chain(
-                data.outlet.iter().map(|&(t, f)| Circle::new((t / unit, f), 3, outlet_colour.filled())),
-            );
-        drawing(chart.draw_series(dots))?;
-        if !data.outlet.is_empty() {
-            drawing(chart.draw_series(std::iter::once(PathElement::new(
-                data.outlet.iter().map(|&(t, f)| (t / unit, f)).collect::<Vec<_>>(),
-                outlet_colour.stroke_width(2),
-            ))))?
-            .label("outlet concentration")
-            .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], outlet_colour.stroke_width(2)));
+        if !outlet.is_empty() {
+            let line: Vec<(f64, f64)> = outlet.iter().map(|&p| map(p)).collect();
+            let pixels: Vec<(i32, i32)> = line.iter().map(|p| plot.backend_coord(p)).collect();
+            occupied.extend(along(&pixels));
+            drawing(plot.draw_series(line.iter().map(|&p| Circle::new(p, 3, outlet_colour.filled()))))?;
+            drawing(
+                plot.draw_series(std::iter::once(PathElement::new(line, outlet_colour.stroke_width(2)))),
+            )?;
+            record.points.extend(outlet.iter().copied());
         }
-        for (k, level) in [0.9, 0.99].into_iter().enumerate() {
-            // Dashed: 60 dashes across the axis, each 60% of its period.
-            let period = x_end / 60.0;
-            let series = drawing(chart.draw_series((0..60).map(|d| {
-                let x0 = d as f64 * period;
-                PathElement::new(vec![(x0, level), (x0 + 0.6 * period, level)], guide.stroke_width(1))
+        for level in [0.9, 0.99] {
+            let (a, b) = x.range;
+            let period = (b - a) / 60.0;
+            drawing(plot.draw_series((0..60).map(|d| {
+                let x0 = a + d as f64 * period;
+                PathElement::new(vec![(x0, level), (x0 + 0.6 * period, level)], MUTED.stroke_width(1))
             })))?;
-            if k == 0 {
-                series
-                    .label("90% and 99% of steady")
-                    .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], guide.stroke_width(1)));
-            }
         }
-        let markers = [
-            (data.flow_change, flow_colour, "flow change"),
-            (data.window_start, window_colour, "sensing window opens"),
-        ];
-        for (at, colour, what) in markers {
-            let Some(at) = at.filter(|t| *t / unit < x_end) else { continue };
-            drawing(chart.draw_series(std::iter::once(PathElement::new(
-                vec![(at / unit, y_lo), (at / unit, y_hi)],
-                colour.stroke_width(2),
-            ))))?
-            .label(format!("{what} at {} {unit_name}", super::style::tick(at / unit)))
-            .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], colour.stroke_width(2)));
-        }
-        if data.cells.is_empty() {
+        for (at, colour, _) in &markers {
+            let (p0, p1) = ((x.map(*at), y.range.0), (x.map(*at), y.range.1));
+            occupied.extend(along(&[plot.backend_coord(&p0), plot.backend_coord(&p1)]));
             drawing(
-                chart.draw_series(std::iter::once(PathElement::new(vec![(0.0, y_lo), (0.0, y_lo)], WHITE))),
-            )?
-            .label("cells: no steady bound rate (written for first-order uptake only)")
-            .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], WHITE));
+                plot.draw_series(std::iter::once(PathElement::new(vec![p0, p1], colour.stroke_width(2)))),
+            )?;
         }
-        drawing(
-            chart
-                .configure_series_labels()
-                .position(legend_at)
-                .background_style(WHITE.mix(0.85))
-                .border_style(RGBColor(160, 160, 160))
-                .label_font((FONT, 14))
-                .draw(),
-        )?;
+        let plot_px = plot_box(&plot);
+        record.legend = place_legend(root, &legend, plot_px, &occupied, plot_px.0)?;
+        record.notes.extend(legend.entries.iter().map(|e| e.1.clone()));
+        record.occupied = occupied;
         Ok(())
-    })
+    })?;
+    record.x = Some(x.clone());
+    record.y = Some(y);
+    Ok(record)
+}
+
+fn draw_readable(
+    data: &Approach,
+    counts: &[Readable],
+    level: f64,
+    path: &Path,
+    x: &Axis,
+    unit: &DisplayUnit,
+) -> anyhow::Result<FigureRecord> {
+    register_fonts();
+    let log = x.scale == Scale::Log;
+    let rows: Vec<&Readable> = counts.iter().filter(|r| r.cells > 0 && (!log || r.time > 0.0)).collect();
+    let now: Vec<(f64, f64)> =
+        rows.iter().map(|r| (r.time * unit.factor, r.now as f64 / r.cells as f64)).collect();
+    let window: Vec<(f64, f64)> = rows
+        .iter()
+        .filter(|r| data.window_start.map_or(true, |w| r.time >= w))
+        .filter_map(|r| r.window.map(|w| (r.time * unit.factor, w as f64 / r.cells as f64)))
+        .collect();
+    let mut legend = Legend::default();
+    let now_colour = colour_maps::series(0);
+    let window_colour = colour_maps::series(1);
+    legend.add(Swatch::Line(now_colour), "from the current bound flux (integration time of the case)");
+    if !window.is_empty() {
+        legend.add(Swatch::Line(window_colour), "from the counts since the sensing window opened");
+    }
+    let last = rows.last();
+    if let Some(r) = last {
+        legend.add(
+            Swatch::Blank,
+            format!("at the end, current flux: {}", failed_text(r.cells - r.now, r.cells)),
+        );
+    }
+    legend.add(Swatch::Blank, format!("readable: direction error ≤ {}", significant(level, 3)));
+    let y = Axis::between(0.0, 1.0, Scale::Linear, "fraction of cells with a readable cue (dimensionless)")
+        .with_headroom(Legend::room(legend.entries.len()), PLOT_HEIGHT);
+    let mut record = FigureRecord { file: path.display().to_string(), ..Default::default() };
+    write_png(path, (1000, 620), |root| {
+        let body = titled(root, &format!("Cells that can read the cue: {}", data.title), None)?;
+        let mut plot = chart(&body, x, &y)?;
+        let mut occupied = Vec::new();
+        for (series, colour) in [(&now, now_colour), (&window, window_colour)] {
+            if series.is_empty() {
+                continue;
+            }
+            let line: Vec<(f64, f64)> = series.iter().map(|&(t, f)| (x.map(t), f)).collect();
+            let pixels: Vec<(i32, i32)> = line.iter().map(|p| plot.backend_coord(p)).collect();
+            occupied.extend(along(&pixels));
+            drawing(plot.draw_series(line.iter().map(|&p| Circle::new(p, 3, colour.filled()))))?;
+            drawing(plot.draw_series(std::iter::once(PathElement::new(line, colour.stroke_width(2)))))?;
+        }
+        let plot_px = plot_box(&plot);
+        record.legend = place_legend(root, &legend, plot_px, &occupied, plot_px.0)?;
+        record.notes.extend(legend.entries.iter().map(|e| e.1.clone()));
+        record.occupied = occupied;
+        Ok(())
+    })?;
+    record.points.extend(now);
+    record.points.extend(window);
+    record.x = Some(x.clone());
+    record.y = Some(y);
+    Ok(record)
 }
 
 #[cfg(test)]
@@ -301,17 +410,14 @@ mod tests {
     use super::*;
 
     #[test]
-    fn time_unit_follows_the_run_length() {
-        assert_eq!(time_unit(90.0).1, "s");
-        assert_eq!(time_unit(1800.0).1, "min");
-        assert_eq!(time_unit(10.0 * 3600.0).1, "h");
-    }
-
-    #[test]
-    fn quantile_interpolates_between_order_statistics() {
-        let v = [1.0, 2.0, 3.0, 4.0, 5.0];
-        assert!((quantile(&v, 0.1) - 1.4).abs() < 1e-15);
-        assert_eq!(quantile(&v, 0.5), 3.0);
-        assert_eq!(quantile(&[7.0], 0.9), 7.0);
+    fn readable_counts_per_output_time() {
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("series.csv");
+        let text = "time,id,direction_error,window_direction_error\n30,0,0.5,inf\n30,1,2,inf\n60,0,0.4,0.9\n60,1,inf,1.5\n";
+        std::fs::write(&path, text).unwrap();
+        let counts = readable_counts(&path, 1.0).unwrap();
+        assert_eq!(counts.len(), 2);
+        assert_eq!((counts[0].cells, counts[0].now, counts[0].window), (2, 1, Some(0)));
+        assert_eq!((counts[1].cells, counts[1].now, counts[1].window), (2, 1, Some(1)));
     }
 }

@@ -6,6 +6,7 @@ use std::path::Path;
 use anyhow::{anyhow, Context};
 
 use crate::exit::InputError;
+use crate::outputs::RunSummary;
 
 /// The horizontal mid-plane (z = middle of the chamber) of the 3-D fields.
 pub struct MidPlane {
@@ -44,7 +45,12 @@ pub struct RunFigureData {
     /// Isolated-cell low-Péclet anisotropy.
     pub isolated_anisotropy: Option<f64>,
     pub integration_time: Option<f64>,
+    /// The direction error below which a cell reads its cue (`readable_error` of the summary; 1 without it).
+    pub readable_error: f64,
 }
+
+/// The readable level drawn until the summary carries the run's own `readable_error`.
+const DEFAULT_READABLE_ERROR: f64 = 1.0;
 
 impl RunFigureData {
     /// Reads a run's output folder. `cells.csv` and `summary.json` are required; the slice needs
@@ -59,38 +65,26 @@ impl RunFigureData {
             ))
             .into());
         }
-        let summary: serde_json::Value = serde_json::from_str(
-            &std::fs::read_to_string(&summary_path)
-                .with_context(|| format!("cannot read {}", summary_path.display()))?,
-        )
-        .with_context(|| format!("{} is not valid JSON", summary_path.display()))?;
+        let summary = RunSummary::read(&summary_path)?;
         let cells = read_cells(&cells_path)?;
-        let grid = &summary["grid"];
-        let shape: Vec<usize> = grid["shape"]
-            .as_array()
-            .map(|a| a.iter().filter_map(|v| v.as_u64()).map(|v| v as usize).collect())
-            .unwrap_or_default();
-        let spacing = grid["spacing"].as_f64().unwrap_or(0.0);
-        let extent = if shape.len() == 3 {
-            [0, 1, 2].map(|a| shape[a] as f64 * spacing)
-        } else {
-            return Err(anyhow!("{} has no grid.shape", summary_path.display()));
-        };
-        let estimates = &summary["estimates"];
-        let dense = &estimates["case"]["profile_dense"];
+        let grid = &summary.grid;
+        let extent = [0, 1, 2].map(|a| grid.shape[a] as f64 * grid.spacing);
+        let estimates = &summary.estimates;
+        let dense = &estimates.case["profile_dense"];
         let xs = dense["x"].as_array().cloned().unwrap_or_default();
         let values = dense["anisotropy_along_flow"].as_array().cloned().unwrap_or_default();
         let meanfield_profile =
             xs.iter().zip(&values).filter_map(|(x, a)| Some((x.as_f64()?, a.as_f64()?))).collect();
         let plane = read_mid_plane(&dir.join("fields.h5")).ok().flatten();
         Ok(RunFigureData {
-            title: summary["title"].as_str().unwrap_or("run").to_string(),
+            title: summary.title.clone(),
             extent,
             plane,
             cells,
             meanfield_profile,
-            isolated_anisotropy: estimates["isolated_anisotropy"].as_f64(),
-            integration_time: estimates["case"]["integration_time"].as_f64(),
+            isolated_anisotropy: estimates.isolated_anisotropy,
+            integration_time: estimates.case["integration_time"].as_f64(),
+            readable_error: DEFAULT_READABLE_ERROR,
         })
     }
 }

@@ -130,7 +130,7 @@ impl Drop for TempGuard {
 
 /// `fsync` of the directory entry, so the rename itself survives a crash (POSIX; common practice).
 #[cfg(unix)]
-fn sync_parent_directory(path: &Path) -> std::io::Result<()> {
+pub fn sync_parent_directory(path: &Path) -> std::io::Result<()> {
     let parent = match path.parent() {
         Some(p) if !p.as_os_str().is_empty() => p,
         _ => Path::new("."),
@@ -139,7 +139,7 @@ fn sync_parent_directory(path: &Path) -> std::io::Result<()> {
 }
 
 #[cfg(not(unix))]
-fn sync_parent_directory(_path: &Path) -> std::io::Result<()> {
+pub fn sync_parent_directory(_path: &Path) -> std::io::Result<()> {
     Ok(())
 }
 

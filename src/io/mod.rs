@@ -4,10 +4,12 @@
 
 pub mod atomic;
 pub mod binary_record;
+pub mod bounded_read;
 pub mod cells_csv;
 pub mod fields_h5;
 pub mod initial_field;
 pub mod number_text;
+pub mod output_folder;
 pub mod provenance;
 pub mod summary_json;
 pub mod table;

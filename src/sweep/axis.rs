@@ -152,6 +152,13 @@ pub fn range_values(
     if count < 1 {
         return Err(format!("count = {count} gives an empty range (at least 1 value is needed)"));
     }
+    // Checked before the values are made: a sweep never has more cases than this.
+    if count as u64 > super::expand::MAX_CASES as u64 {
+        return Err(format!(
+            "count = {count} is more than the {} cases a sweep may have; use a smaller count",
+            super::expand::MAX_CASES
+        ));
+    }
     let a = range_end("from", from, unit)?;
     let b = range_end("to", to, unit)?;
     // Express `to` in the unit of `from`, after checking both are the same kind of quantity.

@@ -16,6 +16,7 @@ use super::done_marker::{case_state, CaseState};
 use super::plan_record::PlanRecord;
 use crate::io::number_text::format_real;
 use crate::io::{with_atomic_file, write_atomic};
+use crate::outputs::RunSummary;
 
 /// Values of one column.
 #[derive(Clone, Debug, PartialEq)]
@@ -59,29 +60,44 @@ impl SweepTable {
     }
 }
 
-/// Numbers read from `summary.json` by their dotted path: (path, unit, description).
-const SUMMARY_METRICS: [(&str, &str, &str); 13] = [
-    ("cells.count", "1", "number of cells"),
-    ("cells.volume_fraction", "1", "fraction of the chamber inside cells"),
-    ("flow.pressure_drop", "Pa", "pressure drop across the chamber"),
-    ("flow.iterations", "1", "iterations of the flow solve"),
-    ("transport.iterations", "1", "iterations of the transport solve"),
-    ("mass_balance.secreted", "molecules/s", "ligand secreted by all cells"),
-    ("mass_balance.outflow", "molecules/s", "ligand leaving through the chamber faces"),
-    ("mass_balance.uptake", "molecules/s", "ligand bound by all cells"),
-    ("mass_balance.decay", "molecules/s", "ligand decaying in the bulk"),
-    ("mass_balance.relative_error", "1", "relative closure error of the mass balance"),
+/// A number of a case's summary (`None`: the case has none, e.g. a null estimate).
+type Metric = fn(&RunSummary) -> Option<f64>;
+
+/// Numbers read from `summary.json`, named by their dotted key there: (key, unit, description, value).
+const SUMMARY_METRICS: [(&str, &str, &str, Metric); 13] = [
+    ("cells.count", "1", "number of cells", |s| Some(s.cells.count as f64)),
+    ("cells.volume_fraction", "1", "fraction of the chamber inside cells", |s| Some(s.cells.volume_fraction)),
+    ("flow.pressure_drop", "Pa", "pressure drop across the chamber", |s| Some(s.flow.pressure_drop)),
+    ("flow.iterations", "1", "iterations of the flow solve", |s| Some(s.flow.iterations as f64)),
+    ("transport.iterations", "1", "iterations of the transport solve", |s| {
+        Some(s.transport.iterations as f64)
+    }),
+    ("mass_balance.secreted", "molecules/s", "ligand secreted by all cells", |s| {
+        Some(s.mass_balance.secreted)
+    }),
+    ("mass_balance.outflow", "molecules/s", "ligand leaving through the chamber faces", |s| {
+        Some(s.mass_balance.outflow)
+    }),
+    ("mass_balance.uptake", "molecules/s", "ligand bound by all cells", |s| Some(s.mass_balance.uptake)),
+    ("mass_balance.decay", "molecules/s", "ligand decaying in the bulk", |s| Some(s.mass_balance.decay)),
+    ("mass_balance.relative_error", "1", "relative closure error of the mass balance", |s| {
+        Some(s.mass_balance.relative_error)
+    }),
     (
         "estimates.measured_outlet_concentration",
         "molecules/m^3",
         "flux-weighted outlet concentration (solve)",
+        |s| s.estimates.measured_outlet_concentration,
     ),
     (
         "estimates.meanfield_outlet_concentration",
         "molecules/m^3",
         "outlet concentration of the mean-field estimate",
+        |s| s.estimates.meanfield_outlet_concentration,
     ),
-    ("estimates.isolated_anisotropy", "1", "anisotropy of an isolated cell (low-Péclet estimate)"),
+    ("estimates.isolated_anisotropy", "1", "anisotropy of an isolated cell (low-Péclet estimate)", |s| {
+        s.estimates.isolated_anisotropy
+    }),
 ];
 
 /// Per-cell columns of `cells.csv` that are aggregated: (column, unit, description). `signal_fraction` is
@@ -93,7 +109,7 @@ const CELL_QUANTITIES: [(&str, &str, &str); 4] = [
     ("signal_fraction", "1", "fraction of the sensed signal from the cell's own secretion"),
 ];
 
-/// Where the time of one finished case went (a row of `timings.csv`; see `thread_time`).
+/// Where the time of one finished case went (a row of `timings.csv`; see `numkit::meter`).
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct CaseTiming {
     /// Wall time, seconds.
@@ -107,7 +123,7 @@ pub struct CaseTiming {
 
 /// What one finished case contributes.
 struct CaseData {
-    summary: serde_json::Value,
+    summary: RunSummary,
     /// Per-cell columns by name.
     cells: Vec<(String, Vec<f64>)>,
     timing: CaseTiming,
@@ -182,9 +198,9 @@ pub fn collect(dir: &Path) -> Result<(SweepTable, PlanRecord, Vec<Option<CaseTim
             data,
         });
     }
-    for (path, unit, description) in SUMMARY_METRICS {
+    for (path, unit, description, metric) in SUMMARY_METRICS {
         let values =
-            data.iter().map(|d| d.as_ref().map_or(f64::NAN, |d| json_number(&d.summary, path))).collect();
+            data.iter().map(|d| d.as_ref().and_then(|d| metric(&d.summary)).unwrap_or(f64::NAN)).collect();
         columns.push(SweepColumn {
             name: path.into(),
             unit: unit.into(),
@@ -221,11 +237,7 @@ pub fn collect(dir: &Path) -> Result<(SweepTable, PlanRecord, Vec<Option<CaseTim
 }
 
 fn read_case(case_dir: &Path, timing: CaseTiming) -> Result<CaseData> {
-    let summary_path = case_dir.join("summary.json");
-    let summary: serde_json::Value = serde_json::from_slice(
-        &std::fs::read(&summary_path).with_context(|| format!("cannot read {}", summary_path.display()))?,
-    )
-    .with_context(|| format!("{} is not JSON", summary_path.display()))?;
+    let summary = RunSummary::read(&case_dir.join("summary.json"))?;
     let cells_path = case_dir.join("cells.csv");
     let mut reader = csv::Reader::from_path(&cells_path)
         .with_context(|| format!("cannot read {}", cells_path.display()))?;
@@ -248,18 +260,6 @@ fn read_case(case_dir: &Path, timing: CaseTiming) -> Result<CaseData> {
         }
     }
     Ok(CaseData { summary, cells, timing })
-}
-
-/// The number at the dotted `path` of `json` (NaN when absent or not a number, e.g. a null estimate).
-fn json_number(json: &serde_json::Value, path: &str) -> f64 {
-    let mut here = json;
-    for part in path.split('.') {
-        match here.get(part) {
-            Some(next) => here = next,
-            None => return f64::NAN,
-        }
-    }
-    here.as_f64().unwrap_or(f64::NAN)
 }
 
 /// `sweep.csv`: a header of column names, then one row per case; reals as the shortest round-trip decimal.
@@ -341,11 +341,7 @@ mod tests {
     use super::*;
 
     #[test]
-    fn json_paths_and_csv_rows() {
-        let j: serde_json::Value = serde_json::json!({"a": {"b": 2.5, "n": null}});
-        assert_eq!(json_number(&j, "a.b"), 2.5);
-        assert!(json_number(&j, "a.n").is_nan());
-        assert!(json_number(&j, "a.c.d").is_nan());
+    fn csv_rows() {
         let table = SweepTable {
             rows: 2,
             columns: vec![

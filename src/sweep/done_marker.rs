@@ -53,7 +53,7 @@ pub struct DoneMarker {
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub cpu_s: Option<f64>,
     /// Time those threads waited for a CPU (other programs' load), seconds; what is left of `elapsed_s`
-    /// after both is time asleep (file syncs, locks). See `thread_time`.
+    /// after both is time asleep (file syncs, locks). See `numkit::meter`.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub runqueue_s: Option<f64>,
     /// Boot id of the machine that wrote the outputs without syncing them; absent when they were synced.

@@ -8,7 +8,8 @@ use std::path::PathBuf;
 use super::axis::{AxisValue, Scale};
 use super::error::SweepError;
 use super::sweep_file::{Axis, Combine, SweepFile};
-use crate::case::{sha256_hex, Case, CaseError};
+use crate::case::{Case, CaseError};
+use numkit::sha256_hex;
 
 /// More cases than this is almost certainly a mistake in the sweep file.
 pub const MAX_CASES: usize = 100_000;

@@ -126,9 +126,11 @@ fn speedup(threads: usize) -> f64 {
     1.0 + (threads.max(1) as f64 - 1.0) * THREAD_EFFICIENCY
 }
 
-/// `1.2 GB`, `350 MB`, `24 MB`.
+/// `5.1 TB`, `1.2 GB`, `350 MB`, `24 MB`.
 pub fn format_bytes(bytes: f64) -> String {
-    if bytes >= 1e9 {
+    if bytes >= 1e12 {
+        format!("{:.1} TB", bytes / 1e12)
+    } else if bytes >= 1e9 {
         format!("{:.1} GB", bytes / 1e9)
     } else {
         format!("{:.0} MB", (bytes / 1e6).max(1.0))

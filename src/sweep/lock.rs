@@ -49,24 +49,31 @@ impl LockHolder {
 #[derive(Debug, thiserror::Error)]
 pub enum LockError {
     #[error(
-        "another sweep is using {dir}: {} by process {} on this host (since {since} s ago); wait for it to end \
-         or stop it — if no such sweep runs, remove {lock}",
+        "another {what} is using {dir}: {} by process {} on this host (since {since} s ago); wait for it to end \
+         or stop it — if no such {what} runs, remove {lock}",
         holder.purpose,
         holder.pid
     )]
-    Held { dir: String, lock: String, holder: Box<LockHolder>, since: u64 },
+    Held { what: &'static str, dir: String, lock: String, holder: Box<LockHolder>, since: u64 },
     #[error(
         "{dir} is locked by process {} on host {} ({}, since {since} s ago), which cannot be checked from \
-         {here}; if no sweep runs there, remove {lock}",
+         {here}; if no {what} runs there, remove {lock}",
         holder.pid,
         holder.host,
         holder.purpose
     )]
-    OtherHost { dir: String, lock: String, holder: Box<LockHolder>, here: String, since: u64 },
-    #[error("{lock} exists but is not a sweep lock ({reason}); if no sweep runs on {dir}, remove it")]
-    Unreadable { dir: String, lock: String, reason: String },
-    #[error("cannot take the sweep lock {lock}: {source}")]
-    Io { lock: String, source: std::io::Error },
+    OtherHost {
+        what: &'static str,
+        dir: String,
+        lock: String,
+        holder: Box<LockHolder>,
+        here: String,
+        since: u64,
+    },
+    #[error("{lock} exists but is not a {what} lock ({reason}); if no {what} runs on {dir}, remove it")]
+    Unreadable { what: &'static str, dir: String, lock: String, reason: String },
+    #[error("cannot take the {what} lock {lock}: {source}")]
+    Io { what: &'static str, lock: String, source: std::io::Error },
 }
 
 /// A held lock; dropping it removes the lock file (if it is still ours).
@@ -84,18 +91,32 @@ impl SweepLock {
         purpose: &str,
         on_takeover: &mut dyn FnMut(String),
     ) -> Result<SweepLock, LockError> {
+        Self::acquire_file(&dir.join(LOCK_FILE), dir, "sweep", purpose, on_takeover)
+    }
+
+    /// Take the lock file `path` (its folder must exist) that guards `subject` for `purpose`; `what` names
+    /// the kind of work in messages ("sweep", "run"). The same rules as [`SweepLock::acquire`].
+    pub fn acquire_file(
+        path: &Path,
+        subject: &Path,
+        what: &'static str,
+        purpose: &str,
+        on_takeover: &mut dyn FnMut(String),
+    ) -> Result<SweepLock, LockError> {
         let me = LockHolder::for_process(std::process::id(), purpose);
-        let path = dir.join(LOCK_FILE);
-        let io = |source| LockError::Io { lock: path.display().to_string(), source };
+        let path = path.to_path_buf();
+        let dir = path.parent().unwrap_or(Path::new("."));
+        let io = |source| LockError::Io { what, lock: path.display().to_string(), source };
         let text = serde_json::to_vec_pretty(&me).map_err(|e| io(std::io::Error::other(e)))?;
-        let private = dir.join(format!(".{LOCK_FILE}.{}.tmp", me.pid));
+        let private = dir.join(format!(".{}.{}.tmp", file_name(&path), me.pid));
         fs::write(&private, &text).map_err(io)?;
-        let result = Self::link_or_take_over(dir, &path, &private, &me, on_takeover);
+        let result = Self::link_or_take_over(what, subject, &path, &private, &me, on_takeover);
         let _ = fs::remove_file(&private);
         result.map(|()| SweepLock { path, holder: me })
     }
 
     fn link_or_take_over(
+        what: &'static str,
         dir: &Path,
         path: &Path,
         private: &Path,
@@ -109,14 +130,15 @@ impl SweepLock {
             match fs::hard_link(private, path) {
                 Ok(()) => return Ok(()),
                 Err(e) if e.kind() == ErrorKind::AlreadyExists => {}
-                Err(source) => return Err(LockError::Io { lock: shown(), source }),
+                Err(source) => return Err(LockError::Io { what, lock: shown(), source }),
             }
             let text = match fs::read(path) {
                 Ok(text) => text,
                 Err(e) if e.kind() == ErrorKind::NotFound => continue,
-                Err(source) => return Err(LockError::Io { lock: shown(), source }),
+                Err(source) => return Err(LockError::Io { what, lock: shown(), source }),
             };
             let holder: LockHolder = serde_json::from_slice(&text).map_err(|e| LockError::Unreadable {
+                what,
                 dir: dir.display().to_string(),
                 lock: shown(),
                 reason: e.to_string(),
@@ -124,6 +146,7 @@ impl SweepLock {
             let since = now_unix_s().saturating_sub(holder.since_unix_s);
             if holder.host != me.host {
                 return Err(LockError::OtherHost {
+                    what,
                     dir: dir.display().to_string(),
                     lock: shown(),
                     holder: Box::new(holder),
@@ -133,6 +156,7 @@ impl SweepLock {
             }
             if is_running(&holder) {
                 return Err(LockError::Held {
+                    what,
                     dir: dir.display().to_string(),
                     lock: shown(),
                     holder: Box::new(holder),
@@ -141,11 +165,11 @@ impl SweepLock {
             }
             // Stale. Move it aside (atomic: of several processes only one succeeds) and check that what was
             // moved is the stale lock judged above, not a live one that replaced it meanwhile.
-            let aside = dir.join(format!(".{LOCK_FILE}.stale.{}", me.pid));
+            let aside = path.with_file_name(format!(".{}.stale.{}", file_name(path), me.pid));
             match fs::rename(path, &aside) {
                 Ok(()) => {}
                 Err(e) if e.kind() == ErrorKind::NotFound => continue,
-                Err(source) => return Err(LockError::Io { lock: shown(), source }),
+                Err(source) => return Err(LockError::Io { what, lock: shown(), source }),
             }
             if fs::read(&aside).ok().as_deref() != Some(&text[..]) {
                 // Put the newer lock back (unless yet another one appeared) and look again.
@@ -155,14 +179,18 @@ impl SweepLock {
             }
             let _ = fs::remove_file(&aside);
             on_takeover(format!(
-                "took over the stale sweep lock {} of process {} ({}, {} s ago), which no longer runs",
+                "took over the stale {what} lock {} of process {} ({}, {} s ago), which no longer runs",
                 shown(),
                 holder.pid,
                 holder.purpose,
                 since
             ));
         }
-        Err(LockError::Io { lock: shown(), source: std::io::Error::other("the lock kept changing hands") })
+        Err(LockError::Io {
+            what,
+            lock: shown(),
+            source: std::io::Error::other("the lock kept changing hands"),
+        })
     }
 
     pub fn holder(&self) -> &LockHolder {
@@ -181,6 +209,11 @@ impl Drop for SweepLock {
             let _ = fs::remove_file(&self.path);
         }
     }
+}
+
+/// The last component of `path`, for the names of the private and stale files beside it.
+fn file_name(path: &Path) -> String {
+    path.file_name().map(|n| n.to_string_lossy().into_owned()).unwrap_or_default()
 }
 
 /// Whether the holder's process still runs on this host: its PID exists and, where known, started at the

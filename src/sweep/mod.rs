@@ -18,7 +18,6 @@ pub mod plan_record;
 pub mod run_local;
 pub mod slurm;
 pub mod sweep_file;
-pub mod thread_time;
 
 pub use error::SweepError;
 pub use expand::{Plan, PlannedCase};

@@ -21,13 +21,13 @@ use super::done_marker::{
     CaseState, DoneMarker, FailureRecord, CASE_FILE,
 };
 use super::expand::Plan;
-use super::thread_time::current_pool;
 use crate::case::SolveMode;
 use crate::commands::run::transient::{self, TransientOptions};
 use crate::commands::run::{solution_warnings, steady_case, write_outputs};
 use crate::exit::{one_line, InputError, SolverFailure};
 use crate::io::atomic::without_fsync;
 use crate::io::write_atomic;
+use numkit::meter::current_pool;
 use solver::solve_case::solve_steady_case;
 
 /// How the cases share the machine.

@@ -88,6 +88,72 @@ pub struct SlurmParams {
     pub partition: Option<String>,
     /// The cluster's `MaxArraySize` (see [`max_array_size`]).
     pub max_array_size: usize,
+    /// `--account` and `--qos`, when given.
+    pub account: Option<String>,
+    pub qos: Option<String>,
+    /// Shell lines every task (and the collect job) runs first, e.g. module loads.
+    pub setup: Option<String>,
+}
+
+/// The options of `sweep --slurm`, kept in `DIR/slurm/options.json` so that writing the scripts again (to
+/// submit the tasks still missing) repeats them; an option given again on the command line replaces its
+/// remembered value.
+#[derive(Clone, Debug, Default, PartialEq, serde::Serialize, serde::Deserialize)]
+pub struct SlurmOptions {
+    pub threads: Option<usize>,
+    pub max_running: Option<usize>,
+    pub partition: Option<String>,
+    pub account: Option<String>,
+    pub qos: Option<String>,
+    /// The text of `--setup FILE` (the file itself may be gone by the next writing).
+    pub setup: Option<String>,
+}
+
+/// The file of [`SlurmOptions`] under the sweep folder.
+pub const OPTIONS_FILE: &str = "options.json";
+
+impl SlurmOptions {
+    /// The options remembered for sweep folder `dir` (none when the file is absent or unreadable).
+    pub fn remembered(dir: &Path) -> SlurmOptions {
+        std::fs::read(dir.join(SLURM_DIR).join(OPTIONS_FILE))
+            .ok()
+            .and_then(|text| serde_json::from_slice(&text).ok())
+            .unwrap_or_default()
+    }
+
+    /// `self` where given, else `earlier`.
+    pub fn or(self, earlier: SlurmOptions) -> SlurmOptions {
+        SlurmOptions {
+            threads: self.threads.or(earlier.threads),
+            max_running: self.max_running.or(earlier.max_running),
+            partition: self.partition.or(earlier.partition),
+            account: self.account.or(earlier.account),
+            qos: self.qos.or(earlier.qos),
+            setup: self.setup.or(earlier.setup),
+        }
+    }
+
+    /// Keeps the options for the next writing.
+    pub fn remember(&self, dir: &Path) -> std::io::Result<()> {
+        std::fs::create_dir_all(dir.join(SLURM_DIR))?;
+        let text = serde_json::to_vec_pretty(self).map_err(std::io::Error::other)?;
+        write_atomic(&dir.join(SLURM_DIR).join(OPTIONS_FILE), &text)
+    }
+}
+
+/// `target` relative to the folder `base` (both absolute), with `..` where needed.
+pub fn relative_to(base: &Path, target: &Path) -> PathBuf {
+    let base: Vec<_> = base.components().collect();
+    let target: Vec<_> = target.components().collect();
+    let common = base.iter().zip(&target).take_while(|(a, b)| a == b).count();
+    let mut relative = PathBuf::new();
+    for _ in common..base.len() {
+        relative.push("..");
+    }
+    for part in &target[common..] {
+        relative.push(part.as_os_str());
+    }
+    relative
 }
 
 /// The scripts for one submission.
@@ -173,10 +239,27 @@ pub fn write_scripts(
     let slurm_dir = dir.join(SLURM_DIR);
     std::fs::create_dir_all(slurm_dir.join("logs"))?;
     let q = |p: &Path| shell_quote(&p.display().to_string());
-    let logs = slurm_dir.join("logs");
+    // Paths relative to the sweep folder, where the jobs start (submit.sh submits from there): the folder
+    // may move, or be seen under another path on the compute nodes. The executable can be replaced with
+    // $PLUMEFIELD.
+    let logs = Path::new(SLURM_DIR).join("logs");
+    let sweep_relative = relative_to(dir, sweep_file);
+    let exe_text =
+        format!("\"${{PLUMEFIELD:-{}}}\"", exe.display().to_string().replace(['"', '$', '`', '\\'], "_"));
     let (mem_mb, time_s) = task_resources(largest, params.cpus_per_task);
-    let partition =
-        params.partition.as_ref().map(|p| format!("#SBATCH --partition={p}\n")).unwrap_or_default();
+    let mut partition = String::new();
+    for (option, value) in
+        [("partition", &params.partition), ("account", &params.account), ("qos", &params.qos)]
+    {
+        if let Some(value) = value {
+            partition.push_str(&format!("#SBATCH --{option}={value}\n"));
+        }
+    }
+    let setup = params
+        .setup
+        .as_ref()
+        .map(|text| format!("# Set-up (--setup):\n{}\n", text.trim_end()))
+        .unwrap_or_default();
 
     // Array scripts of an earlier writing (perhaps split differently) would mislead: remove them.
     for entry in std::fs::read_dir(&slurm_dir)? {
@@ -210,7 +293,8 @@ pub fn write_scripts(
         let array = format!(
             "#!/bin/bash\n\
              # Written by `plumefield sweep --slurm`: one task per case not yet done ({count} of them).\n\
-             # Re-running `plumefield sweep {sweep} --slurm {dir}` rewrites it with the tasks still missing.\n\
+             # Re-running `plumefield sweep {sweep} --slurm {dir}` rewrites it with the tasks still missing and\n\
+             # the same options (slurm/options.json). Submit from the sweep folder (slurm/submit.sh does).\n\
              {part}\
              #SBATCH --job-name={job_name}\n\
              #SBATCH --array={spec}\n\
@@ -219,10 +303,10 @@ pub fn write_scripts(
              #SBATCH --mem={mem_mb}M\n\
              #SBATCH --time={time}\n\
              #SBATCH --output={log}\n\
-             #SBATCH --chdir={dir_d}\n\
              {partition}\
              set -eu\n\
-             exec {exe} sweep {sweep_q} --task {task} -o {dir_q} --threads \"${{SLURM_CPUS_PER_TASK:-{cpus}}}\"\n",
+             {setup}\
+             exec {exe} sweep {sweep_q} --task {task} -o . --threads \"${{SLURM_CPUS_PER_TASK:-{cpus}}}\"\n",
             count = chunk.ids.len(),
             sweep = sweep_file.display(),
             dir = dir.display(),
@@ -230,10 +314,8 @@ pub fn write_scripts(
             cpus = params.cpus_per_task,
             time = slurm_time(time_s as f64),
             log = directive_path(&logs.join("task-%A_%a.log")),
-            dir_d = directive_path(dir),
-            dir_q = q(dir),
-            exe = q(exe),
-            sweep_q = q(sweep_file),
+            exe = exe_text,
+            sweep_q = q(&sweep_relative),
         );
         write_atomic(&script, array.as_bytes())?;
         array_scripts.push(script);
@@ -249,14 +331,12 @@ pub fn write_scripts(
          #SBATCH --mem=1000M\n\
          #SBATCH --time=00:30:00\n\
          #SBATCH --output={log}\n\
-         #SBATCH --chdir={dir_d}\n\
          {partition}\
          set -eu\n\
-         exec {exe} collect {dir_q}\n",
+         {setup}\
+         exec {exe} collect .\n",
         log = directive_path(&logs.join("collect-%j.log")),
-        dir_d = directive_path(dir),
-        dir_q = q(dir),
-        exe = q(exe),
+        exe = exe_text,
     );
     write_atomic(&collect_script, collect.as_bytes())?;
 
@@ -272,11 +352,17 @@ pub fn write_scripts(
 
 /// `submit.sh`: the array jobs (each after the previous one when `chained`), then the collect job after all.
 fn submit_text(array_scripts: &[PathBuf], collect_script: &Path, chained: bool) -> String {
-    let q = |p: &Path| shell_quote(&p.display().to_string());
+    // Relative to the sweep folder, where the script changes to.
+    let q = |p: &Path| {
+        let relative = p.parent().and_then(Path::parent).map_or(p, |dir| p.strip_prefix(dir).unwrap_or(p));
+        shell_quote(&relative.display().to_string())
+    };
     let mut text = String::from(
         "#!/bin/sh\n\
          # Submits the array job(s), then the collect job to run after them (whether or not every task succeeded).\n\
-         set -eu\n",
+         # The jobs start in the sweep folder, the folder above this script's.\n\
+         set -eu\n\
+         cd \"$(dirname \"$0\")/..\"\n",
     );
     let mut ids = Vec::new();
     for (k, script) in array_scripts.iter().enumerate() {
@@ -344,12 +430,13 @@ pub fn submit(scripts: &SlurmScripts, chained: bool) -> Result<Submitted, Submit
 }
 
 fn sbatch(extra: &[String], script: &Path) -> Result<String, SubmitError> {
-    let output = std::process::Command::new("sbatch")
-        .arg("--parsable")
-        .args(extra)
-        .arg(script)
-        .output()
-        .map_err(SubmitError::Spawn)?;
+    // From the sweep folder (the scripts' paths are relative to it): the folder above `slurm/`.
+    let sweep_dir = script.parent().and_then(Path::parent).filter(|d| !d.as_os_str().is_empty());
+    let mut command = std::process::Command::new("sbatch");
+    if let Some(dir) = sweep_dir {
+        command.current_dir(dir);
+    }
+    let output = command.arg("--parsable").args(extra).arg(script).output().map_err(SubmitError::Spawn)?;
     let stdout = String::from_utf8_lossy(&output.stdout);
     let id = stdout.trim().split(';').next().unwrap_or("").to_string();
     if !output.status.success() || id.is_empty() {
@@ -389,6 +476,9 @@ mod tests {
             max_running: Some(3),
             partition: None,
             max_array_size: DEFAULT_MAX_ARRAY_SIZE,
+            account: Some("lab7".into()),
+            qos: None,
+            setup: Some("module load hdf5".into()),
         };
         let s = write_scripts(
             &sweep_dir,
@@ -408,11 +498,33 @@ mod tests {
         assert!(text.contains("#SBATCH --mem=1192M\n"), "{text}");
         assert!(text.contains("#SBATCH --time=00:06:00\n"), "{text}");
         assert!(text.contains("task-%A_%a.log"));
-        assert!(text.contains("--task \"$SLURM_ARRAY_TASK_ID\" -o '"));
-        assert!(text.contains(r"it'\''s here"), "{text}");
+        assert!(text.contains("--task \"$SLURM_ARRAY_TASK_ID\" -o . "), "{text}");
+        // Paths relative to the sweep folder; the executable replaceable.
+        assert!(text.contains(" sweep '../") && text.contains("/s/sweep.toml' --task"), "{text}");
+        assert!(text.contains("\"${PLUMEFIELD:-/bin/pf}\" sweep"), "{text}");
+        assert!(text.contains("#SBATCH --output=slurm/logs/task-%A_%a.log\n"), "{text}");
+        assert!(!text.contains("--chdir"), "{text}");
+        assert!(text.contains("#SBATCH --account=lab7\n") && !text.contains("--qos"), "{text}");
+        assert!(text.contains("set -eu\n# Set-up (--setup):\nmodule load hdf5\nexec"), "{text}");
+        let collect = std::fs::read_to_string(&s.collect_script).unwrap();
+        assert!(collect.contains("module load hdf5\nexec") && collect.contains("collect .\n"), "{collect}");
         let submit = std::fs::read_to_string(&s.submit_script).unwrap();
         assert!(submit.contains("--dependency=afterany:\"$a1\""), "{submit}");
         assert!(submit.contains("submitted array job $a1 and collect job"), "{submit}");
+    }
+
+    #[test]
+    fn options_are_remembered_and_paths_made_relative() {
+        let dir = tempfile::tempdir().unwrap();
+        let first = SlurmOptions { threads: Some(4), partition: Some("long".into()), ..Default::default() };
+        first.remember(dir.path()).unwrap();
+        let again = SlurmOptions { qos: Some("low".into()), threads: Some(2), ..Default::default() }
+            .or(SlurmOptions::remembered(dir.path()));
+        assert_eq!(again.threads, Some(2));
+        assert_eq!(again.partition.as_deref(), Some("long"));
+        assert_eq!(again.qos.as_deref(), Some("low"));
+        assert_eq!(relative_to(Path::new("/a/b/c"), Path::new("/a/d/s.toml")), Path::new("../../d/s.toml"));
+        assert_eq!(relative_to(Path::new("/a"), Path::new("/a/s.toml")), Path::new("s.toml"));
     }
 
     #[test]
@@ -453,7 +565,15 @@ mod tests {
         std::fs::write(dir.path().join("slurm/array-9.sbatch"), "old").unwrap();
         let forecast = Forecast::for_grid(20_000, 4);
         let write = |max_running| {
-            let params = SlurmParams { cpus_per_task: 1, max_running, partition: None, max_array_size: 4 };
+            let params = SlurmParams {
+                cpus_per_task: 1,
+                max_running,
+                partition: None,
+                max_array_size: 4,
+                account: None,
+                qos: None,
+                setup: None,
+            };
             let tasks = [0, 1, 2, 3, 4, 5, 7];
             write_scripts(
                 dir.path(),

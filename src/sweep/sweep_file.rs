@@ -26,6 +26,7 @@ use serde::Deserialize;
 use super::axis::{range_values, AxisValue, Scale};
 use super::error::SweepError;
 use crate::case::units::parse_unit;
+use crate::io::bounded_read::{read_bounded, TEXT_INPUT_LIMIT};
 
 /// How the axes are combined into cases.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
@@ -92,7 +93,7 @@ struct RawAxis {
 impl SweepFile {
     /// Read a sweep file and its base case text.
     pub fn load(path: &Path) -> Result<SweepFile, SweepError> {
-        let text = std::fs::read_to_string(path)
+        let text = read_text(path, "sweep file")
             .map_err(|error| SweepError::Read { path: path.to_path_buf(), error })?;
         SweepFile::parse(&text, path)
     }
@@ -105,7 +106,7 @@ impl SweepFile {
         })?;
         let folder = path.parent().unwrap_or(Path::new(""));
         let base_path = folder.join(&raw.base);
-        let base_text = std::fs::read_to_string(&base_path).map_err(|error| SweepError::Invalid {
+        let base_text = read_text(&base_path, "case file").map_err(|error| SweepError::Invalid {
             path: path.to_path_buf(),
             key: "base".into(),
             message: format!("cannot read the base case {}: {error}", base_path.display()),
@@ -122,6 +123,15 @@ impl SweepFile {
         };
         let seeds = match raw.seeds {
             None => None,
+            Some(n) if n >= 1 && n as u64 > super::expand::MAX_CASES as u64 => {
+                return Err(invalid(
+                    "seeds",
+                    format!(
+                        "seeds = {n} is more than the {} cases a sweep may have",
+                        super::expand::MAX_CASES
+                    ),
+                ))
+            }
             Some(n) if n >= 1 => Some(n as u64),
             Some(n) => return Err(invalid("seeds", format!("seeds = {n} must be at least 1"))),
         };
@@ -158,6 +168,12 @@ impl SweepFile {
             axes,
         })
     }
+}
+
+/// A text input within [`TEXT_INPUT_LIMIT`], refusing pipes and devices.
+fn read_text(path: &Path, what: &'static str) -> std::io::Result<String> {
+    let bytes = read_bounded(path, TEXT_INPUT_LIMIT, what)?;
+    String::from_utf8(bytes).map_err(|_| std::io::Error::other("the file is not UTF-8 text"))
 }
 
 fn build_axis(raw: RawAxis) -> Result<Axis, String> {

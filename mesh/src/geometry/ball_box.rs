@@ -9,7 +9,7 @@
 //! (measured in the tests below); the sum over all cut cells of a ball matches 4/3 πa³ to 1e-12.
 
 use super::disc_rectangle::disc_rectangle_area;
-use super::quadrature::GaussLegendre;
+use numkit::GaussLegendre;
 
 /// An axis-aligned box `[lower, upper]` (m).
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -190,7 +190,7 @@ mod tests {
                 worst = worst.max((v - r).abs());
             }
             println!("n = {n}: worst absolute error (cell volume 1) {worst:.2e}");
-            if n == crate::geometry::quadrature::SHARED_ORDER {
+            if n == numkit::quadrature::SHARED_ORDER {
                 assert!(worst < 1e-10, "{worst:e}");
             }
         }

@@ -6,6 +6,7 @@ use crate::geometry::EmbeddedGeometry;
 use crate::grid::Grid;
 use crate::layout::resolution::FACET_AREA_ERROR_CONSTANT;
 use crate::layout::{Cell, Layout};
+use numkit::observed_order;
 
 /// Off-grid centre offsets (fractions of the box) used to average out lucky alignments.
 const OFFSETS: [[f64; 3]; 3] = [[0.013, 0.037, 0.071], [0.291, 0.113, 0.457], [0.617, 0.833, 0.229]];
@@ -21,10 +22,6 @@ fn single_sphere(radius_in_spacings: f64, offset: [f64; 3]) -> (Grid, Layout, f6
     let centre = offset.map(|o| middle + o * h);
     let layout = Layout { cells: vec![Cell { id: 0, centre, radius, secretion_rate: 1.0 }] };
     (grid, layout, radius)
-}
-
-fn observed_order(coarse: f64, fine: f64, ratio: f64) -> f64 {
-    (coarse / fine).ln() / ratio.ln()
 }
 
 #[test]

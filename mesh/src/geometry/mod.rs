@@ -16,7 +16,6 @@
 pub mod ball_box;
 pub mod build;
 pub mod disc_rectangle;
-pub mod quadrature;
 
 #[cfg(test)]
 mod convergence_tests;

@@ -9,7 +9,6 @@ pub mod csv_import;
 pub mod error;
 pub mod lattice;
 pub mod neighbours;
-pub mod prng;
 pub mod random;
 pub mod resolution;
 pub mod statistics;

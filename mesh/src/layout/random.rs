@@ -5,9 +5,9 @@
 use super::chamber::ChamberBox;
 use super::error::LayoutError;
 use super::neighbours::BucketGrid;
-use super::prng::Xoshiro256StarStar;
 use super::validate::check_cell_values;
 use super::{Cell, Layout};
+use numkit::Xoshiro256StarStar;
 
 /// How many cells a random layout should hold.
 #[derive(Clone, Copy, Debug, PartialEq)]

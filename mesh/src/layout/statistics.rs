@@ -3,6 +3,7 @@
 use super::chamber::ChamberBox;
 use super::neighbours::BucketGrid;
 use super::Layout;
+use numkit::quantile_sorted;
 
 /// Quantiles at which nearest-neighbour centre distances are reported.
 pub const NEAREST_NEIGHBOUR_QUANTILES: [f64; 5] = [0.1, 0.25, 0.5, 0.75, 0.9];
@@ -32,7 +33,7 @@ impl Layout {
         } else {
             let mut nearest = nearest_neighbour_distances(self, chamber);
             nearest.sort_by(f64::total_cmp);
-            NEAREST_NEIGHBOUR_QUANTILES.iter().map(|&q| (q, quantile(&nearest, q))).collect()
+            NEAREST_NEIGHBOUR_QUANTILES.iter().map(|&q| (q, quantile_sorted(&nearest, q))).collect()
         };
         LayoutStatistics {
             count,
@@ -41,15 +42,6 @@ impl Layout {
             nearest_neighbour_quantiles,
         }
     }
-}
-
-/// Linear interpolation between order statistics of sorted data.
-fn quantile(sorted: &[f64], q: f64) -> f64 {
-    let position = q * (sorted.len() - 1) as f64;
-    let below = position.floor() as usize;
-    let above = (below + 1).min(sorted.len() - 1);
-    let weight = position - below as f64;
-    sorted[below] * (1.0 - weight) + sorted[above] * weight
 }
 
 /// Distance from each cell centre to its nearest other centre, by expanding rings of buckets: after ring r
@@ -87,9 +79,9 @@ fn nearest_neighbour_distances(layout: &Layout, chamber: &ChamberBox) -> Vec<f64
 
 #[cfg(test)]
 mod tests {
-    use super::super::prng::Xoshiro256StarStar;
     use super::super::Cell;
     use super::*;
+    use numkit::Xoshiro256StarStar;
 
     #[test]
     fn lattice_statistics_are_exact() {
@@ -133,11 +125,5 @@ mod tests {
             .statistics(&chamber)
             .nearest_neighbour_quantiles
             .is_empty());
-    }
-
-    #[test]
-    fn quantiles_interpolate() {
-        assert_eq!(quantile(&[1.0, 2.0, 3.0, 4.0, 5.0], 0.25), 2.0);
-        assert!((quantile(&[0.0, 10.0], 0.1) - 1.0).abs() < 1e-15);
     }
 }

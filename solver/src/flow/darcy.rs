@@ -12,13 +12,13 @@
 
 use super::pressure_drag::pressure_force;
 use super::FlowField;
+use crate::boundaries::zero_boundary_faces;
 use crate::embedded::FacetStencils;
 use crate::linalg::{
     AdvectionScheme, FaceCoupledOperator, KrylovParams, LinearSystem, MultigridParams, SolveError,
     SteadySolver,
 };
 use crate::problem::{ChamberBoundaries, ChamberFace};
-use crate::transport::assemble_transport::zero_boundary_faces;
 use mesh::{Axis, EmbeddedGeometry};
 
 #[derive(thiserror::Error, Debug)]

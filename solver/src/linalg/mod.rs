@@ -5,28 +5,36 @@
 //! - [`apply_operator`]: the matrix-free product straight from the face arrays (the exact f64 system).
 //! - [`coarsen`], [`transfer`], [`smooth`], [`dense_lu`], [`multigrid`]: the cell-centred multigrid
 //!   preconditioner (f32 levels, stored per red–black colour by `coloured_stencil`).
-//! - [`bicgstab`]: right-preconditioned BiCGSTAB; [`steady_solver`]: the two put together.
+//! - [`krylov`]: the Krylov methods (BiCGSTAB, flexible GMRES) behind the [`LinearOperator`] trait, on the
+//!   fixed-order vector kernels of `vector` (the same bits at any thread count).
+//! - [`sparse_correction`]: the cut-cell correction rows added to the face-coupled product.
+//! - [`steady_solver`]: BiCGSTAB on the operator plus correction, preconditioned by one multigrid cycle.
 
 pub mod apply_operator;
-pub mod bicgstab;
 mod coarsen;
 mod coloured_stencil;
 mod dense_lu;
+pub mod krylov;
 pub mod multigrid;
 pub mod operator;
 pub mod real;
 mod smooth;
+pub mod sparse_correction;
 pub mod steady_solver;
 pub mod stencil;
-#[doc(hidden)]
+#[cfg(any(test, feature = "test-problems"))]
 pub mod test_problems;
 pub mod transfer;
 mod vector;
 
 pub use apply_operator::apply_face_coupled;
-pub use bicgstab::{bicgstab, bicgstab_with_work, BicgstabWork, KrylovParams, SolveError, SolveInfo};
+pub use krylov::{
+    bicgstab, gmres, BicgstabParams, BicgstabWork, GmresParams, KrylovParams, LinearOperator, RightHandSide,
+    Shadow, SolveError, SolveInfo, SparseVector,
+};
 pub use multigrid::{Cycle, MultigridParams};
 pub use operator::{AdvectionScheme, FaceCoupledOperator};
+pub use sparse_correction::SparseCorrection;
 pub use steady_solver::{system_memory_bytes, LinearSystem, SteadySolver};
 pub use stencil::Stencil7;
 pub use transfer::Prolongation;

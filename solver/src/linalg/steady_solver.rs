@@ -4,10 +4,14 @@
 //! of cut cells whose fluxes use wider interpolation). The correction enters the products of the Krylov method
 //! only; the multigrid hierarchy is built from the face-coupled part, which the Krylov method corrects for.
 
-use super::apply_operator::{apply_face_coupled, decouple_inactive_cells};
-use super::bicgstab::{bicgstab, KrylovParams, SolveError, SolveInfo};
+use super::apply_operator::decouple_inactive_cells;
+use super::krylov::{
+    bicgstab, BicgstabParams, BicgstabWork, KrylovParams, LinearOperator, RightHandSide, SolveError,
+    SolveInfo,
+};
 use super::multigrid::{Multigrid, MultigridParams};
 use super::operator::{AdvectionScheme, FaceCoupledOperator};
+use super::sparse_correction::{apply_corrected, SparseCorrection};
 use super::stencil::Stencil7;
 use super::vector::norm;
 use sprs::CsMat;
@@ -25,8 +29,8 @@ pub struct LinearSystem {
 /// Built once per operator; reusable for many right-hand sides.
 pub struct SteadySolver {
     system: LinearSystem,
-    /// Rows of the correction that hold entries (the correction is applied row by row over these only).
-    correction_rows: Vec<usize>,
+    /// The correction's nonzero rows, packed for the product.
+    correction: SparseCorrection,
     multigrid: Multigrid,
     /// Multigrid work vectors kept between solves (taken by one solve at a time; a concurrent solve allocates).
     work: Mutex<Option<super::multigrid::MultigridWork>>,
@@ -42,26 +46,14 @@ impl SteadySolver {
             assert_eq!(c.shape(), (n, n), "correction matrix must be square with one row per grid cell");
             system.correction = Some(if c.is_csr() { c } else { c.to_csr() });
         }
-        let correction_rows = match &system.correction {
-            Some(c) => {
-                c.outer_iterator().enumerate().filter(|(_, row)| row.nnz() > 0).map(|(r, _)| r).collect()
-            }
-            None => Vec::new(),
-        };
+        let correction = system.correction.as_ref().map(SparseCorrection::pack).unwrap_or_default();
         let multigrid = Multigrid::new(&system.operator, system.scheme, params);
-        SteadySolver { system, correction_rows, multigrid, work: Mutex::new(None) }
+        SteadySolver { system, correction, multigrid, work: Mutex::new(None) }
     }
 
     /// `y = A x` with the full system (face-coupled operator plus correction).
     pub fn apply(&self, x: &[f64], y: &mut [f64]) {
-        apply_face_coupled(&self.system.operator, self.system.scheme, x, y);
-        if let Some(c) = &self.system.correction {
-            for &row in &self.correction_rows {
-                if let Some(values) = c.outer_view(row) {
-                    y[row] += values.iter().map(|(col, &a)| a * x[col]).sum::<f64>();
-                }
-            }
-        }
+        apply_corrected(&self.system.operator, self.system.scheme, &self.correction, x, y);
     }
 
     /// `‖b − A x‖₂`.
@@ -80,11 +72,12 @@ impl SteadySolver {
         let cached = self.work.lock().ok().and_then(|mut w| w.take());
         let mut work = cached.unwrap_or_else(|| self.multigrid.work());
         let result = bicgstab(
-            |u, y| self.apply(u, y),
+            self,
             |r, z| self.multigrid.precondition(r, z, &mut work),
-            rhs,
+            RightHandSide::Dense(rhs),
             x,
-            params,
+            &BicgstabParams { krylov: params.clone(), ..BicgstabParams::default() },
+            &mut BicgstabWork::default(),
         );
         if let Ok(mut slot) = self.work.lock() {
             *slot = Some(work);
@@ -117,7 +110,13 @@ impl SteadySolver {
         self.multigrid.memory_bytes()
             + self.multigrid.work_bytes()
             + 6 * 8 * n
-            + 8 * self.correction_rows.len()
+            + self.correction.memory_bytes()
+    }
+}
+
+impl LinearOperator for SteadySolver {
+    fn apply(&self, x: &[f64], y: &mut [f64]) {
+        SteadySolver::apply(self, x, y)
     }
 }
 

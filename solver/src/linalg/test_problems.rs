@@ -1,4 +1,5 @@
-//! Hand-built operators for the linear-algebra tests and the benchmark example: random coefficients, and a unit
+//! Hand-built operators for the linear-algebra tests and the steady-solve benchmark (compiled only for tests
+//! and with the `test-problems` feature, which the bench crate turns on): random coefficients, and a unit
 //! box with spherical holes (grid cells whose centre lies inside a sphere are inactive), Dirichlet walls folded
 //! into the sink, and a divergence-free potential flow around the holes.
 
@@ -7,19 +8,10 @@ use super::operator::{AdvectionScheme, FaceCoupledOperator};
 use super::stencil::face_index;
 use super::{KrylovParams, LinearSystem, SteadySolver};
 
-/// Deterministic pseudo-random numbers in [−1, 1) (splitmix64).
+/// Deterministic pseudo-random numbers in [−1, 1) from the shared seeded generator.
 pub fn random_vector(n: usize, seed: u64) -> Vec<f64> {
-    let mut state = seed.wrapping_mul(0x9E37_79B9_7F4A_7C15).wrapping_add(1);
-    (0..n)
-        .map(|_| {
-            state = state.wrapping_add(0x9E37_79B9_7F4A_7C15);
-            let mut z = state;
-            z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
-            z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
-            z ^= z >> 31;
-            2.0 * (z >> 11) as f64 / (1u64 << 53) as f64 - 1.0
-        })
-        .collect()
+    let mut rng = numkit::Xoshiro256StarStar::seed_from_u64(seed);
+    (0..n).map(|_| 2.0 * rng.next_f64() - 1.0).collect()
 }
 
 fn face_counts(shape: [usize; 3]) -> [usize; 3] {

@@ -1,5 +1,5 @@
-//! Parallel vector kernels for the Krylov method. Reductions sum fixed-size chunks in a fixed order, so results
-//! are bit-identical for any number of threads.
+//! Parallel vector kernels of the Krylov methods. Reductions sum fixed-size chunks in a fixed order, so results
+//! are bit-identical for any number of threads (rayon's own `sum` splits by the thread count).
 
 use rayon::prelude::*;
 
@@ -17,6 +17,13 @@ pub(crate) fn dot(a: &[f64], b: &[f64]) -> f64 {
     partial.iter().sum()
 }
 
+/// `Σ_chunks term(chunk range)` over `0..n` in chunks of [`CHUNK`], added in chunk order.
+pub(crate) fn chunked_sum(n: usize, term: impl Fn(std::ops::Range<usize>) -> f64 + Sync) -> f64 {
+    let partial: Vec<f64> =
+        (0..n.div_ceil(CHUNK)).into_par_iter().map(|c| term(c * CHUNK..((c + 1) * CHUNK).min(n))).collect();
+    partial.iter().sum()
+}
+
 /// Euclidean norm.
 pub(crate) fn norm(a: &[f64]) -> f64 {
     dot(a, a).sqrt()
@@ -25,6 +32,16 @@ pub(crate) fn norm(a: &[f64]) -> f64 {
 /// `y ← y + α x`.
 pub(crate) fn axpy(alpha: f64, x: &[f64], y: &mut [f64]) {
     y.par_iter_mut().zip(x.par_iter()).with_min_len(CHUNK).for_each(|(yi, &xi)| *yi += alpha * xi);
+}
+
+/// `v ← v / d`.
+pub(crate) fn divide(v: &mut [f64], d: f64) {
+    v.par_iter_mut().with_min_len(CHUNK).for_each(|vi| *vi /= d);
+}
+
+/// `v ← 0`.
+pub(crate) fn zero(v: &mut [f64]) {
+    v.par_iter_mut().with_min_len(CHUNK).for_each(|vi| *vi = 0.0);
 }
 
 /// `r ← b − r` (turns `r = A x` into the residual).
@@ -109,6 +126,8 @@ mod tests {
         let mut r2 = b.clone();
         let (n2b, d2) = axpy_norm2_dot(0.5, &a, &mut r2, &b);
         assert!((n2b - n2).abs() < 1e-9 && (d2 - dot(&b, &r2)).abs() < 1e-9);
+        let chunked = chunked_sum(n, |range| range.map(|i| a[i] * b[i]).sum());
+        assert_eq!(chunked.to_bits(), dot(&a, &b).to_bits());
         let mut p = a.clone();
         update_direction(2.0, 0.5, &b, &a, &mut p);
         assert!((p[7] - (b[7] + 2.0 * (a[7] - 0.5 * a[7]))).abs() < 1e-15);

@@ -10,6 +10,7 @@
 
 use super::counting_noise::front_back_contrast;
 use crate::problem::{MediumModel, SurfaceUptake};
+use numkit::GaussLegendre;
 use std::f64::consts::PI;
 
 /// The flow past an isolated cell, which sets the radial profile `g(ρ) = u_r/(U cosθ)` (REFERENCES.md B).
@@ -65,7 +66,8 @@ impl IsolatedFlow {
 
 /// First-order coefficient `J_β = ∫₁^∞ g(t)(1 + βt)² e^{−2β(t−1)} t⁻² dt` (REFERENCES.md E.2/E.6 [derived
 /// there]; Darcy `J_β = 3/4` for every β, Stokes `J_0 = 3/8`). Evaluated in closed form where one is exact and
-/// otherwise by Gauss–Legendre quadrature in `s = 1/t` on (0, 1], refined until it changes by < 1e-12.
+/// otherwise by 5-point composite Gauss–Legendre quadrature in `s = 1/t` on (0, 1], refined until it changes
+/// by < 1e-12.
 pub fn first_order_coefficient(flow: IsolatedFlow, decay_number: f64) -> f64 {
     let beta = decay_number.max(0.0);
     match flow {
@@ -81,41 +83,17 @@ pub fn first_order_coefficient(flow: IsolatedFlow, decay_number: f64) -> f64 {
         let w = 1.0 + beta * t;
         flow.radial_profile(t) * w * w * (-2.0 * beta * (t - 1.0)).exp()
     };
+    let rule = GaussLegendre::new(5);
     let mut panels = 16;
-    let mut previous = gauss_legendre(&integrand, 0.0, 1.0, panels);
+    let mut previous = rule.integrate_composite(0.0, 1.0, panels, integrand);
     loop {
         panels *= 2;
-        let next = gauss_legendre(&integrand, 0.0, 1.0, panels);
+        let next = rule.integrate_composite(0.0, 1.0, panels, integrand);
         if (next - previous).abs() <= 1e-12 * next.abs().max(1e-300) || panels >= 1 << 14 {
             return next;
         }
         previous = next;
     }
-}
-
-/// Composite 5-point Gauss–Legendre rule on `panels` equal panels of [lo, hi] (common practice).
-fn gauss_legendre(f: &dyn Fn(f64) -> f64, lo: f64, hi: f64, panels: usize) -> f64 {
-    const NODES: [f64; 5] = [
-        0.0,
-        0.538_469_310_105_683_1,
-        -0.538_469_310_105_683_1,
-        0.906_179_845_938_664,
-        -0.906_179_845_938_664,
-    ];
-    const WEIGHTS: [f64; 5] = [
-        0.568_888_888_888_888_9,
-        0.478_628_670_499_366_5,
-        0.478_628_670_499_366_5,
-        0.236_926_885_056_189_1,
-        0.236_926_885_056_189_1,
-    ];
-    let width = (hi - lo) / panels as f64;
-    (0..panels)
-        .map(|p| {
-            let mid = lo + (p as f64 + 0.5) * width;
-            NODES.iter().zip(WEIGHTS).map(|(x, w)| w * f(mid + 0.5 * width * x)).sum::<f64>() * 0.5 * width
-        })
-        .sum()
 }
 
 /// Surface Biot number `Bi = κa/D` of an uptake model; `None` for a perfect absorber (outside the expansion).

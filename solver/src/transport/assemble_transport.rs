@@ -7,6 +7,7 @@ use super::decay::decay_sink;
 use super::diffusion::diffusive_conductance;
 use super::surface_exchange::{facet_exchanges, FacetExchange};
 use super::TransportProblem;
+use crate::boundaries::zero_boundary_faces;
 use crate::linalg::{AdvectionScheme, FaceCoupledOperator, LinearSystem};
 
 /// The assembled system and the per-term forms that post-processing evaluates on the solution (so the mass
@@ -86,21 +87,5 @@ pub fn assemble_transport(problem: &TransportProblem) -> TransportAssembly {
         boundary,
         decay,
         peclet,
-    }
-}
-
-/// Sets the two boundary layers of a face array (faces 0 and n along `axis`) to zero.
-pub fn zero_boundary_faces(grid: &mesh::Grid, axis: mesh::Axis, values: &mut [f64]) {
-    let a = axis.index();
-    let s = grid.face_shape(axis);
-    for k in 0..s[2] {
-        for j in 0..s[1] {
-            for i in 0..s[0] {
-                let idx = [i, j, k][a];
-                if idx == 0 || idx == s[a] - 1 {
-                    values[grid.face_index(axis, i, j, k)] = 0.0;
-                }
-            }
-        }
     }
 }

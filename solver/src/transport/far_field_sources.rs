@@ -294,36 +294,4 @@ mod tests {
         let s = sources(&[([1e-6, 1e-6, 1e-6], 0.0)], FarFieldSources::Cells);
         assert_eq!(s.centres(), &[[2e-6, 2e-6, 2e-6]]);
     }
-
-    /// Cost of one (face, source) pair, for the doc comment (not a test of speed).
-    #[test]
-    #[ignore]
-    fn pair_cost() {
-        let cells: Vec<([f64; 3], f64)> = (0..1000)
-            .map(|i| ([(i % 10) as f64 * 1e-5, (i / 10 % 10) as f64 * 1e-5, (i / 100) as f64 * 1e-5], 1.0))
-            .collect();
-        let s = sources(&cells, FarFieldSources::Cells);
-        let m = medium(2e-6, 1e-4);
-        let faces = 10_000;
-        // CPU time of this thread (first field of schedstat, ns), so a loaded machine does not inflate it.
-        let cpu = || {
-            std::fs::read_to_string("/proc/thread-self/schedstat")
-                .ok()
-                .and_then(|s| s.split_whitespace().next().and_then(|v| v.parse::<f64>().ok()))
-                .unwrap_or(f64::NAN)
-        };
-        let cpu0 = cpu();
-        let t = std::time::Instant::now();
-        let mut sum = 0.0;
-        for f in 0..faces {
-            let x = [2e-4, (f % 100) as f64 * 2e-6, (f / 100) as f64 * 2e-6];
-            sum += s.steady_log_gradient(&m, x, 0, 1.0);
-        }
-        let pairs = (faces * cells.len()) as f64;
-        let ns = t.elapsed().as_secs_f64() * 1e9 / pairs;
-        let cpu_ns = (cpu() - cpu0) / pairs;
-        eprintln!(
-            "{ns:.1} ns wall, {cpu_ns:.1} ns CPU per (face, source) pair on one thread (checksum {sum:.3e})"
-        );
-    }
 }

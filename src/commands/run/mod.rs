@@ -4,10 +4,12 @@
 
 mod report;
 mod stages;
+mod summary;
 pub mod transient;
 
 use crate::case::{Case, SolveMode};
 use crate::exit::{InputError, SolverFailure};
+use crate::io::output_folder::{OutputFolder, OutputFolderError};
 use anyhow::{Context, Result};
 use solver::linalg::KrylovParams;
 use solver::solve_case::{solve_steady_case, SteadyCase, SteadySolution};
@@ -57,6 +59,14 @@ fn flow_resolution_warning(case: &Case) -> Option<String> {
     solver::flow::brinkman::resolution::check_resolution(&medium, case.grid.spacing).map(|w| w.to_string())
 }
 
+/// An output-folder problem as bad input (exit code 2) or a write failure (exit code 1).
+fn folder_error(error: OutputFolderError) -> anyhow::Error {
+    match error {
+        OutputFolderError::Refused(message) => InputError(message).into(),
+        io => anyhow::Error::new(io),
+    }
+}
+
 /// Solves `case` and writes `fields.h5`, `fields.xmf`, `cells.csv` and `summary.json` into `out_dir`.
 pub fn execute(case: &Case, out_dir: &Path, threads: Option<usize>) -> Result<()> {
     execute_with(case, out_dir, threads, &transient::TransientOptions::default())
@@ -69,16 +79,21 @@ pub fn execute_with(
     _threads: Option<usize>,
     options: &transient::TransientOptions,
 ) -> Result<()> {
-    if case.solve.mode == SolveMode::Transient {
-        return transient::execute(case, out_dir, options);
-    }
-    if options.resume || options.checkpoint_every.is_some() {
+    let transient = case.solve.mode == SolveMode::Transient;
+    if !transient && (options.resume || options.checkpoint_every.is_some()) {
         return Err(InputError(
             "--checkpoint-every and --resume apply to solve.mode = \"transient\" only (a steady run has no time steps)"
                 .into(),
         )
         .into());
     }
+    // Checked and locked before the solve; the run writes beside it and the folder is replaced whole.
+    let folder = OutputFolder::prepare(out_dir, &case.input_files, options.resume).map_err(folder_error)?;
+    if transient {
+        transient::execute(case, folder.staging(), options)?;
+        return folder.commit().map_err(folder_error);
+    }
+    let staging = folder.staging().to_path_buf();
     for warning in &case.warnings {
         eprintln!("warning: {warning}");
     }
@@ -95,9 +110,9 @@ pub fn execute_with(
     }
     progress.stage("writing outputs");
     let write_started = Instant::now();
-    std::fs::create_dir_all(out_dir)
-        .with_context(|| format!("cannot create output folder {}", out_dir.display()))?;
-    report::write_outputs(case, &solved, &warnings, out_dir, started, write_started)?;
+    report::write_outputs(case, &solved, &warnings, &staging, started, write_started)
+        .with_context(|| format!("cannot write the outputs of {}", out_dir.display()))?;
+    folder.commit().map_err(folder_error)?;
     progress.finish(&format!(
         "done in {:.1} s: {} cells, mass balance closes to {:.1e}; outputs in {}",
         started.elapsed().as_secs_f64(),

@@ -1,15 +1,16 @@
 //! Turns a solved case into the output files of DESIGN.md §6: cells.csv, fields.h5 + fields.xmf, summary.json.
 
+use super::summary::{mass_balance, RunMeasures, RunSections};
 use crate::case::{Case, OutputField};
 use crate::io::cells_csv::write_cells_csv;
 use crate::io::fields_h5::{write_fields_h5, FieldData, Provenance};
 use crate::io::provenance::git_revision;
-use crate::io::summary_json::write_summary_json;
 use crate::io::table::{CellTable, Column};
 use crate::io::xdmf::write_fields_xmf;
+use crate::outputs::summary::{
+    FlowMode, FlowSummary, Resources, RunSummary, TransportMode, TransportSummary,
+};
 use anyhow::Result;
-use serde_json::json;
-use solver::post::estimates::{isolated_darcy_anisotropy, meanfield_outlet_concentration};
 use solver::problem::ChamberFace;
 use solver::solve_case::SteadySolution as SolvedCase;
 use std::path::Path;
@@ -117,6 +118,8 @@ pub fn write_outputs(
     for warning in &split.warnings {
         eprintln!("warning: {warning}");
     }
+    let warnings: Vec<String> = warnings.iter().chain(&split.warnings).cloned().collect();
+    let warnings = warnings.as_slice();
     table.columns.extend(split.columns);
     let fields = field_data(case, solved);
     let provenance = Provenance {
@@ -143,90 +146,57 @@ pub fn write_outputs(
     })?;
     write_fields_xmf(&out_dir.join("fields.xmf"), "fields.h5", &case.grid, &fields)?;
 
-    let chamber_volume: f64 = case.chamber_size.iter().product();
-    let fluid_volume: f64 = solved.geometry.volume_fraction.iter().sum::<f64>() * case.grid.cell_volume();
-    let cell_volume_fraction = 1.0 - fluid_volume / chamber_volume;
-    let count = case.layout.cells.len();
-    let number_density = count as f64 / chamber_volume;
-    let d = case.ligand.diffusivity;
-    let isolated = isolated_darcy_anisotropy(
-        case.flow.mean_velocity,
-        case.cell_radius,
-        d,
-        case.ligand.decay_rate,
-        case.ligand.uptake,
-    );
-    let meanfield = meanfield_outlet_concentration(
-        number_density,
-        case.secretion_rate,
-        case.cell_radius,
-        d,
-        case.ligand.decay_rate,
-        case.ligand.uptake,
-        1.0 - cell_volume_fraction,
-        case.flow.mean_velocity,
-        case.chamber_size[0],
-        case.ligand.inlet_concentration,
-    )
-    .filter(|_| case.boundaries.faces[0][0] == ChamberFace::Inlet);
-    let b = &solved.balance;
     let t = solved.timing;
-    let summary = json!({
-        "version": env!("CARGO_PKG_VERSION"),
-        "git_revision": provenance.git_revision,
-        "title": case.title,
-        "case_sha256": case.sha256,
-        "grid": { "shape": case.grid.shape, "spacing": case.grid.spacing, "origin": case.grid.origin },
-        "timing_s": {
-            "geometry": t[0], "flow": t[1], "transport": t[2], "post": t[3],
-            "write": write_started.elapsed().as_secs_f64(), "total": started.elapsed().as_secs_f64()
+    let measures = RunMeasures {
+        case,
+        volume_fraction: &solved.geometry.volume_fraction,
+        table: &table,
+        final_mean_velocity: case.flow.mean_velocity,
+        measured_outlet_concentration: measured_outlet_concentration(case, solved),
+        warnings,
+    };
+    let sections = RunSections {
+        timing_s: Resources {
+            geometry: t[0],
+            flow: t[1],
+            transport: Some(t[2]),
+            post: Some(t[3]),
+            steady_reference: None,
+            time_loop: None,
+            write: write_started.elapsed().as_secs_f64(),
+            total: started.elapsed().as_secs_f64(),
+            self_neighbour: split.cost,
         },
-        "flow": {
-            "model": match case.flow.medium {
-                solver::problem::MediumModel::Darcy { .. } => "darcy",
-                solver::problem::MediumModel::Brinkman { .. } => "brinkman",
-                solver::problem::MediumModel::Stokes { .. } => "stokes",
+        flow: FlowSummary {
+            model: case.flow.medium.name().to_string(),
+            mean_velocity: case.flow.mean_velocity,
+            iterations: solved.flow.iterations,
+            relative_residual: solved.flow.relative_residual,
+            max_divergence: solved.flow.max_divergence,
+            pressure_drop: solved.flow.pressure_drop,
+            mode: FlowMode::Steady {
+                screening_length_resolved: solved.flow_resolution.is_none(),
+                expected_drag_error: solved.flow_resolution.as_ref().map(|w| w.expected_drag_error),
+                suggested_spacing: solved.flow_resolution.as_ref().map(|w| w.suggested_spacing),
             },
-            "screening_length_resolved": solved.flow_resolution.is_none(),
-            "expected_drag_error": solved.flow_resolution.as_ref().map(|w| w.expected_drag_error),
-            "suggested_spacing": solved.flow_resolution.as_ref().map(|w| w.suggested_spacing),
-            "mean_velocity": case.flow.mean_velocity,
-            "iterations": solved.flow.iterations,
-            "relative_residual": solved.flow.relative_residual,
-            "max_divergence": solved.flow.max_divergence,
-            "pressure_drop": solved.flow.pressure_drop,
         },
-        "transport": {
-            "iterations": solved.transport.iterations,
-            "relative_residual": solved.transport.relative_residual,
-            "max_cell_peclet": solved.transport.assembly.peclet.max_cell_peclet,
-            "upwinded_faces": solved.transport.assembly.peclet.upwinded_faces,
+        transport: TransportSummary {
+            iterations: solved.transport.iterations,
+            mode: TransportMode::Steady {
+                relative_residual: solved.transport.relative_residual,
+                max_cell_peclet: solved.transport.assembly.peclet.max_cell_peclet,
+                upwinded_faces: solved.transport.assembly.peclet.upwinded_faces,
+            },
         },
-        "mass_balance": {
-            "secreted": b.secreted, "outflow": b.outflow, "uptake": b.uptake, "decay": b.decay,
-            "accumulation": b.accumulation, "relative_error": b.relative_error,
+        mass_balance: {
+            let b = &solved.balance;
+            mass_balance([b.secreted, b.outflow, b.uptake, b.decay, b.accumulation, b.relative_error], None)
         },
-        "estimates": {
-            "meanfield_outlet_concentration": meanfield,
-            "measured_outlet_concentration": measured_outlet_concentration(case, solved),
-            "isolated_anisotropy": isolated,
-            "peclet_cell": case.flow.mean_velocity * case.cell_radius / d,
-            "peclet_chamber": case.flow.mean_velocity * case.chamber_size[0] / d,
-            "per_cell": crate::commands::estimate::column_aggregates(&table),
-            "self_neighbour": split.summary,
-            "case": crate::commands::estimate::CaseEstimates::for_case(case).to_json(),
-        },
-        "cells": { "count": count, "volume_fraction": cell_volume_fraction, "number_density": number_density },
-        "warnings": case.warnings.iter().chain(warnings).chain(&split.warnings).collect::<Vec<_>>(),
-        "units": {
-            "grid.spacing": "m", "timing_s": "s", "flow.mean_velocity": "m/s", "flow.max_divergence": "1/s",
-            "flow.pressure_drop": "Pa", "mass_balance": "molecules/s", "estimates.meanfield_outlet_concentration": "molecules/m^3",
-            "estimates.measured_outlet_concentration": "molecules/m^3", "estimates.isolated_anisotropy": "1",
-            "cells.number_density": "1/m^3",
-            "cells.csv": table.columns.iter().map(|c| (c.name.clone(), serde_json::Value::from(c.unit.clone()))).collect::<serde_json::Map<_, _>>(),
-        },
-    });
-    write_summary_json(&out_dir.join("summary.json"), &summary)?;
+        transient: None,
+        self_neighbour: Some(split.summary),
+    };
+    let summary = RunSummary::build(&measures, sections);
+    summary.write(&out_dir.join("summary.json"))?;
     if case.output.figures {
         crate::figures::run_figures::draw_run_figures(out_dir)?;
     }

@@ -3,7 +3,8 @@
 use indicatif::{ProgressBar, ProgressStyle};
 use solver::solve_case::Stage;
 
-/// A stage-by-stage progress bar on stderr (indicatif hides it when stderr is not a terminal).
+/// A stage-by-stage progress line on stderr in the house layout, e.g. `plumefield ▸ 2 of 4 · flow · 3s`
+/// (indicatif hides it when stderr is not a terminal).
 pub struct StageProgress {
     bar: ProgressBar,
 }
@@ -12,7 +13,7 @@ impl StageProgress {
     pub fn new(stages: u64) -> Self {
         let bar = ProgressBar::new(stages);
         bar.set_style(
-            ProgressStyle::with_template("{spinner} [{elapsed_precise}] stage {pos}/{len}: {msg}")
+            ProgressStyle::with_template("plumefield ▸ {pos} of {len} · {msg} · {elapsed}")
                 .unwrap_or_else(|_| ProgressStyle::default_bar()),
         );
         bar.enable_steady_tick(std::time::Duration::from_millis(200));

@@ -34,7 +34,6 @@ use super::{observed_order, Check, Tier, VerifyError};
 use crate::reference::brinkman_sphere::BrinkmanSphere;
 use crate::reference::darcy_sphere::DarcySphere;
 use mesh::{Axis, Cell, EmbeddedGeometry, Grid, Layout};
-use solver::embedded::FacetStencils;
 use solver::flow::brinkman::{solve_brinkman, BrinkmanError, BrinkmanMedium, BrinkmanSettings};
 use solver::problem::ChamberFace;
 use solver::solve_case::CaseSolveError;
@@ -92,14 +91,13 @@ pub fn equator_profile(
     let mut boundaries = far_field_box();
     boundaries.faces = faces;
     let geometry = EmbeddedGeometry::build(&grid, &layout, [false; 3]);
-    let stencils = FacetStencils::build(&geometry);
     let medium =
         BrinkmanMedium { viscosity, effective_viscosity: viscosity, permeability: Some(permeability) };
     let settings = BrinkmanSettings {
         far_field: Some(Arc::new(move |x| exact.velocity(x, [0.0; 3]))),
         ..BrinkmanSettings::default()
     };
-    let solution = solve_brinkman(&geometry, &stencils, &layout, &boundaries, &medium, speed, &settings)
+    let solution = solve_brinkman(&geometry, &layout, &boundaries, &medium, speed, &settings)
         .map_err(|e: BrinkmanError| VerifyError::Solve(CaseSolveError::Brinkman(e)))?;
     let area = grid.face_area();
     let samples = (0..half)

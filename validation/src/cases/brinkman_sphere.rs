@@ -8,7 +8,6 @@
 use super::{observed_order, relative_error, Check, Tier, VerifyError};
 use crate::reference::brinkman_sphere::BrinkmanSphere;
 use mesh::{Cell, EmbeddedGeometry, Grid, Layout};
-use solver::embedded::FacetStencils;
 use solver::flow::brinkman::{solve_brinkman, BrinkmanError, BrinkmanMedium, BrinkmanSettings};
 use solver::problem::{ChamberBoundaries, ChamberFace};
 use solver::solve_case::CaseSolveError;
@@ -33,15 +32,14 @@ pub fn sphere_drag(alpha: f64, per_radius: usize, reach: f64) -> Result<(f64, f6
     ];
     let boundaries = ChamberBoundaries::new(faces);
     let geometry = EmbeddedGeometry::build(&grid, &layout, [false; 3]);
-    let stencils = FacetStencils::build(&geometry);
     let medium =
         BrinkmanMedium { viscosity, effective_viscosity: viscosity, permeability: Some(permeability) };
     let settings = BrinkmanSettings {
         far_field: Some(Arc::new(move |x| exact.velocity(x, [0.0; 3]))),
         ..BrinkmanSettings::default()
     };
-    let solution = solve_brinkman(&geometry, &stencils, &layout, &boundaries, &medium, speed, &settings)
-        .map_err(flow_error)?;
+    let solution =
+        solve_brinkman(&geometry, &layout, &boundaries, &medium, speed, &settings).map_err(flow_error)?;
     Ok((4.0 * solution.field.drag[0][0], exact.drag(), solution.field.iterations))
 }
 

@@ -102,10 +102,7 @@ pub fn relative_error(computed: f64, reference: f64) -> f64 {
     }
 }
 
-/// Observed order of convergence from errors `coarse`, `fine` on grids with spacings in ratio `refinement` (> 1).
-pub fn observed_order(coarse: f64, fine: f64, refinement: f64) -> f64 {
-    (coarse / fine).ln() / refinement.ln()
-}
+pub use numkit::observed_order;
 
 /// Runs every verification case; `progress` hears the name of each case as it starts.
 pub fn run_all(tier: Tier, progress: &mut dyn FnMut(&str)) -> Result<Vec<Check>, VerifyError> {

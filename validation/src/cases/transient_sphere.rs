@@ -118,29 +118,3 @@ pub fn run(tier: Tier) -> Result<Vec<Check>, VerifyError> {
 fn transient_error(e: TransientError) -> VerifyError {
     VerifyError::Transient(e.to_string())
 }
-
-#[cfg(test)]
-mod tests {
-    use super::*;
-
-    /// The convergence study behind the step choice of `run` (slow: ~35 s; `--ignored --nocapture`).
-    #[test]
-    #[ignore]
-    fn probe_time_order() {
-        let outputs = [0.25, 0.5, 1.0, 2.0];
-        let mut all = Vec::new();
-        for s in [4.0, 8.0, 16.0, 32.0, 64.0, 128.0] {
-            let r = sphere_series(6.0, 3.0, s, &outputs, 0.0).unwrap();
-            eprintln!(
-                "steps/unit {s}: {:?} balance {:.2e} iters {}",
-                r.surface, r.worst_balance, r.iterations
-            );
-            all.push(r.surface);
-        }
-        for k in 0..outputs.len() {
-            let d: Vec<f64> = all.windows(2).map(|w| w[0][k] - w[1][k]).collect();
-            let o: Vec<f64> = d.windows(2).map(|w| (w[0] / w[1]).abs().log2()).collect();
-            eprintln!("t = {}: diffs {:?} orders {:?}", outputs[k], d, o);
-        }
-    }
-}

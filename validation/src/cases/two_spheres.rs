@@ -18,7 +18,8 @@ use super::{Check, Tier, VerifyError};
 use mesh::{Cell, Grid, Layout};
 use solver::problem::{FarFieldSources, FlowParameters, LigandParameters, MediumModel, SurfaceUptake};
 
-const RADIUS: f64 = 8e-6;
+/// Radius of both spheres (m).
+pub const RADIUS: f64 = 8e-6;
 const SOURCE: &str = "method of reflections, second reflection, O((a/R)^5) (derived in two_spheres.rs)";
 
 /// First and second reflection, `½ (a/R)² [1 + (a/R)³] / [1 + a/R + ½ (a/R)⁴]`.
@@ -115,41 +116,6 @@ mod tests {
                 assert!(
                     ((a - reference) / reference).abs() < 0.05,
                     "R = {d}a: {a:.5e} vs reflections {reference:.5e}"
-                );
-            }
-        }
-    }
-
-    /// Before/after table of the far-field sources (centroid = DESIGN.md §4 form, cells = superposition):
-    /// `cargo test --release -p validation far_field_sources_table -- --ignored --nocapture`.
-    #[test]
-    #[ignore]
-    fn far_field_sources_table() {
-        let runs: &[(f64, f64, f64)] = &[
-            (3.0, 5.0, 6.0),
-            (5.0, 5.0, 6.0),
-            (10.0, 5.0, 6.0),
-            (10.0, 5.0, 10.0),
-            (3.0, 5.0, 3.0),
-            (5.0, 5.0, 4.0),
-            (10.0, 5.0, 4.0),
-            (3.0, 8.0, 4.0),
-            (4.0, 8.0, 4.0),
-            (6.0, 8.0, 4.0),
-            (10.0, 8.0, 4.0),
-            (10.0, 8.0, 10.0),
-        ];
-        for &(d, resolution, margin) in runs {
-            let reference = reflection_anisotropy(RADIUS, d * RADIUS);
-            for sources in [FarFieldSources::Centroid, FarFieldSources::Cells] {
-                let t = std::time::Instant::now();
-                let [a1, a2] = solve_pair(d * RADIUS, resolution, margin, sources).unwrap();
-                eprintln!(
-                    "R = {d:>4}a  a/h = {resolution}  margin {margin:>4}a  {sources:?}: {a1:.4e} ({:+.1}%), \
-                     {a2:.4e} ({:+.1}%) vs {reference:.4e}  [{:.1} s]",
-                    100.0 * (a1 / reference - 1.0),
-                    100.0 * (a2 / reference - 1.0),
-                    t.elapsed().as_secs_f64()
                 );
             }
         }

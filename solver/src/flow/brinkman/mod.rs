@@ -9,18 +9,15 @@
 //! surface end on it ([`assemble_momentum`], cut positions from the exact spheres via [`sphere_index`]).
 //! Continuity uses the fluxes `h² u_f` of the faces whose centres are in the fluid ([`pressure_gradient`]); those
 //! fluxes are what the transport advects, divergence-free to the solver tolerance.
-//! The coupled system is solved by right-preconditioned BiCGSTAB with six stored vectors ([`lean_bicgstab`];
-//! flexible GMRES, [`gmres`], on request) with a block-triangular preconditioner: multigrid on each velocity
+//! The coupled system is solved by right-preconditioned BiCGSTAB without a stored shadow vector (six vectors;
+//! flexible GMRES on request, both from `crate::linalg::krylov`) with a block-triangular preconditioner: multigrid on each velocity
 //! component and a Cahouet–Chabard Schur approximation with a cut-cell-weighted viscous part
 //! ([`saddle_system`]); products run on compact rows ([`momentum_rows`]). Cell drag comes from the discrete
 //! momentum balance ([`surface_force`]).
 
 pub mod assemble_momentum;
 pub mod chamber_velocity;
-pub mod front_back;
-pub mod gmres;
 pub mod inlet_profile;
-pub mod lean_bicgstab;
 pub mod momentum_rows;
 pub mod pressure_gradient;
 pub mod resolution;
@@ -30,8 +27,6 @@ pub mod sphere_index;
 pub mod staggered_grid;
 pub mod surface_force;
 
-#[cfg(test)]
-mod bench_case;
 #[cfg(test)]
 mod tests;
 

@@ -211,31 +211,6 @@ impl SaddleSystem {
         }
     }
 
-    /// One V-cycle of the velocity block `c` (`c < 3`) or of the pressure Poisson operator (`c = 3`), for timing.
-    #[cfg(test)]
-    pub(super) fn cycle_part(&self, c: usize, r: &[f64], z: &mut [f64], work: &mut PreconditionerWork) {
-        if c < 3 {
-            self.velocity_mg[c].precondition(r, z, &mut work.velocity[c]);
-        } else {
-            self.pressure_mg.precondition(r, z, &mut work.pressure);
-        }
-    }
-
-    /// One part of the product: component `c < 3` with its gradient, or the divergence (`c = 3`), for timing.
-    #[cfg(test)]
-    pub(super) fn apply_part(&self, c: usize, x: &[f64], y: &mut [f64]) {
-        let xs = self.split(x);
-        let ys = self.split_mut(y);
-        if c < 3 {
-            let [y0, y1, y2, _] = ys;
-            let yc = [y0, y1, y2].into_iter().nth(c).unwrap_or_default();
-            self.rows[c].apply(c, Some(xs[c]), xs[3], self.pressure_stencil(), yc);
-        } else {
-            let [_, _, _, yp] = ys;
-            self.coupling.divergence_transpose([xs[0], xs[1], xs[2]], self.scale, yp);
-        }
-    }
-
     /// Bytes held by the compact rows, masks, hierarchies and one preconditioner work set.
     pub fn memory_bytes(&self) -> usize {
         let rows: usize = self.rows.iter().map(|r| r.memory_bytes()).sum();

@@ -2,19 +2,18 @@
 
 use super::assemble_momentum::{assemble_momentum, MomentumBlock, MomentumCoefficients};
 use super::chamber_velocity::{ChamberVelocity, VelocityData};
-use super::front_back::pressure_front_back;
-use super::gmres::gmres;
 use super::inlet_profile::fully_developed_profile;
-use super::lean_bicgstab::{lean_bicgstab, SparseVector};
 use super::pressure_gradient::PressureCoupling;
 use super::resolution::{check_resolution, ResolutionWarning};
 use super::saddle_system::SaddleSystem;
 use super::sphere_index::SphereIndex;
 use super::surface_force::{surface_forces, SurfaceForces};
 use super::{BrinkmanError, BrinkmanMedium};
-use crate::embedded::FacetStencils;
 use crate::flow::FlowField;
-use crate::linalg::{KrylovParams, MultigridParams};
+use crate::linalg::{
+    bicgstab, gmres, BicgstabParams, BicgstabWork, GmresParams, KrylovParams, MultigridParams, RightHandSide,
+    Shadow, SparseVector,
+};
 use crate::problem::{ChamberBoundaries, ChamberFace};
 use mesh::{Axis, EmbeddedGeometry, Layout};
 use rayon::prelude::*;
@@ -68,8 +67,6 @@ pub struct BrinkmanSolution {
     pub field: FlowField,
     /// Viscous and pressure parts of the force on each cell (N).
     pub forces: SurfaceForces,
-    /// `p_front − p_back` per cell along its local flow (Pa).
-    pub pressure_front_back: Vec<f64>,
     /// Set when the screening length √K is under-resolved.
     pub resolution: Option<ResolutionWarning>,
     /// Relative residual before the first and after every GMRES iteration.
@@ -85,7 +82,6 @@ pub struct BrinkmanSolution {
 #[allow(clippy::too_many_arguments)]
 pub fn solve_brinkman(
     geometry: &EmbeddedGeometry,
-    stencils: &FacetStencils,
     layout: &Layout,
     boundaries: &ChamberBoundaries,
     medium: &BrinkmanMedium,
@@ -100,7 +96,6 @@ pub fn solve_brinkman(
         return Ok(BrinkmanSolution {
             field: FlowField::at_rest(cells, grid),
             forces: SurfaceForces { viscous: vec![[0.0; 3]; cells], pressure: vec![[0.0; 3]; cells] },
-            pressure_front_back: vec![0.0; cells],
             resolution,
             residual_history: vec![0.0],
             memory_bytes: 0,
@@ -118,21 +113,24 @@ pub fn solve_brinkman(
     let clock = std::time::Instant::now();
     let mut x = vec![0.0; system.len()];
     let mut work = system.work();
+    let operator = |v: &[f64], y: &mut [f64]| system.apply(v, y);
+    let precondition = |r: &[f64], z: &mut [f64]| system.precondition(r, z, &mut work);
     let info = match settings.method {
-        FlowKrylov::Bicgstab => lean_bicgstab(
-            |v, y| system.apply(v, y),
-            |r, z| system.precondition(r, z, &mut work),
-            &rhs,
+        // No stored shadow: every vector of the coupled system costs 32 bytes per grid cell.
+        FlowKrylov::Bicgstab => bicgstab(
+            &operator,
+            precondition,
+            RightHandSide::Sparse(&rhs),
             &mut x,
-            &settings.krylov,
+            &BicgstabParams { krylov: settings.krylov.clone(), shadow: Shadow::Unstored },
+            &mut BicgstabWork::default(),
         ),
         FlowKrylov::Gmres => gmres(
-            |v, y| system.apply(v, y),
-            |r, z| system.precondition(r, z, &mut work),
+            &operator,
+            precondition,
             &rhs.to_dense(),
             &mut x,
-            settings.restart,
-            &settings.krylov,
+            &GmresParams { krylov: settings.krylov.clone(), restart: settings.restart },
         ),
     }
     .map_err(BrinkmanError::from_solve)?;
@@ -242,7 +240,6 @@ pub fn solve_brinkman(
     } else {
         crate::flow::inlet_outlet_pressure_difference(grid, &pressure, &system.coupling.pressure_active)
     };
-    let front_back = pressure_front_back(geometry, stencils, layout, &velocity, &pressure);
     let field = FlowField {
         face_flux,
         pressure,
@@ -256,7 +253,6 @@ pub fn solve_brinkman(
     Ok(BrinkmanSolution {
         field,
         forces,
-        pressure_front_back: front_back,
         resolution,
         residual_history: info.residual_history,
         memory_bytes,

@@ -1,7 +1,6 @@
 //! Solver-level checks of the Brinkman/Stokes flow: channel flows with closed forms, and the iteration counts.
 
 use super::*;
-use crate::embedded::FacetStencils;
 use crate::problem::{ChamberBoundaries, ChamberFace};
 use mesh::{Cell, EmbeddedGeometry, Grid, Layout};
 
@@ -20,12 +19,11 @@ fn solve(
     speed: f64,
 ) -> BrinkmanSolution {
     let geometry = EmbeddedGeometry::build(grid, layout, boundaries.periodic_axes());
-    let stencils = FacetStencils::build(&geometry);
     let settings = BrinkmanSettings {
         krylov: crate::linalg::KrylovParams { relative_tolerance: 1e-10, max_iterations: 400 },
         ..BrinkmanSettings::default()
     };
-    solve_brinkman(&geometry, &stencils, layout, boundaries, medium, speed, &settings).expect("flow solves")
+    solve_brinkman(&geometry, layout, boundaries, medium, speed, &settings).expect("flow solves")
 }
 
 /// Plane Brinkman channel (REFERENCES.md item A; Brinkman 1947 momentum equation, profile derived there):
@@ -120,17 +118,8 @@ fn sphere_iterations(n: usize, alpha: f64) -> usize {
     let k = (radius / alpha) * (radius / alpha);
     let medium = BrinkmanMedium { viscosity: 1.0, effective_viscosity: 1.0, permeability: Some(k) };
     let geometry = EmbeddedGeometry::build(&grid, &layout, boundaries.periodic_axes());
-    let stencils = FacetStencils::build(&geometry);
-    let sol = solve_brinkman(
-        &geometry,
-        &stencils,
-        &layout,
-        &boundaries,
-        &medium,
-        1.0,
-        &BrinkmanSettings::default(),
-    )
-    .expect("flow solves");
+    let sol = solve_brinkman(&geometry, &layout, &boundaries, &medium, 1.0, &BrinkmanSettings::default())
+        .expect("flow solves");
     // Divergence relative to the velocity-gradient scale U/h = n (U = 1).
     let relative_divergence = sol.field.max_divergence / n as f64;
     assert!(relative_divergence < 1e-6, "divergence {}", sol.field.max_divergence);
@@ -163,28 +152,4 @@ fn iterations_stay_flat_to_128() {
         assert!(step[0].iter().zip(&step[1]).all(|(&c, &f)| f <= c + 5), "{counts:?}");
     }
     assert!(counts.iter().flatten().all(|&c| c <= 25), "{counts:?}");
-}
-
-#[test]
-#[ignore]
-fn debug_channel() {
-    let medium = BrinkmanMedium { viscosity: 1.0, effective_viscosity: 1.0, permeability: Some(0.1) };
-    let (g, profile) = channel_reference(&medium, 1.0);
-    for ny in [8, 16, 32, 64, 128] {
-        let (grid, boundaries) = channel(ny, 4, [ChamberFace::Periodic; 2]);
-        let sol = solve(&grid, &Layout::default(), &boundaries, &medium, 1.0);
-        let mut worst: f64 = 0.0;
-        let mut l1 = 0.0;
-        for j in 0..ny {
-            let y = grid.cell_centre(0, j, 0)[1];
-            let e = (sol.field.velocity[0][grid.index(1, j, 1)] - profile(y)).abs();
-            worst = worst.max(e);
-            l1 += e / ny as f64;
-        }
-        println!(
-            "{ny} max {worst:.3e} mean {l1:.3e} g {:.3e} it {}",
-            (sol.field.pressure_drop / grid.extent()[0] - g) / g,
-            sol.field.iterations
-        );
-    }
 }

@@ -21,11 +21,11 @@
 //! coefficients are reused; with neither flow nor decay (γ = 0) that never happens and each step costs one
 //! pass over faces × switched-on cells.
 
-use super::error_function::{erfc, erfcx};
 use crate::problem::{ChamberBoundaries, ChamberFace, LigandParameters};
 use crate::transport::chamber_faces::{far_field_coefficient, open_chamber_faces, OpenChamberFace};
 use crate::transport::far_field_sources::{FarFieldMedium, PointSources, RadialProfile};
 use mesh::{EmbeddedGeometry, Layout};
+use numkit::{erfc, erfcx};
 use rayon::prelude::*;
 
 /// The far-field faces of a chamber and the time-dependent coefficients of their outward flux.

@@ -288,13 +288,10 @@ pub fn integrate(
             let iterations = system
                 .solver
                 .solve(&rhs, &mut c_new, target, settings.krylov.max_iterations)
-                .map_err(|e| TransientError::Solve { time: t_new, message: e.to_string() })?
+                .map_err(|source| TransientError::Solve { time: t_new, source })?
                 .iterations;
             if c_new.iter().any(|v| !v.is_finite()) {
-                return Err(TransientError::Solve {
-                    time: t_new,
-                    message: "non-finite concentration".into(),
-                });
+                return Err(TransientError::NonFinite { time: t_new });
             }
 
             // Embedded error estimate (needs two earlier solutions at BDF2).

@@ -17,7 +17,6 @@
 pub mod balance;
 pub mod bdf;
 pub mod case;
-pub mod error_function;
 pub mod far_field_switch_on;
 pub mod guess_projection;
 pub mod integrate;
@@ -154,8 +153,10 @@ impl TransientObserver for NoObserver {
 
 #[derive(thiserror::Error, Debug)]
 pub enum TransientError {
-    #[error("the transient solve failed at t = {time:.6e} s: {message}")]
-    Solve { time: f64, message: String },
+    #[error("the transient solve failed at t = {time:.6e} s: {source}")]
+    Solve { time: f64, source: crate::linalg::SolveError },
+    #[error("the transient solve failed at t = {time:.6e} s: non-finite concentration")]
+    NonFinite { time: f64 },
     #[error("the time step fell to {step:.3e} s at t = {time:.6e} s")]
     StepTooSmall { time: f64, step: f64 },
     #[error("the initial field has {found} values but the grid has {expected} cells")]

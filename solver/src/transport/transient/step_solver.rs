@@ -8,13 +8,13 @@
 //! uninterrupted run's arithmetic exactly. The Krylov solve starts from the projected guess and stops at the
 //! absolute residual `tol · ‖forcing‖` that a steady solve of the same case reaches.
 
-use crate::linalg::apply_operator::{apply_face_coupled, decouple_inactive_cells};
+use crate::linalg::apply_operator::decouple_inactive_cells;
 use crate::linalg::multigrid::{Multigrid, MultigridWork};
+use crate::linalg::sparse_correction::apply_corrected;
 use crate::linalg::{
-    bicgstab_with_work, BicgstabWork, KrylovParams, LinearSystem, MultigridParams, SolveError, SolveInfo,
+    bicgstab, BicgstabParams, BicgstabWork, KrylovParams, LinearSystem, MultigridParams, RightHandSide,
+    SolveError, SolveInfo, SparseCorrection,
 };
-use rayon::prelude::*;
-use sprs::CsMat;
 
 /// Hierarchies kept at most (least recently built dropped first).
 const MAX_HIERARCHIES: usize = 4;
@@ -25,69 +25,11 @@ struct Rung {
     work: MultigridWork,
 }
 
-/// Grid cells per parallel task of the correction product.
-const CORRECTION_CHUNK: usize = 1 << 15;
-
-/// The nonzero rows of the sparse correction (cut cells' wider interpolation), packed for the product: row `k`
-/// is grid cell `rows[k]` with entries `start[k]..start[k+1]`. Rows ascend, so a block of grid cells owns a
-/// contiguous run of them and blocks can be summed in parallel, each row in the same order as serially.
-struct CorrectionRows {
-    rows: Vec<usize>,
-    start: Vec<usize>,
-    columns: Vec<usize>,
-    values: Vec<f64>,
-}
-
-impl CorrectionRows {
-    fn pack(c: &CsMat<f64>) -> Self {
-        let mut packed =
-            CorrectionRows { rows: Vec::new(), start: vec![0], columns: Vec::new(), values: Vec::new() };
-        let converted;
-        let csr = if c.is_csr() {
-            c.view()
-        } else {
-            converted = c.to_csr();
-            converted.view()
-        };
-        for (row, entries) in csr.outer_iterator().enumerate() {
-            if entries.nnz() == 0 {
-                continue;
-            }
-            for (col, &a) in entries.iter() {
-                packed.columns.push(col);
-                packed.values.push(a);
-            }
-            packed.rows.push(row);
-            packed.start.push(packed.columns.len());
-        }
-        packed
-    }
-
-    /// `y += C x`.
-    fn add_product(&self, x: &[f64], y: &mut [f64]) {
-        if self.rows.is_empty() {
-            return;
-        }
-        y.par_chunks_mut(CORRECTION_CHUNK).enumerate().for_each(|(block, y_block)| {
-            let first = block * CORRECTION_CHUNK;
-            let last = first + y_block.len();
-            let k0 = self.rows.partition_point(|&r| r < first);
-            let k1 = self.rows.partition_point(|&r| r < last);
-            for k in k0..k1 {
-                let (a, b) = (self.start[k], self.start[k + 1]);
-                let sum: f64 =
-                    self.columns[a..b].iter().zip(&self.values[a..b]).map(|(&col, &v)| v * x[col]).sum();
-                y_block[self.rows[k] - first] += sum;
-            }
-        });
-    }
-}
-
 /// Step solver of one flow phase.
 pub struct StepSolver {
     /// The operator (the preconditioner is built from it); its sparse correction lives in `correction`.
     system: LinearSystem,
-    correction: CorrectionRows,
+    correction: SparseCorrection,
     /// Diagonal without storage and far field: decay, other chamber faces, surface uptake.
     base_sink: Vec<f64>,
     /// Fluid volume φh³ of each grid cell (m³), zero where inactive.
@@ -116,12 +58,7 @@ impl StepSolver {
         multigrid: MultigridParams,
     ) -> Self {
         decouple_inactive_cells(&mut system.operator);
-        let correction = match system.correction.take() {
-            Some(c) => CorrectionRows::pack(&c),
-            None => {
-                CorrectionRows { rows: Vec::new(), start: vec![0], columns: Vec::new(), values: Vec::new() }
-            }
-        };
+        let correction = system.correction.take().map(|c| SparseCorrection::pack(&c)).unwrap_or_default();
         let base_sink = system.operator.sink.clone();
         StepSolver {
             system,
@@ -235,56 +172,17 @@ impl StepSolver {
             return Err(SolveError::NonFinite { iteration: 0 });
         };
         let (multigrid, work) = (&rung.multigrid, &mut rung.work);
-        bicgstab_with_work(
-            |u, y| apply_step(system, correction, u, y),
+        bicgstab(
+            &|u: &[f64], y: &mut [f64]| apply_step(system, correction, u, y),
             |r, z| multigrid.precondition(r, z, work),
-            rhs,
+            RightHandSide::Dense(rhs),
             x,
-            &params,
+            &BicgstabParams { krylov: params, ..BicgstabParams::default() },
             &mut self.krylov,
         )
     }
 }
 
-fn apply_step(system: &LinearSystem, correction: &CorrectionRows, x: &[f64], y: &mut [f64]) {
-    apply_face_coupled(&system.operator, system.scheme, x, y);
-    correction.add_product(x, y);
-}
-
-#[cfg(test)]
-mod tests {
-    use super::*;
-    use sprs::TriMat;
-
-    /// The packed, block-parallel product equals the product summed entry by entry, rows spread over several
-    /// blocks, from CSR and CSC storage.
-    #[test]
-    fn packed_correction_matches_the_sparse_product() {
-        let n = 3 * CORRECTION_CHUNK + 123;
-        let x: Vec<f64> = (0..n).map(|i| (i as f64 * 0.37).cos()).collect();
-        let mut triplets = TriMat::new((n, n));
-        let mut expected = vec![0.0; n];
-        for k in 0..5000usize {
-            let row = (k * 7919) % n;
-            for j in 0..(1 + k % 9) {
-                let col = (row + j * 4099 + k) % n;
-                let value = ((k + j) as f64).sin();
-                triplets.add_triplet(row, col, value);
-                expected[row] += value * x[col];
-            }
-        }
-        let csc: CsMat<f64> = triplets.to_csc();
-        for matrix in [csc.to_csr(), csc] {
-            let packed = CorrectionRows::pack(&matrix);
-            assert!(packed.rows.windows(2).all(|w| w[0] < w[1]));
-            let mut y = vec![1.0; n];
-            packed.add_product(&x, &mut y);
-            for (p, (got, want)) in y.iter().zip(&expected).enumerate() {
-                assert!(
-                    (got - 1.0 - want).abs() <= 1e-12 * (1.0 + want.abs()),
-                    "row {p}: {got} vs 1 + {want}"
-                );
-            }
-        }
-    }
+fn apply_step(system: &LinearSystem, correction: &SparseCorrection, x: &[f64], y: &mut [f64]) {
+    apply_corrected(&system.operator, system.scheme, correction, x, y);
 }

@@ -18,7 +18,6 @@ use std::path::Path;
 use std::time::Instant;
 
 use anyhow::{Context, Result};
-use serde_json::json;
 use solver::linalg::MultigridParams;
 use solver::post::CellSensing;
 use solver::problem::ChamberFace;
@@ -33,11 +32,15 @@ use crate::io::cells_csv::write_cells_csv;
 use crate::io::fields_h5::{FieldData, Provenance};
 use crate::io::initial_field::read_initial_concentration;
 use crate::io::provenance::git_revision;
-use crate::io::summary_json::write_summary_json;
 use crate::io::table::{CellTable, Column, ColumnValues};
 use crate::io::transient_h5::{output_dataset_name, write_transient_fields_h5, OutputTime, TransientFile};
 use crate::io::xdmf_temporal::{write_temporal_xmf, TemporalGrid};
+use crate::outputs::summary::{
+    FlowChange, FlowMode, FlowSummary, OutputSeries, Resources, RunSummary, Stepping, TransientSummary,
+    TransportMode, TransportSummary,
+};
 
+use super::summary::{mass_balance, RunMeasures, RunSections};
 use cell_series::{time_columns, CONTRACT_COLUMNS, SENSED};
 pub use checkpoint_every::CheckpointEvery;
 use observer::RunObserver;
@@ -293,7 +296,7 @@ fn final_table(
     let mut columns = time_columns(case, &part.sensed, &flow.drag, &t.secretion_start);
     let tail = columns.split_off(CONTRACT_COLUMNS);
     let stencils = solver::embedded::FacetStencils::build(&solution.geometry);
-    let front_back = solver::flow::brinkman::front_back::pressure_front_back(
+    let front_back = solver::post::pressure_front_back::pressure_front_back(
         &solution.geometry,
         &stencils,
         &case.layout,
@@ -468,8 +471,8 @@ fn write_outputs(
     write_temporal_xmf(&out_dir.join("fields.xmf"), "fields.h5", &case.grid, &steps)?;
 
     let summary =
-        summary_json(case, t, solution, final_part, &parts, &table, started, write_started, checkpoints);
-    write_summary_json(&out_dir.join("summary.json"), &summary)?;
+        run_summary(case, t, solution, final_part, &parts, &table, started, write_started, checkpoints);
+    summary.write(&out_dir.join("summary.json"))?;
     if case.output.figures {
         crate::figures::run_figures::draw_run_figures(out_dir)?;
     }
@@ -482,7 +485,7 @@ fn last_flow_speed(case: &Case, t: &TransientSolve) -> f64 {
 }
 
 #[allow(clippy::too_many_arguments)]
-fn summary_json(
+fn run_summary(
     case: &Case,
     t: &TransientSolve,
     solution: &TransientSolution,
@@ -492,85 +495,85 @@ fn summary_json(
     started: Instant,
     write_started: Instant,
     checkpoints: usize,
-) -> serde_json::Value {
+) -> RunSummary {
     let state = &solution.state;
-    let chamber_volume: f64 = case.chamber_size.iter().product();
-    let fluid_volume: f64 = solution.geometry.volume_fraction.iter().sum::<f64>() * case.grid.cell_volume();
-    let count = case.layout.cells.len();
     let last_flow = &solution.flows[solution.flows.len() - 1];
     let b = &final_part.balance;
     let timing = solution.timing;
     let has_outlet = case.boundaries.faces.iter().flatten().any(|f| *f == ChamberFace::Outlet);
-    let estimates = crate::commands::estimate::CaseEstimates::for_case(case);
-    json!({
-        "version": env!("CARGO_PKG_VERSION"),
-        "git_revision": git_revision(),
-        "title": case.title,
-        "case_sha256": case.sha256,
-        "solve_mode": "transient",
-        "grid": { "shape": case.grid.shape, "spacing": case.grid.spacing, "origin": case.grid.origin },
-        "timing_s": {
-            "geometry": timing[0], "flow": timing[1], "steady_reference": timing[2], "time_loop": timing[3],
-            "write": write_started.elapsed().as_secs_f64(), "total": started.elapsed().as_secs_f64(),
+    let measures = RunMeasures {
+        case,
+        volume_fraction: &solution.geometry.volume_fraction,
+        table,
+        final_mean_velocity: last_flow_speed(case, t),
+        measured_outlet_concentration: final_part.outlet_concentration,
+        warnings: &[],
+    };
+    let sections = RunSections {
+        timing_s: Resources {
+            geometry: timing[0],
+            flow: timing[1],
+            transport: None,
+            post: None,
+            steady_reference: Some(timing[2]),
+            time_loop: Some(timing[3]),
+            write: write_started.elapsed().as_secs_f64(),
+            total: started.elapsed().as_secs_f64(),
+            self_neighbour: None,
         },
-        "flow": {
-            "model": "darcy",
-            "mean_velocity": case.flow.mean_velocity,
-            "change": t.flow_change.map(|(at, after)| json!({ "time": at, "mean_velocity_after": after })),
-            "iterations": last_flow.iterations,
-            "relative_residual": last_flow.relative_residual,
-            "max_divergence": solution.flows.iter().map(|f| f.max_divergence).fold(0.0, f64::max),
-            "pressure_drop": last_flow.pressure_drop,
-        },
-        "transport": {
-            "iterations": state.krylov_iterations,
-            "steady_reference_balance_error": solution.steady_balance_error,
-        },
-        "mass_balance": {
-            "secreted": b.secreted, "outflow": b.outflow, "uptake": b.uptake, "decay": b.decay,
-            "accumulation": b.accumulation, "stored": b.stored, "relative_error": b.relative_error,
-            "worst_step_relative_error": state.worst_balance_error,
-        },
-        "transient": {
-            "end_time": t.end_time,
-            "final_time": state.time,
-            "stopped_at_steady": state.stopped_at_steady,
-            "steady_distance": STEADY_DISTANCE,
-            "stepping": match t.adaptive { Some(tol) => json!({ "adaptive": true, "error_tolerance": tol, "initial_step": t.time_step }), None => json!({ "adaptive": false, "time_step": t.time_step }) },
-            "steps": state.steps,
-            "rejected_steps": state.rejected_steps,
-            "checkpoints_written_by_this_process": checkpoints,
-            "window_start": t.window_start,
-            "initial_condition": match &t.initial { InitialCondition::Zero => "zero".to_string(), InitialCondition::Fields(p) => p.display().to_string() },
-            "steady_outlet_concentration": solution.steady.outlet_concentration,
-            "time_to_steady": summary::approach_json(&state.crossings, has_outlet && solution.steady.outlet_concentration.is_some()),
-            "outputs": {
-                "time": parts.iter().map(|p| p.time).collect::<Vec<_>>(),
-                "outlet_concentration": parts.iter().map(|p| p.outlet_concentration).collect::<Vec<_>>(),
-                "stored": parts.iter().map(|p| p.balance.stored).collect::<Vec<_>>(),
-                "balance_relative_error": parts.iter().map(|p| p.balance.relative_error).collect::<Vec<_>>(),
+        flow: FlowSummary {
+            model: case.flow.medium.name().to_string(),
+            mean_velocity: case.flow.mean_velocity,
+            iterations: last_flow.iterations,
+            relative_residual: last_flow.relative_residual,
+            max_divergence: solution.flows.iter().map(|f| f.max_divergence).fold(0.0, f64::max),
+            pressure_drop: last_flow.pressure_drop,
+            mode: FlowMode::Transient {
+                change: t
+                    .flow_change
+                    .map(|(time, mean_velocity_after)| FlowChange { time, mean_velocity_after }),
             },
         },
-        "estimates": {
-            "meanfield_outlet_concentration": solver::post::estimates::meanfield_outlet_concentration(
-                count as f64 / chamber_volume, case.secretion_rate, case.cell_radius, case.ligand.diffusivity,
-                case.ligand.decay_rate, case.ligand.uptake, fluid_volume / chamber_volume, last_flow_speed(case, t),
-                case.chamber_size[0], case.ligand.inlet_concentration,
-            ).filter(|_| case.boundaries.faces[0][0] == ChamberFace::Inlet),
-            "measured_outlet_concentration": final_part.outlet_concentration,
-            "isolated_anisotropy": solver::post::estimates::isolated_darcy_anisotropy(
-                case.flow.mean_velocity, case.cell_radius, case.ligand.diffusivity, case.ligand.decay_rate, case.ligand.uptake),
-            "per_cell": crate::commands::estimate::column_aggregates(table),
-            "case": estimates.to_json(),
+        transport: TransportSummary {
+            iterations: state.krylov_iterations,
+            mode: TransportMode::Transient { steady_reference_balance_error: solution.steady_balance_error },
         },
-        "cells": { "count": count, "volume_fraction": 1.0 - fluid_volume / chamber_volume, "number_density": count as f64 / chamber_volume },
-        "warnings": case.warnings,
-        "units": {
-            "grid.spacing": "m", "timing_s": "s", "flow.mean_velocity": "m/s", "flow.max_divergence": "1/s",
-            "flow.pressure_drop": "Pa", "mass_balance": "molecules/s", "mass_balance.stored": "molecules",
-            "transient.*time*": "s", "transient.outputs.outlet_concentration": "molecules/m^3",
-            "transient.outputs.stored": "molecules",
-            "cells.csv": table.columns.iter().map(|c| (c.name.clone(), serde_json::Value::from(c.unit.clone()))).collect::<serde_json::Map<_, _>>(),
-        },
-    })
+        mass_balance: mass_balance(
+            [b.secreted, b.outflow, b.uptake, b.decay, b.accumulation, b.relative_error],
+            Some((b.stored, state.worst_balance_error)),
+        ),
+        transient: Some(TransientSummary {
+            end_time: t.end_time,
+            final_time: state.time,
+            stopped_at_steady: state.stopped_at_steady,
+            steady_distance: STEADY_DISTANCE,
+            stepping: Stepping {
+                adaptive: t.adaptive.is_some(),
+                error_tolerance: t.adaptive,
+                initial_step: t.adaptive.map(|_| t.time_step),
+                time_step: t.adaptive.is_none().then_some(t.time_step),
+            },
+            steps: state.steps,
+            rejected_steps: state.rejected_steps,
+            checkpoints_written_by_this_process: checkpoints,
+            window_start: t.window_start,
+            initial_condition: match &t.initial {
+                InitialCondition::Zero => "zero".to_string(),
+                InitialCondition::Fields(p) => p.display().to_string(),
+            },
+            steady_outlet_concentration: solution.steady.outlet_concentration,
+            time_to_steady: summary::approach(
+                &state.crossings,
+                has_outlet && solution.steady.outlet_concentration.is_some(),
+            ),
+            outputs: OutputSeries {
+                time: parts.iter().map(|p| p.time).collect(),
+                outlet_concentration: parts.iter().map(|p| p.outlet_concentration).collect(),
+                stored: parts.iter().map(|p| p.balance.stored).collect(),
+                balance_relative_error: parts.iter().map(|p| p.balance.relative_error).collect(),
+            },
+        }),
+        self_neighbour: None,
+    };
+    RunSummary::build(&measures, sections)
 }

@@ -1,7 +1,8 @@
 //! Progress of a transient run on stderr: simulated time against the end time, step count, and the last
 //! step's residual — its molecule-balance imbalance, which is the linear residual summed over the grid
-//! (`solver::transport::transient::balance`) — plus the distance to the steady field. indicatif hides the bar
-//! when stderr is not a terminal; messages are printed either way.
+//! (`solver::transport::transient::balance`) — plus the distance to the steady field, in the house layout
+//! `plumefield ▸ ███░░ 40% · t = … · 12s`. indicatif hides the bar when stderr is not a terminal; messages are
+//! printed either way.
 
 use indicatif::{ProgressBar, ProgressStyle};
 use solver::solve_case::Stage;
@@ -36,7 +37,8 @@ impl TransientProgress {
         }
         let bar = ProgressBar::new(TICKS);
         bar.set_style(
-            ProgressStyle::with_template("{spinner} [{elapsed_precise}] {bar:30} {msg}")
+            ProgressStyle::with_template("plumefield ▸ {bar:24} {percent:>3}% · {msg} · {elapsed}")
+                .map(|style| style.progress_chars("█▌·"))
                 .unwrap_or_else(|_| ProgressStyle::default_bar()),
         );
         bar.enable_steady_tick(std::time::Duration::from_millis(200));

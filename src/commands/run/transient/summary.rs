@@ -3,49 +3,42 @@
 //! each cell's sensed rate reach 90% and 99% of their steady values, quantiles over cells), the per-step
 //! mass balance, the step counts and the output times.
 
-use serde_json::{json, Value};
+use std::collections::BTreeMap;
+
+use crate::outputs::summary::{Approach, CellApproach};
 use solver::transport::transient::{Crossings, FRACTIONS};
 
 /// Quantile `q` of `values` with +∞ for "not reached": linear interpolation between order statistics
 /// (Hyndman & Fan 1996, definition 7, the default of R and NumPy); `None` when it touches a value not reached.
 pub fn quantile_reached(values: &[Option<f64>], q: f64) -> Option<f64> {
-    if values.is_empty() {
-        return None;
-    }
-    let mut sorted: Vec<f64> = values.iter().map(|v| v.unwrap_or(f64::INFINITY)).collect();
-    sorted.sort_by(f64::total_cmp);
-    let position = q * (sorted.len() - 1) as f64;
-    let (lo, hi) = (position.floor() as usize, position.ceil() as usize);
-    let (a, b) = (sorted[lo], sorted[hi]);
-    if !a.is_finite() || !b.is_finite() {
-        return None;
-    }
-    Some(a + (position - lo as f64) * (b - a))
+    let times: Vec<f64> = values.iter().map(|v| v.unwrap_or(f64::INFINITY)).collect();
+    // Interpolating towards a value not reached gives +∞; no values give NaN.
+    Some(numkit::quantile(&times, q)).filter(|t| t.is_finite())
 }
 
 /// The approach-to-steady section: per fraction, the outlet crossing time and the cell quantiles.
-pub fn approach_json(crossings: &Crossings, has_outlet_reference: bool) -> Value {
-    let mut out = serde_json::Map::new();
+pub fn approach(crossings: &Crossings, has_outlet_reference: bool) -> BTreeMap<String, Approach> {
+    let mut out = BTreeMap::new();
     for (k, fraction) in FRACTIONS.iter().enumerate() {
         let per_cell: Vec<Option<f64>> = crossings.cells.iter().map(|c| c[k]).collect();
         let reached = per_cell.iter().filter(|v| v.is_some()).count();
         let key = format!("{:.0}_percent", fraction * 100.0);
         out.insert(
             key,
-            json!({
-                "outlet_concentration": if has_outlet_reference { json!(crossings.outlet[k]) } else { Value::Null },
-                "cell_sensed_rate": {
-                    "p10": quantile_reached(&per_cell, 0.1),
-                    "median": quantile_reached(&per_cell, 0.5),
-                    "p90": quantile_reached(&per_cell, 0.9),
-                    "max": quantile_reached(&per_cell, 1.0),
-                    "cells_reached": reached,
-                    "cells_not_reached": per_cell.len() - reached,
+            Approach {
+                outlet_concentration: if has_outlet_reference { crossings.outlet[k] } else { None },
+                cell_sensed_rate: CellApproach {
+                    p10: quantile_reached(&per_cell, 0.1),
+                    median: quantile_reached(&per_cell, 0.5),
+                    p90: quantile_reached(&per_cell, 0.9),
+                    max: quantile_reached(&per_cell, 1.0),
+                    cells_reached: reached,
+                    cells_not_reached: per_cell.len() - reached,
                 },
-            }),
+            },
         );
     }
-    Value::Object(out)
+    out
 }
 
 #[cfg(test)]

@@ -12,8 +12,10 @@
 use anyhow::{bail, Context, Result};
 use clap::{Parser, Subcommand};
 use mesh::EmbeddedGeometry;
+use numkit::meter;
 use plumefield::case::Case;
 use plumefield::commands::run::steady_case;
+use plumefield_bench::{load_average, process_cpu_seconds as cpu_seconds};
 use serde::{Deserialize, Serialize};
 use solver::embedded::FacetStencils;
 use solver::linalg::{system_memory_bytes, KrylovParams, LinearSystem, MultigridParams, SteadySolver};
@@ -101,33 +103,6 @@ fn main() {
     }
 }
 
-/// A field of /proc/self/status in bytes (the kernel reports kB), if readable.
-fn status_bytes(key: &str) -> Option<u64> {
-    let status = std::fs::read_to_string("/proc/self/status").ok()?;
-    let line = status.lines().find(|l| l.starts_with(key))?;
-    let kb: u64 = line.split_whitespace().nth(1)?.parse().ok()?;
-    Some(kb * 1024)
-}
-
-/// Resets the peak resident set (VmHWM) to the current one; false where the kernel does not allow it.
-fn reset_peak_memory() -> bool {
-    std::fs::write("/proc/self/clear_refs", "5").is_ok()
-}
-
-/// User + system CPU seconds of this process (0 where /proc is unavailable).
-fn cpu_seconds() -> f64 {
-    let stat = std::fs::read_to_string("/proc/self/stat").unwrap_or_default();
-    let fields: Vec<&str> = stat.rsplit(')').next().unwrap_or("").split_whitespace().collect();
-    let ticks = |i: usize| fields.get(i).and_then(|f| f.parse::<f64>().ok()).unwrap_or(0.0);
-    (ticks(11) + ticks(12)) / 100.0
-}
-
-fn load_average() -> String {
-    std::fs::read_to_string("/proc/loadavg")
-        .map(|s| s.split_whitespace().take(3).collect::<Vec<_>>().join(" "))
-        .unwrap_or_else(|_| "unknown".to_string())
-}
-
 fn pool(threads: usize) -> Result<rayon::ThreadPool> {
     rayon::ThreadPoolBuilder::new()
         .num_threads(threads)
@@ -178,8 +153,8 @@ fn solve(
     println!("geometry and flow built in {:.2} s", t.elapsed().as_secs_f64());
 
     // The transport stage, measured for memory: assembly, multigrid setup and one solve.
-    let baseline = status_bytes("VmRSS:");
-    let peak_reset = reset_peak_memory();
+    let baseline = meter::resident_bytes();
+    let peak_reset = meter::reset_peak_resident();
     let problem = TransportProblem {
         geometry: &geometry,
         stencils: &stencils,
@@ -207,7 +182,7 @@ fn solve(
         (solver, info)
     });
     let first_info = first_info.context("the benchmark solve failed")?;
-    let peak = match (baseline, status_bytes("VmHWM:"), peak_reset) {
+    let peak = match (baseline, meter::peak_resident_bytes(), peak_reset) {
         (Some(base), Some(hwm), true) => Some(hwm.saturating_sub(base)),
         _ => None,
     };

@@ -1,4 +1,4 @@
-//! A small, reproducible pseudo-random generator for seeded layouts: xoshiro256** (Blackman & Vigna 2018,
+//! A small, reproducible pseudo-random generator for seeded layouts and seeded test data: xoshiro256** (Blackman & Vigna 2018,
 //! "Scrambled linear pseudorandom number generators", the `xoshiro256**` update and the `rotl(s1·5, 7)·9`
 //! scrambler [memory]) seeded through SplitMix64 (Steele, Lea & Flood 2014 [memory]), the seeding its authors
 //! recommend. Our own code so that a seed means the same layout on every platform and version.

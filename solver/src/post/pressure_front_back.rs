@@ -4,8 +4,8 @@
 //! front and back poles are the facets whose normals point most against and most along it, and the pressure there
 //! is extrapolated from the grid cells to the facet centroid (second order, tangential least squares).
 
+use super::local_flow::shell_mean_velocity;
 use crate::embedded::FacetStencils;
-use crate::post::local_flow::shell_mean_velocity;
 use mesh::{EmbeddedGeometry, Layout};
 
 /// `p_front − p_back` per cell (Pa); zero where there is no local flow or no facet.

@@ -1,24 +1,16 @@
 //! Times the steady multigrid-preconditioned BiCGSTAB solve on a box with spherical holes and a potential flow,
 //! and reports iterations, wall time and memory per grid cell.
 //!
-//! `cargo run --release -p solver --example steady_solve_timing -- [n] [holes] [peclet] [constant|trilinear]
+//! `cargo run --release -p plumefield-bench --bin steady-solve-timing -- [n] [holes] [peclet] [constant|trilinear]
 //! [pre] [post]`; defaults: 128 cells per side, 200 holes of radius 4.5 h, cell Péclet number 1.5.
 
+use plumefield_bench::process_cpu_seconds as cpu_seconds;
 use solver::linalg::test_problems::{box_with_holes, random_holes};
 use solver::linalg::{
     system_memory_bytes, AdvectionScheme, KrylovParams, LinearSystem, MultigridParams, Prolongation,
     SteadySolver,
 };
 use std::time::Instant;
-
-/// CPU seconds used by this process so far (user + system, from /proc; 0 where unavailable). The machine may be
-/// shared, so CPU time is reported beside wall time.
-fn cpu_seconds() -> f64 {
-    let stat = std::fs::read_to_string("/proc/self/stat").unwrap_or_default();
-    let fields: Vec<&str> = stat.rsplit(')').next().unwrap_or("").split_whitespace().collect();
-    let ticks = |i: usize| fields.get(i).and_then(|f| f.parse::<f64>().ok()).unwrap_or(0.0);
-    (ticks(11) + ticks(12)) / 100.0
-}
 
 fn main() {
     let args: Vec<String> = std::env::args().skip(1).collect();

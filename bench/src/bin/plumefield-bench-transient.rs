@@ -23,6 +23,7 @@ use mesh::{EmbeddedGeometry, Grid};
 use plumefield::case::transient::{DEFAULT_ERROR_TOLERANCE, STEADY_DISTANCE};
 use plumefield::case::Case;
 use plumefield::commands::run::steady_case;
+use plumefield_bench::{load_average, thread_cpu_seconds as cpu_seconds};
 use solver::embedded::FacetStencils;
 use solver::linalg::{KrylovParams, MultigridParams, SteadySolver};
 use solver::post::{cell_sensing, SensingModel};
@@ -95,26 +96,6 @@ fn main() {
         eprintln!("error: {e:#}");
         std::process::exit(1);
     }
-}
-
-fn load_average() -> String {
-    std::fs::read_to_string("/proc/loadavg")
-        .map(|s| s.split_whitespace().take(3).collect::<Vec<_>>().join(" "))
-        .unwrap_or_else(|_| "unknown".to_string())
-}
-
-/// CPU seconds of every thread of this process so far (`/proc/self/task/*/schedstat`, nanoseconds on the CPU);
-/// NaN where unavailable. On a loaded machine the CPU time of a one-thread run is a steadier measure than the
-/// wall time.
-fn cpu_seconds() -> f64 {
-    let Ok(tasks) = std::fs::read_dir("/proc/self/task") else { return f64::NAN };
-    let mut total = 0u64;
-    for task in tasks.flatten() {
-        let Ok(text) = std::fs::read_to_string(task.path().join("schedstat")) else { return f64::NAN };
-        let Some(Ok(ns)) = text.split_whitespace().next().map(str::parse::<u64>) else { return f64::NAN };
-        total += ns;
-    }
-    total as f64 * 1e-9
 }
 
 /// Wall time, CPU time and Krylov iterations of every accepted step, in order.
@@ -248,8 +229,8 @@ fn run(cli: &Cli) -> Result<()> {
     }
     let Some(steady) = steady else { bail!("no steady solve ran") };
     let steady_s = Timing {
-        wall: median(&repeats.iter().map(|r| r.wall).collect::<Vec<_>>()),
-        cpu: median(&repeats.iter().map(|r| r.cpu).collect::<Vec<_>>()),
+        wall: numkit::quantile(&repeats.iter().map(|r| r.wall).collect::<Vec<_>>(), 0.5),
+        cpu: numkit::quantile(&repeats.iter().map(|r| r.cpu).collect::<Vec<_>>(), 0.5),
     };
     let (t, cpu) = (Instant::now(), cpu_seconds());
     let assembly = assemble_transport(&transport);
@@ -401,13 +382,6 @@ fn run(cli: &Cli) -> Result<()> {
         demo(cli)?;
     }
     Ok(())
-}
-
-/// Middle value (upper middle for an even count); NaN for none.
-fn median(v: &[f64]) -> f64 {
-    let mut sorted = v.to_vec();
-    sorted.sort_by(f64::total_cmp);
-    sorted.get(sorted.len() / 2).copied().unwrap_or(f64::NAN)
 }
 
 fn max(v: &[f64]) -> f64 {

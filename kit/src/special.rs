@@ -1,5 +1,5 @@
-//! The scaled complementary error function `erfcx x = e^{x²} erfc x`, needed by the switched-on far-field
-//! condition. (The validation crate has a more accurate version; the solver cannot depend on it.)
+//! The complementary error function and its scaled form `erfcx x = e^{x²} erfc x`, needed by the switched-on
+//! far-field condition. (The validation crate keeps its own, independent version to check this one against.)
 //!
 //! Methods (common practice): for x < 2 the everywhere-positive Maclaurin series
 //! `erf x = (2/√π) e^{−x²} Σ 2ⁿ x^{2n+1} / (1·3···(2n+1))` (Abramowitz & Stegun 1964, eq. 7.1.6 [memory]);

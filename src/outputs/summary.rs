@@ -1,0 +1,300 @@
+//! `summary.json` as a typed value: [`RunSummary`], written by `run` (steady and transient) and read back
+//! through the same type by `collect` and the figures.
+//!
+//! The file is the structure serialised with its keys in alphabetical order at every level, pretty-printed
+//! and newline-terminated. Everything that varies between reruns of the same case (wall times, the cost of the
+//! self/neighbour split) is in [`Resources`] (`timing_s`); the rest of the file is the same byte for byte when
+//! a case is run again on the same machine and thread count. Non-finite numbers are written as `null` (JSON has
+//! none); fields that may hold one read `null` back as NaN.
+//!
+//! Adding a section: one field of [`RunSummary`] (an `Option` with `skip_serializing_if` when only some runs
+//! have it).
+
+use std::collections::BTreeMap;
+use std::path::Path;
+
+use anyhow::Context;
+use serde::{Deserialize, Deserializer, Serialize};
+
+/// The whole of `summary.json`.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct RunSummary {
+    pub version: String,
+    pub git_revision: Option<String>,
+    pub title: String,
+    pub case_sha256: String,
+    /// `"transient"` for transient runs; absent for steady runs.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub solve_mode: Option<String>,
+    pub grid: GridSummary,
+    /// Measured resources: the only section that changes when the same case runs again.
+    pub timing_s: Resources,
+    pub flow: FlowSummary,
+    pub transport: TransportSummary,
+    pub mass_balance: MassBalanceSummary,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub transient: Option<TransientSummary>,
+    pub estimates: EstimatesSummary,
+    pub cells: CellsSummary,
+    pub warnings: Vec<String>,
+    /// Units by dotted key; `cells.csv` maps each column to its unit.
+    pub units: BTreeMap<String, Unit>,
+}
+
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct GridSummary {
+    pub shape: [usize; 3],
+    pub spacing: f64,
+    pub origin: [f64; 3],
+}
+
+/// Wall times of the run's stages (s) and the cost of the self/neighbour split.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct Resources {
+    pub geometry: f64,
+    pub flow: f64,
+    /// Steady runs: the transport solve and the per-cell sensing.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub transport: Option<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub post: Option<f64>,
+    /// Transient runs: the steady reference and the time loop.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub steady_reference: Option<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub time_loop: Option<f64>,
+    pub write: f64,
+    pub total: f64,
+    /// Steady runs that split some cells' fields into own and neighbour parts.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub self_neighbour: Option<SplitCost>,
+}
+
+/// Wall time of the self/neighbour split (s).
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct SplitCost {
+    pub setup_s: f64,
+    pub solve_s: f64,
+    pub seconds_per_right_hand_side: f64,
+    /// The first transport solve, for comparison.
+    pub transport_s: f64,
+}
+
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct FlowSummary {
+    /// `"darcy"`, `"brinkman"` or `"stokes"`.
+    pub model: String,
+    pub mean_velocity: f64,
+    pub iterations: usize,
+    #[serde(deserialize_with = "real")]
+    pub relative_residual: f64,
+    #[serde(deserialize_with = "real")]
+    pub max_divergence: f64,
+    #[serde(deserialize_with = "real")]
+    pub pressure_drop: f64,
+    #[serde(flatten)]
+    pub mode: FlowMode,
+}
+
+/// The flow keys only one kind of run has.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(untagged)]
+pub enum FlowMode {
+    Steady {
+        screening_length_resolved: bool,
+        expected_drag_error: Option<f64>,
+        suggested_spacing: Option<f64>,
+    },
+    Transient {
+        change: Option<FlowChange>,
+    },
+}
+
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct FlowChange {
+    pub time: f64,
+    pub mean_velocity_after: f64,
+}
+
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct TransportSummary {
+    pub iterations: usize,
+    #[serde(flatten)]
+    pub mode: TransportMode,
+}
+
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(untagged)]
+pub enum TransportMode {
+    Steady {
+        #[serde(deserialize_with = "real")]
+        relative_residual: f64,
+        #[serde(deserialize_with = "real")]
+        max_cell_peclet: f64,
+        upwinded_faces: usize,
+    },
+    Transient {
+        #[serde(deserialize_with = "real")]
+        steady_reference_balance_error: f64,
+    },
+}
+
+/// Ligand balance of the final state (molecules/s; `stored` in molecules).
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct MassBalanceSummary {
+    #[serde(deserialize_with = "real")]
+    pub secreted: f64,
+    #[serde(deserialize_with = "real")]
+    pub outflow: f64,
+    #[serde(deserialize_with = "real")]
+    pub uptake: f64,
+    #[serde(deserialize_with = "real")]
+    pub decay: f64,
+    #[serde(deserialize_with = "real")]
+    pub accumulation: f64,
+    #[serde(deserialize_with = "real")]
+    pub relative_error: f64,
+    /// Transient runs: ligand in the chamber and the worst balance of one step.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub stored: Option<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub worst_step_relative_error: Option<f64>,
+}
+
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct TransientSummary {
+    pub end_time: f64,
+    pub final_time: f64,
+    pub stopped_at_steady: bool,
+    pub steady_distance: f64,
+    pub stepping: Stepping,
+    pub steps: usize,
+    pub rejected_steps: usize,
+    pub checkpoints_written_by_this_process: usize,
+    pub window_start: f64,
+    /// `"zero"` or the path of the `fields.h5` read.
+    pub initial_condition: String,
+    pub steady_outlet_concentration: Option<f64>,
+    /// Per fraction (`"90_percent"`, `"99_percent"`): when the outlet and the cells got there.
+    pub time_to_steady: BTreeMap<String, Approach>,
+    pub outputs: OutputSeries,
+}
+
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct Stepping {
+    pub adaptive: bool,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub error_tolerance: Option<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub initial_step: Option<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub time_step: Option<f64>,
+}
+
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct Approach {
+    pub outlet_concentration: Option<f64>,
+    pub cell_sensed_rate: CellApproach,
+}
+
+/// Quantiles over the cells of the first time each reached the fraction (`None`: some never did).
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct CellApproach {
+    pub p10: Option<f64>,
+    pub median: Option<f64>,
+    pub p90: Option<f64>,
+    pub max: Option<f64>,
+    pub cells_reached: usize,
+    pub cells_not_reached: usize,
+}
+
+/// One entry per output time.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct OutputSeries {
+    pub time: Vec<f64>,
+    pub outlet_concentration: Vec<Option<f64>>,
+    #[serde(deserialize_with = "reals")]
+    pub stored: Vec<f64>,
+    #[serde(deserialize_with = "reals")]
+    pub balance_relative_error: Vec<f64>,
+}
+
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct EstimatesSummary {
+    pub meanfield_outlet_concentration: Option<f64>,
+    pub measured_outlet_concentration: Option<f64>,
+    /// Low-Péclet anisotropy of an isolated cell in the case's flow model.
+    pub isolated_anisotropy: Option<f64>,
+    /// `U a/D` and `U L_x/D` at the case's mean velocity.
+    pub peclet_cell: f64,
+    pub peclet_chamber: f64,
+    /// Median, p10, p90 of the estimate, ratio and split columns by column name.
+    pub per_cell: BTreeMap<String, ColumnQuantiles>,
+    /// Steady runs: which cells were split into own and neighbour parts.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub self_neighbour: Option<SplitSummary>,
+    /// The `estimate` command's JSON for the case.
+    pub case: serde_json::Value,
+}
+
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct ColumnQuantiles {
+    pub median: Option<f64>,
+    pub p10: Option<f64>,
+    pub p90: Option<f64>,
+    pub count: usize,
+}
+
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct SplitSummary {
+    /// The `sensing.decompose` selection as written by the case validation.
+    pub selection: String,
+    pub cells: usize,
+    /// Krylov iterations of each cell's own solve.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub iterations: Option<Vec<usize>>,
+}
+
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct CellsSummary {
+    pub count: usize,
+    #[serde(deserialize_with = "real")]
+    pub volume_fraction: f64,
+    #[serde(deserialize_with = "real")]
+    pub number_density: f64,
+}
+
+/// A unit, or the unit of each `cells.csv` column.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(untagged)]
+pub enum Unit {
+    One(String),
+    Columns(BTreeMap<String, String>),
+}
+
+/// A number that was written as `null` because it was not finite reads back as NaN.
+fn real<'de, D: Deserializer<'de>>(deserializer: D) -> Result<f64, D::Error> {
+    Ok(Option::<f64>::deserialize(deserializer)?.unwrap_or(f64::NAN))
+}
+
+/// [`real`] for every element.
+fn reals<'de, D: Deserializer<'de>>(deserializer: D) -> Result<Vec<f64>, D::Error> {
+    Ok(Vec::<Option<f64>>::deserialize(deserializer)?.into_iter().map(|v| v.unwrap_or(f64::NAN)).collect())
+}
+
+impl RunSummary {
+    /// Writes the summary to `path` atomically (keys sorted, pretty, newline-terminated).
+    pub fn write(&self, path: &Path) -> anyhow::Result<()> {
+        // Through `serde_json::Value`, whose maps sort their keys: the file's key order does not depend on
+        // the order of the fields here.
+        let value = serde_json::to_value(self).context("cannot serialise the run summary")?;
+        crate::io::write_summary_json(path, &value)
+    }
+
+    /// Reads a `summary.json` written by [`RunSummary::write`].
+    pub fn read(path: &Path) -> anyhow::Result<Self> {
+        let bytes = std::fs::read(path).with_context(|| format!("cannot read {}", path.display()))?;
+        serde_json::from_slice(&bytes)
+            .with_context(|| format!("{} is not a summary of this version of plumefield", path.display()))
+    }
+}
