@@ -3,8 +3,10 @@
 
 pub mod case;
 pub mod commands;
+pub mod engine;
 pub mod exit;
 pub mod figures;
 pub mod io;
 pub mod outputs;
+pub mod sensing;
 pub mod sweep;

@@ -136,10 +136,8 @@ fn default_output(case: &Path) -> PathBuf {
 fn run_command(command: Command) -> anyhow::Result<()> {
     match command {
         Command::Run { case, output, threads, checkpoint_every, resume, max_memory } => {
-            let checkpoint_every = checkpoint_every
-                .as_deref()
-                .map(commands::run::transient::CheckpointEvery::parse)
-                .transpose()?;
+            let checkpoint_every =
+                checkpoint_every.as_deref().map(commands::run::CheckpointEvery::parse).transpose()?;
             if let Some(n) = threads {
                 commands::check_thread_count("--threads", n)?;
                 rayon::ThreadPoolBuilder::new()
@@ -156,8 +154,7 @@ fn run_command(command: Command) -> anyhow::Result<()> {
                     return Err(InputError(format!("{refusal} (or give --max-memory)")).into());
                 }
             }
-            let options =
-                commands::run::transient::TransientOptions { checkpoint_every, resume, quiet: false };
+            let options = commands::run::TransientOptions { checkpoint_every, resume, quiet: false };
             commands::run::execute_with(&case, &out_dir, threads, &options)
         }
         Command::Layout { case, output } => commands::layout::execute(&case, &output),

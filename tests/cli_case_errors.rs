@@ -138,9 +138,9 @@ fn bad_case_files_exit_2_naming_key_and_line() {
             name: "too_many_cells",
             from: "layout = { kind = \"lattice\", spacing = [\"24 um\", \"24 um\", \"24 um\"] }",
             to: "layout = { kind = \"random\", count = 300, seed = 4 }",
-            key: "cells.layout",
+            key: "cells.layout.count",
             at: "kind = \"random\"",
-            says: "placed only",
+            says: "beyond random close packing",
         },
         BadCase {
             name: "overlap",

@@ -1,7 +1,7 @@
 //! `plumefield run` end to end on small invented chambers: exit codes, the cells.csv contract, the mass
 //! balance in summary.json, outside readers on a real output folder, and nothing written when a solve fails.
 
-use std::path::{Path, PathBuf};
+use std::path::PathBuf;
 use std::process::{Command, Output};
 
 mod common;
@@ -72,29 +72,10 @@ fn run_writes_contract_outputs_with_closed_mass_balance() {
     // Divergence relative to the flow's own scale U/h = 1 /s.
     assert!(divergence < 1e-6, "max divergence {divergence:e} 1/s");
 
-    // Outside readers on the real folder (h5py; VTK when importable), when Python has h5py.
-    let script = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/python/check_outputs.py");
-    let has_h5py = Command::new("python3")
-        .args(["-c", "import h5py"])
-        .output()
-        .map(|o| o.status.success())
-        .unwrap_or(false);
-    if has_h5py {
-        // Parallel tests fork while holding HDF5 files open (the flock is inherited); reading needs no lock.
-        let check = Command::new("python3")
-            .env("HDF5_USE_FILE_LOCKING", "FALSE")
-            .arg(&script)
-            .arg(&out)
-            .output()
-            .expect("python3");
-        assert!(
-            check.status.success(),
-            "outside-reader check failed:\n{}\n{}",
-            String::from_utf8_lossy(&check.stdout),
-            String::from_utf8_lossy(&check.stderr)
-        );
-    } else {
-        println!("SKIPPED outside-reader part: python3 with h5py is not available (tests/outputs_outside_reader.rs installs it)");
+    // Outside readers on the real folder (h5py; VTK when importable).
+    if common::python::readers().is_some() {
+        let check = common::python::run_script("check_outputs.py", &[out.to_str().expect("UTF-8 path")]);
+        assert!(check.status.success(), "outside-reader check failed (its output is above)");
     }
 }
 

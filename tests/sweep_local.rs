@@ -2,9 +2,9 @@
 //! a failing case is recorded, the others finish, and the exit code says how many failed; `collect` gives one
 //! row per case.
 
-mod sweep_support;
+mod common;
 
-use sweep_support::*;
+use common::sweep::*;
 
 #[test]
 fn bad_axes_exit_2_naming_the_axis() {

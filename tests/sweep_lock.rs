@@ -2,14 +2,14 @@
 //! holder; after the first is killed (SIGKILL leaves its lock behind), the next sweep takes the stale lock
 //! over with a message and finishes the sweep. A lock planted for a live process is refused the same way.
 
-mod sweep_support;
+mod common;
 
 use std::path::Path;
 use std::process::{Command, Stdio};
 use std::time::{Duration, Instant};
 
+use common::sweep::*;
 use plumefield::sweep::lock::{LockHolder, LOCK_FILE};
-use sweep_support::*;
 
 fn sweep_args<'a>(sweep: &'a Path, out: &'a Path) -> Vec<&'a str> {
     vec!["sweep", sweep.to_str().unwrap(), "-o", out.to_str().unwrap(), "--jobs", "1", "--threads", "1"]

@@ -2,13 +2,13 @@
 //! interruption keeps intact outputs and is not run again, only the missing cases run, and the final
 //! `sweep.csv` (one row per case, no duplicates) equals that of an uninterrupted run of the same sweep.
 
-mod sweep_support;
+mod common;
 
 use std::path::Path;
 use std::process::{Command, Stdio};
 use std::time::{Duration, Instant};
 
-use sweep_support::*;
+use common::sweep::*;
 
 const CASES: usize = 8;
 

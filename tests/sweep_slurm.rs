@@ -8,13 +8,13 @@
 //! export (`scripts/test` does this and sets PLUMEFIELD_REQUIRE_SLURM=1, so in CI the test cannot skip).
 //! Without `SLURM_CONF` and `sbatch`, the test prints why and skips.
 
-mod sweep_support;
+mod common;
 
 use std::path::Path;
 use std::process::Command;
 use std::time::{Duration, Instant};
 
-use sweep_support::*;
+use common::sweep::*;
 
 const WAIT: Duration = Duration::from_secs(240);
 

@@ -128,20 +128,11 @@ fn transient_outputs_are_read_by_outside_readers() {
         assert_eq!(record.check(), Ok(()), "{}", path.display());
     }
 
-    let python = Command::new("python3").args(["-c", "import h5py, numpy"]).output();
-    if !python.map(|o| o.status.success()).unwrap_or(false) {
-        println!("SKIPPED the outside-reader part: python3 with h5py is not available");
+    if common::python::readers().is_none() {
         return;
     }
-    let script = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/python/check_transient.py");
-    let check = Command::new("python3")
-        .env("HDF5_USE_FILE_LOCKING", "FALSE")
-        .arg(script)
-        .arg(&out)
-        .output()
-        .expect("python3");
+    let check = common::python::run_script("check_transient.py", &[out.to_str().expect("UTF-8 path")]);
     let text = String::from_utf8_lossy(&check.stdout);
-    println!("{text}\n{}", String::from_utf8_lossy(&check.stderr));
     assert!(check.status.success(), "check_transient.py failed");
     assert!(text.contains("all transient output checks passed"));
 }

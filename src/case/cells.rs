@@ -1,13 +1,15 @@
-//! `[cells]`: default radius and secretion rate, surface uptake, and the layout (random, lattice, file or an
-//! explicit list), generated through the `mesh` crate and validated against the chamber.
+//! `[cells]`: default radius and secretion rate, surface uptake, and the layout (random, cluster, lattice, file
+//! or an explicit list), generated through the `mesh` crate and validated against the chamber.
 
 use std::ops::Range;
 
+use mesh::layout::csv_import::max_file_bytes;
 use mesh::layout::{
-    lattice, random_sequential_addition, read_csv, ChamberBox, LayoutError, RandomLayout, RandomTarget,
+    lattice, random_layout, read_csv, ChamberBox, LayoutError, PackingMethod, PlacementRegion, RandomLayout,
+    RandomTarget,
 };
 use mesh::{Cell, Layout};
-use solver::problem::SurfaceUptake;
+use solver::problem::{ChamberFace, SurfaceUptake};
 use toml::Spanned;
 
 use super::raw::{RawCells, RawLayout, RawNumber};
@@ -27,9 +29,11 @@ pub(super) struct CellDefaults {
 /// A generated layout and where in the file it was described (for later errors).
 pub(super) struct PlacedLayout {
     pub layout: Layout,
-    pub kind: &'static str,
+    /// The layout kind, with the packing method of a dense random layout (for reports).
+    pub kind: String,
     pub key: &'static str,
     pub span: Option<Range<usize>>,
+    pub chamber: ChamberBox,
 }
 
 pub(super) fn validate_cell_defaults(
@@ -111,13 +115,17 @@ pub(super) fn validate_cell_defaults(
 
 /// Refuse keys that a layout kind does not use: a key that is silently ignored is a mistake waiting to happen.
 fn refuse_unused(src: &Source, layout: &RawLayout, kind: &str, allowed: &[&str]) -> Result<(), CaseError> {
-    let present: [(&str, Option<Range<usize>>); 6] = [
+    let present: [(&str, Option<Range<usize>>); 10] = [
         ("count", layout.count.as_ref().map(Spanned::span)),
         ("volume_fraction", layout.volume_fraction.as_ref().map(Spanned::span)),
         ("min_gap", layout.min_gap.as_ref().map(Spanned::span)),
         ("seed", layout.seed.as_ref().map(Spanned::span)),
         ("spacing", layout.spacing.as_ref().map(Spanned::span)),
         ("path", layout.path.as_ref().map(Spanned::span)),
+        ("inlet_margin", layout.inlet_margin.as_ref().map(Spanned::span)),
+        ("outlet_margin", layout.outlet_margin.as_ref().map(Spanned::span)),
+        ("centre", layout.centre.as_ref().map(Spanned::span)),
+        ("semi_axes", layout.semi_axes.as_ref().map(Spanned::span)),
     ];
     for (name, span) in present {
         if let Some(span) = span {
@@ -143,13 +151,22 @@ fn layout_error(src: &Source, key: &str, span: Option<&Range<usize>>, source: La
     }
 }
 
+/// What a generated layout needs to know of the case besides `[cells]`.
+pub(super) struct LayoutSetting<'a> {
+    pub chamber: &'a ChamberBox,
+    /// Grid spacing (m): bounds how small, so how many, the cells of a layout file can be.
+    pub spacing: f64,
+    pub faces: &'a [[ChamberFace; 2]; 3],
+}
+
 pub(super) fn build_layout(
     src: &Source,
     cells: &RawCells,
     section: Option<&Range<usize>>,
     defaults: &CellDefaults,
-    chamber: &ChamberBox,
+    setting: &LayoutSetting,
 ) -> Result<PlacedLayout, CaseError> {
+    let chamber = setting.chamber;
     let (kind, key, span, layout) = match (&cells.layout, &cells.list) {
         (Some(_), Some(list)) => {
             return Err(src.error(
@@ -168,16 +185,16 @@ pub(super) fn build_layout(
         (None, Some(list)) => {
             let span = list.span();
             let layout = explicit_list(src, list.get_ref(), defaults)?;
-            ("list", "cells.list", span, layout)
+            ("list".to_string(), "cells.list", span, layout)
         }
         (Some(table), None) => {
             let span = table.span();
-            let (kind, layout) = generated_layout(src, table.get_ref(), &span, defaults, chamber)?;
+            let (kind, layout) = generated_layout(src, table.get_ref(), &span, defaults, setting)?;
             (kind, "cells.layout", span, layout)
         }
     };
     layout.validate(chamber).map_err(|e| layout_error(src, key, Some(&span), e))?;
-    Ok(PlacedLayout { layout, kind, key, span: Some(span) })
+    Ok(PlacedLayout { layout, kind, key, span: Some(span), chamber: *chamber })
 }
 
 fn generated_layout(
@@ -185,65 +202,67 @@ fn generated_layout(
     raw: &RawLayout,
     span: &Range<usize>,
     defaults: &CellDefaults,
-    chamber: &ChamberBox,
-) -> Result<(&'static str, Layout), CaseError> {
+    setting: &LayoutSetting,
+) -> Result<(String, Layout), CaseError> {
+    const KINDS: &str = "\"random\", \"cluster\", \"lattice\" or \"file\"";
     let Some(kind) = &raw.kind else {
-        return Err(src.missing("cells.layout.kind", Some(span), "\"random\", \"lattice\" or \"file\""));
+        return Err(src.missing("cells.layout.kind", Some(span), KINDS));
     };
+    let chamber = setting.chamber;
     let fail = |e| layout_error(src, "cells.layout", Some(span), e);
     match kind.get_ref().as_str() {
         "random" => {
-            refuse_unused(src, raw, "random", &["count", "volume_fraction", "min_gap", "seed"])?;
-            let target = match (&raw.count, &raw.volume_fraction) {
-                (Some(n), None) => RandomTarget::Count(src.whole_number("cells.layout.count", n, 1)?),
-                (None, Some(phi)) => {
-                    let phi = src.quantity(
-                        "cells.layout.volume_fraction",
-                        phi,
-                        Dimension::DIMENSIONLESS,
-                        Range0::Positive,
-                    )?;
-                    if phi >= 1.0 {
-                        let s = raw.volume_fraction.as_ref().map(Spanned::span);
-                        return Err(src.error(
-                            "cells.layout.volume_fraction",
-                            s.as_ref(),
-                            format!("cells.layout.volume_fraction = {phi} must be below 1"),
-                        ));
-                    }
-                    RandomTarget::VolumeFraction(phi)
-                }
-                (Some(_), Some(phi)) => {
+            let keys = ["count", "volume_fraction", "min_gap", "seed", "inlet_margin", "outlet_margin"];
+            refuse_unused(src, raw, "random", &keys)?;
+            let spec = random_spec(src, raw, span, defaults)?;
+            let mut margins = [[0.0; 2]; 3];
+            for (side, name, face) in
+                [(0, "inlet_margin", ChamberFace::Inlet), (1, "outlet_margin", ChamberFace::Outlet)]
+            {
+                let value = if side == 0 { &raw.inlet_margin } else { &raw.outlet_margin };
+                let Some(value) = value else { continue };
+                let key = format!("cells.layout.{name}");
+                let face_name = ["x_min", "x_max"][side];
+                if setting.faces[0][side] != face {
                     return Err(src.error(
-                        "cells.layout.volume_fraction",
-                        Some(&phi.span()),
-                        "cells.layout.count and cells.layout.volume_fraction are both given; give only one",
-                    ))
+                        &key,
+                        Some(&value.span()),
+                        format!(
+                            "{key} keeps cells away from the {face_name} face, which is not an {}",
+                            &name[..name.len() - 7]
+                        ),
+                    ));
                 }
-                (None, None) => {
+                margins[0][side] = src.quantity(&key, value, Dimension::LENGTH, Range0::NonNegative)?;
+            }
+            let region = PlacementRegion::Chamber { margins };
+            let placement =
+                random_layout(&spec, chamber, &region).map_err(|e| random_error(src, raw, span, e))?;
+            Ok((kind_with_method("random", placement.method), placement.layout))
+        }
+        "cluster" => {
+            let keys = ["centre", "semi_axes", "count", "volume_fraction", "min_gap", "seed"];
+            refuse_unused(src, raw, "cluster", &keys)?;
+            let mut axes = [[0.0; 3]; 2];
+            for (n, (name, value)) in
+                [("centre", &raw.centre), ("semi_axes", &raw.semi_axes)].into_iter().enumerate()
+            {
+                let key = format!("cells.layout.{name}");
+                let Some(list) = value else {
                     return Err(src.missing(
-                        "cells.layout.count",
+                        &key,
                         Some(span),
-                        "a random layout needs count = N or volume_fraction = φ",
-                    ))
-                }
-            };
-            let min_gap = src.quantity_or(
-                "cells.layout.min_gap",
-                raw.min_gap.as_ref(),
-                Dimension::LENGTH,
-                Range0::NonNegative,
-                0.0,
-            )?;
-            let seed = raw.seed.as_ref().map_or(1, |s| *s.get_ref());
-            let spec = RandomLayout {
-                target,
-                radius: defaults.radius,
-                secretion_rate: defaults.secretion_rate,
-                min_gap,
-                seed,
-            };
-            Ok(("random", random_sequential_addition(&spec, chamber).map_err(fail)?))
+                        "three lengths (x, y, z), e.g. [\"100 um\", \"100 um\", \"100 um\"]",
+                    ));
+                };
+                axes[n] =
+                    three_lengths(src, &key, list, if n == 0 { Range0::Any } else { Range0::Positive })?;
+            }
+            let spec = random_spec(src, raw, span, defaults)?;
+            let region = PlacementRegion::Ellipsoid { centre: axes[0], semi_axes: axes[1] };
+            let placement =
+                random_layout(&spec, chamber, &region).map_err(|e| random_error(src, raw, span, e))?;
+            Ok((kind_with_method("cluster", placement.method), placement.layout))
         }
         "lattice" => {
             refuse_unused(src, raw, "lattice", &["spacing"])?;
@@ -254,35 +273,123 @@ fn generated_layout(
                     "three lengths, e.g. [\"40 um\", \"40 um\", \"40 um\"]",
                 ));
             };
-            let spacing = three_lengths(src, "cells.layout.spacing", list)?;
-            Ok(("lattice", lattice(spacing, chamber, defaults.radius, defaults.secretion_rate).map_err(fail)?))
+            let spacing = three_lengths(src, "cells.layout.spacing", list, Range0::Positive)?;
+            let layout = lattice(spacing, chamber, defaults.radius, defaults.secretion_rate).map_err(fail)?;
+            Ok(("lattice".to_string(), layout))
         }
         "file" => {
             refuse_unused(src, raw, "file", &["path"])?;
             let Some(path) = &raw.path else {
-                return Err(src.missing("cells.layout.path", Some(span), "a CSV file with columns x,y,z[,radius,secretion_rate]"));
+                return Err(src.missing(
+                    "cells.layout.path",
+                    Some(span),
+                    "a CSV file with columns x,y,z[,radius,secretion_rate]",
+                ));
             };
             // Relative to the case file's folder, so a case and its layout move together.
             let folder = src.path.parent().unwrap_or(std::path::Path::new(""));
             let file = folder.join(path.get_ref());
-            let layout = read_csv(&file, defaults.radius, defaults.secretion_rate)
+            // No more cells than the densest packing (π/√18, Kepler's bound) of the smallest cells the grid
+            // accepts (radius 2.5 h) fits in the chamber.
+            let smallest = mesh::layout::resolution::MIN_RADIUS_IN_SPACINGS * setting.spacing;
+            let most_cells = std::f64::consts::PI / 18f64.sqrt() * chamber.volume()
+                / (4.0 / 3.0 * std::f64::consts::PI * smallest.powi(3));
+            let limit = max_file_bytes(most_cells.ceil().min(u64::MAX as f64) as u64);
+            let layout = read_csv(&file, defaults.radius, defaults.secretion_rate, limit)
                 .map_err(|e| layout_error(src, "cells.layout.path", Some(&path.span()), e))?;
-            Ok(("file", layout))
+            Ok(("file".to_string(), layout))
         }
         other => Err(src.error(
             "cells.layout.kind",
             Some(&kind.span()),
-            format!(
-                "cells.layout.kind = \"{other}\" is not a layout kind; use \"random\", \"lattice\" or \"file\" (or [[cells.list]])"
-            ),
+            format!("cells.layout.kind = \"{other}\" is not a layout kind; use {KINDS} (or [[cells.list]])"),
         )),
     }
+}
+
+/// The layout kind for reports: a dense random layout names its packing method.
+fn kind_with_method(kind: &str, method: PackingMethod) -> String {
+    match method {
+        PackingMethod::SequentialAddition => kind.to_string(),
+        PackingMethod::GrowthWithRelaxation => format!("{kind} ({})", method.describe()),
+    }
+}
+
+/// A refused random layout, blamed on the key that sets how many cells there are.
+fn random_error(src: &Source, raw: &RawLayout, span: &Range<usize>, error: LayoutError) -> CaseError {
+    let (key, at) = match (&raw.count, &raw.volume_fraction) {
+        (Some(n), _) => ("cells.layout.count", n.span()),
+        (None, Some(phi)) => ("cells.layout.volume_fraction", phi.span()),
+        (None, None) => ("cells.layout", span.clone()),
+    };
+    let key = if matches!(error, LayoutError::Invalid { .. }) { "cells.layout" } else { key };
+    let at = if key == "cells.layout" { span.clone() } else { at };
+    layout_error(src, key, Some(&at), error)
+}
+
+/// `count` or `volume_fraction`, `min_gap` (default 0) and `seed` (default 1) of a random or cluster layout.
+fn random_spec(
+    src: &Source,
+    raw: &RawLayout,
+    span: &Range<usize>,
+    defaults: &CellDefaults,
+) -> Result<RandomLayout, CaseError> {
+    let target = match (&raw.count, &raw.volume_fraction) {
+        (Some(n), None) => RandomTarget::Count(src.whole_number("cells.layout.count", n, 1)?),
+        (None, Some(phi)) => {
+            let phi = src.quantity(
+                "cells.layout.volume_fraction",
+                phi,
+                Dimension::DIMENSIONLESS,
+                Range0::Positive,
+            )?;
+            if phi >= 1.0 {
+                let s = raw.volume_fraction.as_ref().map(Spanned::span);
+                return Err(src.error(
+                    "cells.layout.volume_fraction",
+                    s.as_ref(),
+                    format!("cells.layout.volume_fraction = {phi} must be below 1"),
+                ));
+            }
+            RandomTarget::VolumeFraction(phi)
+        }
+        (Some(_), Some(phi)) => {
+            return Err(src.error(
+                "cells.layout.volume_fraction",
+                Some(&phi.span()),
+                "cells.layout.count and cells.layout.volume_fraction are both given; give only one",
+            ))
+        }
+        (None, None) => {
+            return Err(src.missing(
+                "cells.layout.count",
+                Some(span),
+                "a random or cluster layout needs count = N or volume_fraction = φ",
+            ))
+        }
+    };
+    let min_gap = src.quantity_or(
+        "cells.layout.min_gap",
+        raw.min_gap.as_ref(),
+        Dimension::LENGTH,
+        Range0::NonNegative,
+        0.0,
+    )?;
+    let seed = raw.seed.as_ref().map_or(1, |s| *s.get_ref());
+    Ok(RandomLayout {
+        target,
+        radius: defaults.radius,
+        secretion_rate: defaults.secretion_rate,
+        min_gap,
+        seed,
+    })
 }
 
 fn three_lengths(
     src: &Source,
     key: &str,
     list: &Spanned<Vec<Spanned<RawNumber>>>,
+    range: Range0,
 ) -> Result<[f64; 3], CaseError> {
     let values = list.get_ref();
     if values.len() != 3 {
@@ -294,7 +401,7 @@ fn three_lengths(
     }
     let mut out = [0.0; 3];
     for (a, v) in values.iter().enumerate() {
-        out[a] = src.quantity(&format!("{key}[{a}]"), v, Dimension::LENGTH, Range0::Positive)?;
+        out[a] = src.quantity(&format!("{key}[{a}]"), v, Dimension::LENGTH, range)?;
     }
     Ok(out)
 }
@@ -341,7 +448,8 @@ fn explicit_list(
     Ok(Layout { cells })
 }
 
-/// Refuse cells the grid cannot resolve; return warnings for those that are resolved only coarsely.
+/// Refuse cells the grid cannot resolve; return warnings for those that are resolved only coarsely, for
+/// gaps narrower than a grid spacing, and for a layout file without cells.
 pub(super) fn check_resolution(
     src: &Source,
     placed: &PlacedLayout,
@@ -359,13 +467,51 @@ pub(super) fn check_resolution(
             100.0 * w.expected_surface_error
         )
     };
-    if warnings.len() <= 3 {
-        return Ok(warnings.iter().map(describe).collect());
+    let mut messages: Vec<String> = if warnings.len() <= 3 {
+        warnings.iter().map(describe).collect()
+    } else {
+        let worst = warnings
+            .iter()
+            .max_by(|a, b| a.expected_surface_error.total_cmp(&b.expected_surface_error))
+            .map(describe)
+            .unwrap_or_default();
+        vec![format!("{} cells have a radius under 4 grid spacings; the worst: {worst}", warnings.len())]
+    };
+    messages.extend(narrow_gaps(placed, spacing));
+    if placed.kind == "file" && placed.layout.cells.is_empty() {
+        messages.push(format!(
+            "{}: the layout file holds no cells, so the chamber has none (valid, but most likely a mistake; \
+             use list = [] for a chamber without cells on purpose)",
+            placed
+                .span
+                .as_ref()
+                .map_or(String::new(), |s| format!("line {}: cells.layout.path", src.line(s)))
+        ));
     }
-    let worst = warnings
-        .iter()
-        .max_by(|a, b| a.expected_surface_error.total_cmp(&b.expected_surface_error))
-        .map(describe)
-        .unwrap_or_default();
-    Ok(vec![format!("{} cells have a radius under 4 grid spacings; the worst: {worst}", warnings.len())])
+    Ok(messages)
+}
+
+/// A warning for cells closer than one grid spacing. Between two spheres at gap g the surfaces are closer
+/// than h over a cap of area about π a (h − g) on each (the local gap grows as g + a θ² away from the line of
+/// centres), a fraction (h − g)/(4a) of the sphere; there the fluid between them is less than one grid cell
+/// thick, so transport through the gap is not resolved and the surface values on that cap are off.
+fn narrow_gaps(placed: &PlacedLayout, spacing: f64) -> Option<String> {
+    let close = placed.layout.close_pairs(&placed.chamber, spacing);
+    let (first, second, gap) = close.closest?;
+    let radius = |id: usize| placed.layout.cells.iter().find(|c| c.id == id).map_or(f64::NAN, |c| c.radius);
+    let smaller = radius(first).min(radius(second));
+    let fraction = (spacing - gap.max(0.0)) / (4.0 * smaller);
+    Some(format!(
+        "{} pair{} of cells {} surface gaps below the grid spacing of {:.2} um (the narrowest, {:.2} um, between \
+         cells {first} and {second}); the fluid between them is thinner than one grid cell, so transport through \
+         the gap is not resolved: expect errors of order {:.1}% in such a cell's surface integrals per close \
+         neighbour (the part of its surface nearer than one grid spacing to the neighbour); refine the grid or \
+         raise cells.layout.min_gap",
+        close.count,
+        if close.count == 1 { "" } else { "s" },
+        if close.count == 1 { "has" } else { "have" },
+        spacing * 1e6,
+        gap * 1e6,
+        100.0 * fraction
+    ))
 }

@@ -5,6 +5,7 @@
 //! the file, the line and the dotted key ([`CaseError`]).
 
 mod boundaries;
+pub mod bounded_read;
 mod cells;
 mod decompose;
 mod error;
@@ -51,6 +52,13 @@ pub struct SensingSettings {
     pub integration_time: f64,
     /// Which cells get the self/neighbour split; default `sample:4` (see `decompose.rs`).
     pub decompose: solver::post::decompose::DecomposeSelection,
+    /// Direction error above which a cell counts as unable to read the flow direction; default 1.
+    pub readable_error: f64,
+    /// Slabs along x for the position-resolved statistics; default 8.
+    pub position_bins: usize,
+    /// Cells whose centre lies closer than this to the x_min or x_max face are left out of the
+    /// statistics (m); default 0.
+    pub statistics_margin: f64,
 }
 
 /// A field that `run` writes to `fields.h5`.
@@ -125,7 +133,7 @@ impl Case {
     /// Read, parse and validate a case file. Relative paths inside it (layout files) are taken relative to the
     /// file's folder.
     pub fn load(path: &Path) -> Result<Case, CaseError> {
-        use crate::io::bounded_read::{read_bounded, TEXT_INPUT_LIMIT};
+        use bounded_read::{read_bounded, TEXT_INPUT_LIMIT};
         let bytes = read_bounded(path, TEXT_INPUT_LIMIT, "case file")
             .map_err(|error| CaseError::Read { path: path.to_path_buf(), error: error.into() })?;
         let text = String::from_utf8(bytes).map_err(|_| CaseError::Syntax {

@@ -151,6 +151,12 @@ pub struct RawLayout {
     pub seed: Value<u64>,
     pub spacing: Value<Vec<Spanned<RawNumber>>>,
     pub path: Value<String>,
+    /// Random layouts: cell-free lengths next to the inlet (x_min) and the outlet (x_max).
+    pub inlet_margin: Value<RawNumber>,
+    pub outlet_margin: Value<RawNumber>,
+    /// Cluster layouts: centre and semi-axes of the ellipsoid that holds the cell centres.
+    pub centre: Value<Vec<Spanned<RawNumber>>>,
+    pub semi_axes: Value<Vec<Spanned<RawNumber>>>,
 }
 
 /// One `[[cells.list]]` entry.
@@ -189,6 +195,9 @@ pub struct RawSensing {
     pub decompose: Value<toml::Value>,
     /// Transient: cumulative counts start here.
     pub window_start: Value<RawNumber>,
+    pub readable_error: Value<RawNumber>,
+    pub position_bins: Value<RawNumber>,
+    pub statistics_margin: Value<RawNumber>,
 }
 
 #[derive(Debug, Default, Deserialize)]

@@ -432,7 +432,8 @@ fn random_layout_rules() {
     let text = edit(LATTICE, "layout = { kind = \"random\", count = 400 }");
     let error = parse(&text).expect_err("cannot pack 400 cells of 8 um in 96 x 48 x 40 um");
     assert!(matches!(error, CaseError::Layout { .. }), "{error}");
-    assert_eq!(error.key(), Some("cells.layout"));
+    // Beyond random close packing: refused at once, blamed on the key that sets the count.
+    assert_eq!(error.key(), Some("cells.layout.count"));
     assert_eq!(error.line(), Some(line_containing(&text, "layout = ")));
 }
 
@@ -568,4 +569,52 @@ fn layout_file_is_relative_to_the_case_folder() {
     let error = Case::load(&case_path).expect_err("missing file");
     assert_eq!(error.key(), Some("cells.layout.path"));
     assert_eq!(error.line(), Some(line_containing(&text, "missing.csv")));
+}
+
+#[test]
+fn sensing_statistics_keys_default_and_refuse_bad_values() {
+    let case = parse(BASE).unwrap_or_else(|e| panic!("{e}"));
+    let s = &case.sensing;
+    assert_eq!((s.readable_error, s.position_bins, s.statistics_margin), (1.0, 8, 0.0));
+    let set = |keys: &str| edit("integration_time = \"1 h\"", &format!("integration_time = \"1 h\"\n{keys}"));
+    let case = parse(&set("readable_error = 0.5\nposition_bins = 3\nstatistics_margin = \"20 um\""))
+        .unwrap_or_else(|e| panic!("{e}"));
+    assert_eq!((case.sensing.readable_error, case.sensing.position_bins), (0.5, 3));
+    assert!((case.sensing.statistics_margin - 2e-5).abs() < 1e-20);
+    expect_error(
+        &set("readable_error = 0"),
+        "sensing.readable_error",
+        Some("readable_error"),
+        &["must be positive"],
+    );
+    expect_error(
+        &set("position_bins = 0"),
+        "sensing.position_bins",
+        Some("position_bins"),
+        &["whole number"],
+    );
+    expect_error(
+        &set("position_bins = 2.5"),
+        "sensing.position_bins",
+        Some("position_bins"),
+        &["whole number"],
+    );
+    expect_error(
+        &set("position_bins = 5000"),
+        "sensing.position_bins",
+        Some("position_bins"),
+        &["more than"],
+    );
+    expect_error(
+        &set("statistics_margin = \"1 m\""),
+        "sensing.statistics_margin",
+        Some("statistics_margin"),
+        &["leaves no part of the chamber"],
+    );
+    expect_error(
+        &set("statistics_margin = \"1 s\""),
+        "sensing.statistics_margin",
+        Some("statistics_margin"),
+        &["expected a length"],
+    );
 }

@@ -227,14 +227,19 @@ pub(super) fn validate(raw: RawCase, text: &str, path: &Path) -> Result<Case, Ca
         .as_ref()
         .and_then(|l| l.get_ref().path.as_ref())
         .map(|p| path.parent().unwrap_or(Path::new("")).join(p.get_ref()));
-    let placed = super::cells::build_layout(&src, &cells, cells_span.as_ref(), &cell_defaults, &chamber_box)?;
+    let setting = super::cells::LayoutSetting {
+        chamber: &chamber_box,
+        spacing: fitted.grid.spacing,
+        faces: &boundaries.faces,
+    };
+    let placed = super::cells::build_layout(&src, &cells, cells_span.as_ref(), &cell_defaults, &setting)?;
     let resolution = super::cells::check_resolution(&src, &placed, fitted.grid.spacing)?;
     warnings.extend(resolution);
 
     let (raw_solve, solve_span) = section(raw.solve);
     let mut solve = validate_solve(&src, &raw_solve)?;
     let (raw_sensing, _) = section(raw.sensing);
-    let sensing = validate_sensing(&src, &raw_sensing)?;
+    let sensing = validate_sensing(&src, &raw_sensing, fitted.size[0])?;
     if solve.mode == SolveMode::Transient {
         let case_dir = path.parent().unwrap_or(Path::new("."));
         solve.transient = Some(super::transient::validate_transient(
@@ -431,8 +436,15 @@ fn validate_solve(src: &Source, solve: &RawSolve) -> Result<SolveSettings, CaseE
     Ok(SolveSettings { mode: mode_value, tolerance, max_iterations, transient: None })
 }
 
+/// More slabs than this would say nothing a per-cell table does not.
+const MAX_POSITION_BINS: usize = 1000;
+
 /// `[sensing]`
-fn validate_sensing(src: &Source, sensing: &RawSensing) -> Result<SensingSettings, CaseError> {
+fn validate_sensing(
+    src: &Source,
+    sensing: &RawSensing,
+    chamber_length: f64,
+) -> Result<SensingSettings, CaseError> {
     let integration_time = src.quantity_or(
         "sensing.integration_time",
         sensing.integration_time.as_ref(),
@@ -441,7 +453,46 @@ fn validate_sensing(src: &Source, sensing: &RawSensing) -> Result<SensingSetting
         3600.0,
     )?;
     let decompose = super::decompose::validate_decompose(src, sensing.decompose.as_ref())?;
-    Ok(SensingSettings { integration_time, decompose })
+    let readable_error = src.quantity_or(
+        "sensing.readable_error",
+        sensing.readable_error.as_ref(),
+        Dimension::DIMENSIONLESS,
+        Range0::Positive,
+        1.0,
+    )?;
+    let position_bins = match &sensing.position_bins {
+        Some(v) => {
+            let bins = src.whole_number("sensing.position_bins", v, 1)?;
+            if bins > MAX_POSITION_BINS {
+                return Err(src.error(
+                    "sensing.position_bins",
+                    Some(&v.span()),
+                    format!("sensing.position_bins = {bins} is more than {MAX_POSITION_BINS} slabs"),
+                ));
+            }
+            bins
+        }
+        None => 8,
+    };
+    let statistics_margin = src.quantity_or(
+        "sensing.statistics_margin",
+        sensing.statistics_margin.as_ref(),
+        Dimension::LENGTH,
+        Range0::NonNegative,
+        0.0,
+    )?;
+    if let Some(v) = sensing.statistics_margin.as_ref().filter(|_| 2.0 * statistics_margin >= chamber_length)
+    {
+        return Err(src.error(
+            "sensing.statistics_margin",
+            Some(&v.span()),
+            format!(
+                "sensing.statistics_margin = {} leaves no part of the chamber (its x length is {chamber_length:e} m)",
+                v.get_ref()
+            ),
+        ));
+    }
+    Ok(SensingSettings { integration_time, decompose, readable_error, position_bins, statistics_margin })
 }
 
 /// `[output]`

@@ -7,6 +7,7 @@ use anyhow::Result;
 
 use crate::figures::sweep_curves::draw_sweep_curves;
 use crate::sweep::collect::{collect, write_csv, write_h5, write_timings, ColumnData};
+use crate::sweep::replicate_groups::replicate_groups;
 
 pub fn execute(dir: &Path) -> Result<()> {
     let (table, plan, timings) = collect(dir)?;
@@ -14,6 +15,7 @@ pub fn execute(dir: &Path) -> Result<()> {
     let (written, figures) = rayon::join(
         || -> Result<()> {
             write_csv(&dir.join("sweep.csv"), &table)?;
+            write_csv(&dir.join("sweep_groups.csv"), &replicate_groups(&table, &plan))?;
             write_h5(&dir.join("sweep.h5"), &table, &plan)?;
             write_timings(&dir.join("timings.csv"), &plan, &timings)
         },
@@ -26,7 +28,7 @@ pub fn execute(dir: &Path) -> Result<()> {
         _ => 0,
     };
     eprintln!(
-        "collected {} cases ({} done, {} failed, {} not done) into {} and sweep.h5; {} figures in {}",
+        "collected {} cases ({} done, {} failed, {} not done) into {}, sweep_groups.csv and sweep.h5; {} figures in {}",
         table.rows,
         count("done"),
         count("failed"),

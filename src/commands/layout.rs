@@ -78,6 +78,18 @@ pub fn describe_layout(case: &Case) -> String {
             .map(|(q, d)| format!("q{:.0}% {:.2}", q * 100.0, d * 1e6))
             .collect();
         let _ = writeln!(text, "nearest-neighbour centre distance (um): {}", quantiles.join(", "));
+        let gaps: Vec<String> = stats
+            .nearest_gap_quantiles
+            .iter()
+            .map(|(q, d)| {
+                if *q == 0.0 {
+                    format!("min {:.3}", d * 1e6)
+                } else {
+                    format!("q{:.0}% {:.3}", q * 100.0, d * 1e6)
+                }
+            })
+            .collect();
+        let _ = writeln!(text, "nearest surface gap (um): {}", gaps.join(", "));
     }
     for warning in &case.warnings {
         let _ = writeln!(text, "warning: {warning}");

@@ -275,7 +275,7 @@ fn slurm_options(options: &SweepOptions, dir: &Path) -> Result<SlurmOptions> {
         match &options.setup {
             None => None,
             Some(path) => {
-                let bytes = crate::io::bounded_read::read_bounded(path, 64 << 10, "set-up file")
+                let bytes = crate::case::bounded_read::read_bounded(path, 64 << 10, "set-up file")
                     .map_err(|e| InputError(format!("--setup {}: cannot read it: {e}", path.display())))?;
                 Some(String::from_utf8(bytes).map_err(|_| {
                     InputError(format!("--setup {}: the file is not UTF-8 text", path.display()))

@@ -49,7 +49,7 @@ pub struct RunFigureData {
     pub readable_error: f64,
 }
 
-/// The readable level drawn until the summary carries the run's own `readable_error`.
+/// The readable level drawn for summaries without a `sensing` section (older versions).
 const DEFAULT_READABLE_ERROR: f64 = 1.0;
 
 impl RunFigureData {
@@ -84,7 +84,7 @@ impl RunFigureData {
             meanfield_profile,
             isolated_anisotropy: estimates.isolated_anisotropy,
             integration_time: estimates.case["integration_time"].as_f64(),
-            readable_error: DEFAULT_READABLE_ERROR,
+            readable_error: summary.sensing.as_ref().map_or(DEFAULT_READABLE_ERROR, |s| s.readable_error),
         })
     }
 }

@@ -149,8 +149,7 @@ fn draw_one(
             if log_x { format!("{} (log scale)", label(x_name, x_unit)) } else { label(x_name, x_unit) };
         chart
             .configure_mesh()
-            // Major grid lines only: plotters' default ten light lines per step cluttered the curves and
-            // were a quarter of `collect`'s CPU time (measured), which a local sweep spends after its cases.
+            // Major grid lines only: the default light lines clutter the curves and cost `collect` CPU time.
             .max_light_lines(0)
             .x_desc(x_label)
             .y_desc(label(metric.name, metric.unit))

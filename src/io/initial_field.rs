@@ -32,12 +32,22 @@ pub fn read_initial_concentration(path: &Path, grid: &mesh::Grid) -> Result<Vec<
         let name = name.clone();
         move |e: hdf5::Error| InitialFieldError::Missing { path: name, dataset, message: e.to_string() }
     };
-    let shape: Vec<u64> =
-        file.dataset("grid/shape").and_then(|d| d.read_raw()).map_err(missing("/grid/shape"))?;
-    let spacing: f64 =
-        file.dataset("grid/spacing").and_then(|d| d.read_scalar()).map_err(missing("/grid/spacing"))?;
-    let origin: Vec<f64> =
-        file.dataset("grid/origin").and_then(|d| d.read_raw()).map_err(missing("/grid/origin"))?;
+    // Every dataset is read only after its size is checked against what it must hold (three numbers, one, the
+    // grid's cells), so that a foreign or damaged file cannot make the run allocate more.
+    let sized = |name: &'static str, expected: usize| -> Result<hdf5::Dataset, InitialFieldError> {
+        let dataset = file.dataset(name).map_err(missing(name))?;
+        if dataset.size() != expected {
+            return Err(InitialFieldError::GridMismatch {
+                path: path.display().to_string(),
+                found: format!("/{name} with {} values", dataset.size()),
+                expected: format!("{expected}"),
+            });
+        }
+        Ok(dataset)
+    };
+    let shape: Vec<u64> = sized("grid/shape", 3)?.read_raw().map_err(missing("/grid/shape"))?;
+    let spacing: f64 = sized("grid/spacing", 1)?.read_scalar().map_err(missing("/grid/spacing"))?;
+    let origin: Vec<f64> = sized("grid/origin", 3)?.read_raw().map_err(missing("/grid/origin"))?;
     let expected_shape: Vec<u64> = grid.shape.iter().map(|&n| n as u64).collect();
     let close = |a: f64, b: f64| (a - b).abs() <= 1e-9 * grid.spacing.max(a.abs().max(b.abs()));
     let same = shape == expected_shape
@@ -51,10 +61,8 @@ pub fn read_initial_concentration(path: &Path, grid: &mesh::Grid) -> Result<Vec<
             expected: describe(&expected_shape, grid.spacing, &grid.origin),
         });
     }
-    let values: Vec<f64> = file
-        .dataset("ligand/concentration")
-        .and_then(|d| d.read_raw())
-        .map_err(missing("/ligand/concentration"))?;
+    let values: Vec<f64> =
+        sized("ligand/concentration", grid.len())?.read_raw().map_err(missing("/ligand/concentration"))?;
     if values.len() != grid.len() {
         return Err(InitialFieldError::GridMismatch {
             path: name,

@@ -4,13 +4,14 @@
 
 pub mod atomic;
 pub mod binary_record;
-pub mod bounded_read;
 pub mod cells_csv;
 pub mod fields_h5;
+pub mod folder_lock;
 pub mod initial_field;
 pub mod number_text;
 pub mod output_folder;
 pub mod provenance;
+pub mod sensing_by_position;
 pub mod summary_json;
 pub mod table;
 pub mod transient_h5;

@@ -18,7 +18,7 @@ use std::fs;
 use std::io::ErrorKind;
 use std::path::{Path, PathBuf};
 
-use crate::sweep::lock::{LockError, SweepLock};
+use super::folder_lock::{LockError, SweepLock};
 
 /// The completeness marker of a run folder.
 pub const MARKER: &str = "run.json";

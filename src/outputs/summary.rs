@@ -36,6 +36,9 @@ pub struct RunSummary {
     pub transient: Option<TransientSummary>,
     pub estimates: EstimatesSummary,
     pub cells: CellsSummary,
+    /// Where sensing fails: failed fraction, quantiles, slabs along x (absent in summaries of older versions).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub sensing: Option<crate::sensing::statistics::SensingStatistics>,
     pub warnings: Vec<String>,
     /// Units by dotted key; `cells.csv` maps each column to its unit.
     pub units: BTreeMap<String, Unit>,

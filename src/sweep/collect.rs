@@ -232,6 +232,13 @@ pub fn collect(dir: &Path) -> Result<(SweepTable, PlanRecord, Vec<Option<CaseTim
             });
         }
     }
+    let sensing: Vec<Option<serde_json::Value>> = data
+        .iter()
+        .map(|d| {
+            d.as_ref().and_then(|d| d.summary.sensing.as_ref()).and_then(|s| serde_json::to_value(s).ok())
+        })
+        .collect();
+    columns.extend(super::sensing_columns::sensing_columns(&sensing));
     let timings = data.iter().map(|d| d.as_ref().map(|d| d.timing)).collect();
     Ok((SweepTable { columns, rows }, plan, timings))
 }

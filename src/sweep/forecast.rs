@@ -3,15 +3,9 @@
 //!
 //! Memory and time grow linearly with the number of grid cells (multigrid-preconditioned solves, DESIGN.md
 //! §3); the self/neighbour split adds one transport solve per decomposed cell (`[sensing] decompose`).
-//! Calibration (release build, `plumefield run --threads 1`, CPU time by `perf stat` so that the load other
-//! programs put on the shared development machine does not count; measured 2026-12-02, load average ~10):
-//! - cases/demo.toml (200×100×50 = 1.0e6 grid cells, 300 cells) with `decompose = "none"`: 5.41 s, peak
-//!   resident 573 MB;
-//! - the same with the default `decompose` (4 sampled cells): 8.82 s, 590 MB — so 0.85 s per decomposed cell
-//!   per million grid cells.
-//!
-//! The straight line through the origin plus a fixed start-up cost over-forecasts tiny grids that fit in the
-//! caches: the 48×24×16 sweep case (4 decomposed cells) takes about 0.09 s, forecast 0.19 s. The Brinkman/Stokes
+//! The constants are calibrated on cases/demo.toml with and without the split, one thread, CPU time
+//! (bench/RECORDS.md, "Run-time and memory forecast"). The straight line through the origin plus a fixed
+//! start-up cost over-forecasts tiny grids that fit in the caches. The Brinkman/Stokes
 //! flow solve and the time steps of transient runs are added from their benchmarks (constants below; an adaptive
 //! run is assumed to take a fixed number of steps). A forecast, not a bound.
 
@@ -22,8 +16,8 @@ use solver::problem::MediumModel;
 const BASE_BYTES: f64 = 14.0e6;
 /// Resident memory per grid cell, bytes (geometry, flow, transport, multigrid hierarchy, Krylov vectors).
 const BYTES_PER_GRID_CELL: f64 = 560.0;
-/// Extra resident memory per grid cell for each thread beyond the first (per-thread work buffers), bytes:
-/// the demo case peaked at 590 MB on one thread and 677 MB on two (one pair of runs, so a rough slope).
+/// Extra resident memory per grid cell for each thread beyond the first (per-thread work buffers), bytes; a
+/// rough slope from one pair of runs.
 const BYTES_PER_GRID_CELL_PER_EXTRA_THREAD: f64 = 87.0;
 /// Fixed cost of a run (start-up, file writes), seconds.
 const BASE_SECONDS: f64 = 0.03;
@@ -32,18 +26,17 @@ const SECONDS_PER_GRID_CELL: f64 = 5.4e-6;
 /// Time per grid cell of the self/neighbour split of one cell (one more transport solve, warm-started
 /// multigrid hierarchy), on one thread, seconds.
 const DECOMPOSE_SECONDS_PER_GRID_CELL: f64 = 0.85e-6;
-/// Brinkman/Stokes flow solve per grid cell on one thread, seconds: `scripts/bench_brinkman` at 128³ (200
-/// cells, idle machine, 2026-12-02) took 13.0 s wall on 2 threads, i.e. about 22 s on one.
+/// Brinkman/Stokes flow solve per grid cell on one thread, seconds (from `scripts/bench_brinkman`).
 const VISCOUS_FLOW_SECONDS_PER_GRID_CELL: f64 = 10.5e-6;
-/// One BDF2 time step per grid cell on one thread, seconds: `scripts/bench_transient` at 128³ (2026-12-02, load
-/// about 2): mean step 0.246 s CPU for 2.1e6 grid cells, with the history-projection guess.
+/// One BDF2 time step per grid cell on one thread, seconds, with the history-projection guess (from
+/// `scripts/bench_transient`).
 const STEP_SECONDS_PER_GRID_CELL: f64 = 0.12e-6;
-/// Steps assumed for an adaptive run: the demo chamber from zero to steady state took 39 (4 rejected) in
-/// `scripts/bench_transient`; a run without `stop_at_steady` or with events takes more, hence the headroom.
+/// Steps assumed for an adaptive run: the demo chamber reaches steady state in a few dozen; a run without
+/// `stop_at_steady` or with events takes more, hence the headroom.
 const ADAPTIVE_STEPS: f64 = 100.0;
 /// History fields (four solutions and their operator products for the guess), step vectors, a second multigrid
-/// hierarchy and the sensing window of a transient run, bytes per grid cell: `plumefield run` of
-/// cases/bench128.toml as transient peaked 245 MB above the steady run (117 B per grid cell; 2026-12-02).
+/// hierarchy and the sensing window of a transient run, bytes per grid cell (transient minus steady peak of
+/// cases/bench128.toml).
 const TRANSIENT_BYTES_PER_GRID_CELL: f64 = 120.0;
 /// Parallel efficiency assumed for the threads of one case (common practice for memory-bound stencils).
 const THREAD_EFFICIENCY: f64 = 0.7;

@@ -4,11 +4,8 @@
 //! unmaps it when freed, and gives the top of its heaps back to the kernel (`madvise`) once more than 128 KiB
 //! are free there. A sweep runs many cases one after another in one process, each allocating and freeing the
 //! same arrays, so every case faults its memory in again; and with several jobs in one process each unmap
-//! interrupts the other jobs' cores to flush their address translations (one address space). Measured on 2
-//! cores, 24 tiny cases (`scripts/bench_sweep`'s sweep), median of 6 runs each: the CPU time per case rose
-//! by 15% when two jobs shared the process, against 1% for two separate processes; with the thresholds
-//! below, by 4% and 8% in two series in which two separate processes rose by 1% and 10% (what is left is
-//! the cores' shared cache and memory).
+//! interrupts the other jobs' cores to flush their address translations (one address space). Raising the
+//! thresholds removes most of that cost (bench/RECORDS.md, "Memory reuse in local sweeps").
 //!
 //! Arrays above 32 MiB (glibc's largest `mmap` threshold) are still mapped one by one; at that size the case's
 //! work dwarfs the cost. The memory kept is at most what the largest case held, which the jobs' memory

@@ -12,10 +12,13 @@ pub mod done_marker;
 pub mod error;
 pub mod expand;
 pub mod forecast;
-pub mod lock;
+/// The sweep folder's lock (shared with the output folder of `run`).
+pub use crate::io::folder_lock as lock;
 pub mod memory_reuse;
 pub mod plan_record;
+pub mod replicate_groups;
 pub mod run_local;
+pub mod sensing_columns;
 pub mod slurm;
 pub mod sweep_file;
 

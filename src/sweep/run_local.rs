@@ -1,6 +1,6 @@
 //! Running the cases of a sweep on this machine: `jobs` cases at a time, each on its own rayon pool of
 //! `threads_per_job` threads (so the machine's cores are divided among the jobs, not oversubscribed), each into
-//! `DIR/cases/<id>/` through the `run` command's own functions. A case that fails is recorded and the others go
+//! `DIR/cases/<id>/` through the run engine (`crate::engine`), as `run` does. A case that fails is recorded and the others go
 //! on. Resumable: cases already done (see `done_marker`) are skipped, and a case interrupted at any point is
 //! started again from an empty folder.
 //!
@@ -22,8 +22,8 @@ use super::done_marker::{
 };
 use super::expand::Plan;
 use crate::case::SolveMode;
-use crate::commands::run::transient::{self, TransientOptions};
-use crate::commands::run::{solution_warnings, steady_case, write_outputs};
+use crate::engine::transient::{self, TransientOptions};
+use crate::engine::{solution_warnings, steady_case, write_outputs};
 use crate::exit::{one_line, InputError, SolverFailure};
 use crate::io::atomic::without_fsync;
 use crate::io::write_atomic;

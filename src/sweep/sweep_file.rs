@@ -25,8 +25,8 @@ use serde::Deserialize;
 
 use super::axis::{range_values, AxisValue, Scale};
 use super::error::SweepError;
+use crate::case::bounded_read::{read_bounded, TEXT_INPUT_LIMIT};
 use crate::case::units::parse_unit;
-use crate::io::bounded_read::{read_bounded, TEXT_INPUT_LIMIT};
 
 /// How the axes are combined into cases.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, serde::Serialize, serde::Deserialize)]

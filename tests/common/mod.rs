@@ -1,5 +1,13 @@
-//! What several end-to-end tests share: the small chamber of `small_chamber.toml`, changed key by key with the
-//! sweep's own dotted-key setter (`chamber.size`, `solve.mode`, `cells.uptake.rate_constant`, …).
+//! What the end-to-end tests share, one module for every test binary: the small chamber of
+//! `small_chamber.toml`, changed key by key with the sweep's own dotted-key setter (`chamber.size`,
+//! `solve.mode`, `cells.uptake.rate_constant`, …); the outside readers in Python ([`python`]); the sweep
+//! helpers ([`sweep`]).
+
+// Each test binary uses a part of this module.
+#![allow(dead_code)]
+
+pub mod python;
+pub mod sweep;
 
 /// The small chamber's case text with `changes` applied: (dotted key, value as TOML text, e.g. `"\"4 um\""` or
 /// `"[\"120 um\", \"60 um\", \"40 um\"]"`); a value of `""` removes the key.

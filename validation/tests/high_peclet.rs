@@ -68,7 +68,7 @@ fn multigrid_iterations_stay_flat_up_to_cell_peclet_1000() {
 fn transient_steps_converge_at_cell_peclet_1000() {
     use mesh::{Cell, Grid, Layout};
     use solver::problem::{ChamberBoundaries, ChamberFace, LigandParameters, SurfaceUptake};
-    use solver::transport::transient::TimeStepping;
+    use solver::solve_transient::TimeStepping;
     use validation::cases::setup::darcy;
     use validation::cases::transient_setup::{run_transient, TransientRun};
 

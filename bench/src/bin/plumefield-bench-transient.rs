@@ -22,14 +22,14 @@ use clap::Parser;
 use mesh::{EmbeddedGeometry, Grid};
 use plumefield::case::transient::{DEFAULT_ERROR_TOLERANCE, STEADY_DISTANCE};
 use plumefield::case::Case;
-use plumefield::commands::run::steady_case;
+use plumefield::engine::steady_case;
 use plumefield_bench::{load_average, thread_cpu_seconds as cpu_seconds};
 use solver::embedded::FacetStencils;
 use solver::linalg::{KrylovParams, MultigridParams, SteadySolver};
 use solver::post::{cell_sensing, SensingModel};
 use solver::solve_case::solve_flow;
-use solver::transport::transient::integrate::{outlet_concentration, sensed_rates};
-use solver::transport::transient::{
+use solver::solve_transient::integrate::{outlet_concentration, sensed_rates};
+use solver::solve_transient::{
     initial_state, integrate, solve_transient_case, FlowPhase, SteadyReference, StepReport, TimeStepping,
     TransientCase, TransientObserver, TransientOutput, TransientProblem, TransientSettings, TransientState,
 };

@@ -14,7 +14,7 @@ use clap::{Parser, Subcommand};
 use mesh::EmbeddedGeometry;
 use numkit::meter;
 use plumefield::case::Case;
-use plumefield::commands::run::steady_case;
+use plumefield::engine::steady_case;
 use plumefield_bench::{load_average, process_cpu_seconds as cpu_seconds};
 use serde::{Deserialize, Serialize};
 use solver::embedded::FacetStencils;

@@ -2,7 +2,10 @@
 //! `secretion_rate` (molecules/s), in any order; an empty radius or secretion field takes the default.
 //! Lines starting with `#` are comments. The per-cell output columns of a previous run's `cells.csv` are
 //! accepted and ignored, so such a file can seed a new case; any other column is an error (most likely a typo).
+//! Only regular files are read (a pipe or device could block or never end), and only up to a size limit
+//! that the caller derives from how many cells the chamber can hold.
 
+use std::io::Read;
 use std::path::Path;
 
 use super::error::LayoutError;
@@ -26,19 +29,31 @@ const IGNORED_COLUMNS: [&str; 13] = [
     "local_speed",
 ];
 
-/// Read cells from `path`; ids are the data-row order (0-based). The caller checks the layout against its
-/// chamber with [`Layout::validate`].
+/// Bytes allowed per cell row of a layout file: a `cells.csv` row of a run, 18 numbers of up to 25 characters,
+/// is under 500 bytes; the rest is room for comments and spaces.
+pub const BYTES_PER_CELL: u64 = 1024;
+
+/// Largest layout file for at most `max_cells` cells: [`BYTES_PER_CELL`] per cell plus 64 KiB of header
+/// and comments.
+pub fn max_file_bytes(max_cells: u64) -> u64 {
+    max_cells.saturating_mul(BYTES_PER_CELL).saturating_add(64 * 1024)
+}
+
+/// Read cells from `path`, a regular file of at most `max_bytes`; ids are the data-row order (0-based). The
+/// caller checks the layout against its chamber with [`Layout::validate`].
 pub fn read_csv(
     path: &Path,
     default_radius: f64,
     default_secretion_rate: f64,
+    max_bytes: u64,
 ) -> Result<Layout, LayoutError> {
     let fail =
         |line: Option<u64>, message: String| LayoutError::Csv { path: path.to_path_buf(), line, message };
-    let text =
-        std::fs::read_to_string(path).map_err(|e| fail(None, format!("cannot read the layout file: {e}")))?;
+    let text = read_bounded(path, max_bytes).map_err(|message| fail(None, message))?;
     // Line numbers are counted from byte offsets: the reader's own line counter skips blank lines.
-    let line_of = |position: Option<&csv::Position>| position.map(|p| line_at(&text, p.byte() as usize));
+    let lines = std::cell::RefCell::new(LineCounter::new(&text));
+    let line_of =
+        |position: Option<&csv::Position>| position.map(|p| lines.borrow_mut().line_at(p.byte() as usize));
     let mut reader = csv::ReaderBuilder::new()
         .has_headers(true)
         .trim(csv::Trim::All)
@@ -113,23 +128,66 @@ pub fn read_csv(
     Ok(Layout { cells })
 }
 
-/// 1-based line of the first record byte at or after `offset` (skipping blank and `#` comment lines, which
-/// the reader reports as part of the following record).
-fn line_at(text: &str, offset: usize) -> u64 {
-    let bytes = text.as_bytes();
-    let mut at = offset.min(bytes.len());
-    while at < bytes.len() {
-        match bytes[at] {
-            b'\n' | b'\r' => at += 1,
-            b'#' => {
-                while at < bytes.len() && bytes[at] != b'\n' {
-                    at += 1;
-                }
-            }
-            _ => break,
-        }
+/// The whole file as text, refusing anything but a regular file of at most `max_bytes`.
+fn read_bounded(path: &Path, max_bytes: u64) -> Result<String, String> {
+    let cannot = |e: std::io::Error| format!("cannot read the layout file: {e}");
+    let is_file = |m: std::fs::Metadata| m.is_file();
+    if !std::fs::metadata(path).map(is_file).map_err(cannot)? {
+        return Err("is not a regular file (a layout is read from a file, not a pipe or device)".into());
     }
-    1 + bytes[..at].iter().filter(|&&b| b == b'\n').count() as u64
+    let file = std::fs::File::open(path).map_err(cannot)?;
+    // Checked again on the open file, in case the path was replaced in between.
+    if !file.metadata().map(is_file).map_err(cannot)? {
+        return Err("is not a regular file (a layout is read from a file, not a pipe or device)".into());
+    }
+    let mut bytes = Vec::new();
+    file.take(max_bytes.saturating_add(1)).read_to_end(&mut bytes).map_err(cannot)?;
+    if bytes.len() as u64 > max_bytes {
+        return Err(format!(
+            "the file is larger than {max_bytes} bytes, more than a layout of as many cells as the chamber \
+             can hold needs"
+        ));
+    }
+    String::from_utf8(bytes).map_err(|_| "the file is not UTF-8 text".to_string())
+}
+
+/// Line numbers of byte offsets, for offsets that mostly increase (records in file order): each call counts
+/// only the newlines since the previous one, so a whole file costs one pass.
+struct LineCounter<'a> {
+    bytes: &'a [u8],
+    /// Offset up to which newlines have been counted, and the 1-based line there.
+    at: usize,
+    line: u64,
+}
+
+impl<'a> LineCounter<'a> {
+    fn new(text: &'a str) -> Self {
+        LineCounter { bytes: text.as_bytes(), at: 0, line: 1 }
+    }
+
+    /// 1-based line of the first record byte at or after `offset` (skipping blank and `#` comment lines,
+    /// which the reader reports as part of the following record).
+    fn line_at(&mut self, offset: usize) -> u64 {
+        let bytes = self.bytes;
+        let mut at = offset.min(bytes.len());
+        while at < bytes.len() {
+            match bytes[at] {
+                b'\n' | b'\r' => at += 1,
+                b'#' => {
+                    while at < bytes.len() && bytes[at] != b'\n' {
+                        at += 1;
+                    }
+                }
+                _ => break,
+            }
+        }
+        if at < self.at {
+            (self.at, self.line) = (0, 1);
+        }
+        self.line += bytes[self.at..at].iter().filter(|&&b| b == b'\n').count() as u64;
+        self.at = at;
+        self.line
+    }
 }
 
 #[cfg(test)]
@@ -160,7 +218,7 @@ mod tests {
             "order",
             "# cells of a test\nsecretion_rate, z, y, x, radius\n2.5, 3e-5, 2e-5, 1e-5, 7e-6\n, 6e-5, 5e-5, 4e-5,\n",
         );
-        let layout = read_csv(&file.0, 8e-6, 0.1).unwrap();
+        let layout = read_csv(&file.0, 8e-6, 0.1, 1 << 20).unwrap();
         assert_eq!(layout.cells.len(), 2);
         assert_eq!(
             layout.cells[0],
@@ -189,7 +247,7 @@ mod tests {
         ];
         for (name, text, line, needle) in cases {
             let file = TempCsv::new(name, text);
-            match read_csv(&file.0, 8e-6, 1.0) {
+            match read_csv(&file.0, 8e-6, 1.0, 1 << 20) {
                 Err(e @ LayoutError::Csv { .. }) => {
                     let LayoutError::Csv { line: got, ref message, .. } = e else { unreachable!() };
                     assert_eq!(got, line, "{name}: {message}");
@@ -200,7 +258,29 @@ mod tests {
                 other => panic!("{name}: expected a CSV error, got {other:?}"),
             }
         }
-        let missing = read_csv(Path::new("/nonexistent/cells.csv"), 8e-6, 1.0).unwrap_err();
+        let missing = read_csv(Path::new("/nonexistent/cells.csv"), 8e-6, 1.0, 1 << 20).unwrap_err();
         assert!(matches!(missing, LayoutError::Csv { line: None, .. }), "{missing}");
+    }
+
+    #[test]
+    fn line_numbers_are_found_in_one_pass_and_limits_hold() {
+        // 40 000 rows with a bad value in the last, after a comment and a blank line.
+        let mut text = String::from("x,y,z\n");
+        for n in 0..40_000 {
+            text.push_str(&format!("{}e-6,1e-5,1e-5\n", n));
+        }
+        text.push_str("# a comment\n\n1e-5,oops,1e-5\n");
+        let file = TempCsv::new("long", &text);
+        match read_csv(&file.0, 1e-6, 1.0, 1 << 26) {
+            Err(LayoutError::Csv { line, .. }) => assert_eq!(line, Some(40_004)),
+            other => panic!("expected a CSV error, got {other:?}"),
+        }
+        let small = TempCsv::new("limit", "x,y,z\n1e-5,1e-5,1e-5\n");
+        let message = read_csv(&small.0, 1e-6, 1.0, 10).unwrap_err().to_string();
+        assert!(message.contains("larger than 10 bytes"), "{message}");
+        let message = read_csv(Path::new("/dev/zero"), 1e-6, 1.0, 1 << 20).unwrap_err().to_string();
+        assert!(message.contains("not a regular file"), "{message}");
+        let message = read_csv(&std::env::temp_dir(), 1e-6, 1.0, 1 << 20).unwrap_err().to_string();
+        assert!(message.contains("not a regular file"), "{message}");
     }
 }

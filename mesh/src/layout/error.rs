@@ -19,6 +19,21 @@ pub enum LayoutError {
          lower the count or volume fraction, the minimum gap, or enlarge the chamber"
     )]
     NotPackable { placed: usize, requested: usize },
+    /// The request is beyond what any random packing holds: checked before anything is allocated.
+    /// `fraction` counts each cell with half the minimum gap around it, in the volume such cells can occupy.
+    #[error(
+        "{requested} cells (with half the minimum gap around each) would fill {fraction:.3} of the space they can \
+         occupy, beyond random close packing ({limit}); at most {max_count} fit: lower the count or volume \
+         fraction or the minimum gap, or enlarge the space"
+    )]
+    BeyondClosePacking { requested: usize, fraction: f64, limit: f64, max_count: usize },
+    /// The dense packing did not reach the request within its effort bound.
+    #[error(
+        "dense random packing of {requested} cells stalled at a volume fraction of {reached:.3} (with half the \
+         minimum gap around each cell) short of the {fraction:.3} needed; lower the count or volume fraction \
+         or the minimum gap, or enlarge the space"
+    )]
+    PackingStalled { requested: usize, fraction: f64, reached: f64 },
     /// A cell is too small for the grid to resolve its surface.
     #[error(
         "cell {id} of radius {} spans only {:.2} grid spacings of {}; at least 2.5 are needed",

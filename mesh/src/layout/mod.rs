@@ -1,15 +1,17 @@
 //! Cell layouts: where the biological cells (spheres) sit in the chamber, their radii and secretion rates.
 //!
-//! Generators (explicit list, CSV file, lattice, random sequential addition) live in the files beside this one;
+//! Generators (explicit list, CSV file, lattice, random sequential addition, dense random packing) live in the files beside this one;
 //! all of them produce a [`Layout`] that has been checked by [`Layout::validate`] (except [`read_csv`], which
 //! does not know the chamber: its caller validates).
 
 pub mod chamber;
 pub mod csv_import;
+pub mod dense_packing;
 pub mod error;
 pub mod lattice;
 pub mod neighbours;
 pub mod random;
+pub mod region;
 pub mod resolution;
 pub mod statistics;
 pub mod validate;
@@ -18,9 +20,13 @@ pub use chamber::ChamberBox;
 pub use csv_import::read_csv;
 pub use error::LayoutError;
 pub use lattice::lattice;
-pub use random::{random_sequential_addition, RandomLayout, RandomTarget};
+pub use random::{
+    random_layout, random_sequential_addition, PackingMethod, RandomLayout, RandomPlacement, RandomTarget,
+    RANDOM_CLOSE_PACKING,
+};
+pub use region::PlacementRegion;
 pub use resolution::ResolutionWarning;
-pub use statistics::LayoutStatistics;
+pub use statistics::{ClosePairs, LayoutStatistics};
 
 /// One biological cell: an impermeable sphere that secretes ligand uniformly from its surface.
 #[derive(Clone, Debug, PartialEq)]

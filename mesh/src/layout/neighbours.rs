@@ -60,6 +60,13 @@ impl BucketGrid {
         b[0] + self.counts[0] * (b[1] + self.counts[1] * b[2])
     }
 
+    /// Empty every bucket, keeping their storage (for rebuilding after the points moved).
+    pub fn clear(&mut self) {
+        for bucket in &mut self.buckets {
+            bucket.clear();
+        }
+    }
+
     pub fn insert(&mut self, id: usize, p: [f64; 3]) {
         let b = self.flat(self.bucket_of(p));
         self.buckets[b].push(id);

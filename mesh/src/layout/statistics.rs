@@ -18,6 +18,9 @@ pub struct LayoutStatistics {
     /// `(quantile, nearest-neighbour centre distance in m)` at 0.1, 0.25, 0.5, 0.75, 0.9 (periodic images
     /// included); empty with fewer than two cells.
     pub nearest_neighbour_quantiles: Vec<(f64, f64)>,
+    /// `(quantile, gap in m)` of each cell's nearest surface-to-surface gap (centre distance minus both
+    /// radii) at the same quantiles, plus the smallest gap as quantile 0; empty with fewer than two cells.
+    pub nearest_gap_quantiles: Vec<(f64, f64)>,
 }
 
 impl Layout {
@@ -28,26 +31,80 @@ impl Layout {
         let count = self.cells.len();
         let cell_volume: f64 =
             self.cells.iter().map(|c| 4.0 / 3.0 * std::f64::consts::PI * c.radius.powi(3)).sum();
-        let nearest_neighbour_quantiles = if count < 2 {
-            Vec::new()
+        let (nearest_neighbour_quantiles, nearest_gap_quantiles) = if count < 2 {
+            (Vec::new(), Vec::new())
         } else {
-            let mut nearest = nearest_neighbour_distances(self, chamber);
+            let (mut nearest, mut gaps): (Vec<f64>, Vec<f64>) =
+                nearest_neighbours(self, chamber).into_iter().unzip();
             nearest.sort_by(f64::total_cmp);
-            NEAREST_NEIGHBOUR_QUANTILES.iter().map(|&q| (q, quantile_sorted(&nearest, q))).collect()
+            gaps.sort_by(f64::total_cmp);
+            let at = |sorted: &[f64]| -> Vec<(f64, f64)> {
+                NEAREST_NEIGHBOUR_QUANTILES.iter().map(|&q| (q, quantile_sorted(sorted, q))).collect()
+            };
+            let mut gap_quantiles = vec![(0.0, gaps[0])];
+            gap_quantiles.extend(at(&gaps));
+            (at(&nearest), gap_quantiles)
         };
         LayoutStatistics {
             count,
             volume_fraction: cell_volume / volume,
             number_density: count as f64 / volume,
             nearest_neighbour_quantiles,
+            nearest_gap_quantiles,
         }
+    }
+
+    /// Pairs of cells whose surface gap is below `threshold` (m), periodic images included.
+    pub fn close_pairs(&self, chamber: &ChamberBox, threshold: f64) -> ClosePairs {
+        let cells = &self.cells;
+        let max_radius = cells.iter().map(|c| c.radius).fold(0.0, f64::max);
+        let mut close = ClosePairs { count: 0, closest: None };
+        if cells.len() < 2 {
+            return close;
+        }
+        let mut buckets = BucketGrid::new(chamber, 2.0 * max_radius + threshold.max(0.0));
+        for (n, c) in cells.iter().enumerate() {
+            buckets.insert(n, c.centre);
+        }
+        let mut partners = Vec::new();
+        for (n, c) in cells.iter().enumerate() {
+            partners.clear();
+            buckets.visit_near(c.centre, |m| {
+                if m > n {
+                    partners.push(m);
+                }
+            });
+            // Short periodic axes can show one bucket twice.
+            partners.sort_unstable();
+            partners.dedup();
+            for &m in &partners {
+                let gap = chamber.distance(c.centre, cells[m].centre) - c.radius - cells[m].radius;
+                if gap < threshold {
+                    close.count += 1;
+                    if close.closest.is_none_or(|(_, _, g)| gap < g) {
+                        close.closest = Some((c.id, cells[m].id, gap));
+                    }
+                }
+            }
+        }
+        close
     }
 }
 
-/// Distance from each cell centre to its nearest other centre, by expanding rings of buckets: after ring r
-/// no unvisited centre is closer than r bucket edges, so the search stops once the best distance is below.
-fn nearest_neighbour_distances(layout: &Layout, chamber: &ChamberBox) -> Vec<f64> {
+/// Result of [`Layout::close_pairs`].
+#[derive(Clone, Debug, PartialEq)]
+pub struct ClosePairs {
+    pub count: usize,
+    /// `(id, id, gap in m)` of the closest pair.
+    pub closest: Option<(usize, usize, f64)>,
+}
+
+/// For each cell, the distance to its nearest other centre and its smallest surface gap, by expanding rings
+/// of buckets: after ring r no unvisited centre is closer than r bucket edges (nor any unvisited surface
+/// closer than that less both radii), so the search stops once both bests are below.
+fn nearest_neighbours(layout: &Layout, chamber: &ChamberBox) -> Vec<(f64, f64)> {
     let cells = &layout.cells;
+    let max_radius = cells.iter().map(|c| c.radius).fold(0.0, f64::max);
     // About two cells per bucket on average.
     let bucket_edge = (2.0 * chamber.volume() / cells.len() as f64).cbrt();
     let mut buckets = BucketGrid::new(chamber, bucket_edge);
@@ -61,18 +118,21 @@ fn nearest_neighbour_distances(layout: &Layout, chamber: &ChamberBox) -> Vec<f64
         .enumerate()
         .map(|(n, c)| {
             let home = buckets.bucket_of(c.centre);
-            let mut best = f64::INFINITY;
+            let (mut best, mut best_gap) = (f64::INFINITY, f64::INFINITY);
             for ring in 0..=max_ring {
                 buckets.visit_ring(home, ring, |m| {
                     if m != n {
-                        best = best.min(chamber.distance(c.centre, cells[m].centre));
+                        let d = chamber.distance(c.centre, cells[m].centre);
+                        best = best.min(d);
+                        best_gap = best_gap.min(d - c.radius - cells[m].radius);
                     }
                 });
-                if best <= ring as f64 * edge {
+                let reach = ring as f64 * edge;
+                if best <= reach && best_gap <= reach - c.radius - max_radius {
                     break;
                 }
             }
-            best
+            (best, best_gap)
         })
         .collect()
 }
@@ -110,7 +170,7 @@ mod tests {
             })
             .collect();
         let layout = Layout { cells };
-        let fast = nearest_neighbour_distances(&layout, &chamber);
+        let fast = nearest_neighbours(&layout, &chamber);
         for (n, p) in layout.cells.iter().enumerate() {
             let brute = layout
                 .cells
@@ -119,11 +179,43 @@ mod tests {
                 .filter(|(m, _)| *m != n)
                 .map(|(_, q)| chamber.distance(p.centre, q.centre))
                 .fold(f64::INFINITY, f64::min);
-            assert_eq!(fast[n], brute);
+            assert_eq!(fast[n].0, brute);
+            assert!((fast[n].1 - (brute - 2e-3)).abs() < 1e-15);
         }
         assert!(Layout { cells: layout.cells[..1].to_vec() }
             .statistics(&chamber)
             .nearest_neighbour_quantiles
             .is_empty());
+    }
+
+    #[test]
+    fn close_pairs_match_brute_force() {
+        let chamber = ChamberBox { lower: [0.0; 3], upper: [1.0, 0.5, 0.3], periodic: [true, false, false] };
+        let mut rng = Xoshiro256StarStar::seed_from_u64(5);
+        let cells: Vec<Cell> = (0..400)
+            .map(|id| Cell {
+                id,
+                centre: [rng.next_f64(), 0.5 * rng.next_f64(), 0.3 * rng.next_f64()],
+                radius: 5e-3 * (1.0 + rng.next_f64()),
+                secretion_rate: 0.0,
+            })
+            .collect();
+        let layout = Layout { cells };
+        let threshold = 0.01;
+        let close = layout.close_pairs(&chamber, threshold);
+        let mut count = 0;
+        let mut smallest = f64::INFINITY;
+        for (n, p) in layout.cells.iter().enumerate() {
+            for q in &layout.cells[n + 1..] {
+                let gap = chamber.distance(p.centre, q.centre) - p.radius - q.radius;
+                if gap < threshold {
+                    count += 1;
+                    smallest = smallest.min(gap);
+                }
+            }
+        }
+        assert!(count > 0);
+        assert_eq!(close.count, count);
+        assert_eq!(close.closest.map(|c| c.2), Some(smallest));
     }
 }

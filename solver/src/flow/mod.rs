@@ -1,5 +1,5 @@
-//! Flow through the porous matrix around the cells. Darcy flow now; Brinkman and Stokes plug in here with the
-//! same [`FlowField`] result.
+//! Flow through the porous matrix around the cells: Darcy ([`darcy`]) or Brinkman/Stokes ([`brinkman`]), each
+//! a folder with one file per piece, both giving a [`FlowField`].
 
 pub mod brinkman;
 pub mod darcy;

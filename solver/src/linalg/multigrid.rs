@@ -36,7 +36,7 @@ pub struct MultigridParams {
     /// Default V.
     pub cycle: Cycle,
     /// Default piecewise constant: with the `sum/2` coarse conductances it needs as few iterations as
-    /// trilinear and costs less per cycle (measured, see the solver tests and the timing example).
+    /// trilinear and costs less per cycle (bench/RECORDS.md).
     pub prolongation: Prolongation,
     /// Upper bound on the number of levels; default 16.
     pub max_levels: usize,

@@ -8,6 +8,7 @@ pub mod integrate_surface;
 pub mod local_flow;
 pub mod mass_balance;
 pub mod pressure_front_back;
+pub mod sensing_window;
 
 pub use integrate_surface::{
     cell_sensing, cell_sensing_in_local_flow, local_flow_per_cell, CellSensing, SensingModel,

@@ -14,11 +14,10 @@
 //! evaluated with the largest exponent factored out (a running maximum), so neither `e^{Ux/2D}` nor `e^{−γr}`
 //! can overflow or underflow to a 0/0.
 //!
-//! Cost: one square root and one exponential per (face, source) pair, parallel over faces. Measured 12–14 ns of
-//! CPU per pair (`cargo test --release -p solver pair_cost -- --ignored --nocapture`, 1000 sources × 10⁴ faces,
-//! 2026-12-02, load average 12 on 2 cores), so 10⁴ cells × 10⁶ far-field faces is 10¹⁰ pairs ≈ 130 s of CPU
-//! (≈ 65 s on two idle cores) once per steady assembly — and per time step in switched-on transient runs until
-//! every source has settled (never without flow and decay). For such layouts
+//! Cost: one square root and one exponential per (face, source) pair, parallel over faces (about 13 ns of CPU
+//! per pair, bench/RECORDS.md), so 10⁴ cells × 10⁶ far-field faces cost minutes of CPU once per steady
+//! assembly — and per time step in switched-on transient runs until every source has settled (never without
+//! flow and decay). For such layouts
 //! `[boundaries] far_field_sources = "centroid"` costs one pair per face.
 
 use crate::problem::FarFieldSources;

@@ -147,9 +147,8 @@ pub fn place_legend(
 /// figure under the final name. Figures are not synced to disk: they are drawn again from the tables.
 ///
 /// Encoded here rather than by plotters (which saves through the `image` crate with adaptive row filters and
-/// default deflate): the fixed Paeth filter with fast deflate gives files of the same size in less time. On
-/// the 16 figures of a 24-case sweep: 2.7 MB either way, `collect` 97 → 72 ms of CPU (measured; the Sub and
-/// Up filters gave 2.6–2.9× larger files, default deflate 4× smaller files at twice the CPU).
+/// default deflate): the fixed Paeth filter with fast deflate gives files of the same size in less time
+/// (bench/RECORDS.md, "PNG encoding of figures").
 pub fn write_png(
     path: &Path,
     size: (u32, u32),

@@ -77,7 +77,6 @@ mod tests {
     use super::*;
 
     /// Drag within 2% at a/h = 8 and second-order convergence from a/h = 4 (Brinkman 1947 drag law, item B).
-    /// Measured: α = 1: errors 9.0e-3 → 1.9e-3 (order 2.2); α = 3: 1.3e-2 → 3.3e-3 (order 2.0).
     #[test]
     fn sphere_drag_converges_at_second_order() {
         for alpha in [1.0, 3.0] {
@@ -89,7 +88,7 @@ mod tests {
         }
     }
 
-    /// α = 10: the screening length a/10 is 0.8 spacings at a/h = 8, still within 2% (measured 7.3e-3).
+    /// α = 10: the screening length a/10 is 0.8 spacings at a/h = 8, still within 2%.
     #[test]
     fn thin_screening_layer_drag_within_two_percent() {
         let (drag, exact, _) = sphere_drag(10.0, 8, 4.0).expect("solves");

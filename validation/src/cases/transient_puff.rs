@@ -13,7 +13,7 @@ use solver::embedded::FacetStencils;
 use solver::linalg::{KrylovParams, MultigridParams};
 use solver::post::SensingModel;
 use solver::problem::{ChamberBoundaries, ChamberFace, LigandParameters, SurfaceUptake};
-use solver::transport::transient::{
+use solver::solve_transient::{
     initial_state, integrate, FlowPhase, StepReport, TimeStepping, TransientObserver, TransientOutput,
     TransientProblem, TransientSettings, TransientState,
 };

@@ -5,7 +5,7 @@ use mesh::{Grid, Layout};
 use solver::linalg::{KrylovParams, MultigridParams};
 use solver::problem::{ChamberBoundaries, FlowParameters, LigandParameters};
 use solver::solve_case::SteadyCase;
-use solver::transport::transient::{
+use solver::solve_transient::{
     solve_transient_case, StepReport, TimeStepping, TransientCase, TransientError, TransientObserver,
     TransientOutput, TransientSettings, TransientSolution, TransientState,
 };

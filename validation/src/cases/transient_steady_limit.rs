@@ -7,8 +7,8 @@ use super::setup::{darcy, far_field_box, isolated_sphere};
 use super::transient_setup::{run_transient, TransientRun};
 use super::{Check, Tier, VerifyError};
 use solver::problem::{LigandParameters, SurfaceUptake};
-use solver::transport::transient::integrate::relative_change;
-use solver::transport::transient::TimeStepping;
+use solver::solve_transient::integrate::relative_change;
+use solver::solve_transient::TimeStepping;
 
 const RADIUS: f64 = 8e-6;
 const DIFFUSIVITY: f64 = 1e-10;

@@ -65,9 +65,8 @@ pub fn solve_pair(
 }
 
 /// Box margin beyond the spheres (in radii). With the far-field faces seeing each sphere as its own point source
-/// (`FarFieldSources::Cells`) the margin need not grow with the separation: at R = 10a, a/h = 8 the anisotropy
-/// is +0.8%/−0.3% with a 4a margin and +0.5%/−0.6% with 10a (measured 2026-12-02, table below), whereas the
-/// centroid form (DESIGN.md §4) gave −5.7%/−6.8% with 10a and the wrong sign with 4a.
+/// (`FarFieldSources::Cells`) the margin need not grow with the separation, unlike with the centroid form
+/// (DESIGN.md §4; the comparison is in bench/RECORDS.md).
 pub const MARGIN_RADII: f64 = 4.0;
 
 pub fn run(tier: Tier) -> Result<Vec<Check>, VerifyError> {
@@ -197,10 +196,8 @@ mod tests {
         use super::super::transient_setup::Recorder;
         use solver::linalg::{KrylovParams, MultigridParams};
         use solver::solve_case::SteadyCase;
-        use solver::transport::transient::integrate::relative_change;
-        use solver::transport::transient::{
-            solve_transient_case, TimeStepping, TransientCase, TransientSettings,
-        };
+        use solver::solve_transient::integrate::relative_change;
+        use solver::solve_transient::{solve_transient_case, TimeStepping, TransientCase, TransientSettings};
 
         let d = 1e-10;
         let unit = RADIUS * RADIUS / d;
@@ -264,7 +261,7 @@ mod tests {
     }
 
     /// The centroid form of DESIGN.md §4 sees the pair as one source: with the 4a margin of the check it gets
-    /// even the sign wrong at R = 10a (measured −3.3e-3 against 4.55e-3), which is why the cells are the default.
+    /// even the sign wrong at R = 10a, which is why the cells are the default.
     #[test]
     fn the_centroid_form_fails_where_the_superposition_holds() {
         let d = 10.0;
@@ -277,8 +274,7 @@ mod tests {
     }
 
     /// R = 10a on the full tier's grid (a/h = 8, margin 4a: 0.6 million grid cells, about a second).
-    /// Before the superposed far field (centroid form, margin 10a, 6 million grid cells) this was 4.29e-3 and
-    /// 4.24e-3 against 4.55e-3 (6–7% low); now +0.8% and −0.3% (measured 2026-12-02).
+    /// Before the superposed far field the centroid form needed a 10a margin and was still 6–7% low.
     #[test]
     fn ten_radii_apart_on_the_fine_grid() {
         let d = 10.0;

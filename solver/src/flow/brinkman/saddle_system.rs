@@ -20,8 +20,7 @@
 //!
 //! with D_f the viscous diagonal of velocity row f (links and cut links, without σV). In the bulk W⁻¹ is the
 //! plain `μ_e/h³`; next to a sphere the cut links stiffen D_f and W⁻¹ grows with them. The unweighted `μ_e/h³`
-//! was measured to let the iterations grow under refinement (sphere in a periodic box, α = 1, exact velocity
-//! solves: 19 → 30 flexible-GMRES iterations from 16³ to 32³; with W: 12 → 14), because it overestimates S⁻¹
+//! lets the iterations grow under refinement (bench/RECORDS.md), because it overestimates S⁻¹
 //! by up to the cut-link stiffness ratio in the pressure cells around each sphere (common practice: a
 //! diagonally scaled mass matrix; the weighting is ours). `(GᵀG)⁻¹` is one V-cycle of the pressure Poisson
 //! operator (Neumann at walls and spheres, Dirichlet at outlets). Robust from the Stokes limit (σ = 0) to the

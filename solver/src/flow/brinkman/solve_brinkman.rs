@@ -24,8 +24,8 @@ use std::sync::Arc;
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub enum FlowKrylov {
     /// Right-preconditioned BiCGSTAB: eight vectors of the coupled system, two preconditioner applications per
-    /// iteration (default; measured on the bench chamber at 64³: 13 iterations = 26 applications against 23 for
-    /// flexible GMRES(30), which keeps 2 × 30 vectors).
+    /// iteration (default: on the bench chamber it needs about as many applications as flexible GMRES(30),
+    /// which keeps 2 × 30 vectors; bench/RECORDS.md).
     Bicgstab,
     /// Flexible GMRES restarted after `restart` (default setting 30) iterations.
     Gmres,

@@ -128,7 +128,7 @@ fn sphere_iterations(n: usize, alpha: f64) -> usize {
 
 const ALPHAS: [f64; 5] = [0.3, 1.0, 3.0, 10.0, 30.0];
 
-/// Iterations nearly flat from a/h = 3.2 to 6.4 and across α = 0.3 … 30 (measured 10 9 7 5 4 → 11 11 9 6 5).
+/// Iterations nearly flat from a/h = 3.2 to 6.4 and across α = 0.3 … 30 (counts in bench/RECORDS.md).
 #[test]
 fn iterations_are_nearly_flat_under_refinement_and_across_alpha() {
     let coarse: Vec<usize> = ALPHAS.iter().map(|&a| sphere_iterations(16, a)).collect();

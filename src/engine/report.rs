@@ -3,10 +3,10 @@
 use super::summary::{mass_balance, RunMeasures, RunSections};
 use crate::case::{Case, OutputField};
 use crate::io::cells_csv::write_cells_csv;
-use crate::io::fields_h5::{write_fields_h5, FieldData, Provenance};
-use crate::io::provenance::git_revision;
-use crate::io::table::{CellTable, Column};
+use crate::io::fields_h5::{write_fields_h5, FieldData};
+use crate::io::table::CellTable;
 use crate::io::xdmf::write_fields_xmf;
+use crate::outputs::columns::{cell_columns, pressure_front_back_column, CellState, RunKind};
 use crate::outputs::summary::{
     FlowMode, FlowSummary, Resources, RunSummary, TransportMode, TransportSummary,
 };
@@ -18,36 +18,11 @@ use std::time::Instant;
 
 /// The per-cell table, columns in the order DESIGN.md §6 fixes.
 pub fn cell_table(case: &Case, solved: &SolvedCase) -> CellTable {
-    let cells = &case.layout.cells;
-    let s = &solved.sensing;
-    let real = |name: &str, unit: &str, description: &str, values: Vec<f64>| {
-        Column::real(name, unit, description, values)
-    };
-    let mut table = CellTable {
-        columns: vec![
-            Column::int("id", "1", "cell identifier (row order of the layout)", cells.iter().map(|c| c.id as u64).collect()),
-            real("x", "m", "centre x", cells.iter().map(|c| c.centre[0]).collect()),
-            real("y", "m", "centre y", cells.iter().map(|c| c.centre[1]).collect()),
-            real("z", "m", "centre z", cells.iter().map(|c| c.centre[2]).collect()),
-            real("radius", "m", "cell radius", cells.iter().map(|c| c.radius).collect()),
-            real("secretion_rate", "molecules/s", "ligand secreted by the cell", cells.iter().map(|c| c.secretion_rate).collect()),
-            real("mean_surface_concentration", "molecules/m^3", "area-mean ligand concentration on the cell surface", s.iter().map(|c| c.mean_surface_concentration).collect()),
-            real("bound_rate", "molecules/s", "ligand bound by the cell's surface uptake", s.iter().map(|c| c.bound_rate).collect()),
-            real("anisotropy_x", "1", "x of the anisotropy vector of the sensed flux (positive: richer downstream)", s.iter().map(|c| c.anisotropy[0]).collect()),
-            real("anisotropy_y", "1", "y of the anisotropy vector", s.iter().map(|c| c.anisotropy[1]).collect()),
-            real("anisotropy_z", "1", "z of the anisotropy vector", s.iter().map(|c| c.anisotropy[2]).collect()),
-            real("anisotropy_along_flow", "1", "anisotropy component along the local flow direction", s.iter().map(|c| c.anisotropy_along_flow).collect()),
-            real("front_back_contrast", "1", "(N_front - N_back)/(N_front + N_back), front = downstream hemisphere", s.iter().map(|c| c.front_back_contrast).collect()),
-            real("direction_error", "1", "Poisson standard error of the contrast over sensing.integration_time, divided by its magnitude", s.iter().map(|c| c.direction_error).collect()),
-            real("drag_x", "N", "x of the force of the fluid on the cell", solved.flow.drag.iter().map(|f| f[0]).collect()),
-            real("drag_y", "N", "y of the force of the fluid on the cell", solved.flow.drag.iter().map(|f| f[1]).collect()),
-            real("drag_z", "N", "z of the force of the fluid on the cell", solved.flow.drag.iter().map(|f| f[2]).collect()),
-            real("local_speed", "m/s", "superficial speed averaged over the fluid shell a < r < 2a around the cell", s.iter().map(|c| c.local_speed).collect()),
-            real("pressure_front_back", "Pa", "pressure at the upstream pole minus the downstream pole along the local flow", solved.pressure_front_back.clone()),
-        ],
-    };
+    let state = CellState { cells: &case.layout.cells, sensing: &solved.sensing, drag: &solved.flow.drag };
+    let mut table = CellTable { columns: cell_columns(&state, RunKind::Steady) };
+    table.columns.push(pressure_front_back_column(solved.pressure_front_back.clone()));
     // Estimates beside the measured columns, after the contract columns (DESIGN.md §6).
-    table.columns.extend(crate::commands::estimate::estimate_columns(case, s));
+    table.columns.extend(crate::engine::estimates::estimate_columns(case, &solved.sensing));
     table
 }
 
@@ -114,7 +89,7 @@ pub fn write_outputs(
     write_started: Instant,
 ) -> Result<()> {
     let mut table = cell_table(case, solved);
-    let split = crate::commands::estimate::split_self_and_neighbours(case, solved)?;
+    let split = crate::engine::estimates::split_self_and_neighbours(case, solved)?;
     for warning in &split.warnings {
         eprintln!("warning: {warning}");
     }
@@ -122,18 +97,11 @@ pub fn write_outputs(
     let warnings = warnings.as_slice();
     table.columns.extend(split.columns);
     let fields = field_data(case, solved);
-    let provenance = Provenance {
-        version: env!("CARGO_PKG_VERSION").to_string(),
-        git_revision: git_revision(),
-        case_sha256: case.sha256.clone(),
-        case_text: case.source_text.clone(),
-        command_line: std::env::args().collect::<Vec<_>>().join(" "),
-    };
+    let provenance = super::run_provenance(case);
     write_cells_csv(&out_dir.join("cells.csv"), &table)?;
     // One hold of HDF5's process-wide lock for the whole file (the library runs one call at a time anyway):
     // cases of a sweep writing at once then take turns file by file and drift apart, instead of alternating
-    // call by call, which doubled both writes and kept the cases in step to collide again
-    // (measured with scripts/bench_sweep).
+    // call by call, which doubled both writes and kept the cases in step to collide again.
     hdf5::sync::sync(|| {
         write_fields_h5(
             &out_dir.join("fields.h5"),
@@ -196,6 +164,7 @@ pub fn write_outputs(
         self_neighbour: Some(split.summary),
     };
     let summary = RunSummary::build(&measures, sections);
+    crate::engine::sensing_outputs::write_sensing_by_position_of(&summary, &table, out_dir)?;
     summary.write(&out_dir.join("summary.json"))?;
     if case.output.figures {
         crate::figures::run_figures::draw_run_figures(out_dir)?;

@@ -1,7 +1,5 @@
-//! Shared helpers of the sweep end-to-end tests: the tiny example base case, sweep files in a temporary
-//! folder, and the real binary.
-
-#![allow(dead_code)]
+//! What the sweep end-to-end tests share: the tiny example base case, sweep files in a temporary folder, and
+//! the real binary.
 
 use std::path::{Path, PathBuf};
 use std::process::{Command, Output};

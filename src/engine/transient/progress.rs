@@ -6,7 +6,7 @@
 
 use indicatif::{ProgressBar, ProgressStyle};
 use solver::solve_case::Stage;
-use solver::transport::transient::StepReport;
+use solver::solve_transient::StepReport;
 
 /// Resolution of the bar (positions per run).
 const TICKS: u64 = 1000;

@@ -1,5 +1,5 @@
 //! `plumefield run CASE` for `[solve] mode = "transient"`: the case as a `TransientCase`, the time loop of
-//! `solver::transport::transient` with progress, restart records and checkpoints, then the outputs:
+//! `solver::solve_transient` with progress, restart records and checkpoints, then the outputs:
 //! `fields.h5` (steady layout for the final state + one dataset per output time), the temporal `fields.xmf`,
 //! `cells.csv` (final time), `cells_timeseries.csv` (every output time, long format), `summary.json`, figures.
 //!
@@ -19,9 +19,8 @@ use std::time::Instant;
 
 use anyhow::{Context, Result};
 use solver::linalg::MultigridParams;
-use solver::post::CellSensing;
 use solver::problem::ChamberFace;
-use solver::transport::transient::{
+use solver::solve_transient::{
     solve_transient_case, TimeStepping, TransientCase, TransientError, TransientSettings, TransientSolution,
 };
 
@@ -29,19 +28,19 @@ use crate::case::transient::{InitialCondition, TransientSolve, STEADY_DISTANCE};
 use crate::case::{Case, OutputField};
 use crate::exit::{InputError, SolverFailure};
 use crate::io::cells_csv::write_cells_csv;
-use crate::io::fields_h5::{FieldData, Provenance};
+use crate::io::fields_h5::FieldData;
 use crate::io::initial_field::read_initial_concentration;
-use crate::io::provenance::git_revision;
 use crate::io::table::{CellTable, Column, ColumnValues};
 use crate::io::transient_h5::{output_dataset_name, write_transient_fields_h5, OutputTime, TransientFile};
 use crate::io::xdmf_temporal::{write_temporal_xmf, TemporalGrid};
+use crate::outputs::columns::pressure_front_back_column;
 use crate::outputs::summary::{
     FlowChange, FlowMode, FlowSummary, OutputSeries, Resources, RunSummary, Stepping, TransientSummary,
     TransportMode, TransportSummary,
 };
 
 use super::summary::{mass_balance, RunMeasures, RunSections};
-use cell_series::{time_columns, CONTRACT_COLUMNS, SENSED};
+use cell_series::{sensing_of, time_columns, CONTRACT_COLUMNS, RECORD_VALUES};
 pub use checkpoint_every::CheckpointEvery;
 use observer::RunObserver;
 use progress::{human_time, TransientProgress};
@@ -109,13 +108,19 @@ fn solve_error(error: TransientError) -> anyhow::Error {
     }
 }
 
+/// Warnings about the numerics of a transient case, known before the solve: the boundary-layer guard from the
+/// stream's cell Péclet number (as `estimate` reports it).
+fn transient_warnings(case: &Case) -> Vec<String> {
+    crate::engine::estimates::boundary_layer_warning(case).map(|w| w.to_string()).into_iter().collect()
+}
+
 /// Solves a transient case into `out_dir`.
 pub fn execute(case: &Case, out_dir: &Path, options: &TransientOptions) -> Result<()> {
     let Some(t) = case.solve.transient.as_ref() else {
         return Err(InputError("solve.mode = \"transient\" without transient settings".into()).into());
     };
     if !options.quiet {
-        for warning in &case.warnings {
+        for warning in case.warnings.iter().chain(&transient_warnings(case)) {
             eprintln!("warning: {warning}");
         }
     }
@@ -248,7 +253,7 @@ fn timeseries_table(
     if columns.is_empty() {
         columns = time_columns(
             case,
-            &vec![0.0; SENSED.len() * case.layout.cells.len()],
+            &vec![0.0; RECORD_VALUES * case.layout.cells.len()],
             &solution.flows[0].drag,
             &t.secretion_start,
         );
@@ -262,24 +267,6 @@ fn timeseries_table(
     let mut all = vec![Column::real("time", "s", "simulated time of the output", time)];
     all.extend(columns);
     CellTable { columns: all }
-}
-
-/// Per-cell sensing rebuilt from a part (for the estimate columns, which read the surface mean, anisotropy
-/// along the flow and direction error).
-fn sensing_of(part: &OutputPart, cells: usize) -> Vec<CellSensing> {
-    let v = |k: usize, i: usize| part.sensed[k * cells + i];
-    (0..cells)
-        .map(|i| CellSensing {
-            mean_surface_concentration: v(0, i),
-            bound_rate: v(1, i),
-            anisotropy: [v(2, i), v(3, i), v(4, i)],
-            anisotropy_along_flow: v(5, i),
-            front_back_contrast: v(6, i),
-            direction_error: v(7, i),
-            local_flow_direction: [0.0; 3],
-            local_speed: v(8, i),
-        })
-        .collect()
 }
 
 /// The final `cells.csv`: the steady contract columns and estimate columns at the final time, then the
@@ -303,15 +290,10 @@ fn final_table(
         &flow.velocity,
         &flow.pressure,
     );
-    columns.push(Column::real(
-        "pressure_front_back",
-        "Pa",
-        "pressure at the upstream pole minus the downstream pole along the local flow",
-        front_back,
-    ));
-    columns.extend(crate::commands::estimate::estimate_columns(
+    columns.push(pressure_front_back_column(front_back));
+    columns.extend(crate::engine::estimates::estimate_columns(
         case,
-        &sensing_of(part, case.layout.cells.len()),
+        &sensing_of(&part.sensed, case.layout.cells.len()),
     ));
     columns.extend(tail);
     let crossing = |k: usize| -> Vec<f64> {
@@ -425,13 +407,7 @@ fn write_outputs(
             flow_group: flow_group(phase_at(t, p.time, eps), phases).to_string(),
         })
         .collect();
-    let provenance = Provenance {
-        version: env!("CARGO_PKG_VERSION").to_string(),
-        git_revision: git_revision(),
-        case_sha256: case.sha256.clone(),
-        case_text: case.source_text.clone(),
-        command_line: std::env::args().collect::<Vec<_>>().join(" "),
-    };
+    let provenance = super::run_provenance(case);
 
     write_cells_csv(&out_dir.join("cells.csv"), &table)?;
     write_cells_csv(&out_dir.join("cells_timeseries.csv"), &series)?;
@@ -472,6 +448,7 @@ fn write_outputs(
 
     let summary =
         run_summary(case, t, solution, final_part, &parts, &table, started, write_started, checkpoints);
+    crate::engine::sensing_outputs::write_sensing_by_position_of(&summary, &table, out_dir)?;
     summary.write(&out_dir.join("summary.json"))?;
     if case.output.figures {
         crate::figures::run_figures::draw_run_figures(out_dir)?;
@@ -507,7 +484,7 @@ fn run_summary(
         table,
         final_mean_velocity: last_flow_speed(case, t),
         measured_outlet_concentration: final_part.outlet_concentration,
-        warnings: &[],
+        warnings: &transient_warnings(case),
     };
     let sections = RunSections {
         timing_s: Resources {

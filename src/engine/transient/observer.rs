@@ -8,7 +8,7 @@
 
 use std::path::Path;
 
-use solver::transport::transient::{StepReport, TransientObserver, TransientOutput, TransientState};
+use solver::solve_transient::{StepReport, TransientObserver, TransientOutput, TransientState};
 
 use super::checkpoint_every::CheckpointEvery;
 use super::progress::{human_time, TransientProgress};

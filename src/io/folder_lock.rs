@@ -1,6 +1,7 @@
-//! One sweep at a time per sweep folder: `DIR/sweep.lock` names the process that runs the folder's cases (or
-//! writes its Slurm scripts). Two local sweeps on one folder would run the same cases into the same case
-//! folders at once, each emptying what the other writes.
+//! One process at a time per folder: a lock file names the process that works on it. A sweep folder has
+//! `DIR/sweep.lock` (two local sweeps on one folder would run the same cases into the same case folders at
+//! once, each emptying what the other writes); a run's output folder `OUT` has `.OUT.lock` beside it (see
+//! `output_folder.rs`).
 //!
 //! The lock file is complete before it appears: it is written under a private name and hard-linked into
 //! place, which fails atomically when a lock already exists (common practice for lock files, also on NFS).

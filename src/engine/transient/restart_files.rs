@@ -12,9 +12,9 @@
 use std::path::{Path, PathBuf};
 
 use anyhow::Context;
-use solver::transport::transient::{StepBalance, TransientOutput, TransientState};
+use solver::solve_transient::{StepBalance, TransientOutput, TransientState};
 
-use super::cell_series::{sensed_values, SENSED};
+use super::cell_series::{sensed_values, RECORD_VALUES};
 use crate::exit::InputError;
 use crate::io::binary_record::{read_record, write_record};
 
@@ -73,7 +73,7 @@ pub struct OutputPart {
     pub regular: bool,
     pub outlet_concentration: Option<f64>,
     pub balance: StepBalance,
-    /// [`SENSED`] values, column after column.
+    /// The record values (`cell_series::sensed_values`), value after value.
     pub sensed: Vec<f64>,
     pub concentration: Vec<f64>,
 }
@@ -116,7 +116,7 @@ impl OutputPart {
     fn decode(v: &[f64], cells: usize, grid_len: usize) -> Option<Self> {
         let head = v.get(..12)?;
         let n_sensed = head[11] as usize;
-        if n_sensed != SENSED.len() * cells {
+        if n_sensed != RECORD_VALUES * cells {
             return None;
         }
         let sensed = v.get(12..12 + n_sensed)?.to_vec();
@@ -192,7 +192,7 @@ mod tests {
             regular: true,
             outlet_concentration: None,
             balance: StepBalance { secreted: 1.0, relative_error: 1e-12, ..Default::default() },
-            sensed: (0..SENSED.len() * 2).map(|i| i as f64 / 7.0).collect(),
+            sensed: (0..RECORD_VALUES * 2).map(|i| i as f64 / 7.0).collect(),
             concentration: vec![0.5; 5],
         };
         write_part(dir.path(), "abc", &part).unwrap();

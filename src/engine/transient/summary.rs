@@ -6,7 +6,7 @@
 use std::collections::BTreeMap;
 
 use crate::outputs::summary::{Approach, CellApproach};
-use solver::transport::transient::{Crossings, FRACTIONS};
+use solver::solve_transient::{Crossings, FRACTIONS};
 
 /// Quantile `q` of `values` with +∞ for "not reached": linear interpolation between order statistics
 /// (Hyndman & Fan 1996, definition 7, the default of R and NumPy); `None` when it touches a value not reached.

@@ -8,7 +8,7 @@ use solver::post::estimates::meanfield_outlet_concentration;
 use solver::problem::ChamberFace;
 
 use crate::case::Case;
-use crate::commands::estimate::{column_aggregates, CaseEstimates};
+use crate::engine::estimates::{column_aggregates, CaseEstimates};
 use crate::io::provenance::git_revision;
 use crate::io::table::CellTable;
 use crate::outputs::summary::{
@@ -54,6 +54,9 @@ fn units(table: &CellTable) -> BTreeMap<String, Unit> {
         one("estimates.measured_outlet_concentration", "molecules/m^3"),
         one("estimates.isolated_anisotropy", "1"),
         one("cells.number_density", "1/m^3"),
+        one("sensing.statistics_margin", "m"),
+        one("sensing.by_position.x_low", "m"),
+        one("sensing.by_position.x_high", "m"),
     ]
     .into_iter()
     .collect();
@@ -131,6 +134,7 @@ impl RunSummary {
                 case: estimates.to_json(),
             },
             cells: CellsSummary { count, volume_fraction: cell_volume_fraction, number_density },
+            sensing: Some(super::sensing_outputs::run_statistics(case, m.table)),
             warnings: case.warnings.iter().chain(m.warnings).cloned().collect(),
             units,
         }

@@ -2,7 +2,7 @@
 //! checkpoint content), as plain numbers. [`TransientState::encode`] flattens it into one `f64` vector and
 //! [`TransientState::decode`] reads it back; the binary stores that vector (the solver touches no files).
 
-use super::sensing_window::WindowCounts;
+use crate::post::sensing_window::WindowCounts;
 
 /// Fractions of the steady value whose first crossing times are recorded.
 pub const FRACTIONS: [f64; 2] = [0.9, 0.99];

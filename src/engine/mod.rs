@@ -1,8 +1,12 @@
-//! `plumefield run CASE`: geometry → flow → transport → per-cell sensing → outputs.
+//! The run engine behind `plumefield run` and the cases of a local sweep: case → geometry → flow → transport →
+//! per-cell sensing → outputs, for steady runs (here and `report.rs`) and transient runs (`transient/`), with
+//! one output schema (`crate::outputs`) and one summary builder (`summary.rs`).
 //!
 //! Nothing is written until every solve has succeeded; each output file is written atomically.
 
+pub mod estimates;
 mod report;
+pub mod sensing_outputs;
 mod stages;
 mod summary;
 pub mod transient;
@@ -17,6 +21,17 @@ use std::path::Path;
 use std::time::Instant;
 
 pub use report::{cell_table, write_outputs};
+
+/// The provenance that every `fields.h5` of a run carries.
+fn run_provenance(case: &Case) -> crate::io::fields_h5::Provenance {
+    crate::io::fields_h5::Provenance {
+        version: env!("CARGO_PKG_VERSION").to_string(),
+        git_revision: crate::io::provenance::git_revision(),
+        case_sha256: case.sha256.clone(),
+        case_text: case.source_text.clone(),
+        command_line: std::env::args().collect::<Vec<_>>().join(" "),
+    }
+}
 
 /// The numerical view of a validated case.
 pub fn steady_case(case: &Case) -> SteadyCase<'_> {

@@ -1,0 +1,212 @@
+//! The registry of per-cell columns: name, unit, description and how each value follows from a cell of the
+//! layout, its sensing and the drag on it. `cells.csv` and `/cells/*` of `fields.h5` (steady and transient),
+//! `cells_timeseries.csv` (one block per output time), the `summary.json` units and `collect`'s aggregates
+//! all take their columns from here, in this order (the order DESIGN.md §6 fixes for `cells.csv`).
+//!
+//! Adding a per-cell quantity: one entry of [`CELL_COLUMNS`] (and, when it comes from a solve, the field of
+//! `CellSensing` or the solver output it reads).
+
+use mesh::Cell;
+use solver::post::CellSensing;
+
+use crate::io::table::Column;
+
+/// What the per-cell values of one state (the steady state, or one output time) are computed from.
+pub struct CellState<'a> {
+    pub cells: &'a [Cell],
+    pub sensing: &'a [CellSensing],
+    /// Force of the fluid on each cell (N), of the flow in force.
+    pub drag: &'a [[f64; 3]],
+}
+
+/// How a column's value follows from a cell.
+#[derive(Clone, Copy)]
+pub enum Source {
+    /// The cell's identifier (written as an integer).
+    Id,
+    /// From the layout.
+    Layout(fn(&Cell) -> f64),
+    /// From what the cell senses.
+    Sensed(fn(&CellSensing) -> f64),
+    /// Component `axis` of the drag.
+    Drag(usize),
+}
+
+/// One per-cell column.
+#[derive(Clone, Copy)]
+pub struct CellColumn {
+    pub name: &'static str,
+    pub unit: &'static str,
+    pub description: &'static str,
+    /// The description in transient runs, where the value is that of one output time (`None`: the same).
+    pub at_a_time: Option<&'static str>,
+    pub source: Source,
+}
+
+/// Which description a column carries.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum RunKind {
+    Steady,
+    Transient,
+}
+
+const fn column(
+    name: &'static str,
+    unit: &'static str,
+    description: &'static str,
+    source: Source,
+) -> CellColumn {
+    CellColumn { name, unit, description, at_a_time: None, source }
+}
+
+/// The per-cell columns of every run, in file order.
+pub const CELL_COLUMNS: [CellColumn; 18] = [
+    column("id", "1", "cell identifier (row order of the layout)", Source::Id),
+    column("x", "m", "centre x", Source::Layout(|c| c.centre[0])),
+    column("y", "m", "centre y", Source::Layout(|c| c.centre[1])),
+    column("z", "m", "centre z", Source::Layout(|c| c.centre[2])),
+    column("radius", "m", "cell radius", Source::Layout(|c| c.radius)),
+    CellColumn {
+        at_a_time: Some("ligand secreted by the cell once its secretion has started"),
+        ..column("secretion_rate", "molecules/s", "ligand secreted by the cell", Source::Layout(|c| c.secretion_rate))
+    },
+    column(
+        "mean_surface_concentration",
+        "molecules/m^3",
+        "area-mean ligand concentration on the cell surface",
+        Source::Sensed(|s| s.mean_surface_concentration),
+    ),
+    column(
+        "bound_rate",
+        "molecules/s",
+        "ligand bound by the cell's surface uptake",
+        Source::Sensed(|s| s.bound_rate),
+    ),
+    column(
+        "anisotropy_x",
+        "1",
+        "x of the anisotropy vector of the sensed flux (positive: richer downstream)",
+        Source::Sensed(|s| s.anisotropy[0]),
+    ),
+    column("anisotropy_y", "1", "y of the anisotropy vector", Source::Sensed(|s| s.anisotropy[1])),
+    column("anisotropy_z", "1", "z of the anisotropy vector", Source::Sensed(|s| s.anisotropy[2])),
+    column(
+        "anisotropy_along_flow",
+        "1",
+        "anisotropy component along the local flow direction",
+        Source::Sensed(|s| s.anisotropy_along_flow),
+    ),
+    CellColumn {
+        at_a_time: Some(
+            "(N_front - N_back)/(N_front + N_back) of the rates at this time, front = downstream hemisphere",
+        ),
+        ..column(
+            "front_back_contrast",
+            "1",
+            "(N_front - N_back)/(N_front + N_back), front = downstream hemisphere",
+            Source::Sensed(|s| s.front_back_contrast),
+        )
+    },
+    CellColumn {
+        at_a_time: Some(
+            "Poisson standard error of the contrast over sensing.integration_time at the rates of this time, divided by its magnitude",
+        ),
+        ..column(
+            "direction_error",
+            "1",
+            "Poisson standard error of the contrast over sensing.integration_time, divided by its magnitude",
+            Source::Sensed(|s| s.direction_error),
+        )
+    },
+    CellColumn {
+        at_a_time: Some("x of the force of the fluid on the cell (flow in force at this time)"),
+        ..column("drag_x", "N", "x of the force of the fluid on the cell", Source::Drag(0))
+    },
+    column("drag_y", "N", "y of the force of the fluid on the cell", Source::Drag(1)),
+    column("drag_z", "N", "z of the force of the fluid on the cell", Source::Drag(2)),
+    column(
+        "local_speed",
+        "m/s",
+        "superficial speed averaged over the fluid shell a < r < 2a around the cell",
+        Source::Sensed(|s| s.local_speed),
+    ),
+];
+
+impl CellColumn {
+    /// The column's values for every cell of `state`.
+    pub fn column(&self, state: &CellState, kind: RunKind) -> Column {
+        let description = match kind {
+            RunKind::Transient => self.at_a_time.unwrap_or(self.description),
+            RunKind::Steady => self.description,
+        };
+        let real = |values: Vec<f64>| Column::real(self.name, self.unit, description, values);
+        match self.source {
+            Source::Id => Column::int(
+                self.name,
+                self.unit,
+                description,
+                state.cells.iter().map(|c| c.id as u64).collect(),
+            ),
+            Source::Layout(value) => real(state.cells.iter().map(value).collect()),
+            Source::Sensed(value) => real(state.sensing.iter().map(value).collect()),
+            Source::Drag(axis) => real(state.drag.iter().map(|f| f[axis]).collect()),
+        }
+    }
+}
+
+/// Every registered column of `state`, in file order.
+pub fn cell_columns(state: &CellState, kind: RunKind) -> Vec<Column> {
+    CELL_COLUMNS.iter().map(|c| c.column(state, kind)).collect()
+}
+
+/// `pressure_front_back` of `cells.csv` (after the registered columns; computed from the pressure field).
+pub fn pressure_front_back_column(values: Vec<f64>) -> Column {
+    Column::real(
+        "pressure_front_back",
+        "Pa",
+        "pressure at the upstream pole minus the downstream pole along the local flow",
+        values,
+    )
+}
+
+/// The registered column called `name`.
+pub fn cell_column(name: &str) -> Option<&'static CellColumn> {
+    CELL_COLUMNS.iter().find(|c| c.name == name)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn names_are_unique_and_every_source_reads_its_own_value() {
+        for (i, a) in CELL_COLUMNS.iter().enumerate() {
+            assert!(CELL_COLUMNS[i + 1..].iter().all(|b| b.name != a.name), "{} twice", a.name);
+        }
+        let cells = [Cell { id: 7, centre: [1.0, 2.0, 3.0], radius: 4.0, secretion_rate: 5.0 }];
+        let sensing = [CellSensing {
+            mean_surface_concentration: 6.0,
+            bound_rate: 7.0,
+            anisotropy: [8.0, 9.0, 10.0],
+            anisotropy_along_flow: 11.0,
+            front_back_contrast: 12.0,
+            direction_error: 13.0,
+            local_flow_direction: [0.0; 3],
+            local_speed: 17.0,
+        }];
+        let state = CellState { cells: &cells, sensing: &sensing, drag: &[[14.0, 15.0, 16.0]] };
+        let columns = cell_columns(&state, RunKind::Steady);
+        let mut expected = 1.0;
+        for c in &columns[1..] {
+            match &c.values {
+                crate::io::table::ColumnValues::Real(v) => assert_eq!(v, &[expected], "{}", c.name),
+                other => panic!("{} is not real: {other:?}", c.name),
+            }
+            expected += 1.0;
+        }
+        assert_eq!(columns[0].values, crate::io::table::ColumnValues::Int(vec![7]));
+        let transient = cell_columns(&state, RunKind::Transient);
+        assert!(transient[13].description.contains("at the rates of this time"));
+        assert_eq!(transient[16].description, columns[16].description);
+    }
+}
