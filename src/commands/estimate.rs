@@ -182,6 +182,9 @@ pub fn execute(case_path: &Path, json: bool, node_memory: Option<f64>) -> anyhow
         if let Some(warning) = &estimates.flow_resolution {
             eprintln!("warning: {warning}");
         }
+        if let Some(warning) = &estimates.boundary_layer {
+            eprintln!("warning: {warning}");
+        }
         print!("{}", estimates.table(&case));
     }
     Ok(())

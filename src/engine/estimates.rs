@@ -12,7 +12,7 @@ use serde_json::json;
 use solver::flow::brinkman::resolution::check_resolution;
 use solver::flow::brinkman::{BrinkmanMedium, ResolutionWarning};
 use solver::linalg::{KrylovParams, MultigridParams};
-use solver::post::decompose::{decompose, DecomposeInputs, DecomposeSelection};
+use solver::post::decompose::{decompose, DecomposeInputs, DecomposeSelection, Decomposition};
 use solver::post::estimates::{
     biot_number, estimate_cell_sensing, homogenised_source_and_sink, isolated_anisotropy, CellEstimateInputs,
     ColumnInlet, IsolatedFlow, MeanFieldColumn, SensingEstimate,
@@ -20,9 +20,10 @@ use solver::post::estimates::{
 use solver::post::{CellSensing, SensingModel};
 use solver::problem::{ChamberFace, SurfaceUptake};
 use solver::solve_case::SteadySolution;
+use solver::transport::boundary_layer::{check_boundary_layer, BoundaryLayerWarning};
 
 use crate::case::Case;
-use crate::exit::{InputError, SolverFailure};
+use crate::exit::InputError;
 use crate::io::table::{CellTable, Column, ColumnValues};
 use crate::outputs::summary::{ColumnQuantiles, SplitCost, SplitSummary};
 
@@ -111,6 +112,8 @@ pub struct CaseEstimates {
     /// Brinkman resolution guard at the case's grid (the same one `run` reports): set when √(μ_e K/μ) spans
     /// fewer than two spacings, with the expected drag error and the spacing that resolves it.
     pub flow_resolution: Option<ResolutionWarning>,
+    /// Boundary-layer guard at the case's grid (as `run` reports it), from the stream's cell Péclet number.
+    pub boundary_layer: Option<BoundaryLayerWarning>,
     fluid_fraction: f64,
     chamber_volume: f64,
 }
@@ -166,6 +169,7 @@ impl CaseEstimates {
             typical_cell,
             flow_resolution: BrinkmanMedium::from_model(case.flow.medium)
                 .and_then(|medium| check_resolution(&medium, case.grid.spacing)),
+            boundary_layer: boundary_layer_warning(case),
             fluid_fraction,
             chamber_volume,
         };
@@ -318,6 +322,10 @@ impl CaseEstimates {
                 "expected_drag_error": w.expected_drag_error, "suggested_spacing": w.suggested_spacing,
                 "message": w.to_string(),
             })),
+            "boundary_layer": self.boundary_layer.as_ref().map(|w| json!({
+                "surface_peclet": w.surface_peclet, "expected_error": w.expected_error,
+                "suggested_spacing": w.suggested_spacing, "message": w.to_string(),
+            })),
             "radius": self.radius,
             "peclet_cell": self.peclet_cell,
             "peclet_chamber": self.peclet_chamber,
@@ -388,6 +396,13 @@ pub fn estimates_apply(uptake: SurfaceUptake) -> bool {
     !matches!(uptake, SurfaceUptake::Absorbing)
 }
 
+/// The boundary-layer guard before a solve: the stream's cell Péclet number `U h / D` stands for the one at
+/// the cell surfaces (the solve reports the measured one).
+pub fn boundary_layer_warning(case: &Case) -> Option<BoundaryLayerWarning> {
+    let h = case.grid.spacing;
+    check_boundary_layer(case.flow.mean_velocity * h / case.ligand.diffusivity, h)
+}
+
 /// Names of the estimate columns that `run` appends after the contract columns of `cells.csv`.
 pub const ESTIMATE_COLUMNS: [&str; 7] = [
     "estimate_background",
@@ -437,6 +452,8 @@ pub struct SelfNeighbourSplit {
     pub columns: Vec<Column>,
     pub summary: SplitSummary,
     pub cost: Option<SplitCost>,
+    /// One line per failed split (its cells keep NaN); the main result stands.
+    pub warnings: Vec<String>,
 }
 
 /// Solves the own field of each cell chosen by `[sensing] decompose` (one extra right-hand side each, on the
@@ -460,13 +477,12 @@ pub fn split_self_and_neighbours(case: &Case, solved: &SteadySolution) -> anyhow
         iterations: None,
     };
     let mut cost = None;
+    let mut warnings = Vec::new();
     if !chosen.is_empty() {
         let inputs = DecomposeInputs {
             geometry: &solved.geometry,
             layout: &case.layout,
             assembly: &solved.transport.assembly,
-            face_flux: &solved.flow.face_flux,
-            diffusivity: case.ligand.diffusivity,
             total: &solved.transport.concentration,
             sensing: &solved.sensing,
             model: SensingModel {
@@ -479,23 +495,24 @@ pub fn split_self_and_neighbours(case: &Case, solved: &SteadySolution) -> anyhow
                 max_iterations: case.solve.max_iterations,
             },
             multigrid: MultigridParams::default(),
-            max_outer_iterations: 50,
         };
-        let split = decompose(&inputs, &chosen, false)
-            .map_err(|e| anyhow::Error::new(SolverFailure { message: e.to_string() }))?;
-        for s in &split.cells {
-            columns[0][s.cell] = s.self_anisotropy_along_flow;
-            columns[1][s.cell] = s.self_bound_rate;
-            columns[2][s.cell] = s.neighbour_bound_rate;
-            columns[3][s.cell] = s.signal_fraction;
+        match decompose(&inputs, &chosen, false) {
+            Ok(split) => {
+                for e in &split.failed {
+                    warnings.push(format!(
+                        "the self/neighbour split of a cell failed ({e}); its columns are NaN"
+                    ));
+                }
+                record_split(&split, &mut columns, &mut summary);
+                cost = Some(SplitCost {
+                    setup_s: split.setup_seconds,
+                    solve_s: split.solve_seconds,
+                    seconds_per_right_hand_side: split.solve_seconds / split.right_hand_sides.max(1) as f64,
+                    transport_s: solved.timing[2],
+                });
+            }
+            Err(e) => warnings.push(format!("the self/neighbour split failed ({e}); its columns are NaN")),
         }
-        summary.iterations = Some(split.cells.iter().map(|s| s.iterations).collect());
-        cost = Some(SplitCost {
-            setup_s: split.setup_seconds,
-            solve_s: split.solve_seconds,
-            seconds_per_right_hand_side: split.solve_seconds / split.right_hand_sides.max(1) as f64,
-            transport_s: solved.timing[2],
-        });
     }
     let descriptions = [
         ("1", "anisotropy along the local flow of the cell's own field alone (its secretion in the full geometry and flow); NaN if not decomposed"),
@@ -509,7 +526,18 @@ pub fn split_self_and_neighbours(case: &Case, solved: &SteadySolution) -> anyhow
         .zip(columns)
         .map(|((name, (unit, description)), values)| Column::real(name, unit, description, values))
         .collect();
-    Ok(SelfNeighbourSplit { columns, summary, cost })
+    Ok(SelfNeighbourSplit { columns, summary, cost, warnings })
+}
+
+/// The split cells' values into the columns, and their iterations into the summary.
+fn record_split(split: &Decomposition, columns: &mut [Vec<f64>], summary: &mut SplitSummary) {
+    for s in &split.cells {
+        columns[0][s.cell] = s.self_anisotropy_along_flow;
+        columns[1][s.cell] = s.self_bound_rate;
+        columns[2][s.cell] = s.neighbour_bound_rate;
+        columns[3][s.cell] = s.signal_fraction;
+    }
+    summary.iterations = Some(split.cells.iter().map(|s| s.iterations).collect());
 }
 
 /// Median, 10th and 90th percentile (linear interpolation between order statistics, common practice) of every

@@ -53,9 +53,12 @@ pub fn steady_case(case: &Case) -> SteadyCase<'_> {
 pub fn solution_warnings(solution: &SteadySolution) -> Vec<String> {
     let peclet = &solution.transport.assembly.peclet;
     let mut warnings = Vec::new();
-    if peclet.upwinded_faces > 0 {
+    let spacing = solution.geometry.grid.spacing;
+    if let Some(w) = solver::transport::boundary_layer::check_boundary_layer(peclet.surface_peclet, spacing) {
+        warnings.push(w.to_string());
+    } else if peclet.max_cell_peclet > solver::transport::advection::CENTRAL_PECLET_LIMIT {
         warnings.push(format!(
-            "the local cell Péclet number reaches {:.2} (above 2 on {} faces): those faces use limited upwind-biased advection; a finer grid.spacing keeps central differences everywhere",
+            "the cell Peclet number U h/D reaches {:.1} away from the cells (above 2 on {} faces): advection there is monotone but first order across the stream",
             peclet.max_cell_peclet, peclet.upwinded_faces
         ));
     }

@@ -90,6 +90,11 @@ pub fn write_outputs(
 ) -> Result<()> {
     let mut table = cell_table(case, solved);
     let split = crate::engine::estimates::split_self_and_neighbours(case, solved)?;
+    for warning in &split.warnings {
+        eprintln!("warning: {warning}");
+    }
+    let warnings: Vec<String> = warnings.iter().chain(&split.warnings).cloned().collect();
+    let warnings = warnings.as_slice();
     table.columns.extend(split.columns);
     let fields = field_data(case, solved);
     let provenance = super::run_provenance(case);
@@ -146,7 +151,6 @@ pub fn write_outputs(
         transport: TransportSummary {
             iterations: solved.transport.iterations,
             mode: TransportMode::Steady {
-                outer_iterations: solved.transport.outer_iterations,
                 relative_residual: solved.transport.relative_residual,
                 max_cell_peclet: solved.transport.assembly.peclet.max_cell_peclet,
                 upwinded_faces: solved.transport.assembly.peclet.upwinded_faces,

@@ -130,7 +130,6 @@ pub struct TransportSummary {
 #[serde(untagged)]
 pub enum TransportMode {
     Steady {
-        outer_iterations: usize,
         #[serde(deserialize_with = "real")]
         relative_residual: f64,
         #[serde(deserialize_with = "real")]

@@ -216,11 +216,7 @@ fn run(cli: &Cli) -> Result<()> {
         face_flux: &flow.face_flux,
         far_field_speed: case.flow.mean_velocity,
     };
-    let settings = TransportSettings {
-        krylov: krylov.clone(),
-        multigrid: multigrid.clone(),
-        ..TransportSettings::default()
-    };
+    let settings = TransportSettings { krylov: krylov.clone(), multigrid: multigrid.clone() };
     // The steady path as `run` takes it (assembly, setup, solve), `--steady-reps` times (median), then its
     // parts once more for the split.
     let mut steady = None;
@@ -248,8 +244,8 @@ fn run(cli: &Cli) -> Result<()> {
     let solve_s = Timing { wall: t.elapsed().as_secs_f64(), cpu: cpu_seconds() - cpu };
     drop((solver, x));
     println!(
-        "steady solve (solve_steady: assembly + multigrid setup + solve), median of {}: {} — {} iterations ({} outer), relative residual {:.1e}",
-        repeats.len(), steady_s, steady.iterations, steady.outer_iterations, steady.relative_residual
+        "steady solve (solve_steady: assembly + multigrid setup + solve), median of {}: {} — {} iterations, relative residual {:.1e}",
+        repeats.len(), steady_s, steady.iterations, steady.relative_residual
     );
     println!(
         "  repetitions: {}",
@@ -304,7 +300,6 @@ fn run(cli: &Cli) -> Result<()> {
         output_times: vec![end_time],
         krylov: krylov.clone(),
         multigrid: step_multigrid,
-        max_outer_iterations: settings.max_outer_iterations,
         window_start: 0.0,
         steady: Some(reference),
         stop_at_steady: Some(STEADY_DISTANCE),
@@ -441,7 +436,6 @@ fn demo(cli: &Cli) -> Result<()> {
             max_iterations: case.solve.max_iterations,
         },
         multigrid: MultigridParams::default(),
-        max_outer_iterations: TransportSettings::default().max_outer_iterations,
         window_start: 0.0,
         steady: None,
         stop_at_steady: Some(STEADY_DISTANCE),

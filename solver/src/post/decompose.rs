@@ -10,10 +10,9 @@
 //! the field of its secretion alone is solved in the full crowded geometry and flow, reusing one operator and one
 //! multigrid hierarchy for every right-hand side; the solves run in parallel batches of the thread count.
 //!
-//! Upwinded faces carry a limited deferred correction that is not linear in c. The split then freezes the
-//! limiter ψ at the solved total field: `A c_i = b_i + K_ψ c_i` with `K_ψ` the correction with fixed ψ, solved
-//! by the same outer iterations. The total satisfies `A c = b + K_ψ c` with its own ψ, so the parts still add
-//! up to the total (to solver tolerance) — the split is the linearisation of the scheme about the solution.
+//! The operator is linear at every Péclet number (`transport::advection`), so the parts add up to the total to
+//! solver tolerance. A cell whose own solve fails is left out of the split and reported in
+//! [`Decomposition::failed`]; the other cells are still split.
 //!
 //! Cost: one steady solve per chosen cell (about the cost of the total solve each, less the hierarchy set-up);
 //! memory grows with the batch size, not with the number of chosen cells.
@@ -21,7 +20,6 @@
 use super::integrate_surface::{CellSensing, SensingModel};
 use crate::linalg::{KrylovParams, MultigridParams, SolveError, SteadySolver};
 use crate::problem::SurfaceUptake;
-use crate::transport::advection::limited_faces;
 use crate::transport::surface_exchange::FacetExchange;
 use crate::transport::TransportAssembly;
 use mesh::{EmbeddedGeometry, Layout};
@@ -33,9 +31,6 @@ pub struct DecomposeInputs<'a> {
     pub geometry: &'a EmbeddedGeometry,
     pub layout: &'a Layout,
     pub assembly: &'a TransportAssembly,
-    /// Face fluxes of the flow (m^3/s), for the frozen deferred correction.
-    pub face_flux: &'a [Vec<f64>; 3],
-    pub diffusivity: f64,
     /// The solved total concentration.
     pub total: &'a [f64],
     /// The measured sensing of every cell (for the local flow direction and the totals).
@@ -43,8 +38,6 @@ pub struct DecomposeInputs<'a> {
     pub model: SensingModel,
     pub krylov: KrylovParams,
     pub multigrid: MultigridParams,
-    /// Outer deferred-correction iterations at most (used only with upwinded faces).
-    pub max_outer_iterations: usize,
 }
 
 /// Self/neighbour split of one cell. Units: molecules/s; the rest dimensionless.
@@ -65,7 +58,7 @@ pub struct CellSplit {
     pub signal_fraction: f64,
     /// Area-mean surface concentration of the own field (molecules/m^3).
     pub self_mean_surface_concentration: f64,
-    /// Krylov iterations of this right-hand side (summed over outer iterations).
+    /// Krylov iterations of this right-hand side.
     pub iterations: usize,
 }
 
@@ -81,16 +74,16 @@ pub struct Decomposition {
     pub right_hand_sides: usize,
     /// `Σ_i c_i + c_inlet` when requested (every cell chosen): must equal the total field.
     pub sum_of_parts: Option<Vec<f64>>,
+    /// Chosen cells whose own solve failed (absent from `cells`); always empty when the parts are summed.
+    pub failed: Vec<DecomposeError>,
 }
 
-#[derive(thiserror::Error, Debug)]
+#[derive(thiserror::Error, Clone, Debug)]
 pub enum DecomposeError {
     #[error("the self-field solve of cell {cell} did not converge: relative residual {relative_residual:.3e} after {iterations} iterations")]
     NoConvergence { cell: usize, iterations: usize, relative_residual: f64 },
     #[error("the self-field solve of cell {cell} produced non-finite values")]
     NonFinite { cell: usize },
-    #[error("the self-field outer iterations of cell {cell} did not settle: relative change {change:.3e}")]
-    OuterNoConvergence { cell: usize, change: f64 },
     #[error("cell index {cell} is outside the layout ({cells} cells)")]
     UnknownCell { cell: usize, cells: usize },
 }
@@ -120,7 +113,8 @@ pub fn source_rhs(
 }
 
 /// Splits the field of each cell in `chosen` (layout indices). With `sum_parts`, `chosen` should hold every
-/// cell: the inlet field is solved as well and the sum of all parts is returned for checking.
+/// cell: the inlet field is solved as well and the sum of all parts is returned for checking; any failed solve
+/// is then an error. Without it, a cell whose solve fails goes to [`Decomposition::failed`].
 pub fn decompose(
     inputs: &DecomposeInputs,
     chosen: &[usize],
@@ -133,7 +127,6 @@ pub fn decompose(
     let t0 = Instant::now();
     let solver = SteadySolver::new(inputs.assembly.system.clone(), inputs.multigrid.clone());
     let setup_seconds = t0.elapsed().as_secs_f64();
-    let limiter = (inputs.assembly.peclet.upwinded_faces > 0).then(|| FrozenLimiter::new(inputs));
     let by_owner = facets_by_owner(inputs.geometry, cells);
 
     let t1 = Instant::now();
@@ -145,16 +138,24 @@ pub fn decompose(
     let batch = rayon::current_num_threads().max(1);
     let mut splits = Vec::with_capacity(chosen.len());
     let mut sum = sum_parts.then(|| vec![0.0; n]);
+    let mut failed = Vec::new();
     for group in sources.chunks(batch) {
         let solved: Vec<Result<SolvedPart, DecomposeError>> = group
             .par_iter()
             .map(|&source| {
-                let (field, iterations) = solve_part(inputs, &solver, limiter.as_ref(), source)?;
+                let (field, iterations) = solve_part(inputs, &solver, source)?;
                 Ok((source, field, iterations))
             })
             .collect();
         for result in solved {
-            let (source, field, iterations) = result?;
+            let (source, field, iterations) = match result {
+                Ok(part) => part,
+                Err(e) if !sum_parts => {
+                    failed.push(e);
+                    continue;
+                }
+                Err(e) => return Err(e),
+            };
             if let Some(cell) = source {
                 splits.push(split_of(inputs, &by_owner[cell], cell, &field, iterations));
             }
@@ -169,17 +170,17 @@ pub fn decompose(
         solve_seconds: t1.elapsed().as_secs_f64(),
         right_hand_sides: sources.len(),
         sum_of_parts: sum,
+        failed,
     })
 }
 
 /// One solved source: which (cell or inlet), its field, its Krylov iterations.
 type SolvedPart = (Option<usize>, Vec<f64>, usize);
 
-/// Solves `A c_s = b_s (+ K_ψ c_s)` for one source.
+/// Solves `A c_s = b_s` for one source.
 fn solve_part(
     inputs: &DecomposeInputs,
     solver: &SteadySolver,
-    limiter: Option<&FrozenLimiter>,
     source: Option<usize>,
 ) -> Result<(Vec<f64>, usize), DecomposeError> {
     let label = source.unwrap_or(usize::MAX);
@@ -191,24 +192,7 @@ fn solve_part(
         }
         SolveError::NonFinite { .. } => DecomposeError::NonFinite { cell: label },
     };
-    let mut iterations = solver.solve(&rhs, &mut c, &inputs.krylov).map_err(map)?.iterations;
-    if let Some(limiter) = limiter {
-        let mut outer = 1;
-        loop {
-            let correction = limiter.correction(&c);
-            let corrected: Vec<f64> = rhs.iter().zip(&correction).map(|(b, k)| b + k).collect();
-            let previous = c.clone();
-            iterations += solver.solve(&corrected, &mut c, &inputs.krylov).map_err(map)?.iterations;
-            outer += 1;
-            let change = relative_change(&previous, &c);
-            if change <= inputs.krylov.relative_tolerance {
-                break;
-            }
-            if outer >= inputs.max_outer_iterations {
-                return Err(DecomposeError::OuterNoConvergence { cell: label, change });
-            }
-        }
-    }
+    let iterations = solver.solve(&rhs, &mut c, &inputs.krylov).map_err(map)?.iterations;
     if c.iter().any(|v| !v.is_finite()) {
         return Err(DecomposeError::NonFinite { cell: label });
     }
@@ -218,16 +202,6 @@ fn solve_part(
         }
     }
     Ok((c, iterations))
-}
-
-fn relative_change(a: &[f64], b: &[f64]) -> f64 {
-    let num: f64 = a.iter().zip(b).map(|(x, y)| (x - y) * (x - y)).sum();
-    let den: f64 = b.iter().map(|y| y * y).sum();
-    if den == 0.0 {
-        0.0
-    } else {
-        (num / den).sqrt()
-    }
 }
 
 fn facets_by_owner(geometry: &EmbeddedGeometry, cells: usize) -> Vec<Vec<usize>> {
@@ -281,35 +255,6 @@ fn split_of(
         signal_fraction: if total_m[1] != 0.0 { own_m[1] / total_m[1] } else { f64::NAN },
         self_mean_surface_concentration: if own_m[4] > 0.0 { own_m[3] / own_m[4] } else { 0.0 },
         iterations,
-    }
-}
-
-/// The deferred correction of `transport::advection` with the van Leer limiter ψ(r) frozen at the total field:
-/// on every upwinded interior face the flux `|Q| ψ/2 (c_D − c_U)` moves from the matrix (upwind) to the
-/// right-hand side; with ψ fixed it is linear in c.
-struct FrozenLimiter {
-    /// (upwind cell, downwind cell, |Q| ψ/2) of every corrected face.
-    faces: Vec<(usize, usize, f64)>,
-    len: usize,
-}
-
-impl FrozenLimiter {
-    fn new(inputs: &DecomposeInputs) -> Self {
-        let faces = limited_faces(inputs.geometry, inputs.face_flux, inputs.diffusivity, inputs.total)
-            .into_iter()
-            .map(|f| (f.upstream, f.downstream, f.weight))
-            .collect();
-        FrozenLimiter { faces, len: inputs.geometry.grid.len() }
-    }
-
-    fn correction(&self, c: &[f64]) -> Vec<f64> {
-        let mut out = vec![0.0; self.len];
-        for &(up, down, w) in &self.faces {
-            let flux = w * (c[down] - c[up]);
-            out[up] -= flux;
-            out[down] += flux;
-        }
-        out
     }
 }
 

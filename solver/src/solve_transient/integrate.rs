@@ -9,7 +9,6 @@ use super::{
 use crate::post::sensing_window::{cell_rates, WindowCounts};
 use crate::post::{cell_sensing_in_local_flow, local_flow_per_cell, CellSensing};
 use crate::problem::{ChamberFace, SurfaceUptake};
-use crate::transport::advection::deferred_correction;
 use crate::transport::chamber_faces::BoundaryExchange;
 use crate::transport::surface_exchange::{released_per_cell, FacetExchange};
 use crate::transport::transient::balance::{step_balance, stored_amount, BalanceForms, StepBalance};
@@ -34,7 +33,6 @@ struct PhaseSystem<'a> {
     far_field: SwitchedOnFarField,
     /// Right-hand side of the chamber faces (inlet inflow).
     boundary_rhs: Vec<f64>,
-    upwinded: bool,
     /// Shell-averaged flow around each cell (the phase's flow is fixed).
     local_flow: Vec<[f64; 3]>,
 }
@@ -86,7 +84,6 @@ impl<'a> PhaseSystem<'a> {
             decay: assembly.decay,
             far_field,
             boundary_rhs,
-            upwinded: assembly.peclet.upwinded_faces > 0,
             local_flow: local_flow_per_cell(problem.geometry, problem.layout, phase.velocity),
         }
     }
@@ -246,7 +243,6 @@ struct Stepper<'a, 'p> {
     facets_now: Vec<FacetExchange>,
     cell_geometry: CellGeometry,
     rhs: Vec<f64>,
-    step_rhs: Vec<f64>,
     spare: Vec<Vec<f64>>,
     base_products: BaseProducts,
     stored: StoredAmounts,
@@ -319,7 +315,6 @@ impl<'a, 'p> Stepper<'a, 'p> {
             facets_now,
             cell_geometry,
             rhs: vec![0.0; n],
-            step_rhs: vec![0.0; n],
             spare: Vec::new(),
             base_products: BaseProducts::default(),
             stored: StoredAmounts::default(),
@@ -415,44 +410,15 @@ impl<'a, 'p> Stepper<'a, 'p> {
         Ok(SolvedStep { t_new, h, alpha, with_history: history_c1.is_some(), far_field, c_new, iterations })
     }
 
-    /// Solves the step system for `c` (the guess on entry) to the absolute residual `target`, with deferred
-    /// correction of the upwinded faces; returns the Krylov iterations.
+    /// Solves the step system for `c` (the guess on entry) to the absolute residual `target`; the fitted flux
+    /// keeps the system linear, so one solve suffices. Returns the Krylov iterations.
     fn solve_step(&mut self, c_new: &mut [f64], target: f64, t_new: f64) -> Result<usize, TransientError> {
-        let (problem, settings) = (self.problem, self.settings);
-        let system = &mut self.system;
-        let mut iterations = 0;
-        let mut outer = 0;
-        loop {
-            let solve_rhs: &[f64] = if system.upwinded {
-                let correction = deferred_correction(
-                    problem.geometry,
-                    system.phase.face_flux,
-                    problem.ligand.diffusivity,
-                    c_new,
-                );
-                for ((b, r), k) in self.step_rhs.iter_mut().zip(&self.rhs).zip(&correction) {
-                    *b = r + k;
-                }
-                &self.step_rhs
-            } else {
-                &self.rhs
-            };
-            let before = system.upwinded.then(|| c_new.to_vec());
-            let info = system
-                .solver
-                .solve(solve_rhs, c_new, target, settings.krylov.max_iterations)
-                .map_err(|source| TransientError::Solve { time: t_new, source })?;
-            iterations += info.iterations;
-            outer += 1;
-            let Some(before) = before else { break };
-            let change = relative_change(&before, c_new);
-            if change <= settings.krylov.relative_tolerance {
-                break;
-            }
-            if outer >= settings.max_outer_iterations {
-                return Err(TransientError::OuterNoConvergence { time: t_new, change });
-            }
-        }
+        let iterations = self
+            .system
+            .solver
+            .solve(&self.rhs, c_new, target, self.settings.krylov.max_iterations)
+            .map_err(|source| TransientError::Solve { time: t_new, source })?
+            .iterations;
         if c_new.iter().any(|v| !v.is_finite()) {
             return Err(TransientError::NonFinite { time: t_new });
         }

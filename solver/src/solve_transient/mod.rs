@@ -91,7 +91,6 @@ pub struct TransientSettings {
     /// of the same forcing would reach.
     pub krylov: KrylovParams,
     pub multigrid: MultigridParams,
-    pub max_outer_iterations: usize,
     /// Cumulative counts start here (s).
     pub window_start: f64,
     pub steady: Option<SteadyReference>,
@@ -148,8 +147,6 @@ impl TransientObserver for NoObserver {
 pub enum TransientError {
     #[error("the transient solve failed at t = {time:.6e} s: {source}")]
     Solve { time: f64, source: crate::linalg::SolveError },
-    #[error("the transient solve failed at t = {time:.6e} s: deferred-correction iterations did not settle (change {change:.3e})")]
-    OuterNoConvergence { time: f64, change: f64 },
     #[error("the transient solve failed at t = {time:.6e} s: non-finite concentration")]
     NonFinite { time: f64 },
     #[error("the time step fell to {step:.3e} s at t = {time:.6e} s")]

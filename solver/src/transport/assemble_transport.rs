@@ -1,7 +1,7 @@
 //! Adds diffusion, advection, decay, surface exchange and chamber-face terms into one linear system
 //! `A c = b` (rows are the molecule balance of each grid cell, molecules/s).
 
-use super::advection::{upwind_high_peclet_faces, PecletReport};
+use super::advection::{fit_high_peclet_faces, PecletReport};
 use super::chamber_faces::{boundary_exchanges, BoundaryExchange};
 use super::decay::decay_sink;
 use super::diffusion::diffusive_conductance;
@@ -29,7 +29,7 @@ pub fn assemble_transport(problem: &TransportProblem) -> TransportAssembly {
     let d = problem.ligand.diffusivity;
 
     let mut conductance = diffusive_conductance(geometry, d);
-    let peclet = upwind_high_peclet_faces(geometry, problem.face_flux, d, &mut conductance);
+    let peclet = fit_high_peclet_faces(geometry, problem.face_flux, d, &mut conductance);
     let decay = decay_sink(geometry, problem.ligand.decay_rate);
     let mut sink = decay.clone();
     let mut rhs = vec![0.0; n];

@@ -10,6 +10,7 @@
 
 pub mod advection;
 pub mod assemble_transport;
+pub mod boundary_layer;
 pub mod chamber_faces;
 pub mod decay;
 pub mod diffusion;

@@ -46,9 +46,6 @@ use observer::RunObserver;
 use progress::{human_time, TransientProgress};
 use restart_files::{parts_dir, read_checkpoint, read_part, OutputPart};
 
-/// Outer deferred-correction iterations per step at most (as the steady solve).
-const MAX_OUTER_ITERATIONS: usize = 50;
-
 /// Output times `k · output_every` (k ≥ 1) up to the end time (the end time itself is always written).
 pub fn output_times(t: &TransientSolve) -> Vec<f64> {
     let mut times = Vec::new();
@@ -82,7 +79,6 @@ pub fn transient_case<'a>(case: &'a Case, t: &TransientSolve) -> TransientCase<'
         output_times: output_times(t),
         krylov: steady.krylov.clone(),
         multigrid: MultigridParams::default(),
-        max_outer_iterations: MAX_OUTER_ITERATIONS,
         window_start: t.window_start,
         steady: None,
         stop_at_steady: t.stop_at_steady,
@@ -112,13 +108,19 @@ fn solve_error(error: TransientError) -> anyhow::Error {
     }
 }
 
+/// Warnings about the numerics of a transient case, known before the solve: the boundary-layer guard from the
+/// stream's cell Péclet number (as `estimate` reports it).
+fn transient_warnings(case: &Case) -> Vec<String> {
+    crate::engine::estimates::boundary_layer_warning(case).map(|w| w.to_string()).into_iter().collect()
+}
+
 /// Solves a transient case into `out_dir`.
 pub fn execute(case: &Case, out_dir: &Path, options: &TransientOptions) -> Result<()> {
     let Some(t) = case.solve.transient.as_ref() else {
         return Err(InputError("solve.mode = \"transient\" without transient settings".into()).into());
     };
     if !options.quiet {
-        for warning in &case.warnings {
+        for warning in case.warnings.iter().chain(&transient_warnings(case)) {
             eprintln!("warning: {warning}");
         }
     }
@@ -482,7 +484,7 @@ fn run_summary(
         table,
         final_mean_velocity: last_flow_speed(case, t),
         measured_outlet_concentration: final_part.outlet_concentration,
-        warnings: &[],
+        warnings: &transient_warnings(case),
     };
     let sections = RunSections {
         timing_s: Resources {

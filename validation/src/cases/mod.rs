@@ -11,6 +11,7 @@ pub mod low_peclet_darcy;
 pub mod mass_balance_dense;
 pub mod meanfield_dense;
 pub mod setup;
+pub mod sherwood_sphere;
 pub mod stokes_array;
 pub mod transient_puff;
 pub mod transient_setup;
@@ -134,5 +135,7 @@ pub fn run_all(tier: Tier, progress: &mut dyn FnMut(&str)) -> Result<Vec<Check>,
     checks.extend(low_peclet_brinkman::run(tier)?);
     progress("Stokes flow through a simple-cubic array");
     checks.extend(stokes_array::run(tier)?);
+    progress("absorbing sphere in Stokes flow, high Péclet");
+    checks.extend(sherwood_sphere::run(tier)?);
     Ok(checks)
 }

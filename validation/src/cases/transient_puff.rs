@@ -90,7 +90,6 @@ pub fn puff_errors(n: usize, step: f64) -> Result<(f64, f64), VerifyError> {
         output_times: vec![RUN / 2.0, RUN],
         krylov: KrylovParams { relative_tolerance: 1e-12, max_iterations: 500 },
         multigrid: MultigridParams::default(),
-        max_outer_iterations: 50,
         window_start: 0.0,
         steady: None,
         stop_at_steady: None,

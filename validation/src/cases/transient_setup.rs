@@ -85,7 +85,6 @@ pub fn run_transient(
             output_times: run.output_times.clone(),
             krylov,
             multigrid: MultigridParams::default(),
-            max_outer_iterations: 50,
             window_start: 0.0,
             steady: None,
             stop_at_steady: None,

@@ -165,8 +165,6 @@ mod tests {
             geometry: &solution.geometry,
             layout: &layout,
             assembly: &solution.transport.assembly,
-            face_flux: &solution.flow.face_flux,
-            diffusivity: ligand.diffusivity,
             total: &solution.transport.concentration,
             sensing: &solution.sensing,
             model: SensingModel {
@@ -176,7 +174,6 @@ mod tests {
             },
             krylov,
             multigrid: MultigridParams::default(),
-            max_outer_iterations: 60,
         };
         let split = decompose(&inputs, &[0, 1], true).unwrap();
         let sum = split.sum_of_parts.unwrap_or_default();
@@ -246,7 +243,6 @@ mod tests {
                 output_times: vec![40.0 * unit],
                 krylov,
                 multigrid: MultigridParams::default(),
-                max_outer_iterations: 50,
                 window_start: 0.0,
                 steady: None,
                 stop_at_steady: None,

@@ -20,6 +20,7 @@ pub mod quadrature;
 pub mod special;
 pub mod sphere_steady;
 pub mod sphere_transient;
+pub mod thin_boundary_layer;
 
 use thiserror::Error;
 
