@@ -6,6 +6,7 @@ pub mod commands;
 pub mod engine;
 pub mod exit;
 pub mod figures;
+pub mod forecast;
 pub mod io;
 pub mod outputs;
 pub mod sensing;

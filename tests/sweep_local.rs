@@ -91,7 +91,7 @@ fn failing_case_is_recorded_and_counted_in_the_exit_code() {
     // The figures pass the checks that need no eyes, and the failed case is stated, not drawn.
     let (table, plan, _) = plumefield::sweep::collect::collect(&out_dir).unwrap();
     let drawn =
-        plumefield::figures::sweep_curves::draw_sweep_figures(&table, &plan, &dir.path().join("figures"))
+        plumefield::sweep::sweep_curves::draw_sweep_figures(&table, &plan, &dir.path().join("figures"))
             .unwrap();
     assert!(!drawn.is_empty());
     for (path, record) in &drawn {

@@ -5,9 +5,9 @@ use std::path::Path;
 
 use anyhow::Result;
 
-use crate::figures::sweep_curves::draw_sweep_curves;
 use crate::sweep::collect::{collect, write_csv, write_h5, write_timings, ColumnData};
 use crate::sweep::replicate_groups::replicate_groups;
+use crate::sweep::sweep_curves::draw_sweep_curves;
 
 pub fn execute(dir: &Path) -> Result<()> {
     let (table, plan, timings) = collect(dir)?;

@@ -7,7 +7,7 @@
 //! and only warn.
 
 use crate::case::Case;
-use crate::sweep::forecast::{format_bytes, Forecast};
+use crate::forecast::{format_bytes, Forecast};
 
 /// A memory limit and where it comes from (for the message).
 #[derive(Clone, Debug, PartialEq)]

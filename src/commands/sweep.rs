@@ -7,8 +7,8 @@ use std::path::{Path, PathBuf};
 use anyhow::{Context, Result};
 
 use crate::exit::{one_line, InputError, SolverFailure};
+use crate::forecast::{format_bytes, format_seconds, Forecast};
 use crate::sweep::done_marker::{case_state, write_failed, CaseState};
-use crate::sweep::forecast::{format_bytes, format_seconds, Forecast};
 use crate::sweep::lock::{LockError, SweepLock};
 use crate::sweep::memory_reuse;
 use crate::sweep::plan_record::PlanRecord;

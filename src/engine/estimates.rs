@@ -77,7 +77,7 @@ pub struct CriticalDensity {
     pub case_error: f64,
 }
 
-/// Forecast for `run` at the case's grid, on `threads` threads (the shared model of `crate::sweep::forecast`).
+/// Forecast for `run` at the case's grid, on `threads` threads (the shared model of `crate::forecast`).
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct Forecast {
     pub grid_cells: usize,
@@ -378,9 +378,9 @@ fn finite_or_string(x: f64) -> serde_json::Value {
     }
 }
 
-/// The shared run forecast (`crate::sweep::forecast`) on this machine's cores, as `run` uses them.
+/// The shared run forecast (`crate::forecast`) on this machine's cores, as `run` uses them.
 fn forecast(case: &Case) -> Forecast {
-    let model = crate::sweep::forecast::Forecast::of(case);
+    let model = crate::forecast::Forecast::of(case);
     let threads = std::thread::available_parallelism().map_or(1, |n| n.get());
     Forecast {
         grid_cells: model.grid_cells,

@@ -1,4 +1,4 @@
-//! Figures (PNG) of a run and of a sweep, drawn with plotters.
+//! Figures (PNG) of a run, drawn with plotters; a sweep's figures (`sweep/sweep_curves.rs`) use the same style.
 //!
 //! Run figures: [`run_figures::draw_run_figures`] reads a run's output folder ([`run_data`]) and draws one file
 //! per figure (one figure per file here too); [`style`] holds the font, colour map and atomic write.
@@ -11,5 +11,3 @@ pub mod direction_error_histogram;
 pub mod run_data;
 pub mod run_figures;
 pub mod style;
-
-pub mod sweep_curves;

@@ -11,7 +11,6 @@ pub mod collect;
 pub mod done_marker;
 pub mod error;
 pub mod expand;
-pub mod forecast;
 /// The sweep folder's lock (shared with the output folder of `run`).
 pub use crate::io::folder_lock as lock;
 pub mod memory_reuse;
@@ -20,6 +19,7 @@ pub mod replicate_groups;
 pub mod run_local;
 pub mod sensing_columns;
 pub mod slurm;
+pub mod sweep_curves;
 pub mod sweep_file;
 
 pub use error::SweepError;

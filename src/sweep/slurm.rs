@@ -16,7 +16,7 @@
 
 use std::path::{Path, PathBuf};
 
-use super::forecast::Forecast;
+use crate::forecast::Forecast;
 use crate::io::write_atomic;
 
 /// The folder under the sweep folder that holds the scripts and the logs.

@@ -149,7 +149,7 @@ mod tests {
 
     #[test]
     fn viscous_flow_and_time_steps_add_to_the_forecast() {
-        let base = include_str!("../../cases/demo.toml");
+        let base = include_str!("../cases/demo.toml");
         let parse =
             |text: &str| Case::parse(text, std::path::Path::new("cases/demo.toml")).expect("case parses");
         let steady = Forecast::of(&parse(base));

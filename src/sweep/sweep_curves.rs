@@ -12,14 +12,14 @@ use anyhow::{Context, Result};
 use plotters::prelude::*;
 use rayon::prelude::*;
 
-use super::style::legend::along;
-use super::style::{
+use super::axis::Scale as SweepScale;
+use super::collect::{ColumnData, ColumnRole, SweepTable};
+use super::plan_record::PlanRecord;
+use crate::figures::style::legend::along;
+use crate::figures::style::{
     axis_label, chart, choose_scale, colour_maps, drawing, place_legend, plot_box, register_fonts,
     significant, titled, write_png, Axis, DisplayUnit, FigureRecord, Legend, Scale, Swatch, LEVEL,
 };
-use crate::sweep::axis::Scale as SweepScale;
-use crate::sweep::collect::{ColumnData, ColumnRole, SweepTable};
-use crate::sweep::plan_record::PlanRecord;
 
 /// Summary metrics worth a figure (the others, such as iteration counts, are diagnostics).
 const PLOTTED_METRICS: [&str; 4] = [
@@ -302,7 +302,7 @@ fn draw_one(
     }
     let not_drawn = not_drawn + unfinished;
     let y = Axis::fit(&y_values, y_scale, false, &axis_label(&metric.short, &y_unit))
-        .with_headroom(super::style::legend::Legend::room(legend.entries.len()), PLOT_HEIGHT);
+        .with_headroom(crate::figures::style::legend::Legend::room(legend.entries.len()), PLOT_HEIGHT);
     let mut record = FigureRecord {
         file: file.display().to_string(),
         not_drawn,
