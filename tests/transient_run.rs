@@ -74,6 +74,9 @@ fn transient_outputs_are_read_by_outside_readers() {
     let (out, output) = run(&dir, "case.toml", &case_text(&TRANSIENT), &[]);
     let stderr = String::from_utf8_lossy(&output.stderr);
     assert_eq!(output.status.code(), Some(0), "{stderr}");
+    // The closing line names the folder the user asked for, not the staging folder beside it.
+    assert!(stderr.contains(&format!("outputs in {}", out.display())), "{stderr}");
+    assert!(!stderr.contains(".partial"), "{stderr}");
     for name in ["fields.h5", "fields.xmf", "cells.csv", "cells_timeseries.csv", "summary.json"] {
         assert!(out.join(name).exists(), "{name} missing");
     }

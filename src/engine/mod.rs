@@ -105,7 +105,7 @@ pub fn execute_with(
     // Checked and locked before the solve; the run writes beside it and the folder is replaced whole.
     let folder = OutputFolder::prepare(out_dir, &case.input_files, options.resume).map_err(folder_error)?;
     if transient {
-        transient::execute(case, folder.staging(), options)?;
+        transient::execute(case, folder.staging(), out_dir, options)?;
         return folder.commit().map_err(folder_error);
     }
     let staging = folder.staging().to_path_buf();

@@ -226,12 +226,14 @@ pub fn run_case(
         // The `run` command's transient path, without its progress bar: several cases run at once.
         let options = TransientOptions { quiet: true, ..TransientOptions::default() };
         write(&mut || {
-            std::panic::catch_unwind(AssertUnwindSafe(|| transient::execute(&case, &case_dir, &options)))
-                .map_err(caught)?
-                .map_err(|e| {
-                    let kind = if e.downcast_ref::<InputError>().is_some() { "input" } else { "solver" };
-                    failure(plan, index, kind, one_line(&e))
-                })
+            std::panic::catch_unwind(AssertUnwindSafe(|| {
+                transient::execute(&case, &case_dir, &case_dir, &options)
+            }))
+            .map_err(caught)?
+            .map_err(|e| {
+                let kind = if e.downcast_ref::<InputError>().is_some() { "input" } else { "solver" };
+                failure(plan, index, kind, one_line(&e))
+            })
         })?;
     } else {
         let solved = std::panic::catch_unwind(AssertUnwindSafe(|| {

@@ -114,8 +114,9 @@ fn transient_warnings(case: &Case) -> Vec<String> {
     crate::engine::estimates::boundary_layer_warning(case).map(|w| w.to_string()).into_iter().collect()
 }
 
-/// Solves a transient case into `out_dir`.
-pub fn execute(case: &Case, out_dir: &Path, options: &TransientOptions) -> Result<()> {
+/// Solves a transient case into `out_dir`; the closing line names `destination`, the folder the user asked
+/// for (`out_dir` is the staging folder beside it when `run` replaces the folder whole).
+pub fn execute(case: &Case, out_dir: &Path, destination: &Path, options: &TransientOptions) -> Result<()> {
     let Some(t) = case.solve.transient.as_ref() else {
         return Err(InputError("solve.mode = \"transient\" without transient settings".into()).into());
     };
@@ -202,7 +203,7 @@ pub fn execute(case: &Case, out_dir: &Path, options: &TransientOptions) -> Resul
         state.rejected_steps,
         state.outputs_done,
         state.worst_balance_error,
-        out_dir.display()
+        destination.display()
     ));
     Ok(())
 }
