@@ -66,33 +66,11 @@ pub fn key_in_words(key: &str) -> String {
         .join(" ")
 }
 
-/// Student-t 0.975 quantile for `dof` degrees of freedom (Abramowitz & Stegun 1964, Table 26.10; from memory,
-/// to 3 decimals): the half-width of a 95 % interval of a mean is this times the standard error.
-pub fn t_975(dof: usize) -> f64 {
-    const TABLE: [f64; 30] = [
-        12.706, 4.303, 3.182, 2.776, 2.571, 2.447, 2.365, 2.306, 2.262, 2.228, 2.201, 2.179, 2.160, 2.145,
-        2.131, 2.120, 2.110, 2.101, 2.093, 2.086, 2.080, 2.074, 2.069, 2.064, 2.060, 2.056, 2.052, 2.048,
-        2.045, 2.042,
-    ];
-    match dof {
-        0 => f64::NAN,
-        1..=30 => TABLE[dof - 1],
-        31..=40 => 2.021,
-        41..=60 => 2.000,
-        61..=120 => 1.980,
-        _ => 1.960,
-    }
-}
-
-/// Mean and 95 % half-width (NaN for a single value) of `values`.
+/// Mean and 95 % half-width (NaN for a single value) of `values`, from the replicate statistics that
+/// `sweep_groups.csv` is written with (one Student-t table in the program).
 pub fn mean_interval(values: &[f64]) -> (f64, f64) {
-    let n = values.len();
-    let mean = values.iter().sum::<f64>() / n as f64;
-    if n < 2 {
-        return (mean, f64::NAN);
-    }
-    let variance = values.iter().map(|v| (v - mean).powi(2)).sum::<f64>() / (n - 1) as f64;
-    (mean, t_975(n - 1) * (variance / n as f64).sqrt())
+    let group = crate::sensing::student_t::ReplicateSummary::of(values);
+    (group.mean, group.ci95_high - group.mean)
 }
 
 /// Draw every metric against every non-replicate swept parameter; returns the files written.
@@ -392,12 +370,11 @@ mod tests {
     fn words_and_intervals() {
         assert_eq!(key_in_words("flow.mean_velocity"), "flow mean velocity");
         assert_eq!(key_in_words("cells.uptake.rate_constant"), "cell uptake rate constant");
-        // Two values 1 and 3: mean 2, s = √2, half-width t(1) s/√2 = 12.706.
+        // Two values 1 and 3: mean 2, s = √2, half-width t(1) s/√2 = 12.7062 (A&S Table 26.10).
         let (mean, half) = mean_interval(&[1.0, 3.0]);
         assert_eq!(mean, 2.0);
-        assert!((half - 12.706).abs() < 1e-9, "{half}");
+        assert!((half - 12.7062).abs() < 1e-9, "{half}");
         assert!(mean_interval(&[4.0]).1.is_nan());
-        assert_eq!(t_975(1000), 1.96);
     }
 
     #[test]
