@@ -57,6 +57,7 @@ fn units(table: &CellTable) -> BTreeMap<String, Unit> {
         one("sensing.statistics_margin", "m"),
         one("sensing.by_position.x_low", "m"),
         one("sensing.by_position.x_high", "m"),
+        one("sensing.time_to_readable", "s"),
     ]
     .into_iter()
     .collect();

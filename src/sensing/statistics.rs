@@ -34,6 +34,8 @@ pub struct CellValues<'a> {
     /// Centre x (m).
     pub x: &'a [f64],
     pub direction_error: &'a [f64],
+    /// Transient runs: each cell's time to a readable cue (NaN: never); `None` in steady runs.
+    pub time_to_readable: Option<&'a [f64]>,
     /// Further quantities summarised per slab by name (NaN where a cell has no value, e.g. cells left out
     /// of the self/neighbour split).
     pub quantities: Vec<(&'a str, &'a [f64])>,
@@ -76,6 +78,17 @@ pub struct Slab {
     pub quantities: BTreeMap<String, Spread>,
 }
 
+/// Times to a readable cue of the counted cells (transient runs): quantiles of the cells that became readable
+/// and how many never did by the end of the run.
+#[derive(Clone, Copy, Debug, PartialEq, Serialize, Deserialize)]
+pub struct ReadableTimes {
+    /// Over the cells that became readable (`count` of them).
+    #[serde(flatten)]
+    pub quantiles: Spread,
+    /// Cells whose window direction error was above `readable_error` at the end.
+    pub never: usize,
+}
+
 /// The `sensing` object of `summary.json`.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct SensingStatistics {
@@ -90,6 +103,9 @@ pub struct SensingStatistics {
     #[serde(serialize_with = "real_or_text", deserialize_with = "real_from_text")]
     pub failed_fraction: f64,
     pub direction_error: Spread,
+    /// Transient runs only (s).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub time_to_readable: Option<ReadableTimes>,
     pub by_position: Vec<Slab>,
 }
 
@@ -148,6 +164,10 @@ pub fn sensing_statistics(
         failed,
         failed_fraction: fraction(failed, counted.len()),
         direction_error: Spread::of(counted.iter().map(|&i| cells.direction_error[i])),
+        time_to_readable: cells.time_to_readable.map(|t| ReadableTimes {
+            quantiles: Spread::of(counted.iter().map(|&i| t[i])),
+            never: counted.iter().filter(|&&i| t[i].is_nan()).count(),
+        }),
         by_position,
     }
 }
@@ -183,7 +203,7 @@ mod tests {
     use super::*;
 
     fn stats(x: &[f64], e: &[f64], settings: StatisticsSettings) -> SensingStatistics {
-        let cells = CellValues { x, direction_error: e, quantities: vec![("a", e)] };
+        let cells = CellValues { x, direction_error: e, time_to_readable: None, quantities: vec![("a", e)] };
         sensing_statistics(&cells, [0.0, 100.0], &settings)
     }
 
@@ -220,6 +240,31 @@ mod tests {
         assert_eq!((s.by_position[0].x_low, s.by_position[3].x_high), (10.0, 90.0));
         assert!(s.by_position[1].failed_fraction.is_nan());
         assert_eq!(s.by_position[0].quantities["a"].median, 2.0);
+    }
+
+    #[test]
+    fn readable_times_count_the_never_readable_and_leave_them_out_of_the_quantiles() {
+        let (x, e) = ([10.0, 20.0, 30.0, 95.0], [0.5, 0.8, 2.0, 0.5]);
+        let t = [100.0, 300.0, f64::NAN, 1.0];
+        let cells = CellValues { x: &x, direction_error: &e, time_to_readable: Some(&t), quantities: vec![] };
+        let s = sensing_statistics(
+            &cells,
+            [0.0, 100.0],
+            &StatisticsSettings { margin: 10.0, ..Default::default() },
+        );
+        let r = s.time_to_readable.unwrap();
+        assert_eq!(
+            (r.never, r.quantiles.count, r.quantiles.median),
+            (1, 2, 200.0),
+            "the cell at 95 is left out"
+        );
+        let j = serde_json::to_value(&s).unwrap();
+        assert_eq!(
+            (j["time_to_readable"]["never"].as_u64(), j["time_to_readable"]["median"].as_f64()),
+            (Some(1), Some(200.0))
+        );
+        let back: SensingStatistics = serde_json::from_value(j).unwrap();
+        assert_eq!(back.time_to_readable, s.time_to_readable);
     }
 
     #[test]
