@@ -303,19 +303,20 @@ fn listed_output_times(
     let span = value.span();
     let fail = |message: String| src.error(key, Some(&span), message);
     let time_of = |name: &str, v: &toml::Value| -> Result<f64, CaseError> {
-        let raw =
-            match v {
-                toml::Value::Integer(i) => RawNumber::Si(*i as f64),
-                toml::Value::Float(f) => RawNumber::Si(*f),
-                toml::Value::String(text) => RawNumber::Text(text.clone()),
-                other => return Err(src.error(
+        let raw = match v {
+            toml::Value::Integer(i) => RawNumber::Si(*i as f64),
+            toml::Value::Float(f) => RawNumber::Si(*f),
+            toml::Value::String(text) => RawNumber::Text(text.clone()),
+            other => {
+                return Err(src.error(
                     name,
                     Some(&span),
                     format!(
                         "{name} = {other} is not a time (a number of seconds or a string such as \"10 min\")"
                     ),
-                )),
-            };
+                ))
+            }
+        };
         src.quantity(name, &toml::Spanned::new(span.clone(), raw), Dimension::TIME, Range0::Positive)
     };
     let times = match value.get_ref() {

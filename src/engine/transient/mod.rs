@@ -173,7 +173,7 @@ pub fn execute(case: &Case, out_dir: &Path, destination: &Path, options: &Transi
         std::fs::remove_file(&checkpoint)
             .with_context(|| format!("cannot remove {}", checkpoint.display()))?;
     }
-    let ending = if state.stopped_at_steady {
+    let ending = if state.stopped_at_steady && state.time < t.end_time - eps {
         format!(
             "steady state reached at t = {} (within {STEADY_DISTANCE:.0e} of the steady field), stopped early as solve.stop_at_steady asks",
             human_time(state.time)
