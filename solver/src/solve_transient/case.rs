@@ -125,6 +125,7 @@ pub fn solve_transient_case(
     drop(steady);
     let t_steady = t2.elapsed().as_secs_f64();
 
+    on_stage(Stage::TimeLoop);
     let t3 = Instant::now();
     let mut run_settings = case.settings.clone();
     run_settings.steady = Some(reference.clone());
