@@ -106,6 +106,12 @@ pub struct CaseEstimates {
     pub background: Background,
     pub profile: Vec<ProfilePoint>,
     pub critical_density: Option<CriticalDensity>,
+    /// The critical density at each point of `profile` (the outlet one is `critical_density`).
+    pub critical_density_by_position: Vec<(f64, Option<CriticalDensity>)>,
+    /// The mean-field criteria the case breaks (`solver::post::estimates::mean_field_regime_breaches`).
+    pub regime_breaches: Vec<String>,
+    /// Width of the outlet layer, `OUTLET_LAYERS · D/U` (m); `None` without a through-flow column.
+    pub outlet_layer: Option<f64>,
     pub forecast: Forecast,
     /// The typical cell (case defaults), for per-cell estimates with each cell's own radius and secretion.
     pub typical_cell: CellEstimateInputs,
@@ -165,6 +171,9 @@ impl CaseEstimates {
             background: Background::Unavailable(String::new()),
             profile: Vec::new(),
             critical_density: None,
+            critical_density_by_position: Vec::new(),
+            regime_breaches: Vec::new(),
+            outlet_layer: None,
             forecast: forecast(case),
             typical_cell,
             flow_resolution: BrinkmanMedium::from_model(case.flow.medium)
@@ -181,7 +190,16 @@ impl CaseEstimates {
                 Some(ProfilePoint { x, sensing: estimate_cell_sensing(&typical_cell, c, g)? })
             })
             .collect();
-        estimates.critical_density = estimates.find_critical_density(case);
+        estimates.critical_density = estimates.find_critical_density(case, length);
+        estimates.critical_density_by_position =
+            estimates.profile.iter().map(|p| (p.x, estimates.find_critical_density(case, p.x))).collect();
+        let column = matches!(estimates.background, Background::Column(_));
+        estimates.regime_breaches = solver::post::estimates::mean_field_regime_breaches(
+            estimates.volume_fraction,
+            estimates.peclet_cell,
+            column.then_some(estimates.peclet_chamber),
+        );
+        estimates.outlet_layer = column.then(|| solver::post::estimates::OUTLET_LAYERS * d / u);
         estimates
     }
 
@@ -240,16 +258,17 @@ impl CaseEstimates {
         estimate_cell_sensing(&inputs, c, g)
     }
 
-    /// Direction error of the typical cell at the outlet end for a layout of `density` cells per m³.
-    fn outlet_direction_error(&self, case: &Case, density: f64) -> Option<f64> {
+    /// Direction error of the typical cell at `x` for a layout of `density` cells per m³.
+    fn direction_error_at(&self, case: &Case, density: f64, x: f64) -> Option<f64> {
         let background = self.background_at_density(case, density);
-        let (c, g) = background.at(case.chamber_size[0])?;
+        let (c, g) = background.at(x)?;
         Some(estimate_cell_sensing(&self.typical_cell, c, g)?.direction_error)
     }
 
-    /// Scans the number density on a log grid for the first crossing of direction error 1 and refines it by
-    /// bisection in log density.
-    fn find_critical_density(&self, case: &Case) -> Option<CriticalDensity> {
+    /// Scans the number density on a log grid for the first crossing of `[sensing] readable_error` by the
+    /// direction error of a cell at `x` and refines it by bisection in log density.
+    fn find_critical_density(&self, case: &Case, x: f64) -> Option<CriticalDensity> {
+        let level = case.sensing.readable_error;
         let lo = 0.1 / self.chamber_volume;
         let hi = 0.5 / (4.0 / 3.0 * std::f64::consts::PI * self.radius.powi(3));
         if hi <= lo {
@@ -258,19 +277,19 @@ impl CaseEstimates {
         let range = [lo, hi];
         let samples = 200;
         let at = |i: usize| lo * (hi / lo).powf(i as f64 / samples as f64);
-        let isolated_error = self.outlet_direction_error(case, lo)?;
-        let case_error = self.outlet_direction_error(case, self.number_density)?;
+        let isolated_error = self.direction_error_at(case, lo, x)?;
+        let case_error = self.direction_error_at(case, self.number_density, x)?;
         let mut previous = isolated_error;
         for i in 1..=samples {
             let rho = at(i);
-            let err = self.outlet_direction_error(case, rho)?;
-            if (previous - 1.0).signum() != (err - 1.0).signum() {
+            let err = self.direction_error_at(case, rho, x)?;
+            if (previous - level).signum() != (err - level).signum() {
                 let rising = err > previous;
                 let (mut a, mut b) = (at(i - 1).ln(), rho.ln());
                 for _ in 0..60 {
                     let mid = 0.5 * (a + b);
-                    let e = self.outlet_direction_error(case, mid.exp())?;
-                    if (e > 1.0) == rising {
+                    let e = self.direction_error_at(case, mid.exp(), x)?;
+                    if (e > level) == rising {
                         b = mid;
                     } else {
                         a = mid;
@@ -351,6 +370,16 @@ impl CaseEstimates {
                 "isolated_direction_error": finite_or_string(c.isolated_error),
                 "case_direction_error": finite_or_string(c.case_error),
             })),
+            "critical_density_by_position": {
+                "x": self.critical_density_by_position.iter().map(|p| p.0).collect::<Vec<_>>(),
+                "density": self.critical_density_by_position.iter().map(|p| p.1.and_then(|c| c.density)).collect::<Vec<_>>(),
+                "rising": self.critical_density_by_position.iter().map(|p| p.1.map(|c| c.rising)).collect::<Vec<_>>(),
+            },
+            "mean_field_regime": {
+                "holds": self.regime_breaches.is_empty(),
+                "breaches": self.regime_breaches,
+                "outlet_layer": self.outlet_layer,
+            },
             "forecast": {
                 "grid_cells": self.forecast.grid_cells,
                 "memory_bytes": self.forecast.memory_bytes,
@@ -361,7 +390,9 @@ impl CaseEstimates {
                 "radius": "m", "own_surface_concentration": "molecules/m^3", "number_density": "1/m^3",
                 "background.outlet_concentration": "molecules/m^3", "profile.x": "m",
                 "profile.background": "molecules/m^3", "profile.mean_surface_concentration": "molecules/m^3",
-                "critical_density.density": "1/m^3", "forecast.memory_bytes": "B", "forecast.seconds": "s",
+                "critical_density.density": "1/m^3", "critical_density_by_position.x": "m",
+                "critical_density_by_position.density": "1/m^3", "mean_field_regime.outlet_layer": "m",
+                "forecast.memory_bytes": "B", "forecast.seconds": "s",
                 "flow_resolution.screening_length": "m", "flow_resolution.spacing": "m",
                 "flow_resolution.suggested_spacing": "m",
             },
