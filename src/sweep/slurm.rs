@@ -236,6 +236,22 @@ pub fn write_scripts(
     params: &SlurmParams,
     job_name: &str,
 ) -> std::io::Result<SlurmScripts> {
+    write_scripts_then(dir, sweep_file, exe, tasks, largest, params, job_name, "collect .")
+}
+
+/// [`write_scripts`] with the job after the array running `plumefield <after>` (in the sweep folder;
+/// `{sweep}` stands for the sweep file) instead of `plumefield collect .`.
+#[allow(clippy::too_many_arguments)]
+pub fn write_scripts_then(
+    dir: &Path,
+    sweep_file: &Path,
+    exe: &Path,
+    tasks: &[usize],
+    largest: &Forecast,
+    params: &SlurmParams,
+    job_name: &str,
+    after: &str,
+) -> std::io::Result<SlurmScripts> {
     let slurm_dir = dir.join(SLURM_DIR);
     std::fs::create_dir_all(slurm_dir.join("logs"))?;
     let q = |p: &Path| shell_quote(&p.display().to_string());
@@ -334,9 +350,10 @@ pub fn write_scripts(
          {partition}\
          set -eu\n\
          {setup}\
-         exec {exe} collect .\n",
+         exec {exe} {after}\n",
         log = directive_path(&logs.join("collect-%j.log")),
         exe = exe_text,
+        after = after.replace("{sweep}", &q(&sweep_relative)),
     );
     write_atomic(&collect_script, collect.as_bytes())?;
 
