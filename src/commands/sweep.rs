@@ -402,8 +402,9 @@ pub(super) fn submit_slurm(
         scripts.collect_script.display()
     );
     if options.submit {
-        let submitted = slurm::submit(&scripts, slurm_options.max_running.is_some())
-            .map_err(|e| anyhow::anyhow!("{e}"))?;
+        let submitted =
+            slurm::submit(&scripts, slurm::ArrayOrder::for_max_running(slurm_options.max_running))
+                .map_err(|e| anyhow::anyhow!("{e}"))?;
         println!(
             "submitted array job{} {} and collect job {}",
             if submitted.array_jobs.len() == 1 { "" } else { "s" },

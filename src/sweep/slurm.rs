@@ -360,15 +360,36 @@ pub fn write_scripts_then(
     let submit_script = slurm_dir.join("submit.sh");
     write_atomic(
         &submit_script,
-        submit_text(&array_scripts, &collect_script, params.max_running.is_some()).as_bytes(),
+        submit_text(&array_scripts, &collect_script, ArrayOrder::for_max_running(params.max_running))
+            .as_bytes(),
     )?;
     set_executable(&submit_script)?;
 
     Ok(SlurmScripts { chunks, array_scripts, collect_script, submit_script, mem_mb, time_s })
 }
 
-/// `submit.sh`: the array jobs (each after the previous one when `chained`), then the collect job after all.
-fn submit_text(array_scripts: &[PathBuf], collect_script: &Path, chained: bool) -> String {
+/// When the array jobs of one sweep may start.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum ArrayOrder {
+    /// All at once.
+    Together,
+    /// Each after the previous one (so `--max-running` holds across them).
+    Chained,
+}
+
+impl ArrayOrder {
+    /// A limit on running tasks must hold across the arrays of a split sweep, so they run one after another.
+    pub fn for_max_running(max_running: Option<usize>) -> Self {
+        if max_running.is_some() {
+            ArrayOrder::Chained
+        } else {
+            ArrayOrder::Together
+        }
+    }
+}
+
+/// `submit.sh`: the array jobs (in `order`), then the collect job after all.
+fn submit_text(array_scripts: &[PathBuf], collect_script: &Path, order: ArrayOrder) -> String {
     // Relative to the sweep folder, where the script changes to.
     let q = |p: &Path| {
         let relative = p.parent().and_then(Path::parent).map_or(p, |dir| p.strip_prefix(dir).unwrap_or(p));
@@ -384,7 +405,9 @@ fn submit_text(array_scripts: &[PathBuf], collect_script: &Path, chained: bool) 
     let mut ids = Vec::new();
     for (k, script) in array_scripts.iter().enumerate() {
         let after = match ids.last() {
-            Some(previous) if chained => format!(" --dependency=afterany:\"${previous}\""),
+            Some(previous) if order == ArrayOrder::Chained => {
+                format!(" --dependency=afterany:\"${previous}\"")
+            }
             _ => String::new(),
         };
         let id = format!("a{}", k + 1);
@@ -432,11 +455,13 @@ pub enum SubmitError {
 
 /// Submit the array jobs (each after the previous one with `--max-running`), then the collect job with
 /// `--dependency=afterany:<every array job>`.
-pub fn submit(scripts: &SlurmScripts, chained: bool) -> Result<Submitted, SubmitError> {
+pub fn submit(scripts: &SlurmScripts, order: ArrayOrder) -> Result<Submitted, SubmitError> {
     let mut array_jobs: Vec<String> = Vec::new();
     for script in &scripts.array_scripts {
         let after = match array_jobs.last() {
-            Some(previous) if chained => vec![format!("--dependency=afterany:{previous}")],
+            Some(previous) if order == ArrayOrder::Chained => {
+                vec![format!("--dependency=afterany:{previous}")]
+            }
             _ => Vec::new(),
         };
         array_jobs.push(sbatch(&after, script)?);
