@@ -15,7 +15,7 @@ use super::{Check, Tier, VerifyError};
 use mesh::layout::{random_sequential_addition, ChamberBox, RandomLayout, RandomTarget};
 use mesh::Grid;
 use solver::linalg::{KrylovParams, MultigridParams};
-use solver::post::decompose::{decompose, DecomposeInputs};
+use solver::post::decompose::{decompose, DecomposeInputs, SplitMode};
 use solver::post::SensingModel;
 use solver::problem::{ChamberBoundaries, ChamberFace, LigandParameters, SurfaceUptake};
 use solver::solve_case::SteadySolution;
@@ -80,7 +80,7 @@ pub fn split_sum_error(speed: f64, count: usize) -> Result<SumErrors, VerifyErro
     };
     let solution = solver::solve_case::solve_steady_case(&case, &mut |_| {})?;
     let all: Vec<usize> = (0..layout.cells.len()).collect();
-    let split = decompose(&inputs(&solution, &layout, ligand), &all, true)?;
+    let split = decompose(&inputs(&solution, &layout, ligand), &all, SplitMode::WithSumOfParts)?;
     let sum = split.sum_of_parts.unwrap_or_default();
     let total = &solution.transport.concentration;
     let scale = total.iter().fold(0.0f64, |m, c| m.max(c.abs()));
@@ -88,7 +88,7 @@ pub fn split_sum_error(speed: f64, count: usize) -> Result<SumErrors, VerifyErro
     // The split on the summed parts: its "total" is Σ parts, so its neighbour part is Σ_{k≠i} c_k + c_inlet.
     let mut from_parts = inputs(&solution, &layout, ligand);
     from_parts.total = &sum;
-    let parts = decompose(&from_parts, &all, false)?;
+    let parts = decompose(&from_parts, &all, SplitMode::CellsOnly)?;
     let vector_scale = solution.sensing.iter().flat_map(|s| s.anisotropy).fold(0.0f64, |m, a| m.max(a.abs()));
     let vector_error = parts
         .cells
@@ -125,7 +125,7 @@ pub fn isolated_fractions() -> Result<(f64, f64, f64), VerifyError> {
         uptake: SurfaceUptake::FirstOrder { rate_constant: 5e-6 },
     };
     let solution = solve(&grid, &layout, far_field_box(), darcy(1e-14, 5e-7), ligand)?;
-    let split = decompose(&inputs(&solution, &layout, ligand), &[0], false)?;
+    let split = decompose(&inputs(&solution, &layout, ligand), &[0], SplitMode::CellsOnly)?;
     let s = &split.cells[0];
     let total = solution.sensing[0].anisotropy;
     let norm = total.iter().map(|a| a * a).sum::<f64>().sqrt();
