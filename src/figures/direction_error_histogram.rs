@@ -122,6 +122,7 @@ mod tests {
             anisotropy_along_flow: 0.1,
             direction_error: error,
             estimate_anisotropy_along_flow: None,
+            split_along_flow: None,
         }
     }
 
