@@ -137,7 +137,7 @@ pub fn draw(data: &RunFigureData, path: &Path) -> anyhow::Result<FigureRecord> {
 
 #[cfg(test)]
 mod tests {
-    use super::*;
+    use super::bins;
 
     #[test]
     fn bins_hold_every_cell_once_and_intervals_need_two_cells() {
