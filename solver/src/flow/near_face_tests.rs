@@ -1,7 +1,7 @@
 //! Every flow model keeps continuity to the solver tolerance in the grid cells between a cell and a chamber face:
 //! spheres a fraction of a spacing from the inlet, the outlet and a wall (the check every run makes).
 
-use super::brinkman::{solve_brinkman, BrinkmanMedium, BrinkmanSettings};
+use super::brinkman::{solve_brinkman, BrinkmanMedium, BrinkmanParams};
 use super::{check_divergence, solve_darcy, FlowField};
 use crate::embedded::FacetStencils;
 use crate::linalg::KrylovParams;
@@ -50,7 +50,7 @@ fn brinkman_and_stokes_are_divergence_free_next_to_inlet_outlet_and_wall() {
         let geometry = EmbeddedGeometry::build(&grid, &layout, boundaries.periodic_axes());
         for (name, permeability) in [("Brinkman", Some(1e-11)), ("Stokes", None)] {
             let medium = BrinkmanMedium { viscosity: 1e-3, effective_viscosity: 1e-3, permeability };
-            let settings = BrinkmanSettings { krylov: krylov(), ..BrinkmanSettings::default() };
+            let settings = BrinkmanParams { krylov: krylov(), ..BrinkmanParams::default() };
             let solved = solve_brinkman(&geometry, &layout, &boundaries, &medium, SPEED, &settings)
                 .unwrap_or_else(|e| panic!("{name}, gap {gap} h: {e}"));
             assert_divergence_free(&solved.field, &grid, &format!("{name}, gap {gap} h"));

@@ -4,7 +4,7 @@ use super::assemble_momentum::{assemble_momentum, MomentumBlock, MomentumCoeffic
 use super::chamber_velocity::{ChamberVelocity, VelocityData};
 use super::inlet_profile::fully_developed_profile;
 use super::pressure_gradient::PressureCoupling;
-use super::resolution::{check_resolution, ResolutionWarning};
+use super::resolution::{check_resolution, ScreeningLengthWarning};
 use super::saddle_system::SaddleSystem;
 use super::sphere_index::SphereIndex;
 use super::surface_force::{surface_forces, SurfaceForces};
@@ -31,9 +31,9 @@ pub enum FlowKrylov {
     Gmres,
 }
 
-/// Solver settings; `Default` suits production cases.
+/// Solver parameters; `Default` suits production cases.
 #[derive(Clone)]
-pub struct BrinkmanSettings {
+pub struct BrinkmanParams {
     /// Relative residual of the coupled system and the iteration cap (default 1e-8, 400).
     pub krylov: KrylovParams,
     /// Default [`FlowKrylov::Bicgstab`].
@@ -47,9 +47,9 @@ pub struct BrinkmanSettings {
     pub far_field: Option<VelocityData>,
 }
 
-impl Default for BrinkmanSettings {
+impl Default for BrinkmanParams {
     fn default() -> Self {
-        BrinkmanSettings {
+        BrinkmanParams {
             krylov: KrylovParams { relative_tolerance: 1e-8, max_iterations: 400 },
             method: FlowKrylov::Bicgstab,
             restart: 30,
@@ -68,13 +68,23 @@ pub struct BrinkmanSolution {
     /// Viscous and pressure parts of the force on each cell (N).
     pub forces: SurfaceForces,
     /// Set when the screening length √K is under-resolved.
-    pub resolution: Option<ResolutionWarning>,
+    pub resolution: Option<ScreeningLengthWarning>,
     /// Relative residual before the first and after every GMRES iteration.
     pub residual_history: Vec<f64>,
     /// Bytes held by the solver (operators, hierarchies, Krylov basis).
     pub memory_bytes: usize,
-    /// Wall-clock seconds of assembly (with the preconditioner set-up), Krylov iterations, and post-processing.
-    pub stage_seconds: [f64; 3],
+    pub stage_seconds: BrinkmanStageSeconds,
+}
+
+/// Wall-clock seconds of the stages of one Brinkman/Stokes solve.
+#[derive(Clone, Copy, Debug, Default, PartialEq)]
+pub struct BrinkmanStageSeconds {
+    /// Assembly with the preconditioner set-up.
+    pub assembly: f64,
+    /// Krylov iterations.
+    pub iterations: f64,
+    /// Face fluxes, drag and pressure from the solution.
+    pub post: f64,
 }
 
 /// Solves `−μ_e∇²u + (μ/K)u + ∇p = 0, ∇·u = 0` with no slip on every cell, mean superficial velocity
@@ -86,7 +96,7 @@ pub fn solve_brinkman(
     boundaries: &ChamberBoundaries,
     medium: &BrinkmanMedium,
     mean_velocity: f64,
-    settings: &BrinkmanSettings,
+    params: &BrinkmanParams,
 ) -> Result<BrinkmanSolution, BrinkmanError> {
     medium.validate()?;
     let grid = &geometry.grid;
@@ -99,7 +109,7 @@ pub fn solve_brinkman(
             resolution,
             residual_history: vec![0.0],
             memory_bytes: 0,
-            stage_seconds: [0.0; 3],
+            stage_seconds: BrinkmanStageSeconds::default(),
         });
     }
     let h = grid.spacing;
@@ -107,7 +117,7 @@ pub fn solve_brinkman(
     let driven = boundaries.faces[0][0] == ChamberFace::Periodic;
     let clock = std::time::Instant::now();
     let (system, rhs, spheres) =
-        assemble_saddle(geometry, layout, boundaries, medium, mean_velocity, settings, &mut Vec::new())?;
+        assemble_saddle(geometry, layout, boundaries, medium, mean_velocity, params, &mut Vec::new())?;
     let ranges = system.ranges();
     let t_assembly = clock.elapsed().as_secs_f64();
     let clock = std::time::Instant::now();
@@ -117,27 +127,27 @@ pub fn solve_brinkman(
     // The relative residual bounds continuity only on average: solve on with a tighter residual until every
     // grid cell keeps its volume to `tolerance × U/h` (the check of every run); BiCGSTAB within its iteration,
     // GMRES by solving on from the solution reached.
-    let tolerance = settings.krylov.relative_tolerance;
+    let tolerance = params.krylov.relative_tolerance;
     let limit = |x: &[f64]| {
         let speed =
             if driven { through_flow_mean(&system, &x[ranges[0].clone()]) } else { mean_velocity.abs() };
         tolerance * speed / h
     };
-    let mut krylov = settings.krylov.clone();
+    let mut krylov = params.krylov.clone();
     let mut iterations = 0;
     let mut residual_history = Vec::new();
     let info = loop {
-        let remaining = settings.krylov.max_iterations.saturating_sub(iterations).max(1);
-        let params = KrylovParams { max_iterations: remaining, ..krylov.clone() };
+        let remaining = params.krylov.max_iterations.saturating_sub(iterations).max(1);
+        let round = KrylovParams { max_iterations: remaining, ..krylov.clone() };
         let precondition = |r: &[f64], z: &mut [f64]| system.precondition(r, z, &mut work);
-        let info = match settings.method {
+        let info = match params.method {
             // No stored shadow: every vector of the coupled system costs 32 bytes per grid cell.
             FlowKrylov::Bicgstab => bicgstab_until(
                 &operator,
                 precondition,
                 RightHandSide::Sparse(&rhs),
                 &mut x,
-                &BicgstabParams { krylov: params, shadow: Shadow::Unstored },
+                &BicgstabParams { krylov: round, shadow: Shadow::Unstored },
                 &mut BicgstabWork::default(),
                 |x, r| system.residual_continuity_peak(r) / limit(x),
             ),
@@ -146,7 +156,7 @@ pub fn solve_brinkman(
                 precondition,
                 &rhs.to_dense(),
                 &mut x,
-                &GmresParams { krylov: params, restart: settings.restart },
+                &GmresParams { krylov: round, restart: params.restart },
             ),
         };
         let info = match info {
@@ -167,7 +177,7 @@ pub fn solve_brinkman(
         residual_history.extend(info.residual_history.iter().skip(usize::from(!residual_history.is_empty())));
         let limit = limit(&x);
         let peak = system.continuity_peak(&x, &rhs);
-        if peak <= limit || !round_converged || iterations >= settings.krylov.max_iterations {
+        if peak <= limit || !round_converged || iterations >= params.krylov.max_iterations {
             break SolveInfo { iterations, relative_residual: info.relative_residual, residual_history };
         }
         krylov.relative_tolerance = 0.5 * info.relative_residual * limit / peak;
@@ -175,9 +185,9 @@ pub fn solve_brinkman(
     if x.iter().any(|v| !v.is_finite()) {
         return Err(BrinkmanError::NonFinite { iteration: info.iterations });
     }
-    let krylov_vectors = match settings.method {
+    let krylov_vectors = match params.method {
         FlowKrylov::Bicgstab => 6,
-        FlowKrylov::Gmres => 2 * settings.restart + 5,
+        FlowKrylov::Gmres => 2 * params.restart + 5,
     };
     let memory_bytes = system.memory_bytes() + 8 * system.len() * krylov_vectors;
     drop(work);
@@ -287,7 +297,11 @@ pub fn solve_brinkman(
         resolution,
         residual_history: info.residual_history,
         memory_bytes,
-        stage_seconds: [t_assembly, t_solve, clock.elapsed().as_secs_f64()],
+        stage_seconds: BrinkmanStageSeconds {
+            assembly: t_assembly,
+            iterations: t_solve,
+            post: clock.elapsed().as_secs_f64(),
+        },
     })
 }
 
@@ -299,7 +313,7 @@ pub(super) fn assemble_saddle(
     boundaries: &ChamberBoundaries,
     medium: &BrinkmanMedium,
     mean_velocity: f64,
-    settings: &BrinkmanSettings,
+    params: &BrinkmanParams,
     timings: &mut Vec<(&'static str, f64)>,
 ) -> Result<(SaddleSystem, SparseVector, SphereIndex), BrinkmanError> {
     let mut clock = std::time::Instant::now();
@@ -319,29 +333,22 @@ pub(super) fn assemble_saddle(
     for (a, sides) in inlet.iter_mut().enumerate() {
         for (side, slot) in sides.iter_mut().enumerate() {
             if boundaries.faces[a][side] == ChamberFace::Inlet {
-                let profile = fully_developed_profile(
-                    grid,
-                    boundaries,
-                    a,
-                    mu_e,
-                    sigma,
-                    mean_velocity,
-                    &settings.krylov,
-                )
-                .map_err(BrinkmanError::from_solve)?;
+                let profile =
+                    fully_developed_profile(grid, boundaries, a, mu_e, sigma, mean_velocity, &params.krylov)
+                        .map_err(BrinkmanError::from_solve)?;
                 *slot = Some(profile);
             }
         }
     }
     let far_field: VelocityData =
-        settings.far_field.clone().unwrap_or_else(|| Arc::new(move |_| [mean_velocity, 0.0, 0.0]));
+        params.far_field.clone().unwrap_or_else(|| Arc::new(move |_| [mean_velocity, 0.0, 0.0]));
     let chamber = ChamberVelocity::new(grid, *boundaries, inlet, far_field);
     lap("inlet profile");
     let coefficients = MomentumCoefficients {
         effective_viscosity: mu_e,
         resistivity: sigma,
         driving_gradient: if driven { 1.0 } else { 0.0 },
-        min_wall_fraction: settings.min_wall_fraction,
+        min_wall_fraction: params.min_wall_fraction,
     };
     // The three components are independent; their sequential passes run side by side.
     let assembled: Vec<MomentumBlock> = (0..3)
@@ -364,7 +371,7 @@ pub(super) fn assemble_saddle(
         blocks[2].known.as_slice(),
     ]);
     lap("coupling");
-    let mut system = SaddleSystem::new(blocks, coupling, mu_e, sigma, &settings.multigrid)
+    let mut system = SaddleSystem::new(blocks, coupling, mu_e, sigma, &params.multigrid)
         .ok_or(BrinkmanError::Internal("momentum conductances outside the compact encoding"))?;
     lap("hierarchies");
     let ranges = system.ranges();
