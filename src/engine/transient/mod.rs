@@ -99,6 +99,21 @@ fn transient_warnings(case: &Case) -> Vec<String> {
     crate::engine::estimates::boundary_layer_warning(case).map(|w| w.to_string()).into_iter().collect()
 }
 
+/// The divergence check of each flow phase (the mean velocity before and after a flow change).
+fn flow_divergence_warnings(case: &Case, t: &TransientSolve, solution: &TransientSolution) -> Vec<String> {
+    let speeds = [case.flow.mean_velocity, last_flow_speed(case, t)];
+    let grid = &solution.geometry.grid;
+    solution
+        .flows
+        .iter()
+        .zip(speeds)
+        .filter_map(|(flow, speed)| {
+            solver::flow::check_divergence(grid, &flow.divergence_peak(), speed, case.solve.tolerance)
+        })
+        .map(|w| w.to_string())
+        .collect()
+}
+
 /// Solves a transient case into `out_dir`; the closing line names `destination`, the folder the user asked
 /// for (`out_dir` is the staging folder beside it when `run` replaces the folder whole).
 pub fn execute(case: &Case, out_dir: &Path, destination: &Path, options: &TransientOptions) -> Result<()> {
@@ -160,6 +175,9 @@ pub fn execute(case: &Case, out_dir: &Path, destination: &Path, options: &Transi
         meter.begin(MeteredStage::of(stage, false));
     })
     .map_err(solve_error)?;
+    for warning in flow_divergence_warnings(case, t, &solution) {
+        progress.println(&format!("warning: {warning}"));
+    }
     let checkpoints = observer.checkpoints_written;
     let final_part = observer.last_output.take();
     drop(observer);
@@ -473,7 +491,7 @@ fn run_summary(
         table,
         final_mean_velocity: last_flow_speed(case, t),
         measured_outlet_concentration: final_part.outlet_concentration,
-        warnings: &transient_warnings(case),
+        warnings: &[transient_warnings(case), flow_divergence_warnings(case, t, solution)].concat(),
     };
     let sections = RunSections {
         resources: meter.resources(None),
