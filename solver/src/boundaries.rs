@@ -7,7 +7,7 @@
 //! | `Wall` | no flux | no slip | no flux |
 //! | `Symmetry` | no flux | no normal velocity, tangential free | no flux |
 //! | `Periodic` | coupled to the opposite face (along x driven by a pressure jump) | coupled | coupled |
-//! | `FarField` | the undisturbed stream `p = −(μ/K) U (x − x_c)` | the undisturbed stream's velocity | asymptotic Robin condition of the cells as point sources in the stream |
+//! | `FarField` | the undisturbed stream `p = −(μ/K) U (x − x_0)`, zero on the outlet's plane beside an outlet (else at the centre) | the undisturbed stream's velocity | asymptotic Robin condition of the cells as point sources in the stream |
 //!
 //! Where each is discretised: flow in `flow::darcy` and `flow::brinkman::chamber_velocity`, ligand in
 //! `transport::chamber_faces`. Every face array of the face-coupled operator leaves the non-periodic boundary

@@ -10,9 +10,9 @@ use std::collections::BTreeMap;
 use numkit::quantile_sorted;
 use serde_json::json;
 use solver::flow::brinkman::resolution::check_resolution;
-use solver::flow::brinkman::{BrinkmanMedium, ResolutionWarning};
+use solver::flow::brinkman::{BrinkmanMedium, ScreeningLengthWarning};
 use solver::linalg::{KrylovParams, MultigridParams};
-use solver::post::decompose::{decompose, DecomposeInputs, DecomposeSelection, Decomposition};
+use solver::post::decompose::{decompose, DecomposeInputs, DecomposeSelection, Decomposition, SplitMode};
 use solver::post::estimates::{
     biot_number, estimate_cell_sensing, homogenised_source_and_sink, isolated_anisotropy, CellEstimateInputs,
     ColumnInlet, IsolatedFlow, MeanFieldColumn, SensingEstimate,
@@ -111,7 +111,7 @@ pub struct CaseEstimates {
     pub typical_cell: CellEstimateInputs,
     /// Brinkman resolution guard at the case's grid (the same one `run` reports): set when √(μ_e K/μ) spans
     /// fewer than two spacings, with the expected drag error and the spacing that resolves it.
-    pub flow_resolution: Option<ResolutionWarning>,
+    pub flow_resolution: Option<ScreeningLengthWarning>,
     /// Boundary-layer guard at the case's grid (as `run` reports it), from the stream's cell Péclet number.
     pub boundary_layer: Option<BoundaryLayerWarning>,
     fluid_fraction: f64,
@@ -496,7 +496,7 @@ pub fn split_self_and_neighbours(case: &Case, solved: &SteadySolution) -> anyhow
             },
             multigrid: MultigridParams::default(),
         };
-        match decompose(&inputs, &chosen, false) {
+        match decompose(&inputs, &chosen, SplitMode::CellsOnly) {
             Ok(split) => {
                 for e in &split.failed {
                     warnings.push(format!(
@@ -508,7 +508,7 @@ pub fn split_self_and_neighbours(case: &Case, solved: &SteadySolution) -> anyhow
                     setup_s: split.setup_seconds,
                     solve_s: split.solve_seconds,
                     seconds_per_right_hand_side: split.solve_seconds / split.right_hand_sides.max(1) as f64,
-                    transport_s: solved.timing[2],
+                    transport_s: solved.timing.transport,
                 });
             }
             Err(e) => warnings.push(format!("the self/neighbour split failed ({e}); its columns are NaN")),

@@ -13,7 +13,7 @@ pub mod transient;
 
 use crate::case::{Case, SolveMode};
 use crate::exit::{InputError, SolverFailure};
-use crate::io::output_folder::{OutputFolder, OutputFolderError};
+use crate::io::output_folder::{LeftStaging, OutputFolder, OutputFolderError};
 use anyhow::{Context, Result};
 use solver::linalg::KrylovParams;
 use solver::solve_case::{solve_steady_case, SteadyCase, SteadySolution};
@@ -103,7 +103,8 @@ pub fn execute_with(
         .into());
     }
     // Checked and locked before the solve; the run writes beside it and the folder is replaced whole.
-    let folder = OutputFolder::prepare(out_dir, &case.input_files, options.resume).map_err(folder_error)?;
+    let left_staging = if options.resume { LeftStaging::Keep } else { LeftStaging::Remove };
+    let folder = OutputFolder::prepare(out_dir, &case.input_files, left_staging).map_err(folder_error)?;
     if transient {
         transient::execute(case, folder.staging(), out_dir, options)?;
         return folder.commit().map_err(folder_error);

@@ -10,7 +10,7 @@ use crate::engine::estimates::SPLIT_COLUMNS;
 use crate::io::sensing_by_position::write_sensing_by_position;
 use crate::io::{CellTable, ColumnValues};
 use crate::outputs::RunSummary;
-use crate::sensing::statistics::{sensing_statistics, CellValues, SensingStatistics, StatisticsSettings};
+use crate::sensing::statistics::{sensing_statistics, CellValues, SensingStatistics, StatisticsParams};
 
 /// File name in the run folder.
 pub const SENSING_BY_POSITION: &str = "sensing_by_position.csv";
@@ -40,13 +40,13 @@ pub fn run_statistics(case: &Case, table: &CellTable) -> SensingStatistics {
         direction_error: real(table, "direction_error").unwrap_or(empty),
         quantities,
     };
-    let settings = StatisticsSettings {
+    let params = StatisticsParams {
         readable_error: case.sensing.readable_error,
         position_bins: case.sensing.position_bins,
         margin: case.sensing.statistics_margin,
     };
     let x0 = case.grid.origin[0];
-    sensing_statistics(&cells, [x0, x0 + case.chamber_size[0]], &settings)
+    sensing_statistics(&cells, [x0, x0 + case.chamber_size[0]], &params)
 }
 
 /// Writes `sensing_by_position.csv` into `out_dir` from the statistics in `summary`.

@@ -159,10 +159,10 @@ pub fn cell_columns(state: &CellState, kind: RunKind) -> Vec<Column> {
     CELL_COLUMNS.iter().map(|c| c.column(state, kind)).collect()
 }
 
-/// `pressure_front_back` of `cells.csv` (after the registered columns; computed from the pressure field).
-pub fn pressure_front_back_column(values: Vec<f64>) -> Column {
+/// `cell_pressure_drop` of `cells.csv` (after the registered columns; computed from the pressure field).
+pub fn cell_pressure_drop_column(values: Vec<f64>) -> Column {
     Column::real(
-        "pressure_front_back",
+        "cell_pressure_drop",
         "Pa",
         "pressure at the upstream pole minus the downstream pole along the local flow",
         values,

@@ -132,6 +132,14 @@ struct CaseData {
 /// Read the finished cases of the sweep in `dir` into a table.
 pub fn collect(dir: &Path) -> Result<(SweepTable, PlanRecord, Vec<Option<CaseTiming>>)> {
     let plan = PlanRecord::read(dir).map_err(|m| anyhow::Error::new(crate::exit::InputError(m)))?;
+    collect_cases(dir, plan)
+}
+
+/// Read the finished cases of `plan` (all of a sweep's, or some) from the sweep folder `dir` into a table.
+pub fn collect_cases(
+    dir: &Path,
+    plan: PlanRecord,
+) -> Result<(SweepTable, PlanRecord, Vec<Option<CaseTiming>>)> {
     let rows = plan.cases.len();
     // Cases are read on all cores (a local sweep waits for `collect` after its last case); the first error
     // in plan order is reported.

@@ -112,14 +112,23 @@ pub fn source_rhs(
     rhs
 }
 
-/// Splits the field of each cell in `chosen` (layout indices). With `sum_parts`, `chosen` should hold every
-/// cell: the inlet field is solved as well and the sum of all parts is returned for checking; any failed solve
-/// is then an error. Without it, a cell whose solve fails goes to [`Decomposition::failed`].
+/// What [`decompose`] solves besides the chosen cells' own fields.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum SplitMode {
+    /// The chosen cells only; a cell whose solve fails goes to [`Decomposition::failed`].
+    CellsOnly,
+    /// Also the inlet field, returning the sum of all parts for checking (`chosen` should then hold every
+    /// cell); any failed solve is an error.
+    WithSumOfParts,
+}
+
+/// Splits the field of each cell in `chosen` (layout indices), as `mode` says.
 pub fn decompose(
     inputs: &DecomposeInputs,
     chosen: &[usize],
-    sum_parts: bool,
+    mode: SplitMode,
 ) -> Result<Decomposition, DecomposeError> {
+    let sum_parts = mode == SplitMode::WithSumOfParts;
     let cells = inputs.layout.cells.len();
     if let Some(&cell) = chosen.iter().find(|&&c| c >= cells) {
         return Err(DecomposeError::UnknownCell { cell, cells });

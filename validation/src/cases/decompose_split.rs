@@ -13,7 +13,7 @@ use super::{Check, Tier, VerifyError};
 use mesh::layout::{random_sequential_addition, ChamberBox, RandomLayout, RandomTarget};
 use mesh::Grid;
 use solver::linalg::{KrylovParams, MultigridParams};
-use solver::post::decompose::{decompose, DecomposeInputs};
+use solver::post::decompose::{decompose, DecomposeInputs, SplitMode};
 use solver::post::SensingModel;
 use solver::problem::{ChamberBoundaries, ChamberFace, LigandParameters, SurfaceUptake};
 use solver::solve_case::SteadySolution;
@@ -76,7 +76,7 @@ pub fn split_sum_error(speed: f64, count: usize) -> Result<(f64, f64), VerifyErr
     };
     let solution = solver::solve_case::solve_steady_case(&case, &mut |_| {})?;
     let all: Vec<usize> = (0..layout.cells.len()).collect();
-    let split = decompose(&inputs(&solution, &layout, ligand), &all, true)?;
+    let split = decompose(&inputs(&solution, &layout, ligand), &all, SplitMode::WithSumOfParts)?;
     let sum = split.sum_of_parts.unwrap_or_default();
     let total = &solution.transport.concentration;
     let scale = total.iter().fold(0.0f64, |m, c| m.max(c.abs()));
@@ -94,7 +94,7 @@ pub fn isolated_fractions() -> Result<(f64, f64), VerifyError> {
         uptake: SurfaceUptake::FirstOrder { rate_constant: 5e-6 },
     };
     let solution = solve(&grid, &layout, far_field_box(), darcy(1e-14, 5e-7), ligand)?;
-    let split = decompose(&inputs(&solution, &layout, ligand), &[0], false)?;
+    let split = decompose(&inputs(&solution, &layout, ligand), &[0], SplitMode::CellsOnly)?;
     let s = &split.cells[0];
     Ok((s.signal_fraction, s.self_bound_rate / solution.sensing[0].bound_rate))
 }

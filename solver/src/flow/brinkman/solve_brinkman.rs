@@ -4,7 +4,7 @@ use super::assemble_momentum::{assemble_momentum, MomentumBlock, MomentumCoeffic
 use super::chamber_velocity::{ChamberVelocity, VelocityData};
 use super::inlet_profile::fully_developed_profile;
 use super::pressure_gradient::PressureCoupling;
-use super::resolution::{check_resolution, ResolutionWarning};
+use super::resolution::{check_resolution, ScreeningLengthWarning};
 use super::saddle_system::SaddleSystem;
 use super::sphere_index::SphereIndex;
 use super::surface_force::{surface_forces, SurfaceForces};
@@ -31,9 +31,9 @@ pub enum FlowKrylov {
     Gmres,
 }
 
-/// Solver settings; `Default` suits production cases.
+/// Solver parameters; `Default` suits production cases.
 #[derive(Clone)]
-pub struct BrinkmanSettings {
+pub struct BrinkmanParams {
     /// Relative residual of the coupled system and the iteration cap (default 1e-8, 400).
     pub krylov: KrylovParams,
     /// Default [`FlowKrylov::Bicgstab`].
@@ -47,9 +47,9 @@ pub struct BrinkmanSettings {
     pub far_field: Option<VelocityData>,
 }
 
-impl Default for BrinkmanSettings {
+impl Default for BrinkmanParams {
     fn default() -> Self {
-        BrinkmanSettings {
+        BrinkmanParams {
             krylov: KrylovParams { relative_tolerance: 1e-8, max_iterations: 400 },
             method: FlowKrylov::Bicgstab,
             restart: 30,
@@ -68,13 +68,23 @@ pub struct BrinkmanSolution {
     /// Viscous and pressure parts of the force on each cell (N).
     pub forces: SurfaceForces,
     /// Set when the screening length √K is under-resolved.
-    pub resolution: Option<ResolutionWarning>,
+    pub resolution: Option<ScreeningLengthWarning>,
     /// Relative residual before the first and after every GMRES iteration.
     pub residual_history: Vec<f64>,
     /// Bytes held by the solver (operators, hierarchies, Krylov basis).
     pub memory_bytes: usize,
-    /// Wall-clock seconds of assembly (with the preconditioner set-up), Krylov iterations, and post-processing.
-    pub stage_seconds: [f64; 3],
+    pub stage_seconds: BrinkmanStageSeconds,
+}
+
+/// Wall-clock seconds of the stages of one Brinkman/Stokes solve.
+#[derive(Clone, Copy, Debug, Default, PartialEq)]
+pub struct BrinkmanStageSeconds {
+    /// Assembly with the preconditioner set-up.
+    pub assembly: f64,
+    /// Krylov iterations.
+    pub iterations: f64,
+    /// Face fluxes, drag and pressure from the solution.
+    pub post: f64,
 }
 
 /// Solves `−μ_e∇²u + (μ/K)u + ∇p = 0, ∇·u = 0` with no slip on every cell, mean superficial velocity
@@ -86,7 +96,7 @@ pub fn solve_brinkman(
     boundaries: &ChamberBoundaries,
     medium: &BrinkmanMedium,
     mean_velocity: f64,
-    settings: &BrinkmanSettings,
+    params: &BrinkmanParams,
 ) -> Result<BrinkmanSolution, BrinkmanError> {
     medium.validate()?;
     let grid = &geometry.grid;
@@ -99,7 +109,7 @@ pub fn solve_brinkman(
             resolution,
             residual_history: vec![0.0],
             memory_bytes: 0,
-            stage_seconds: [0.0; 3],
+            stage_seconds: BrinkmanStageSeconds::default(),
         });
     }
     let h = grid.spacing;
@@ -107,7 +117,7 @@ pub fn solve_brinkman(
     let driven = boundaries.faces[0][0] == ChamberFace::Periodic;
     let clock = std::time::Instant::now();
     let (system, rhs, spheres) =
-        assemble_saddle(geometry, layout, boundaries, medium, mean_velocity, settings, &mut Vec::new())?;
+        assemble_saddle(geometry, layout, boundaries, medium, mean_velocity, params, &mut Vec::new())?;
     let ranges = system.ranges();
     let t_assembly = clock.elapsed().as_secs_f64();
     let clock = std::time::Instant::now();
@@ -115,14 +125,14 @@ pub fn solve_brinkman(
     let mut work = system.work();
     let operator = |v: &[f64], y: &mut [f64]| system.apply(v, y);
     let precondition = |r: &[f64], z: &mut [f64]| system.precondition(r, z, &mut work);
-    let info = match settings.method {
+    let info = match params.method {
         // No stored shadow: every vector of the coupled system costs 32 bytes per grid cell.
         FlowKrylov::Bicgstab => bicgstab(
             &operator,
             precondition,
             RightHandSide::Sparse(&rhs),
             &mut x,
-            &BicgstabParams { krylov: settings.krylov.clone(), shadow: Shadow::Unstored },
+            &BicgstabParams { krylov: params.krylov.clone(), shadow: Shadow::Unstored },
             &mut BicgstabWork::default(),
         ),
         FlowKrylov::Gmres => gmres(
@@ -130,16 +140,16 @@ pub fn solve_brinkman(
             precondition,
             &rhs.to_dense(),
             &mut x,
-            &GmresParams { krylov: settings.krylov.clone(), restart: settings.restart },
+            &GmresParams { krylov: params.krylov.clone(), restart: params.restart },
         ),
     }
     .map_err(BrinkmanError::from_solve)?;
     if x.iter().any(|v| !v.is_finite()) {
         return Err(BrinkmanError::NonFinite { iteration: info.iterations });
     }
-    let krylov_vectors = match settings.method {
+    let krylov_vectors = match params.method {
         FlowKrylov::Bicgstab => 6,
-        FlowKrylov::Gmres => 2 * settings.restart + 5,
+        FlowKrylov::Gmres => 2 * params.restart + 5,
     };
     let memory_bytes = system.memory_bytes() + 8 * system.len() * krylov_vectors;
     drop(work);
@@ -256,7 +266,11 @@ pub fn solve_brinkman(
         resolution,
         residual_history: info.residual_history,
         memory_bytes,
-        stage_seconds: [t_assembly, t_solve, clock.elapsed().as_secs_f64()],
+        stage_seconds: BrinkmanStageSeconds {
+            assembly: t_assembly,
+            iterations: t_solve,
+            post: clock.elapsed().as_secs_f64(),
+        },
     })
 }
 
@@ -268,7 +282,7 @@ pub(super) fn assemble_saddle(
     boundaries: &ChamberBoundaries,
     medium: &BrinkmanMedium,
     mean_velocity: f64,
-    settings: &BrinkmanSettings,
+    params: &BrinkmanParams,
     timings: &mut Vec<(&'static str, f64)>,
 ) -> Result<(SaddleSystem, SparseVector, SphereIndex), BrinkmanError> {
     let mut clock = std::time::Instant::now();
@@ -288,29 +302,22 @@ pub(super) fn assemble_saddle(
     for (a, sides) in inlet.iter_mut().enumerate() {
         for (side, slot) in sides.iter_mut().enumerate() {
             if boundaries.faces[a][side] == ChamberFace::Inlet {
-                let profile = fully_developed_profile(
-                    grid,
-                    boundaries,
-                    a,
-                    mu_e,
-                    sigma,
-                    mean_velocity,
-                    &settings.krylov,
-                )
-                .map_err(BrinkmanError::from_solve)?;
+                let profile =
+                    fully_developed_profile(grid, boundaries, a, mu_e, sigma, mean_velocity, &params.krylov)
+                        .map_err(BrinkmanError::from_solve)?;
                 *slot = Some(profile);
             }
         }
     }
     let far_field: VelocityData =
-        settings.far_field.clone().unwrap_or_else(|| Arc::new(move |_| [mean_velocity, 0.0, 0.0]));
+        params.far_field.clone().unwrap_or_else(|| Arc::new(move |_| [mean_velocity, 0.0, 0.0]));
     let chamber = ChamberVelocity::new(grid, *boundaries, inlet, far_field);
     lap("inlet profile");
     let coefficients = MomentumCoefficients {
         effective_viscosity: mu_e,
         resistivity: sigma,
         driving_gradient: if driven { 1.0 } else { 0.0 },
-        min_wall_fraction: settings.min_wall_fraction,
+        min_wall_fraction: params.min_wall_fraction,
     };
     // The three components are independent; their sequential passes run side by side.
     let assembled: Vec<MomentumBlock> = (0..3)
@@ -332,7 +339,7 @@ pub(super) fn assemble_saddle(
         blocks[2].known.as_slice(),
     ]);
     lap("coupling");
-    let mut system = SaddleSystem::new(blocks, coupling, mu_e, sigma, &settings.multigrid)
+    let mut system = SaddleSystem::new(blocks, coupling, mu_e, sigma, &params.multigrid)
         .ok_or(BrinkmanError::Internal("momentum conductances outside the compact encoding"))?;
     lap("hierarchies");
     let ranges = system.ranges();

@@ -1,6 +1,11 @@
 //! What the chamber faces put into the Darcy pressure equation: prescribed inflow on inlets (a source), a
 //! prescribed pressure behind half a spacing on outlets and far-field faces (a diagonal term and a source),
 //! nothing on walls, symmetry planes and periodic faces.
+//!
+//! A far-field face carries the pressure of the undisturbed stream, `p = −(μ/K) U (x − x_0)`. Beside an outlet
+//! (`p = 0` on x_max) the stream's pressure must vanish there too, so `x_0` is the outlet's plane; otherwise a
+//! far-field side face would hold a different pressure than the outlet next to it and drive flow out through the
+//! sides. Without an outlet `x_0` is the chamber's centre (only pressure differences matter).
 
 use crate::problem::{ChamberBoundaries, ChamberFace};
 use mesh::{Axis, EmbeddedGeometry};
@@ -40,7 +45,11 @@ pub fn chamber_pressure(
     let mut rhs = vec![0.0; n];
     let mut inlet_flux = [vec![], vec![], vec![]].map(|v: Vec<(usize, f64)>| v);
     let mut pressure_faces = Vec::new();
-    let centre_x = grid.origin[0] + 0.5 * grid.shape[0] as f64 * h;
+    let zero_pressure_x = if boundaries.faces[0][1] == ChamberFace::Outlet {
+        grid.origin[0] + grid.shape[0] as f64 * h
+    } else {
+        grid.origin[0] + 0.5 * grid.shape[0] as f64 * h
+    };
 
     for axis in Axis::ALL {
         let a = axis.index();
@@ -68,7 +77,7 @@ pub fn chamber_pressure(
                         let pressure = if kind == ChamberFace::Outlet {
                             0.0
                         } else {
-                            -(mean_velocity / mobility) * (face.centre[0] - centre_x)
+                            -(mean_velocity / mobility) * (face.centre[0] - zero_pressure_x)
                         };
                         sink[gc] += g;
                         rhs[gc] += g * pressure;
