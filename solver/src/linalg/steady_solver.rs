@@ -93,6 +93,12 @@ impl SteadySolver {
         &self.system
     }
 
+    /// The system back, as [`SteadySolver::new`] left it: faces touching inactive cells decoupled (which the
+    /// operator's contract already required) and the correction in CSR.
+    pub fn into_system(self) -> LinearSystem {
+        self.system
+    }
+
     /// Number of multigrid levels (1: the operator is solved directly).
     pub fn levels(&self) -> usize {
         self.multigrid.levels()
