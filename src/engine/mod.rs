@@ -50,7 +50,7 @@ pub fn steady_case(case: &Case) -> SteadyCase<'_> {
 }
 
 /// Warnings about the numerics of a solved case (for the terminal and summary.json).
-pub fn solution_warnings(solution: &SteadySolution) -> Vec<String> {
+pub fn solution_warnings(case: &Case, solution: &SteadySolution) -> Vec<String> {
     let peclet = &solution.transport.assembly.peclet;
     let mut warnings = Vec::new();
     let spacing = solution.geometry.grid.spacing;
@@ -64,6 +64,14 @@ pub fn solution_warnings(solution: &SteadySolution) -> Vec<String> {
     }
     if let Some(resolution) = &solution.flow_resolution {
         warnings.push(resolution.to_string());
+    }
+    let flow = &solution.flow;
+    let grid = &solution.geometry.grid;
+    let tolerance = case.solve.tolerance;
+    if let Some(w) =
+        solver::flow::check_divergence(grid, &flow.divergence_peak(), case.flow.mean_velocity, tolerance)
+    {
+        warnings.push(w.to_string());
     }
     warnings
 }
@@ -113,15 +121,16 @@ pub fn execute_with(
     for warning in &case.warnings {
         eprintln!("warning: {warning}");
     }
-    if let Some(warning) = flow_resolution_warning(case) {
+    let told_before = flow_resolution_warning(case);
+    if let Some(warning) = &told_before {
         eprintln!("warning: {warning}");
     }
     let progress = stages::StageProgress::new(5);
     let started = Instant::now();
     let solved = solve_steady_case(&steady_case(case), &mut |stage| progress.numerical_stage(stage))
         .map_err(|e| anyhow::Error::new(SolverFailure { message: e.to_string() }))?;
-    let warnings = solution_warnings(&solved);
-    for warning in &warnings {
+    let warnings = solution_warnings(case, &solved);
+    for warning in warnings.iter().filter(|&w| Some(w) != told_before.as_ref()) {
         progress.println(&format!("warning: {warning}"));
     }
     progress.stage("writing outputs");

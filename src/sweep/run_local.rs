@@ -257,7 +257,7 @@ pub fn run_case(
                 one_line(&anyhow::Error::new(SolverFailure { message: e.to_string() })),
             )
         })?;
-        let warnings = solution_warnings(&solved);
+        let warnings = solution_warnings(&case, &solved);
         write(&mut || {
             write_outputs(&case, &solved, &warnings, &case_dir, started, Instant::now())
                 .map_err(|e| failure(plan, index, "io", one_line(&e)))
