@@ -92,6 +92,11 @@ enum Command {
         /// With --slurm: submit the array and the dependent collect job with sbatch.
         #[arg(long, requires = "slurm")]
         submit: bool,
+        /// With --slurm --submit, for a sweep with a [find] table: the job after each round decides and submits
+        /// the next round itself (only where compute nodes may submit jobs; else rerun --slurm DIR --submit
+        /// once per round).
+        #[arg(long, requires = "submit")]
+        auto_rounds: bool,
         /// With --slurm: at most N array tasks running at once.
         #[arg(long, value_name = "N", requires = "slurm")]
         max_running: Option<usize>,
@@ -170,6 +175,7 @@ fn run_command(command: Command) -> anyhow::Result<()> {
             threads,
             slurm,
             submit,
+            auto_rounds,
             max_running,
             partition,
             account,
@@ -185,6 +191,7 @@ fn run_command(command: Command) -> anyhow::Result<()> {
             threads,
             slurm,
             submit,
+            auto_rounds,
             max_running,
             partition,
             account,

@@ -18,6 +18,6 @@ pub mod layout;
 pub use geometry::{BoundaryFacet, EmbeddedGeometry};
 pub use grid::{Axis, BoundaryFace, Grid};
 pub use layout::{
-    lattice, random_sequential_addition, read_csv, Cell, ChamberBox, Layout, LayoutError, LayoutStatistics,
-    RandomLayout, RandomTarget, ResolutionWarning,
+    lattice, random_sequential_addition, read_csv, Cell, CellResolutionWarning, ChamberBox, Layout,
+    LayoutError, LayoutStatistics, RandomLayout, RandomTarget,
 };

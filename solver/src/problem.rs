@@ -50,7 +50,7 @@ impl MediumModel {
     }
 }
 
-/// Flow settings: the medium and the mean superficial velocity along +x (m/s, ≥ 0; zero means no flow).
+/// Flow parameters: the medium and the mean superficial velocity along +x (m/s, ≥ 0; zero means no flow).
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct FlowParameters {
     pub medium: MediumModel,

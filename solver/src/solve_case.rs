@@ -3,13 +3,13 @@
 
 use crate::embedded::FacetStencils;
 use crate::flow::brinkman::{
-    solve_brinkman, BrinkmanError, BrinkmanMedium, BrinkmanSettings, ResolutionWarning,
+    solve_brinkman, BrinkmanError, BrinkmanMedium, BrinkmanParams, ScreeningLengthWarning,
 };
 use crate::flow::{solve_darcy, DarcyError, FlowField};
 use crate::linalg::KrylovParams;
-use crate::post::{cell_sensing, mass_balance, pressure_front_back, CellSensing, MassBalance, SensingModel};
+use crate::post::{cell_pressure_drop, cell_sensing, mass_balance, CellSensing, MassBalance, SensingModel};
 use crate::problem::{ChamberBoundaries, FlowParameters, LigandParameters, MediumModel};
-use crate::transport::{solve_steady, SteadyTransport, TransportError, TransportProblem, TransportSettings};
+use crate::transport::{solve_steady, SteadyTransport, TransportError, TransportParams, TransportProblem};
 use mesh::{EmbeddedGeometry, Grid, Layout};
 use std::time::Instant;
 
@@ -42,15 +42,23 @@ pub struct SteadySolution {
     pub geometry: EmbeddedGeometry,
     pub stencils: FacetStencils,
     pub flow: FlowField,
-    /// `p_front − p_back` per cell along its local flow (Pa).
-    pub pressure_front_back: Vec<f64>,
+    /// `p_upstream − p_downstream` per cell along its local flow (Pa).
+    pub cell_pressure_drop: Vec<f64>,
     /// Set when a Brinkman screening length is under-resolved by the grid.
-    pub flow_resolution: Option<ResolutionWarning>,
+    pub flow_resolution: Option<ScreeningLengthWarning>,
     pub transport: SteadyTransport,
     pub sensing: Vec<CellSensing>,
     pub balance: MassBalance,
-    /// Seconds spent in geometry, flow, transport, sensing.
-    pub timing: [f64; 4],
+    pub timing: SteadyTiming,
+}
+
+/// Wall-clock seconds of the stages of one steady case.
+#[derive(Clone, Copy, Debug, Default, PartialEq)]
+pub struct SteadyTiming {
+    pub geometry: f64,
+    pub flow: f64,
+    pub transport: f64,
+    pub sensing: f64,
 }
 
 #[derive(thiserror::Error, Debug)]
@@ -72,7 +80,7 @@ pub fn solve_flow(
     stencils: &FacetStencils,
     case: &SteadyCase,
     mean_velocity: f64,
-) -> Result<(FlowField, Option<ResolutionWarning>), CaseSolveError> {
+) -> Result<(FlowField, Option<ScreeningLengthWarning>), CaseSolveError> {
     match case.flow.medium {
         MediumModel::Darcy { viscosity, permeability } => {
             let flow = solve_darcy(
@@ -90,15 +98,15 @@ pub fn solve_flow(
         MediumModel::Brinkman { .. } | MediumModel::Stokes { .. } => {
             let medium = BrinkmanMedium::from_model(case.flow.medium)
                 .ok_or(CaseSolveError::FlowModelNotImplemented("darcy"))?;
-            let settings = BrinkmanSettings {
+            let params = BrinkmanParams {
                 krylov: KrylovParams {
                     max_iterations: case.krylov.max_iterations.max(400),
                     ..case.krylov.clone()
                 },
-                ..BrinkmanSettings::default()
+                ..BrinkmanParams::default()
             };
             let solved =
-                solve_brinkman(geometry, case.layout, &case.boundaries, &medium, mean_velocity, &settings)?;
+                solve_brinkman(geometry, case.layout, &case.boundaries, &medium, mean_velocity, &params)?;
             Ok((solved.field, solved.resolution))
         }
     }
@@ -119,7 +127,8 @@ pub fn solve_steady_case(
     on_stage(Stage::Flow);
     let t1 = Instant::now();
     let (flow, flow_resolution) = solve_flow(&geometry, &stencils, case, case.flow.mean_velocity)?;
-    let front_back = pressure_front_back(&geometry, &stencils, case.layout, &flow.velocity, &flow.pressure);
+    let pressure_drops =
+        cell_pressure_drop(&geometry, &stencils, case.layout, &flow.velocity, &flow.pressure);
     let t_flow = t1.elapsed().as_secs_f64();
 
     on_stage(Stage::Transport);
@@ -133,8 +142,8 @@ pub fn solve_steady_case(
         face_flux: &flow.face_flux,
         far_field_speed: case.flow.mean_velocity,
     };
-    let settings = TransportSettings { krylov: case.krylov.clone(), ..TransportSettings::default() };
-    let transport = solve_steady(&problem, &settings)?;
+    let params = TransportParams { krylov: case.krylov.clone(), ..TransportParams::default() };
+    let transport = solve_steady(&problem, &params)?;
     let t_transport = t2.elapsed().as_secs_f64();
 
     on_stage(Stage::Sensing);
@@ -158,11 +167,16 @@ pub fn solve_steady_case(
         geometry,
         stencils,
         flow,
-        pressure_front_back: front_back,
+        cell_pressure_drop: pressure_drops,
         flow_resolution,
         transport,
         sensing,
         balance,
-        timing: [t_geometry, t_flow, t_transport, t_sensing],
+        timing: SteadyTiming {
+            geometry: t_geometry,
+            flow: t_flow,
+            transport: t_transport,
+            sensing: t_sensing,
+        },
     })
 }

@@ -57,7 +57,7 @@ fn fingerprint(s: &SteadySolution) -> Vec<u64> {
     s.flow.velocity.iter().for_each(|v| push(v));
     s.flow.drag.iter().for_each(|d| push(d));
     push(&[s.flow.relative_residual, s.flow.max_divergence, s.flow.pressure_drop]);
-    push(&s.pressure_front_back);
+    push(&s.cell_pressure_drop);
     push(&s.transport.concentration);
     for c in &s.sensing {
         push(&[

@@ -26,11 +26,38 @@ pub(super) struct CellDefaults {
     pub uptake: SurfaceUptake,
 }
 
+/// How the cells were placed (for reports).
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum LayoutKind {
+    /// `[[cells.list]]` entries.
+    List,
+    Random(PackingMethod),
+    Cluster(PackingMethod),
+    Lattice,
+    File,
+}
+
+impl std::fmt::Display for LayoutKind {
+    /// The case file's name of the kind; a dense random layout adds its packing method.
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        let (name, method) = match *self {
+            LayoutKind::List => ("list", None),
+            LayoutKind::Random(m) => ("random", Some(m)),
+            LayoutKind::Cluster(m) => ("cluster", Some(m)),
+            LayoutKind::Lattice => ("lattice", None),
+            LayoutKind::File => ("file", None),
+        };
+        match method {
+            Some(m @ PackingMethod::GrowthWithRelaxation) => write!(f, "{name} ({})", m.describe()),
+            _ => f.write_str(name),
+        }
+    }
+}
+
 /// A generated layout and where in the file it was described (for later errors).
 pub(super) struct PlacedLayout {
     pub layout: Layout,
-    /// The layout kind, with the packing method of a dense random layout (for reports).
-    pub kind: String,
+    pub kind: LayoutKind,
     pub key: &'static str,
     pub span: Option<Range<usize>>,
     pub chamber: ChamberBox,
@@ -185,7 +212,7 @@ pub(super) fn build_layout(
         (None, Some(list)) => {
             let span = list.span();
             let layout = explicit_list(src, list.get_ref(), defaults)?;
-            ("list".to_string(), "cells.list", span, layout)
+            (LayoutKind::List, "cells.list", span, layout)
         }
         (Some(table), None) => {
             let span = table.span();
@@ -203,7 +230,7 @@ fn generated_layout(
     span: &Range<usize>,
     defaults: &CellDefaults,
     setting: &LayoutSetting,
-) -> Result<(String, Layout), CaseError> {
+) -> Result<(LayoutKind, Layout), CaseError> {
     const KINDS: &str = "\"random\", \"cluster\", \"lattice\" or \"file\"";
     let Some(kind) = &raw.kind else {
         return Err(src.missing("cells.layout.kind", Some(span), KINDS));
@@ -238,7 +265,7 @@ fn generated_layout(
             let region = PlacementRegion::Chamber { margins };
             let placement =
                 random_layout(&spec, chamber, &region).map_err(|e| random_error(src, raw, span, e))?;
-            Ok((kind_with_method("random", placement.method), placement.layout))
+            Ok((LayoutKind::Random(placement.method), placement.layout))
         }
         "cluster" => {
             let keys = ["centre", "semi_axes", "count", "volume_fraction", "min_gap", "seed"];
@@ -262,7 +289,7 @@ fn generated_layout(
             let region = PlacementRegion::Ellipsoid { centre: axes[0], semi_axes: axes[1] };
             let placement =
                 random_layout(&spec, chamber, &region).map_err(|e| random_error(src, raw, span, e))?;
-            Ok((kind_with_method("cluster", placement.method), placement.layout))
+            Ok((LayoutKind::Cluster(placement.method), placement.layout))
         }
         "lattice" => {
             refuse_unused(src, raw, "lattice", &["spacing"])?;
@@ -275,7 +302,7 @@ fn generated_layout(
             };
             let spacing = three_lengths(src, "cells.layout.spacing", list, Range0::Positive)?;
             let layout = lattice(spacing, chamber, defaults.radius, defaults.secretion_rate).map_err(fail)?;
-            Ok(("lattice".to_string(), layout))
+            Ok((LayoutKind::Lattice, layout))
         }
         "file" => {
             refuse_unused(src, raw, "file", &["path"])?;
@@ -297,21 +324,13 @@ fn generated_layout(
             let limit = max_file_bytes(most_cells.ceil().min(u64::MAX as f64) as u64);
             let layout = read_csv(&file, defaults.radius, defaults.secretion_rate, limit)
                 .map_err(|e| layout_error(src, "cells.layout.path", Some(&path.span()), e))?;
-            Ok(("file".to_string(), layout))
+            Ok((LayoutKind::File, layout))
         }
         other => Err(src.error(
             "cells.layout.kind",
             Some(&kind.span()),
             format!("cells.layout.kind = \"{other}\" is not a layout kind; use {KINDS} (or [[cells.list]])"),
         )),
-    }
-}
-
-/// The layout kind for reports: a dense random layout names its packing method.
-fn kind_with_method(kind: &str, method: PackingMethod) -> String {
-    match method {
-        PackingMethod::SequentialAddition => kind.to_string(),
-        PackingMethod::GrowthWithRelaxation => format!("{kind} ({})", method.describe()),
     }
 }
 
@@ -459,7 +478,7 @@ pub(super) fn check_resolution(
         .layout
         .check_resolution(spacing)
         .map_err(|e| layout_error(src, placed.key, placed.span.as_ref(), e))?;
-    let describe = |w: &mesh::layout::ResolutionWarning| {
+    let describe = |w: &mesh::layout::CellResolutionWarning| {
         format!(
             "cell {} has a radius of only {:.2} grid spacings (under 4); expect a relative error of about {:.1}% in its surface integrals",
             w.id,
@@ -478,7 +497,7 @@ pub(super) fn check_resolution(
         vec![format!("{} cells have a radius under 4 grid spacings; the worst: {worst}", warnings.len())]
     };
     messages.extend(narrow_gaps(placed, spacing));
-    if placed.kind == "file" && placed.layout.cells.is_empty() {
+    if placed.kind == LayoutKind::File && placed.layout.cells.is_empty() {
         messages.push(format!(
             "{}: the layout file holds no cells, so the chamber has none (valid, but most likely a mistake; \
              use list = [] for a chamber without cells on purpose)",

@@ -23,19 +23,20 @@ use std::path::{Path, PathBuf};
 
 use numkit::sha256_hex;
 
+pub use cells::LayoutKind;
 pub use error::CaseError;
 
 /// How the ligand field is solved.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub enum SolveMode {
     Steady,
-    /// Time-dependent from an initial condition; settings in [`SolveSettings::transient`].
+    /// Time-dependent from an initial condition; parameters in [`SolveParams::transient`].
     Transient,
 }
 
 /// `[solve]`: mode and the linear-solver stopping rule.
 #[derive(Clone, Debug, PartialEq)]
-pub struct SolveSettings {
+pub struct SolveParams {
     pub mode: SolveMode,
     /// Relative residual at which the iterative solves stop, in (0, 1e-2]; default 1e-8.
     pub tolerance: f64,
@@ -47,7 +48,7 @@ pub struct SolveSettings {
 
 /// `[sensing]`: parameters of the per-cell sensing outputs.
 #[derive(Clone, Debug, PartialEq)]
-pub struct SensingSettings {
+pub struct SensingParams {
     /// Time over which a cell counts bound molecules (s) for the counting-noise direction error; default 1 h.
     pub integration_time: f64,
     /// Which cells get the self/neighbour split; default `sample:4` (see `decompose.rs`).
@@ -85,7 +86,7 @@ impl OutputField {
 
 /// `[output]`: which fields are written and whether figures are drawn.
 #[derive(Clone, Debug, PartialEq)]
-pub struct OutputSettings {
+pub struct OutputParams {
     /// Default: all three, in the order concentration, velocity, pressure.
     pub fields: Vec<OutputField>,
     /// Default true.
@@ -119,11 +120,10 @@ pub struct Case {
     pub secretion_rate: f64,
     /// The cells, generated and validated against the chamber.
     pub layout: mesh::Layout,
-    /// "random" | "lattice" | "file" | "list" (for reports).
-    pub layout_kind: String,
-    pub solve: SolveSettings,
-    pub sensing: SensingSettings,
-    pub output: OutputSettings,
+    pub layout_kind: LayoutKind,
+    pub solve: SolveParams,
+    pub sensing: SensingParams,
+    pub output: OutputParams,
     /// Things the modeller should know but that do not stop a run (e.g. radius under 4 grid spacings).
     pub warnings: Vec<String>,
     /// Every file the case reads: the case file, a layout file, an initial field (an output folder must not

@@ -2,7 +2,8 @@
 
 use std::path::Path;
 
-use super::{Case, CaseError, OutputField};
+use super::{Case, CaseError, LayoutKind, OutputField};
+use mesh::layout::PackingMethod;
 use solver::problem::{ChamberFace, MediumModel, SurfaceUptake};
 
 const BASE: &str = r#"title = "test chamber"
@@ -105,7 +106,7 @@ fn base_case_is_valid_and_in_si() {
     assert_eq!(case.ligand.uptake, SurfaceUptake::FirstOrder { rate_constant: 1e-6 });
     assert_eq!(case.cell_radius, 8e-6);
     assert_eq!(case.secretion_rate, 1.0);
-    assert_eq!(case.layout_kind, "lattice");
+    assert_eq!(case.layout_kind, LayoutKind::Lattice);
     assert_eq!(case.layout.cells.len(), 8);
     assert_eq!(case.solve.tolerance, 1e-8);
     assert_eq!(case.solve.max_iterations, 300);
@@ -414,7 +415,7 @@ fn random_layout_rules() {
     let text = edit(LATTICE, "layout = { kind = \"random\", count = 5, min_gap = \"2 um\", seed = 7 }");
     let a = parse(&text).unwrap_or_else(|e| panic!("{e}"));
     assert_eq!(a.layout.cells.len(), 5);
-    assert_eq!(a.layout_kind, "random");
+    assert_eq!(a.layout_kind, LayoutKind::Random(PackingMethod::SequentialAddition));
     let b = parse(&text).unwrap_or_else(|e| panic!("{e}"));
     assert_eq!(a.layout, b.layout, "same seed, same layout");
     let text = edit(LATTICE, "layout = { kind = \"random\", count = 5, volume_fraction = 0.05 }");
@@ -462,7 +463,7 @@ fn explicit_list_rules() {
     let text = edit(LATTICE, "list = []");
     let case = parse(&text).unwrap_or_else(|e| panic!("{e}"));
     assert!(case.layout.cells.is_empty());
-    assert_eq!(case.layout_kind, "list");
+    assert_eq!(case.layout_kind, LayoutKind::List);
     let text = edit(
         LATTICE,
         "[[cells.list]]\nx = \"20 um\"\ny = \"20 um\"\nz = \"20 um\"\n\n[[cells.list]]\nx = \"60 um\"\ny = \"24 um\"\nz = \"20 um\"\nradius = \"10 um\"\nsecretion_rate = \"7200 molecules/h\"",
@@ -519,7 +520,7 @@ fn solve_rules() {
         edit("mode = \"steady\"", "mode = \"transient\"\nend_time = \"2 h\"\ntime_step = \"60 s\"");
     let case = parse(&transient.replace("tolerance = 1e-8", "tolerance = 1e-8\noutput_every = \"30 min\""))
         .unwrap_or_else(|e| panic!("{e}"));
-    let t = case.solve.transient.expect("transient settings");
+    let t = case.solve.transient.expect("transient params");
     assert_eq!((t.end_time, t.time_step, t.output_every, t.adaptive), (7200.0, 60.0, 1800.0, None));
     let text = transient.replace("tolerance = 1e-8", "tolerance = 1e-8\noutput_every = \"90 s\"");
     expect_error(&text, "solve.output_every", Some("output_every"), &["whole multiple of solve.time_step"]);
@@ -577,7 +578,7 @@ fn layout_file_is_relative_to_the_case_folder() {
     std::fs::write(&case_path, &text).expect("write");
     let case = Case::load(&case_path).unwrap_or_else(|e| panic!("{e}"));
     assert_eq!(case.layout.cells.len(), 2);
-    assert_eq!(case.layout_kind, "file");
+    assert_eq!(case.layout_kind, LayoutKind::File);
     assert_eq!(case.sha256, super::sha256_hex(text.as_bytes()));
     let text = edit(LATTICE, "layout = { kind = \"file\", path = \"missing.csv\" }");
     std::fs::write(&case_path, &text).expect("write");

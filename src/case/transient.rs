@@ -19,7 +19,7 @@ pub enum InitialCondition {
     Fields(PathBuf),
 }
 
-/// Transient settings in SI units.
+/// Transient parameters in SI units.
 #[derive(Clone, Debug, PartialEq)]
 pub struct TransientSolve {
     pub end_time: f64,

@@ -11,7 +11,7 @@ use toml::Spanned;
 use super::raw::{RawCase, RawLigand, RawMedium, RawNumber, RawOutput, RawSensing, RawSolve};
 use super::source_map::line_of;
 use super::units::{parse_quantity, Dimension, UnitError};
-use super::{Case, CaseError, OutputField, OutputSettings, SensingSettings, SolveMode, SolveSettings};
+use super::{Case, CaseError, OutputField, OutputParams, SensingParams, SolveMode, SolveParams};
 use crate::io::{FieldStorage, Precision};
 use solver::problem::{FlowParameters, LigandParameters, MediumModel, SurfaceUptake};
 
@@ -285,7 +285,7 @@ pub(super) fn validate(raw: RawCase, text: &str, path: &Path) -> Result<Case, Ca
         cell_radius: cell_defaults.radius,
         secretion_rate: cell_defaults.secretion_rate,
         layout: placed.layout,
-        layout_kind: placed.kind.to_string(),
+        layout_kind: placed.kind,
         solve,
         sensing,
         output,
@@ -388,7 +388,7 @@ fn validate_ligand(
 }
 
 /// `[solve]`: the mode and the linear-solver keys; the transient keys are checked in `transient.rs`.
-fn validate_solve(src: &Source, solve: &RawSolve) -> Result<SolveSettings, CaseError> {
+fn validate_solve(src: &Source, solve: &RawSolve) -> Result<SolveParams, CaseError> {
     let mut mode_value = SolveMode::Steady;
     if let Some(mode) = &solve.mode {
         match mode.get_ref().as_str() {
@@ -434,7 +434,7 @@ fn validate_solve(src: &Source, solve: &RawSolve) -> Result<SolveSettings, CaseE
         Some(v) => src.whole_number("solve.max_iterations", v, 1)?,
         None => 300,
     };
-    Ok(SolveSettings { mode: mode_value, tolerance, max_iterations, transient: None })
+    Ok(SolveParams { mode: mode_value, tolerance, max_iterations, transient: None })
 }
 
 /// More slabs than this would say nothing a per-cell table does not.
@@ -445,7 +445,7 @@ fn validate_sensing(
     src: &Source,
     sensing: &RawSensing,
     chamber_length: f64,
-) -> Result<SensingSettings, CaseError> {
+) -> Result<SensingParams, CaseError> {
     let integration_time = src.quantity_or(
         "sensing.integration_time",
         sensing.integration_time.as_ref(),
@@ -493,11 +493,11 @@ fn validate_sensing(
             ),
         ));
     }
-    Ok(SensingSettings { integration_time, decompose, readable_error, position_bins, statistics_margin })
+    Ok(SensingParams { integration_time, decompose, readable_error, position_bins, statistics_margin })
 }
 
 /// `[output]`
-fn validate_output(src: &Source, output: &RawOutput) -> Result<OutputSettings, CaseError> {
+fn validate_output(src: &Source, output: &RawOutput) -> Result<OutputParams, CaseError> {
     let fields = match &output.fields {
         None => OutputField::ALL.to_vec(),
         Some(list) => {
@@ -556,5 +556,5 @@ fn validate_output(src: &Source, output: &RawOutput) -> Result<OutputSettings, C
         }
         storage.compression = n as u8;
     }
-    Ok(OutputSettings { fields, figures, storage })
+    Ok(OutputParams { fields, figures, storage })
 }

@@ -7,6 +7,7 @@ pub mod memory_budget;
 pub mod plot;
 pub mod run;
 pub mod sweep;
+pub mod sweep_find;
 pub mod verify;
 
 /// Refuses (exit code 2) a thread or job count of 0 or more than this machine can use: 4 per core (a

@@ -14,7 +14,7 @@ use crate::sweep::memory_reuse;
 use crate::sweep::plan_record::PlanRecord;
 use crate::sweep::run_local::{
     cases_to_run, cases_to_run_settling_markers, longest_first, run_case, run_cases, CaseEvent,
-    LocalRunParams, OutputSync,
+    LocalRunParams, OutputSync, RunSummary,
 };
 use crate::sweep::slurm::{self, SlurmOptions, SlurmParams};
 use crate::sweep::{Plan, SweepError, SweepFile};
@@ -49,6 +49,8 @@ pub struct SweepOptions {
     pub task: Option<usize>,
     /// `--plan`: list the cases, run nothing.
     pub plan: bool,
+    /// `--auto-rounds` (a crossing search on Slurm): the job after each round submits the next round.
+    pub auto_rounds: bool,
 }
 
 /// Some cases of a local sweep failed; the exit code is 100 + their number (at most 255).
@@ -68,7 +70,7 @@ impl CasesFailed {
 }
 
 /// A sweep mistake as bad input (exit code 2), keeping the case error in the chain when there is one.
-fn input(error: SweepError) -> anyhow::Error {
+pub(super) fn input(error: SweepError) -> anyhow::Error {
     anyhow::Error::new(InputError(one_line(&anyhow::Error::new(error))))
 }
 
@@ -104,7 +106,7 @@ fn cores() -> usize {
 }
 
 /// A case that passed validation, with what `--plan` shows about it.
-struct Checked {
+pub(super) struct Checked {
     index: usize,
     forecast: Forecast,
     shape: [usize; 3],
@@ -114,7 +116,7 @@ struct Checked {
 /// Validate the cases `indices` and forecast each (errors name the axis; exit code 2). Cases are parsed on
 /// all cores (a sweep's start-up is serial time before its first case); the first error in plan order is
 /// reported.
-fn validate(plan: &Plan, indices: &[usize]) -> Result<Vec<Checked>> {
+pub(super) fn validate(plan: &Plan, indices: &[usize]) -> Result<Vec<Checked>> {
     use rayon::prelude::*;
     let checked: Vec<Result<Checked>> = indices
         .par_iter()
@@ -150,6 +152,9 @@ pub fn execute(options: &SweepOptions) -> Result<()> {
     let sweep = SweepFile::load(&options.sweep).map_err(input)?;
     let plan = Plan::expand(sweep).map_err(input)?;
     let dir = sweep_dir(options, &plan.sweep)?;
+    if plan.sweep.find.is_some() {
+        return super::sweep_find::execute(&plan, &dir, options);
+    }
     if options.plan {
         return print_plan(&plan, &dir, options.node_memory);
     }
@@ -163,7 +168,12 @@ pub fn execute(options: &SweepOptions) -> Result<()> {
 }
 
 /// A warning on stderr when the largest of `checked` is forecast to need more than a compute node has.
-fn warn_about_node_memory(plan: &Plan, checked: &[Checked], threads: usize, node_memory: Option<f64>) {
+pub(super) fn warn_about_node_memory(
+    plan: &Plan,
+    checked: &[Checked],
+    threads: usize,
+    node_memory: Option<f64>,
+) {
     let Some(budget) = super::memory_budget::node_budget(node_memory) else { return };
     let largest = checked.iter().max_by(|a, b| a.forecast.memory_bytes.total_cmp(&b.forecast.memory_bytes));
     if let Some(c) = largest {
@@ -223,13 +233,13 @@ fn print_plan(plan: &Plan, dir: &Path, node_memory: Option<f64>) -> Result<()> {
     Ok(())
 }
 
-fn write_plan_record(plan: &Plan, dir: &Path) -> Result<()> {
+pub(super) fn write_plan_record(plan: &Plan, dir: &Path) -> Result<()> {
     PlanRecord::of(plan)
         .write(dir)
         .with_context(|| format!("cannot write the sweep plan into {}", dir.display()))
 }
 
-fn run_task(plan: &Plan, dir: &Path, task: usize, threads: Option<usize>) -> Result<()> {
+pub(super) fn run_task(plan: &Plan, dir: &Path, task: usize, threads: Option<usize>) -> Result<()> {
     let Some(planned) = plan.cases.get(task) else {
         return Err(InputError(format!(
             "--task {task} does not exist: the sweep has {} cases (0 to {})",
@@ -270,7 +280,7 @@ fn run_task(plan: &Plan, dir: &Path, task: usize, threads: Option<usize>) -> Res
 }
 
 /// The Slurm options of this command line, each one not given taken from the earlier writing for `dir`.
-fn slurm_options(options: &SweepOptions, dir: &Path) -> Result<SlurmOptions> {
+pub(super) fn slurm_options(options: &SweepOptions, dir: &Path) -> Result<SlurmOptions> {
     let setup =
         match &options.setup {
             None => None,
@@ -307,6 +317,20 @@ fn write_slurm(plan: &Plan, dir: &Path, options: &SweepOptions) -> Result<()> {
         println!("all {} cases are done; nothing to submit. Collecting.", plan.cases.len());
         return super::collect::execute(&dir);
     }
+    submit_slurm(plan, &dir, options, &slurm_options, &checked, &missing, "collect .")
+}
+
+/// Write (and with `--submit`, submit) the array of the cases `missing` of `plan` (validated in `checked`)
+/// for the sweep folder `dir` (absolute, locked), the job after it running `plumefield <after>`.
+pub(super) fn submit_slurm(
+    plan: &Plan,
+    dir: &Path,
+    options: &SweepOptions,
+    slurm_options: &SlurmOptions,
+    checked: &[Checked],
+    missing: &[usize],
+    after: &str,
+) -> Result<()> {
     let largest = checked
         .iter()
         .map(|c| c.forecast)
@@ -321,7 +345,7 @@ fn write_slurm(plan: &Plan, dir: &Path, options: &SweepOptions) -> Result<()> {
     let exe = std::env::current_exe().context("cannot find the plumefield executable for the job script")?;
     let (max_array_size, size_source) = slurm::max_array_size().map_err(InputError)?;
     slurm_options
-        .remember(&dir)
+        .remember(dir)
         .with_context(|| format!("cannot keep the Slurm options in {}", dir.display()))?;
     let params = SlurmParams {
         cpus_per_task: slurm_options.threads.unwrap_or(1),
@@ -340,8 +364,9 @@ fn write_slurm(plan: &Plan, dir: &Path, options: &SweepOptions) -> Result<()> {
         .unwrap_or_else(|| "sweep".into());
     let job_name: String =
         format!("pf-{stem}").chars().filter(|c| c.is_ascii_alphanumeric() || "-_.".contains(*c)).collect();
-    let scripts = slurm::write_scripts(&dir, &sweep_file, &exe, &missing, &largest, &params, &job_name)
-        .with_context(|| format!("cannot write the Slurm scripts into {}", dir.display()))?;
+    let scripts =
+        slurm::write_scripts_then(dir, &sweep_file, &exe, missing, &largest, &params, &job_name, after)
+            .with_context(|| format!("cannot write the Slurm scripts into {}", dir.display()))?;
     let arrays: Vec<String> = scripts
         .chunks
         .iter()
@@ -377,8 +402,9 @@ fn write_slurm(plan: &Plan, dir: &Path, options: &SweepOptions) -> Result<()> {
         scripts.collect_script.display()
     );
     if options.submit {
-        let submitted = slurm::submit(&scripts, slurm_options.max_running.is_some())
-            .map_err(|e| anyhow::anyhow!("{e}"))?;
+        let submitted =
+            slurm::submit(&scripts, slurm::ArrayOrder::for_max_running(slurm_options.max_running))
+                .map_err(|e| anyhow::anyhow!("{e}"))?;
         println!(
             "submitted array job{} {} and collect job {}",
             if submitted.array_jobs.len() == 1 { "" } else { "s" },
@@ -392,7 +418,7 @@ fn write_slurm(plan: &Plan, dir: &Path, options: &SweepOptions) -> Result<()> {
 }
 
 /// Take the sweep folder's lock (exit code 2 when another sweep holds it).
-fn lock(dir: &Path, purpose: &str) -> Result<SweepLock> {
+pub(super) fn lock(dir: &Path, purpose: &str) -> Result<SweepLock> {
     SweepLock::acquire(dir, purpose, &mut |message| eprintln!("sweep: {message}")).map_err(|e| match e {
         LockError::Io { .. } => anyhow::Error::new(e),
         refused => anyhow::Error::new(InputError(refused.to_string())),
@@ -414,7 +440,35 @@ fn run_locally(plan: &Plan, dir: &Path, options: &SweepOptions) -> Result<()> {
         .with_context(|| format!("cannot create the sweep folder {}", dir.display()))?;
     let _lock = lock(dir, "a local sweep")?;
     // Under the lock: what is done now (another sweep may have finished cases since the check above).
-    let mut todo = cases_to_run_settling_markers(plan, dir);
+    let todo = cases_to_run_settling_markers(plan, dir);
+    write_plan_record(plan, dir)?;
+    // Nothing to report: a panic in the warm-up would recur, and be recorded, in the first case.
+    let _ = warm_up.join();
+    let summary = run_batch(plan, dir, todo, &checked, options, "sweep")?;
+    super::collect::execute(dir)?;
+    if summary.failed.is_empty() {
+        Ok(())
+    } else {
+        Err(CasesFailed {
+            failed: summary.failed.len(),
+            total: plan.cases.len(),
+            dir: dir.display().to_string(),
+        }
+        .into())
+    }
+}
+
+/// Run the cases `todo` of `plan` (validated in `checked`, in index order) into `dir` on this machine, longest
+/// first, `--jobs` at a time within the memory budget, with a progress line per case; `label` starts the
+/// lines. The caller holds the sweep folder's lock.
+pub(super) fn run_batch(
+    plan: &Plan,
+    dir: &Path,
+    mut todo: Vec<usize>,
+    checked: &[Checked],
+    options: &SweepOptions,
+    label: &str,
+) -> Result<RunSummary> {
     // `checked` is in index order (from `cases_to_run`).
     let forecast_s = |index: usize| {
         checked
@@ -422,7 +476,6 @@ fn run_locally(plan: &Plan, dir: &Path, options: &SweepOptions) -> Result<()> {
             .map_or(0.0, |k| checked[k].forecast.seconds_one_thread)
     };
     longest_first(&mut todo, forecast_s);
-    write_plan_record(plan, dir)?;
     let threads = options.threads.unwrap_or_else(cores);
     let largest = checked.iter().map(|c| c.forecast.memory_bytes).fold(0.0, f64::max);
     if let Some(budget) = super::memory_budget::run_budget(None) {
@@ -440,7 +493,7 @@ fn run_locally(plan: &Plan, dir: &Path, options: &SweepOptions) -> Result<()> {
     let jobs = options.jobs.unwrap_or_else(|| memory_limited_jobs(threads, largest));
     let params = LocalRunParams::divide(threads, jobs, todo.len());
     eprintln!(
-        "sweep: {} cases, {} already done, {} to run ({} at a time, {} thread{} each) into {}",
+        "{label}: {} cases, {} already done, {} to run ({} at a time, {} thread{} each) into {}",
         plan.cases.len(),
         plan.cases.len() - todo.len(),
         todo.len(),
@@ -449,8 +502,6 @@ fn run_locally(plan: &Plan, dir: &Path, options: &SweepOptions) -> Result<()> {
         if params.threads_per_job == 1 { "" } else { "s" },
         dir.display()
     );
-    // Nothing to report: a panic in the warm-up would recur, and be recorded, in the first case.
-    let _ = warm_up.join();
     let counter = std::sync::atomic::AtomicUsize::new(0);
     let total = todo.len();
     let summary = run_cases(plan, dir, &todo, params, &|event| match event {
@@ -468,17 +519,7 @@ fn run_locally(plan: &Plan, dir: &Path, options: &SweepOptions) -> Result<()> {
             eprintln!("sweep ▸ {k} of {total} · {} FAILED: {error}", plan.cases[index].id);
         }
     });
-    super::collect::execute(dir)?;
-    if summary.failed.is_empty() {
-        Ok(())
-    } else {
-        Err(CasesFailed {
-            failed: summary.failed.len(),
-            total: plan.cases.len(),
-            dir: dir.display().to_string(),
-        }
-        .into())
-    }
+    Ok(summary)
 }
 
 /// One job per core, but no more than 80% of the available memory holds (each job needs `case_bytes`).

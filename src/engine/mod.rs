@@ -13,7 +13,7 @@ pub mod transient;
 
 use crate::case::{Case, SolveMode};
 use crate::exit::{InputError, SolverFailure};
-use crate::io::output_folder::{OutputFolder, OutputFolderError};
+use crate::io::output_folder::{LeftStaging, OutputFolder, OutputFolderError};
 use anyhow::{Context, Result};
 use solver::linalg::KrylovParams;
 use solver::solve_case::{solve_steady_case, SteadyCase, SteadySolution};
@@ -51,7 +51,7 @@ pub fn steady_case(case: &Case) -> SteadyCase<'_> {
 }
 
 /// Warnings about the numerics of a solved case (for the terminal and summary.json).
-pub fn solution_warnings(solution: &SteadySolution) -> Vec<String> {
+pub fn solution_warnings(case: &Case, solution: &SteadySolution) -> Vec<String> {
     let peclet = &solution.transport.assembly.peclet;
     let mut warnings = Vec::new();
     let spacing = solution.geometry.grid.spacing;
@@ -65,6 +65,14 @@ pub fn solution_warnings(solution: &SteadySolution) -> Vec<String> {
     }
     if let Some(resolution) = &solution.flow_resolution {
         warnings.push(resolution.to_string());
+    }
+    let flow = &solution.flow;
+    let grid = &solution.geometry.grid;
+    let tolerance = case.solve.tolerance;
+    if let Some(w) =
+        solver::flow::check_divergence(grid, &flow.divergence_peak(), case.flow.mean_velocity, tolerance)
+    {
+        warnings.push(w.to_string());
     }
     warnings
 }
@@ -104,7 +112,8 @@ pub fn execute_with(
         .into());
     }
     // Checked and locked before the solve; the run writes beside it and the folder is replaced whole.
-    let folder = OutputFolder::prepare(out_dir, &case.input_files, options.resume).map_err(folder_error)?;
+    let left_staging = if options.resume { LeftStaging::Keep } else { LeftStaging::Remove };
+    let folder = OutputFolder::prepare(out_dir, &case.input_files, left_staging).map_err(folder_error)?;
     if transient {
         transient::execute(case, folder.staging(), out_dir, options)?;
         return folder.commit().map_err(folder_error);
@@ -113,7 +122,8 @@ pub fn execute_with(
     for warning in &case.warnings {
         eprintln!("warning: {warning}");
     }
-    if let Some(warning) = flow_resolution_warning(case) {
+    let told_before = flow_resolution_warning(case);
+    if let Some(warning) = &told_before {
         eprintln!("warning: {warning}");
     }
     let progress = stages::StageProgress::new(5);
@@ -124,8 +134,8 @@ pub fn execute_with(
         meter.begin(MeteredStage::of(stage, true));
     })
     .map_err(|e| anyhow::Error::new(SolverFailure { message: e.to_string() }))?;
-    let warnings = solution_warnings(&solved);
-    for warning in &warnings {
+    let warnings = solution_warnings(case, &solved);
+    for warning in warnings.iter().filter(|&w| Some(w) != told_before.as_ref()) {
         progress.println(&format!("warning: {warning}"));
     }
     progress.stage("self/neighbour split and outputs");

@@ -7,7 +7,7 @@ use crate::io::cells_csv::write_cells_csv;
 use crate::io::fields_h5::{write_fields_h5, FieldData};
 use crate::io::table::CellTable;
 use crate::io::xdmf::write_fields_xmf;
-use crate::outputs::columns::{cell_columns, pressure_front_back_column, CellState, RunKind};
+use crate::outputs::columns::{cell_columns, cell_pressure_drop_column, CellState, RunKind};
 use crate::outputs::summary::{FlowMode, FlowSummary, RunSummary, TransportMode, TransportSummary};
 use anyhow::Result;
 use solver::problem::ChamberFace;
@@ -18,7 +18,7 @@ use std::path::Path;
 pub fn cell_table(case: &Case, solved: &SolvedCase) -> CellTable {
     let state = CellState { cells: &case.layout.cells, sensing: &solved.sensing, drag: &solved.flow.drag };
     let mut table = CellTable { columns: cell_columns(&state, RunKind::Steady) };
-    table.columns.push(pressure_front_back_column(solved.pressure_front_back.clone()));
+    table.columns.push(cell_pressure_drop_column(solved.cell_pressure_drop.clone()));
     // Estimates beside the measured columns, after the contract columns (DESIGN.md §6).
     table.columns.extend(crate::engine::estimates::estimate_columns(case, &solved.sensing));
     table

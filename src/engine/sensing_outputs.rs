@@ -6,11 +6,11 @@ use std::path::Path;
 use anyhow::Result;
 
 use crate::case::Case;
-use crate::engine::estimates::SPLIT_COLUMNS;
 use crate::io::sensing_by_position::write_sensing_by_position;
 use crate::io::{CellTable, ColumnValues};
+use crate::outputs::columns::SPLIT_COLUMNS;
 use crate::outputs::RunSummary;
-use crate::sensing::statistics::{sensing_statistics, CellValues, SensingStatistics, StatisticsSettings};
+use crate::sensing::statistics::{sensing_statistics, CellValues, SensingStatistics, StatisticsParams};
 
 /// File name in the run folder.
 pub const SENSING_BY_POSITION: &str = "sensing_by_position.csv";
@@ -31,7 +31,7 @@ pub fn run_statistics(case: &Case, table: &CellTable) -> SensingStatistics {
     let empty: &[f64] = &[];
     let quantities = SLAB_QUANTITIES
         .iter()
-        .chain(SPLIT_COLUMNS.iter())
+        .chain(SPLIT_COLUMNS.iter().filter(|c| c.summarised).map(|c| &c.name))
         .filter_map(|name| real(table, name).map(|v| (*name, v)))
         .filter(|(_, v)| v.iter().any(|x| !x.is_nan()))
         .collect();
@@ -40,13 +40,13 @@ pub fn run_statistics(case: &Case, table: &CellTable) -> SensingStatistics {
         direction_error: real(table, "direction_error").unwrap_or(empty),
         quantities,
     };
-    let settings = StatisticsSettings {
+    let params = StatisticsParams {
         readable_error: case.sensing.readable_error,
         position_bins: case.sensing.position_bins,
         margin: case.sensing.statistics_margin,
     };
     let x0 = case.grid.origin[0];
-    sensing_statistics(&cells, [x0, x0 + case.chamber_size[0]], &settings)
+    sensing_statistics(&cells, [x0, x0 + case.chamber_size[0]], &params)
 }
 
 /// Writes `sensing_by_position.csv` into `out_dir` from the statistics in `summary`.

@@ -56,10 +56,23 @@ fn sibling(destination: &Path, suffix: &str) -> PathBuf {
     destination.with_file_name(format!(".{name}{suffix}"))
 }
 
+/// What [`OutputFolder::prepare`] does with a staging folder that a killed run left.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum LeftStaging {
+    /// Start afresh.
+    Remove,
+    /// Keep it: it holds the checkpoint of a transient run to resume.
+    Keep,
+}
+
 impl OutputFolder {
     /// Checks and locks `destination` before any solve. `inputs` are the files the case reads (case file,
-    /// layout file, initial field); `resume` keeps a staging folder a killed run left (its checkpoint).
-    pub fn prepare(destination: &Path, inputs: &[PathBuf], resume: bool) -> Result<Self, OutputFolderError> {
+    /// layout file, initial field).
+    pub fn prepare(
+        destination: &Path,
+        inputs: &[PathBuf],
+        left_staging: LeftStaging,
+    ) -> Result<Self, OutputFolderError> {
         let refused = |m: String| OutputFolderError::Refused(m);
         let shown = destination.display().to_string();
         // `out/.` or `..` has no name to stage beside: resolve it first.
@@ -114,7 +127,7 @@ impl OutputFolder {
         })?;
         restore_interrupted_swap(&destination)?;
         let staging = sibling(&destination, ".partial");
-        if !(resume && staging.is_dir()) {
+        if !(left_staging == LeftStaging::Keep && staging.is_dir()) {
             remove_if_present(&staging)?;
             fs::create_dir(&staging).map_err(|e| {
                 refused(format!("the output folder {shown} is not writable ({}: {e})", staging.display()))
@@ -328,7 +341,7 @@ mod tests {
     use super::*;
 
     fn run(destination: &Path, files: &[(&str, &str)]) {
-        let folder = OutputFolder::prepare(destination, &[], false).expect("prepare");
+        let folder = OutputFolder::prepare(destination, &[], LeftStaging::Remove).expect("prepare");
         for (name, text) in files {
             let path = folder.staging().join(name);
             fs::create_dir_all(path.parent().unwrap()).unwrap();
@@ -360,15 +373,15 @@ mod tests {
         let dir = tempfile::tempdir().unwrap();
         let case = dir.path().join("case.toml");
         fs::write(&case, "").unwrap();
-        let refused = OutputFolder::prepare(dir.path(), std::slice::from_ref(&case), false);
+        let refused = OutputFolder::prepare(dir.path(), std::slice::from_ref(&case), LeftStaging::Remove);
         assert!(
             matches!(refused, Err(OutputFolderError::Refused(ref m)) if m.contains("case.toml")),
             "{refused:?}"
         );
-        let file = OutputFolder::prepare(&case, &[], false);
+        let file = OutputFolder::prepare(&case, &[], LeftStaging::Remove);
         assert!(matches!(file, Err(OutputFolderError::Refused(_))), "{file:?}");
         assert!(matches!(
-            OutputFolder::prepare(Path::new("/dev/null"), &[], false),
+            OutputFolder::prepare(Path::new("/dev/null"), &[], LeftStaging::Remove),
             Err(OutputFolderError::Refused(_))
         ));
     }
@@ -377,14 +390,14 @@ mod tests {
     fn a_second_run_on_a_locked_folder_is_refused() {
         let dir = tempfile::tempdir().unwrap();
         let out = dir.path().join("out");
-        let first = OutputFolder::prepare(&out, &[], false).expect("first");
-        let second = OutputFolder::prepare(&out, &[], false);
+        let first = OutputFolder::prepare(&out, &[], LeftStaging::Remove).expect("first");
+        let second = OutputFolder::prepare(&out, &[], LeftStaging::Remove);
         assert!(
             matches!(second, Err(OutputFolderError::Refused(ref m)) if m.contains("another run")),
             "{second:?}"
         );
         drop(first);
-        OutputFolder::prepare(&out, &[], false).expect("free again");
+        OutputFolder::prepare(&out, &[], LeftStaging::Remove).expect("free again");
     }
 
     #[test]

@@ -13,7 +13,7 @@
 //! spacing, more parameter values cannot help: the seeds disagree (`seed_limited`), and the seeds needed are
 //! those that would shrink each undecided value's half-width below its distance from the level.
 
-use super::student_t::t_975;
+use super::student_t::{t_975, ReplicateSummary};
 
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct SearchParams {
@@ -80,17 +80,11 @@ struct Point {
 }
 
 impl Point {
+    /// The seed statistics of `sweep_groups.csv` (one value: no spread, a zero-width interval).
     fn of(o: &Observation, p: &SearchParams) -> Point {
-        let v: Vec<f64> = o.values.iter().copied().filter(|x| !x.is_nan()).collect();
-        let n = v.len();
-        let mean = v.iter().sum::<f64>() / n as f64;
-        let sd = if n > 1 {
-            (v.iter().map(|x| (x - mean).powi(2)).sum::<f64>() / (n - 1) as f64).sqrt()
-        } else {
-            0.0
-        };
-        let half_width = if n > 1 { t_975(n - 1) * sd / (n as f64).sqrt() } else { 0.0 };
-        Point { u: to_u(o.x, p), mean, half_width, sd, n }
+        let s = ReplicateSummary::of(&o.values);
+        let (sd, half_width) = if s.count > 1 { (s.sd, s.ci95_high - s.mean) } else { (0.0, 0.0) };
+        Point { u: to_u(o.x, p), mean: s.mean, half_width, sd, n: s.count }
     }
 
     /// +1 above the level, −1 below, 0 undecided.

@@ -14,7 +14,7 @@ use numkit::{quantile_sorted, sorted_without_nan};
 
 /// The `[sensing]` keys that shape the statistics.
 #[derive(Clone, Copy, Debug, PartialEq)]
-pub struct StatisticsSettings {
+pub struct StatisticsParams {
     /// Direction error at which a cell can no longer tell front from back; default 1.
     pub readable_error: f64,
     /// Slabs along x; default 8.
@@ -23,9 +23,9 @@ pub struct StatisticsSettings {
     pub margin: f64,
 }
 
-impl Default for StatisticsSettings {
+impl Default for StatisticsParams {
     fn default() -> Self {
-        StatisticsSettings { readable_error: 1.0, position_bins: 8, margin: 0.0 }
+        StatisticsParams { readable_error: 1.0, position_bins: 8, margin: 0.0 }
     }
 }
 
@@ -102,19 +102,19 @@ pub fn fails(direction_error: f64, readable_error: f64) -> bool {
 pub fn sensing_statistics(
     cells: &CellValues<'_>,
     x_range: [f64; 2],
-    settings: &StatisticsSettings,
+    params: &StatisticsParams,
 ) -> SensingStatistics {
-    let (low, high) = (x_range[0] + settings.margin, x_range[1] - settings.margin);
+    let (low, high) = (x_range[0] + params.margin, x_range[1] - params.margin);
     let counted: Vec<usize> =
         (0..cells.x.len()).filter(|&i| cells.x[i] >= low && cells.x[i] <= high).collect();
-    let bins = settings.position_bins.max(1);
+    let bins = params.position_bins.max(1);
     let width = (high - low) / bins as f64;
     let mut members: Vec<Vec<usize>> = vec![Vec::new(); bins];
     for &i in &counted {
         let b = if width > 0.0 { ((cells.x[i] - low) / width).floor() as usize } else { 0 };
         members[b.min(bins - 1)].push(i);
     }
-    let readable = settings.readable_error;
+    let readable = params.readable_error;
     let failed_of =
         |ids: &[usize]| ids.iter().filter(|&&i| fails(cells.direction_error[i], readable)).count();
     let fraction = |failed: usize, n: usize| if n == 0 { f64::NAN } else { failed as f64 / n as f64 };
@@ -142,7 +142,7 @@ pub fn sensing_statistics(
     let failed = failed_of(&counted);
     SensingStatistics {
         readable_error: readable,
-        statistics_margin: settings.margin,
+        statistics_margin: params.margin,
         cells_counted: counted.len(),
         cells_left_out: cells.x.len() - counted.len(),
         failed,
@@ -182,16 +182,16 @@ pub fn json_real(value: &serde_json::Value) -> f64 {
 mod tests {
     use super::*;
 
-    fn stats(x: &[f64], e: &[f64], settings: StatisticsSettings) -> SensingStatistics {
+    fn stats(x: &[f64], e: &[f64], params: StatisticsParams) -> SensingStatistics {
         let cells = CellValues { x, direction_error: e, quantities: vec![("a", e)] };
-        sensing_statistics(&cells, [0.0, 100.0], &settings)
+        sensing_statistics(&cells, [0.0, 100.0], &params)
     }
 
     #[test]
     fn infinite_and_nan_errors_fail_and_infinity_is_ordered() {
         let x = [10.0, 20.0, 30.0, 40.0, 60.0];
         let e = [0.5, 1.0, 1.5, f64::INFINITY, f64::NAN];
-        let s = stats(&x, &e, StatisticsSettings { position_bins: 2, ..Default::default() });
+        let s = stats(&x, &e, StatisticsParams { position_bins: 2, ..Default::default() });
         assert_eq!((s.cells_counted, s.failed), (5, 3), "1.0 is still readable; 1.5, ∞ and NaN are not");
         assert_eq!(s.failed_fraction, 0.6);
         // Ordered 0.5 1 1.5 ∞ (NaN left out): median between 1 and 1.5, p90 at ∞.
@@ -210,7 +210,7 @@ mod tests {
     fn margin_leaves_out_cells_near_both_ends_and_slabs_span_the_rest() {
         let x = [5.0, 15.0, 50.0, 85.0, 95.0, 100.0];
         let e = [2.0; 6];
-        let s = stats(&x, &e, StatisticsSettings { position_bins: 4, margin: 10.0, readable_error: 1.0 });
+        let s = stats(&x, &e, StatisticsParams { position_bins: 4, margin: 10.0, readable_error: 1.0 });
         assert_eq!((s.cells_counted, s.cells_left_out), (3, 3));
         assert_eq!(
             s.by_position.iter().map(|b| b.cells).collect::<Vec<_>>(),

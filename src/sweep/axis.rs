@@ -68,6 +68,30 @@ impl AxisValue {
     }
 }
 
+impl AxisValue {
+    /// The value `si` (SI units) written as `self` is: in the same unit (rounded to 12 significant digits),
+    /// or as a bare real number. For values a search chooses between an axis's ends.
+    pub fn at_si(&self, si: f64) -> Result<AxisValue, String> {
+        if self.si == Some(si) {
+            return Ok(self.clone());
+        }
+        match &self.toml {
+            toml::Value::String(s) => {
+                let (_, unit) =
+                    split_number(s).ok_or_else(|| format!("{s:?} does not start with a number"))?;
+                let unit = unit.trim();
+                let factor = if unit.is_empty() {
+                    1.0
+                } else {
+                    parse_unit(unit).map_err(|e| format!("the unit {unit:?} {e}"))?.0
+                };
+                quantity_text(format!("{} {unit}", format_real(round_12(si / factor))).trim())
+            }
+            _ => AxisValue::from_toml(&toml::Value::Float(round_12(si)), None),
+        }
+    }
+}
+
 fn finite(x: f64) -> Result<f64, String> {
     if x.is_finite() {
         Ok(x)
@@ -303,6 +327,16 @@ mod tests {
         let v = AxisValue::from_toml(&toml::Value::String("absorbing".into()), None).unwrap();
         assert_eq!(v.si, None);
         assert!(AxisValue::from_toml(&toml::Value::Integer(3), Some("zorkmid")).is_err());
+    }
+
+    #[test]
+    fn values_at_si_keep_the_unit_written() {
+        let v = AxisValue::from_toml(&toml::Value::String("2 um/s".into()), None).unwrap();
+        let w = v.at_si(3.5e-6).unwrap();
+        assert_eq!((w.text.as_str(), w.si), ("\"3.5 um/s\"", Some(3.5e-6)));
+        assert_eq!(v.at_si(2e-6).unwrap(), v);
+        let v = AxisValue::from_toml(&toml::Value::Float(0.1), None).unwrap();
+        assert_eq!(v.at_si(0.2 + 0.1).unwrap().toml, toml::Value::Float(0.3));
     }
 
     #[test]

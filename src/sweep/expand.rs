@@ -39,6 +39,15 @@ pub struct Plan {
     /// All axes, the replicate axis (if any) last.
     pub axes: Vec<Axis>,
     pub cases: Vec<PlannedCase>,
+    /// The base case as a TOML table, into which each case's values are put.
+    base: toml::Table,
+}
+
+/// `case-<12 hex digits>`: the SHA-256 of the lines `key = value` of a case's axis values.
+pub fn stable_id(axes: &[Axis], values: &[AxisValue]) -> String {
+    let text: String =
+        axes.iter().zip(values).map(|(axis, value)| format!("{} = {}\n", axis.key, value.text)).collect();
+    format!("case-{}", &sha256_hex(text.as_bytes())[..12])
 }
 
 impl Plan {
@@ -70,27 +79,51 @@ impl Plan {
                 })?;
             axes.push(Axis { key: SEED_KEY.into(), scale: Scale::Linear, values, replicate: true });
         }
-        let combinations = combine(&sweep, &axes)?;
-        let width = combinations.len().saturating_sub(1).to_string().len().max(4);
-        let mut cases = Vec::with_capacity(combinations.len());
-        for (index, picks) in combinations.into_iter().enumerate() {
-            let mut table = base.clone();
-            let mut values = Vec::with_capacity(axes.len());
-            for (axis, &pick) in axes.iter().zip(&picks) {
-                let value = axis.values[pick].clone();
-                set_dotted(&mut table, &axis.key, value.toml.clone()).map_err(|message| {
-                    SweepError::Axis { path: sweep.path.clone(), key: axis.key.clone(), message }
-                })?;
-                values.push(value);
-            }
-            let text = toml::to_string(&table).map_err(|e| SweepError::Syntax {
-                path: sweep.path.clone(),
-                message: format!("cannot write case {index} as TOML: {e}"),
-            })?;
-            let sha256 = sha256_hex(text.as_bytes());
-            cases.push(PlannedCase { index, id: format!("case-{index:0width$}"), values, text, sha256 });
+        let mut plan = Plan { sweep, axes, cases: Vec::new(), base };
+        if plan.sweep.find.is_some() {
+            // A search adds its cases round by round (`push_case`).
+            return Ok(plan);
         }
-        Ok(Plan { sweep, axes, cases })
+        let combinations = combine(&plan.sweep, &plan.axes)?;
+        let width = combinations.len().saturating_sub(1).to_string().len().max(4);
+        plan.cases.reserve(combinations.len());
+        for (index, picks) in combinations.into_iter().enumerate() {
+            let values: Vec<AxisValue> =
+                plan.axes.iter().zip(&picks).map(|(axis, &pick)| axis.values[pick].clone()).collect();
+            let case = plan.make_case(index, format!("case-{index:0width$}"), values)?;
+            plan.cases.push(case);
+        }
+        Ok(plan)
+    }
+
+    /// The case with these axis values (in axis order) put into the base case.
+    fn make_case(&self, index: usize, id: String, values: Vec<AxisValue>) -> Result<PlannedCase, SweepError> {
+        let mut table = self.base.clone();
+        for (axis, value) in self.axes.iter().zip(&values) {
+            set_dotted(&mut table, &axis.key, value.toml.clone()).map_err(|message| SweepError::Axis {
+                path: self.sweep.path.clone(),
+                key: axis.key.clone(),
+                message,
+            })?;
+        }
+        let text = toml::to_string(&table).map_err(|e| SweepError::Syntax {
+            path: self.sweep.path.clone(),
+            message: format!("cannot write case {id} as TOML: {e}"),
+        })?;
+        let sha256 = sha256_hex(text.as_bytes());
+        Ok(PlannedCase { index, id, values, text, sha256 })
+    }
+
+    /// Add the case with these axis values (in axis order) unless the plan has it; its index. Its id is derived
+    /// from the values (`case-` and 12 hex digits of their SHA-256), so it never depends on when it was added.
+    pub fn push_case(&mut self, values: Vec<AxisValue>) -> Result<usize, SweepError> {
+        let id = stable_id(&self.axes, &values);
+        if let Some(k) = self.cases.iter().position(|c| c.id == id) {
+            return Ok(k);
+        }
+        let case = self.make_case(self.cases.len(), id, values)?;
+        self.cases.push(case);
+        Ok(self.cases.len() - 1)
     }
 
     /// Validate the base case alone (so that its own mistakes are reported as such, not as an axis's).
@@ -160,7 +193,7 @@ fn seed_of(base: &toml::Table) -> Result<u64, String> {
 }
 
 /// The value index of every axis for every case: product (first axis slowest) or zip, replicates innermost.
-fn combine(sweep: &SweepFile, axes: &[Axis]) -> Result<Vec<Vec<usize>>, SweepError> {
+pub fn combine(sweep: &SweepFile, axes: &[Axis]) -> Result<Vec<Vec<usize>>, SweepError> {
     let points: Vec<&Axis> = axes.iter().filter(|a| !a.replicate).collect();
     let mut combos: Vec<Vec<usize>> = vec![Vec::new()];
     match sweep.combine {

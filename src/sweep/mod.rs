@@ -8,9 +8,13 @@
 pub mod aggregate;
 pub mod axis;
 pub mod collect;
+pub mod crossing_figure;
+pub mod crossing_rounds;
+pub mod crossing_table;
 pub mod done_marker;
 pub mod error;
 pub mod expand;
+pub mod find_table;
 /// The sweep folder's lock (shared with the output folder of `run`).
 pub use crate::io::folder_lock as lock;
 pub mod memory_reuse;

@@ -88,7 +88,7 @@ pub struct RunSummary {
 
 /// The indices of `plan`'s cases that are not done in `dir` (failed ones included: they are retried).
 pub fn cases_to_run(plan: &Plan, dir: &Path) -> Vec<usize> {
-    cases_not_done(plan, dir, false)
+    cases_not_done(plan, dir, Markers::AsFound)
 }
 
 /// [`cases_to_run`], for a sweep that holds `DIR/sweep.lock`: also settles each done case whose marker came
@@ -96,16 +96,25 @@ pub fn cases_to_run(plan: &Plan, dir: &Path) -> Vec<usize> {
 /// [`mark_outputs_durable`](super::done_marker::mark_outputs_durable), so that later runs check sizes only.
 /// Best effort: a case that cannot be settled is simply checked again next time.
 pub fn cases_to_run_settling_markers(plan: &Plan, dir: &Path) -> Vec<usize> {
-    cases_not_done(plan, dir, true)
+    cases_not_done(plan, dir, Markers::Settle)
 }
 
-fn cases_not_done(plan: &Plan, dir: &Path, settle: bool) -> Vec<usize> {
+/// What [`cases_not_done`] does with the done markers it accepts.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+enum Markers {
+    /// Leave them as they are.
+    AsFound,
+    /// Sync the outputs of a marker from another boot and rewrite it without the boot id.
+    Settle,
+}
+
+fn cases_not_done(plan: &Plan, dir: &Path, markers: Markers) -> Vec<usize> {
     (0..plan.cases.len())
         .filter(|&i| {
             let case_dir = plan.case_dir(dir, i);
             match case_state(&case_dir, &plan.cases[i].sha256) {
                 CaseState::Done(marker) => {
-                    if settle && from_another_boot(&marker) {
+                    if markers == Markers::Settle && from_another_boot(&marker) {
                         let _ = mark_outputs_durable(&case_dir, &marker);
                     }
                     false
@@ -251,7 +260,7 @@ pub fn run_case(
                 one_line(&anyhow::Error::new(SolverFailure { message: e.to_string() })),
             )
         })?;
-        let warnings = solution_warnings(&solved);
+        let warnings = solution_warnings(&case, &solved);
         write(&mut || {
             write_outputs(&case, &solved, &warnings, &case_dir, &mut meter)
                 .map_err(|e| failure(plan, index, "io", one_line(&e)))

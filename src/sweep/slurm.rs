@@ -236,6 +236,22 @@ pub fn write_scripts(
     params: &SlurmParams,
     job_name: &str,
 ) -> std::io::Result<SlurmScripts> {
+    write_scripts_then(dir, sweep_file, exe, tasks, largest, params, job_name, "collect .")
+}
+
+/// [`write_scripts`] with the job after the array running `plumefield <after>` (in the sweep folder;
+/// `{sweep}` stands for the sweep file) instead of `plumefield collect .`.
+#[allow(clippy::too_many_arguments)]
+pub fn write_scripts_then(
+    dir: &Path,
+    sweep_file: &Path,
+    exe: &Path,
+    tasks: &[usize],
+    largest: &Forecast,
+    params: &SlurmParams,
+    job_name: &str,
+    after: &str,
+) -> std::io::Result<SlurmScripts> {
     let slurm_dir = dir.join(SLURM_DIR);
     std::fs::create_dir_all(slurm_dir.join("logs"))?;
     let q = |p: &Path| shell_quote(&p.display().to_string());
@@ -334,24 +350,46 @@ pub fn write_scripts(
          {partition}\
          set -eu\n\
          {setup}\
-         exec {exe} collect .\n",
+         exec {exe} {after}\n",
         log = directive_path(&logs.join("collect-%j.log")),
         exe = exe_text,
+        after = after.replace("{sweep}", &q(&sweep_relative)),
     );
     write_atomic(&collect_script, collect.as_bytes())?;
 
     let submit_script = slurm_dir.join("submit.sh");
     write_atomic(
         &submit_script,
-        submit_text(&array_scripts, &collect_script, params.max_running.is_some()).as_bytes(),
+        submit_text(&array_scripts, &collect_script, ArrayOrder::for_max_running(params.max_running))
+            .as_bytes(),
     )?;
     set_executable(&submit_script)?;
 
     Ok(SlurmScripts { chunks, array_scripts, collect_script, submit_script, mem_mb, time_s })
 }
 
-/// `submit.sh`: the array jobs (each after the previous one when `chained`), then the collect job after all.
-fn submit_text(array_scripts: &[PathBuf], collect_script: &Path, chained: bool) -> String {
+/// When the array jobs of one sweep may start.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum ArrayOrder {
+    /// All at once.
+    Together,
+    /// Each after the previous one (so `--max-running` holds across them).
+    Chained,
+}
+
+impl ArrayOrder {
+    /// A limit on running tasks must hold across the arrays of a split sweep, so they run one after another.
+    pub fn for_max_running(max_running: Option<usize>) -> Self {
+        if max_running.is_some() {
+            ArrayOrder::Chained
+        } else {
+            ArrayOrder::Together
+        }
+    }
+}
+
+/// `submit.sh`: the array jobs (in `order`), then the collect job after all.
+fn submit_text(array_scripts: &[PathBuf], collect_script: &Path, order: ArrayOrder) -> String {
     // Relative to the sweep folder, where the script changes to.
     let q = |p: &Path| {
         let relative = p.parent().and_then(Path::parent).map_or(p, |dir| p.strip_prefix(dir).unwrap_or(p));
@@ -367,7 +405,9 @@ fn submit_text(array_scripts: &[PathBuf], collect_script: &Path, chained: bool) 
     let mut ids = Vec::new();
     for (k, script) in array_scripts.iter().enumerate() {
         let after = match ids.last() {
-            Some(previous) if chained => format!(" --dependency=afterany:\"${previous}\""),
+            Some(previous) if order == ArrayOrder::Chained => {
+                format!(" --dependency=afterany:\"${previous}\"")
+            }
             _ => String::new(),
         };
         let id = format!("a{}", k + 1);
@@ -415,11 +455,13 @@ pub enum SubmitError {
 
 /// Submit the array jobs (each after the previous one with `--max-running`), then the collect job with
 /// `--dependency=afterany:<every array job>`.
-pub fn submit(scripts: &SlurmScripts, chained: bool) -> Result<Submitted, SubmitError> {
+pub fn submit(scripts: &SlurmScripts, order: ArrayOrder) -> Result<Submitted, SubmitError> {
     let mut array_jobs: Vec<String> = Vec::new();
     for script in &scripts.array_scripts {
         let after = match array_jobs.last() {
-            Some(previous) if chained => vec![format!("--dependency=afterany:{previous}")],
+            Some(previous) if order == ArrayOrder::Chained => {
+                vec![format!("--dependency=afterany:{previous}")]
+            }
             _ => Vec::new(),
         };
         array_jobs.push(sbatch(&after, script)?);

@@ -25,6 +25,7 @@ use serde::Deserialize;
 
 use super::axis::{range_values, AxisValue, Scale};
 use super::error::SweepError;
+use super::find_table::{FindSpec, RawFind};
 use crate::case::bounded_read::{read_bounded, TEXT_INPUT_LIMIT};
 use crate::case::units::parse_unit;
 
@@ -65,6 +66,8 @@ pub struct SweepFile {
     pub seeds: Option<u64>,
     /// The axes in file order (without the replicate axis, which `expand` adds).
     pub axes: Vec<Axis>,
+    /// `[find]`: search one axis for a crossing instead of running all its values.
+    pub find: Option<FindSpec>,
 }
 
 #[derive(Deserialize)]
@@ -76,6 +79,7 @@ struct RawSweep {
     seeds: Option<i64>,
     #[serde(default)]
     axis: Vec<RawAxis>,
+    find: Option<RawFind>,
 }
 
 #[derive(Deserialize)]
@@ -135,10 +139,12 @@ impl SweepFile {
             Some(n) if n >= 1 => Some(n as u64),
             Some(n) => return Err(invalid("seeds", format!("seeds = {n} must be at least 1"))),
         };
+        let searched = raw.find.as_ref().map(|f| f.axis.trim().to_string());
         let mut axes = Vec::with_capacity(raw.axis.len());
         for raw_axis in raw.axis {
             let key = raw_axis.key.clone();
-            let axis = build_axis(raw_axis).map_err(|message| SweepError::Axis {
+            let is_searched = searched.as_deref() == Some(raw_axis.key.trim());
+            let axis = build_axis(raw_axis, is_searched).map_err(|message| SweepError::Axis {
                 path: path.to_path_buf(),
                 key: key.clone(),
                 message,
@@ -158,7 +164,21 @@ impl SweepFile {
                 "seeds = N and an axis on cells.layout.seed cannot both be given".into(),
             ));
         }
+        let find = match raw.find {
+            None => None,
+            Some(raw_find) => {
+                if axes.iter().any(|a| a.key == super::expand::SEED_KEY) {
+                    return Err(invalid(
+                        "find",
+                        "a search takes its replicates from seeds = N, not from an axis on cells.layout.seed"
+                            .into(),
+                    ));
+                }
+                Some(FindSpec::check(raw_find, &axes).map_err(|(key, message)| invalid(&key, message))?)
+            }
+        };
         Ok(SweepFile {
+            find,
             path: path.to_path_buf(),
             base_path,
             base_text,
@@ -176,7 +196,8 @@ fn read_text(path: &Path, what: &'static str) -> std::io::Result<String> {
     String::from_utf8(bytes).map_err(|_| std::io::Error::other("the file is not UTF-8 text"))
 }
 
-fn build_axis(raw: RawAxis) -> Result<Axis, String> {
+/// `searched`: the axis of `[find]`, whose `from` and `to` need no `count` (they only bracket the search).
+fn build_axis(raw: RawAxis, searched: bool) -> Result<Axis, String> {
     let key = raw.key.trim().to_string();
     if key.is_empty() || key.split('.').any(str::is_empty) {
         return Err("is not a dotted case key such as flow.mean_velocity".into());
@@ -205,6 +226,7 @@ fn build_axis(raw: RawAxis) -> Result<Axis, String> {
             values
         }
         (None, Some(from), Some(to), Some(count)) => range_values(&from, &to, count, scale, unit)?,
+        (None, Some(from), Some(to), None) if searched => range_values(&from, &to, 2, scale, unit)?,
         (Some(_), ..) => return Err("give either values = [...] or from, to and count, not both".into()),
         (None, ..) => return Err("needs values = [...] or a range with from, to and count".into()),
     };

@@ -4,16 +4,16 @@
 //!   flow and transport times, flow iterations, and the peak resident memory of each stage (Linux `VmHWM`,
 //!   reset between stages).
 //! - `brinkman-stages iterations SIZE,SIZE,…`: outer iterations of a sphere (a = 0.2) in a periodic unit box per
-//!   grid size and α = a/√K; `PF_PROLONG=tri`, `PF_CYCLE=W`, `PF_SMOOTH=N` change the multigrid settings.
+//!   grid size and α = a/√K; `PF_PROLONG=tri`, `PF_CYCLE=W`, `PF_SMOOTH=N` change the multigrid parameters.
 //!
 //! `cargo run --release -p plumefield-bench --bin brinkman-stages -- stages 128`
 
 use mesh::{random_sequential_addition, ChamberBox, EmbeddedGeometry, Grid, RandomLayout, RandomTarget};
 use numkit::meter;
 use solver::embedded::FacetStencils;
-use solver::flow::brinkman::{solve_brinkman, BrinkmanMedium, BrinkmanSettings};
+use solver::flow::brinkman::{solve_brinkman, BrinkmanMedium, BrinkmanParams};
 use solver::problem::{ChamberBoundaries, ChamberFace, LigandParameters, SurfaceUptake};
-use solver::transport::{solve_steady, TransportProblem, TransportSettings};
+use solver::transport::{solve_steady, TransportParams, TransportProblem};
 use std::time::Instant;
 
 /// Peak resident set (bytes) since the last reset; 0 where /proc is missing.
@@ -42,11 +42,10 @@ fn stages(size: usize) {
     let geometry = EmbeddedGeometry::build(&grid, &layout, [false; 3]);
     let stencils = FacetStencils::build(&geometry);
     let after_geometry = peak_rss();
-    let settings = BrinkmanSettings::default();
+    let params = BrinkmanParams::default();
     meter::reset_peak_resident();
     let t = Instant::now();
-    let flow =
-        solve_brinkman(&geometry, &layout, &boundaries, &medium, 1e-6, &settings).expect("flow solves");
+    let flow = solve_brinkman(&geometry, &layout, &boundaries, &medium, 1e-6, &params).expect("flow solves");
     let t_flow = t.elapsed().as_secs_f64();
     let flow_peak = peak_rss();
     let ligand = LigandParameters {
@@ -66,7 +65,7 @@ fn stages(size: usize) {
     };
     meter::reset_peak_resident();
     let t = Instant::now();
-    let transport = solve_steady(&problem, &TransportSettings::default()).expect("transport solves");
+    let transport = solve_steady(&problem, &TransportParams::default()).expect("transport solves");
     let t_transport = t.elapsed().as_secs_f64();
     let transport_peak = peak_rss();
     let cells = grid.len() as f64;
@@ -78,7 +77,8 @@ fn stages(size: usize) {
         flow.field.max_divergence,
         flow.memory_bytes as f64 / cells
     );
-    println!("flow stages (assembly, iterations, post) {:.2?} s", flow.stage_seconds);
+    let s = flow.stage_seconds;
+    println!("flow stages (assembly, iterations, post) {:.2?} s", [s.assembly, s.iterations, s.post]);
     println!("transport {t_transport:.2} s, {} iterations", transport.iterations);
     println!("flow/transport {:.1}", t_flow / t_transport);
     println!(
@@ -93,7 +93,7 @@ fn stages(size: usize) {
 }
 
 /// Outer iterations of a sphere (a = 0.2) in a periodic unit box, per grid size and α = a/√K.
-fn sphere_iterations(n: usize, alpha: f64, settings: &BrinkmanSettings) -> (usize, f64) {
+fn sphere_iterations(n: usize, alpha: f64, params: &BrinkmanParams) -> (usize, f64) {
     use mesh::{Cell, Layout};
     let grid = Grid::new([0.0; 3], 1.0 / n as f64, [n, n, n]);
     let radius = 0.2;
@@ -103,27 +103,27 @@ fn sphere_iterations(n: usize, alpha: f64, settings: &BrinkmanSettings) -> (usiz
     let medium = BrinkmanMedium { viscosity: 1.0, effective_viscosity: 1.0, permeability: Some(k) };
     let geometry = EmbeddedGeometry::build(&grid, &layout, boundaries.periodic_axes());
     let t = Instant::now();
-    let sol = solve_brinkman(&geometry, &layout, &boundaries, &medium, 1.0, settings).expect("solves");
+    let sol = solve_brinkman(&geometry, &layout, &boundaries, &medium, 1.0, params).expect("solves");
     (sol.field.iterations, t.elapsed().as_secs_f64())
 }
 
 fn iteration_study(sizes: Vec<usize>) {
     use solver::linalg::{Cycle, Prolongation};
-    let mut settings = BrinkmanSettings::default();
+    let mut params = BrinkmanParams::default();
     let var = |k: &str| std::env::var(k).unwrap_or_default();
     if var("PF_PROLONG") == "tri" {
-        settings.multigrid.prolongation = Prolongation::Trilinear;
+        params.multigrid.prolongation = Prolongation::Trilinear;
     }
     if var("PF_CYCLE") == "W" {
-        settings.multigrid.cycle = Cycle::W;
+        params.multigrid.cycle = Cycle::W;
     }
     if let Ok(s) = var("PF_SMOOTH").parse::<usize>() {
-        settings.multigrid.pre_smoothing = s;
-        settings.multigrid.post_smoothing = s;
+        params.multigrid.pre_smoothing = s;
+        params.multigrid.post_smoothing = s;
     }
     for n in sizes {
         for alpha in [0.3, 1.0, 3.0, 10.0, 30.0] {
-            let (it, t) = sphere_iterations(n, alpha, &settings);
+            let (it, t) = sphere_iterations(n, alpha, &params);
             println!("n {n} alpha {alpha}: {it} iterations, {t:.2} s");
         }
     }

@@ -31,9 +31,9 @@ use solver::solve_case::solve_flow;
 use solver::solve_transient::integrate::{outlet_concentration, sensed_rates};
 use solver::solve_transient::{
     initial_state, integrate, solve_transient_case, FlowPhase, SteadyReference, StepReport, TimeStepping,
-    TransientCase, TransientObserver, TransientOutput, TransientProblem, TransientSettings, TransientState,
+    TransientCase, TransientObserver, TransientOutput, TransientParams, TransientProblem, TransientState,
 };
-use solver::transport::{assemble_transport, solve_steady, TransportProblem, TransportSettings};
+use solver::transport::{assemble_transport, solve_steady, TransportParams, TransportProblem};
 use std::path::{Path, PathBuf};
 use std::time::Instant;
 
@@ -43,7 +43,7 @@ use std::time::Instant;
     about = "Cost of a transient time step against a steady solve"
 )]
 struct Cli {
-    /// Benchmark case (a Darcy case; its steady settings and tolerance are used).
+    /// Benchmark case (a Darcy case; its steady parameters and tolerance are used).
     #[arg(long, default_value = "cases/bench128.toml")]
     case: PathBuf,
     /// Re-grid the same chamber (and the same cells) to N grid cells along its longest axis.
@@ -216,7 +216,7 @@ fn run(cli: &Cli) -> Result<()> {
         face_flux: &flow.face_flux,
         far_field_speed: case.flow.mean_velocity,
     };
-    let settings = TransportSettings { krylov: krylov.clone(), multigrid: multigrid.clone() };
+    let params = TransportParams { krylov: krylov.clone(), multigrid: multigrid.clone() };
     // The steady path as `run` takes it (assembly, setup, solve), `--steady-reps` times (median), then its
     // parts once more for the split.
     let mut steady = None;
@@ -224,7 +224,7 @@ fn run(cli: &Cli) -> Result<()> {
     for _ in 0..cli.steady_reps.max(1) {
         drop(steady.take());
         let (t, cpu) = (Instant::now(), cpu_seconds());
-        steady = Some(solve_steady(&transport, &settings)?);
+        steady = Some(solve_steady(&transport, &params)?);
         repeats.push(Timing { wall: t.elapsed().as_secs_f64(), cpu: cpu_seconds() - cpu });
     }
     let Some(steady) = steady else { bail!("no steady solve ran") };
@@ -293,7 +293,7 @@ fn run(cli: &Cli) -> Result<()> {
     let steady_iterations = steady.iterations;
     drop(steady);
     let end_time = cli.step * cli.max_steps as f64;
-    let run_settings = TransientSettings {
+    let run_params = TransientParams {
         start_time: 0.0,
         end_time,
         stepping: TimeStepping::Fixed { step: cli.step },
@@ -305,7 +305,7 @@ fn run(cli: &Cli) -> Result<()> {
         stop_at_steady: Some(STEADY_DISTANCE),
         switched_on_far_field: true,
     };
-    let state = initial_state(&problem, &run_settings, vec![0.0; n]);
+    let state = initial_state(&problem, &run_params, vec![0.0; n]);
     let mut clock = StepClock {
         list: cli.list_steps,
         last: Instant::now(),
@@ -317,7 +317,7 @@ fn run(cli: &Cli) -> Result<()> {
         worst_balance: 0.0,
     };
     let t = Instant::now();
-    let state = integrate(&problem, &run_settings, state, &mut clock)?;
+    let state = integrate(&problem, &run_params, state, &mut clock)?;
     let loop_s = t.elapsed().as_secs_f64();
     let steps = clock.seconds.len();
     if steps < 2 {
@@ -422,7 +422,7 @@ impl Timing {
 fn demo(cli: &Cli) -> Result<()> {
     let case = Case::load(&cli.demo)?;
     let end_time = 24.0 * 3600.0;
-    let settings = TransientSettings {
+    let params = TransientParams {
         start_time: 0.0,
         end_time,
         stepping: TimeStepping::Adaptive {
@@ -445,7 +445,7 @@ fn demo(cli: &Cli) -> Result<()> {
         steady: steady_case(&case),
         flow_changes: Vec::new(),
         secretion_start: vec![0.0; case.layout.cells.len()],
-        settings,
+        params,
     };
     println!();
     println!(
@@ -471,7 +471,8 @@ fn demo(cli: &Cli) -> Result<()> {
     let t = Instant::now();
     let solution = solve_transient_case(&transient, None, None, &mut clock, &mut |_| {})?;
     let total = t.elapsed().as_secs_f64();
-    let [geometry, flow, steady, time_loop] = solution.timing;
+    let solver::solve_transient::TransientTiming { geometry, flow, steady_reference: steady, time_loop } =
+        solution.timing;
     let state = &solution.state;
     println!(
         "  {} at t = {:.0} s: {} steps ({} rejected), {} Krylov iterations, worst balance error {:.1e}",

@@ -25,7 +25,7 @@ pub use random::{
     RANDOM_CLOSE_PACKING,
 };
 pub use region::PlacementRegion;
-pub use resolution::ResolutionWarning;
+pub use resolution::CellResolutionWarning;
 pub use statistics::{ClosePairs, LayoutStatistics};
 
 /// One biological cell: an impermeable sphere that secretes ligand uniformly from its surface.

@@ -14,7 +14,7 @@ pub const FACET_AREA_ERROR_CONSTANT: f64 = 0.09;
 
 /// A cell resolved by fewer than [`WARN_RADIUS_IN_SPACINGS`] grid spacings.
 #[derive(Clone, Debug, PartialEq)]
-pub struct ResolutionWarning {
+pub struct CellResolutionWarning {
     pub id: usize,
     pub radius_in_spacings: f64,
     /// Expected relative error of the cell's total surface area, `C (h/a)²`.
@@ -24,7 +24,7 @@ pub struct ResolutionWarning {
 impl Layout {
     /// Check the cells against grid spacing `spacing` (m): `TooCoarse` for the first cell with radius below
     /// 2.5 spacings, otherwise a warning for each cell below 4 spacings.
-    pub fn check_resolution(&self, spacing: f64) -> Result<Vec<ResolutionWarning>, LayoutError> {
+    pub fn check_resolution(&self, spacing: f64) -> Result<Vec<CellResolutionWarning>, LayoutError> {
         if !(spacing.is_finite() && spacing > 0.0) {
             return Err(LayoutError::Invalid { what: format!("grid spacing {spacing} m must be positive") });
         }
@@ -35,7 +35,7 @@ impl Layout {
                 return Err(LayoutError::TooCoarse { id: cell.id, radius: cell.radius, spacing });
             }
             if ratio < WARN_RADIUS_IN_SPACINGS {
-                warnings.push(ResolutionWarning {
+                warnings.push(CellResolutionWarning {
                     id: cell.id,
                     radius_in_spacings: ratio,
                     expected_surface_error: FACET_AREA_ERROR_CONSTANT / (ratio * ratio),

@@ -4,19 +4,19 @@
 
 use super::integrate::{initial_state, integrate, outlet_concentration, sensed_rates};
 use super::{
-    FlowPhase, SteadyReference, TransientError, TransientObserver, TransientProblem, TransientSettings,
+    FlowPhase, SteadyReference, TransientError, TransientObserver, TransientParams, TransientProblem,
     TransientState,
 };
 use crate::embedded::FacetStencils;
 use crate::flow::FlowField;
 use crate::post::{cell_sensing, SensingModel};
 use crate::solve_case::{solve_flow, CaseSolveError, Stage, SteadyCase};
-use crate::transport::{solve_steady, TransportProblem, TransportSettings};
+use crate::transport::{solve_steady, TransportParams, TransportProblem};
 use mesh::EmbeddedGeometry;
 use std::time::Instant;
 
 /// A transient case: the steady case (its `flow.mean_velocity` holds from the start), flow changes, per-cell
-/// secretion starts and the time-loop settings.
+/// secretion starts and the time-loop parameters.
 pub struct TransientCase<'a> {
     pub steady: SteadyCase<'a>,
     /// `(time, new mean velocity)` (s, m/s), sorted by time.
@@ -24,7 +24,7 @@ pub struct TransientCase<'a> {
     /// Per cell (s).
     pub secretion_start: Vec<f64>,
     /// `steady` and `switched_on_far_field` are filled in here.
-    pub settings: TransientSettings,
+    pub params: TransientParams,
 }
 
 /// What a transient case produced.
@@ -36,9 +36,18 @@ pub struct TransientSolution {
     /// Mass-balance relative error of the steady reference solve.
     pub steady_balance_error: f64,
     pub state: TransientState,
-    pub settings: TransientSettings,
-    /// Seconds in geometry, flow, steady reference, time loop.
-    pub timing: [f64; 4],
+    pub params: TransientParams,
+    pub timing: TransientTiming,
+}
+
+/// Wall-clock seconds of the stages of one transient case.
+#[derive(Clone, Copy, Debug, Default, PartialEq)]
+pub struct TransientTiming {
+    pub geometry: f64,
+    /// Every flow phase together.
+    pub flow: f64,
+    pub steady_reference: f64,
+    pub time_loop: f64,
 }
 
 /// Solves `case` from `initial` (a field, or zero when `None`), or continues `resume`.
@@ -58,7 +67,7 @@ pub fn solve_transient_case(
 
     on_stage(Stage::Flow);
     let t1 = Instant::now();
-    let mut speeds = vec![(case.settings.start_time.min(0.0), s.flow.mean_velocity)];
+    let mut speeds = vec![(case.params.start_time.min(0.0), s.flow.mean_velocity)];
     speeds.extend(case.flow_changes.iter().copied());
     let mut flows = Vec::new();
     for &(_, speed) in &speeds {
@@ -105,8 +114,8 @@ pub fn solve_transient_case(
         face_flux: last.face_flux,
         far_field_speed: last.mean_velocity,
     };
-    let settings = TransportSettings { krylov: s.krylov.clone(), ..TransportSettings::default() };
-    let steady = solve_steady(&steady_problem, &settings).map_err(CaseSolveError::from)?;
+    let params = TransportParams { krylov: s.krylov.clone(), ..TransportParams::default() };
+    let steady = solve_steady(&steady_problem, &params).map_err(CaseSolveError::from)?;
     let steady_sensing = cell_sensing(
         &geometry,
         s.layout,
@@ -127,17 +136,17 @@ pub fn solve_transient_case(
 
     on_stage(Stage::TimeLoop);
     let t3 = Instant::now();
-    let mut run_settings = case.settings.clone();
-    run_settings.steady = Some(reference.clone());
-    run_settings.switched_on_far_field = initial.is_none();
+    let mut run_params = case.params.clone();
+    run_params.steady = Some(reference.clone());
+    run_params.switched_on_far_field = initial.is_none();
     let state = match resume {
         Some(state) => state,
         None => {
             let field = initial.unwrap_or_else(|| vec![0.0; s.grid.len()]);
-            initial_state(&problem, &run_settings, field)
+            initial_state(&problem, &run_params, field)
         }
     };
-    let state = integrate(&problem, &run_settings, state, observer)?;
+    let state = integrate(&problem, &run_params, state, observer)?;
     let t_loop = t3.elapsed().as_secs_f64();
     drop(problem);
     Ok(TransientSolution {
@@ -146,7 +155,12 @@ pub fn solve_transient_case(
         steady: reference,
         steady_balance_error,
         state,
-        settings: run_settings,
-        timing: [t_geometry, t_flow, t_steady, t_loop],
+        params: run_params,
+        timing: TransientTiming {
+            geometry: t_geometry,
+            flow: t_flow,
+            steady_reference: t_steady,
+            time_loop: t_loop,
+        },
     })
 }

@@ -3,8 +3,8 @@
 
 use super::state::{Crossings, TransientState};
 use super::{
-    FlowPhase, StepReport, TimeStepping, TransientError, TransientObserver, TransientOutput,
-    TransientProblem, TransientSettings,
+    FlowPhase, StepReport, TimeStepping, TransientError, TransientObserver, TransientOutput, TransientParams,
+    TransientProblem,
 };
 use crate::post::sensing_window::{cell_rates, WindowCounts};
 use crate::post::{cell_sensing_in_local_flow, local_flow_per_cell, CellSensing};
@@ -38,7 +38,7 @@ struct PhaseSystem<'a> {
 }
 
 impl<'a> PhaseSystem<'a> {
-    fn build(problem: &TransientProblem<'a>, phase: FlowPhase<'a>, settings: &TransientSettings) -> Self {
+    fn build(problem: &TransientProblem<'a>, phase: FlowPhase<'a>, params: &TransientParams) -> Self {
         let mut without_far_field = problem.boundaries;
         for faces in without_far_field.faces.iter_mut() {
             for face in faces.iter_mut() {
@@ -75,7 +75,7 @@ impl<'a> PhaseSystem<'a> {
         }
         let steady_far_field: Vec<(usize, f64)> = far_field.coefficients(None).collect();
         let solver =
-            StepSolver::new(assembly.system, fluid_volume, steady_far_field, settings.multigrid.clone());
+            StepSolver::new(assembly.system, fluid_volume, steady_far_field, params.multigrid.clone());
         PhaseSystem {
             phase,
             solver,
@@ -130,16 +130,16 @@ pub fn outlet_concentration(problem: &TransientProblem, face_flux: &[Vec<f64>; 3
 /// The initial state of a run starting at `start_time` from `initial` (one value per grid cell).
 pub fn initial_state(
     problem: &TransientProblem,
-    settings: &TransientSettings,
+    params: &TransientParams,
     initial: Vec<f64>,
 ) -> TransientState {
     let cells = problem.layout.cells.len();
-    let first_step = match settings.stepping {
+    let first_step = match params.stepping {
         TimeStepping::Fixed { step } => step,
         TimeStepping::Adaptive { initial_step, .. } => initial_step,
     };
     TransientState {
-        time: settings.start_time,
+        time: params.start_time,
         steps: 0,
         rejected_steps: 0,
         krylov_iterations: 0,
@@ -167,19 +167,19 @@ struct Marks {
 }
 
 impl Marks {
-    fn plan(problem: &TransientProblem, settings: &TransientSettings) -> Self {
+    fn plan(problem: &TransientProblem, params: &TransientParams) -> Self {
         let mut restarts: Vec<f64> = problem.secretion_start.to_vec();
         restarts.extend(problem.phases.iter().skip(1).map(|p| p.start));
         let mut ends: Vec<f64> = restarts.clone();
-        ends.extend(settings.output_times.iter().copied());
-        ends.push(settings.window_start);
-        ends.push(settings.end_time);
-        ends.retain(|&t| t > settings.start_time && t <= settings.end_time);
+        ends.extend(params.output_times.iter().copied());
+        ends.push(params.window_start);
+        ends.push(params.end_time);
+        ends.retain(|&t| t > params.start_time && t <= params.end_time);
         ends.sort_by(f64::total_cmp);
         ends.dedup();
         let last_event =
-            restarts.iter().copied().filter(|&t| t <= settings.end_time).fold(settings.start_time, f64::max);
-        let eps = 1e-9 * (settings.end_time - settings.start_time).abs().max(f64::MIN_POSITIVE);
+            restarts.iter().copied().filter(|&t| t <= params.end_time).fold(params.start_time, f64::max);
+        let eps = 1e-9 * (params.end_time - params.start_time).abs().max(f64::MIN_POSITIVE);
         Marks { ends, restarts, last_event, eps }
     }
 
@@ -236,7 +236,7 @@ enum StepControl {
 /// page faults).
 struct Stepper<'a, 'p> {
     problem: &'p TransientProblem<'a>,
-    settings: &'p TransientSettings,
+    params: &'p TransientParams,
     phase_index: usize,
     system: PhaseSystem<'a>,
     on: Vec<bool>,
@@ -248,11 +248,11 @@ struct Stepper<'a, 'p> {
     stored: StoredAmounts,
 }
 
-/// Integrates from `state` to `settings.end_time` (or to steady state), telling `observer` about every
+/// Integrates from `state` to `params.end_time` (or to steady state), telling `observer` about every
 /// accepted step and output time.
 pub fn integrate(
     problem: &TransientProblem,
-    settings: &TransientSettings,
+    params: &TransientParams,
     mut state: TransientState,
     observer: &mut dyn TransientObserver,
 ) -> Result<TransientState, TransientError> {
@@ -260,18 +260,18 @@ pub fn integrate(
     if state.concentration.len() != n {
         return Err(TransientError::InitialLength { found: state.concentration.len(), expected: n });
     }
-    let marks = Marks::plan(problem, settings);
-    let mut stepper = Stepper::start(problem, settings, &mut state);
+    let marks = Marks::plan(problem, params);
+    let mut stepper = Stepper::start(problem, params, &mut state);
     let eps = marks.eps;
-    let adaptive = matches!(settings.stepping, TimeStepping::Adaptive { .. });
-    while state.time < settings.end_time - eps && !state.stopped_at_steady {
+    let adaptive = matches!(params.stepping, TimeStepping::Adaptive { .. });
+    while state.time < params.end_time - eps && !state.stopped_at_steady {
         let t = state.time;
-        let next_mark = marks.next_after(t, settings.end_time);
+        let next_mark = marks.next_after(t, params.end_time);
         let mut dt = state.next_step;
         loop {
             let t_new = marks.step_end(t, dt, next_mark, adaptive)?;
             let step = stepper.advance(&state, t_new)?;
-            match control_step(settings, &mut state, &step) {
+            match control_step(params, &mut state, &step) {
                 StepControl::Accept { factor } => {
                     stepper.accept(&mut state, step, factor, &marks, observer)?;
                     break;
@@ -290,7 +290,7 @@ impl<'a, 'p> Stepper<'a, 'p> {
     /// The system of the phase in force just after the state's time, and the sensed rates at that time.
     fn start(
         problem: &'p TransientProblem<'a>,
-        settings: &'p TransientSettings,
+        params: &'p TransientParams,
         state: &mut TransientState,
     ) -> Self {
         let cells = problem.layout.cells.len();
@@ -302,13 +302,13 @@ impl<'a, 'p> Stepper<'a, 'p> {
         let cell_geometry =
             CellGeometry { radius: problem.layout.cells.iter().map(|c| c.radius).collect(), area };
         let phase_index = phase_at(problem, state.time);
-        let system = PhaseSystem::build(problem, problem.phases[phase_index], settings);
+        let system = PhaseSystem::build(problem, problem.phases[phase_index], params);
         let on = cells_on(&problem.secretion_start, state.time);
         let facets_now = switched_exchanges(geometry, &system.facets, &on);
         let n = geometry.grid.len();
         let stepper = Stepper {
             problem,
-            settings,
+            params,
             phase_index,
             system,
             on,
@@ -346,7 +346,7 @@ impl<'a, 'p> Stepper<'a, 'p> {
         let new_phase = phase_at(problem, t_new - 0.5 * h);
         if new_phase != self.phase_index {
             self.phase_index = new_phase;
-            self.system = PhaseSystem::build(problem, problem.phases[new_phase], self.settings);
+            self.system = PhaseSystem::build(problem, problem.phases[new_phase], self.params);
             self.base_products.clear(&mut self.spare);
             self.facets_now = switched_exchanges(geometry, &self.system.facets, &self.on);
         }
@@ -360,7 +360,7 @@ impl<'a, 'p> Stepper<'a, 'p> {
     /// Solves the step from `state.time` to `t_new`: BDF order and coefficients, the step's operator and
     /// right-hand side, the projected guess, the solve.
     fn advance(&mut self, state: &TransientState, t_new: f64) -> Result<SolvedStep, TransientError> {
-        let (problem, settings) = (self.problem, self.settings);
+        let (problem, params) = (self.problem, self.params);
         let t = state.time;
         let h = t_new - t;
         self.switch_to(t_new, h);
@@ -372,7 +372,7 @@ impl<'a, 'p> Stepper<'a, 'p> {
         let history_c1 = previous_step.and(state.previous.first().map(|(_, c)| c.as_slice()));
         let sigma = alpha[0] / h;
 
-        let time = settings.switched_on_far_field.then_some(t_new);
+        let time = params.switched_on_far_field.then_some(t_new);
         let far_field: Vec<(usize, f64)> = self.system.far_field.coefficients(time).collect();
         self.system.solver.set_step(sigma, far_field.iter().copied());
 
@@ -391,7 +391,7 @@ impl<'a, 'p> Stepper<'a, 'p> {
         }
         let scale =
             if forcing_norm > 0.0 { forcing_norm } else { rhs.iter().map(|v| v * v).sum::<f64>().sqrt() };
-        let target = settings.krylov.relative_tolerance * scale;
+        let target = params.krylov.relative_tolerance * scale;
 
         // Initial guess: the best combination of the history (see `guess_projection`).
         let n = self.rhs.len();
@@ -416,7 +416,7 @@ impl<'a, 'p> Stepper<'a, 'p> {
         let iterations = self
             .system
             .solver
-            .solve(&self.rhs, c_new, target, self.settings.krylov.max_iterations)
+            .solve(&self.rhs, c_new, target, self.params.krylov.max_iterations)
             .map_err(|source| TransientError::Solve { time: t_new, source })?
             .iterations;
         if c_new.iter().any(|v| !v.is_finite()) {
@@ -435,7 +435,7 @@ impl<'a, 'p> Stepper<'a, 'p> {
         marks: &Marks,
         observer: &mut dyn TransientObserver,
     ) -> Result<(), TransientError> {
-        let (problem, settings) = (self.problem, self.settings);
+        let (problem, params) = (self.problem, self.params);
         let SolvedStep { t_new, h, alpha, with_history, far_field, c_new, iterations } = step;
         let t = state.time;
         let eps = marks.eps;
@@ -456,12 +456,12 @@ impl<'a, 'p> Stepper<'a, 'p> {
         self.stored.remember(t_new, balance.stored);
         let sensing = sense(problem, &self.system, &self.facets_now, &c_new);
         let rates = self.rates(&sensing);
-        if t >= settings.window_start - eps {
+        if t >= params.window_start - eps {
             state.counts.add_step(&state.last_rates, &rates, h);
         }
         let outlet = outlet_concentration(problem, self.system.phase.face_flux, &c_new);
         let mut distance = None;
-        if let Some(steady) = &settings.steady {
+        if let Some(steady) = &params.steady {
             let sensed: Vec<f64> = rates.iter().map(|r| r[1] + r[2]).collect();
             let before: Vec<f64> = state.last_rates.iter().map(|r| r[1] + r[2]).collect();
             state.crossings.update(
@@ -489,7 +489,7 @@ impl<'a, 'p> Stepper<'a, 'p> {
         state.krylov_iterations += iterations;
         state.worst_balance_error = state.worst_balance_error.max(balance.relative_error);
         state.last_rates = rates;
-        state.next_step = match settings.stepping {
+        state.next_step = match params.stepping {
             TimeStepping::Fixed { step } => step,
             TimeStepping::Adaptive { .. } => h * factor,
         };
@@ -497,8 +497,8 @@ impl<'a, 'p> Stepper<'a, 'p> {
         if marks.restarts_at(t_new) {
             self.spare.extend(state.previous.drain(..).map(|(_, c)| c));
         }
-        let at_output = settings.output_times.iter().any(|&o| (o - t_new).abs() <= eps);
-        if let (Some(tol), Some(d)) = (settings.stop_at_steady, distance) {
+        let at_output = params.output_times.iter().any(|&o| (o - t_new).abs() <= eps);
+        if let (Some(tol), Some(d)) = (params.stop_at_steady, distance) {
             if t_new >= marks.last_event - eps && d <= tol {
                 state.stopped_at_steady = true;
             }
@@ -512,7 +512,7 @@ impl<'a, 'p> Stepper<'a, 'p> {
             distance_to_steady: distance,
         };
         observer.step(state, &report).map_err(TransientError::Observer)?;
-        if at_output || state.stopped_at_steady || state.time >= settings.end_time - eps {
+        if at_output || state.stopped_at_steady || state.time >= params.end_time - eps {
             emit(problem, state, observer, &sensing, balance, outlet, at_output)?;
         }
         Ok(())
@@ -527,9 +527,9 @@ fn phase_at(problem: &TransientProblem, t: f64) -> usize {
 /// Step-size control from the embedded error estimate (adaptive stepping at BDF2 with two earlier solutions):
 /// the difference between the step's solution and the quadratic extrapolation of the last three, scaled by
 /// Milne's factor, against `tolerance · max |c|`. A rejected step is counted in the state.
-fn control_step(settings: &TransientSettings, state: &mut TransientState, step: &SolvedStep) -> StepControl {
+fn control_step(params: &TransientParams, state: &mut TransientState, step: &SolvedStep) -> StepControl {
     let mut factor = MAX_STEP_GROWTH;
-    let TimeStepping::Adaptive { tolerance, max_step, .. } = settings.stepping else {
+    let TimeStepping::Adaptive { tolerance, max_step, .. } = params.stepping else {
         return StepControl::Accept { factor };
     };
     let (h, c_new) = (step.h, &step.c_new);

@@ -19,7 +19,7 @@ pub mod state;
 
 pub use crate::post::sensing_window::WindowCounts;
 pub use crate::transport::transient::StepBalance;
-pub use case::{solve_transient_case, TransientCase, TransientSolution};
+pub use case::{solve_transient_case, TransientCase, TransientSolution, TransientTiming};
 pub use integrate::{initial_state, integrate};
 pub use state::{Crossings, TransientState, FRACTIONS};
 
@@ -81,7 +81,7 @@ pub struct SteadyReference {
 
 /// How to run.
 #[derive(Clone, Debug)]
-pub struct TransientSettings {
+pub struct TransientParams {
     pub start_time: f64,
     pub end_time: f64,
     pub stepping: TimeStepping,

@@ -4,9 +4,9 @@
 use super::{assemble_transport, TransportAssembly, TransportProblem};
 use crate::linalg::{KrylovParams, MultigridParams, SolveError, SteadySolver};
 
-/// Settings of the steady transport solve.
+/// Parameters of the steady transport solve.
 #[derive(Clone, Debug, Default)]
-pub struct TransportSettings {
+pub struct TransportParams {
     pub krylov: KrylovParams,
     pub multigrid: MultigridParams,
 }
@@ -44,12 +44,12 @@ impl From<SolveError> for TransportError {
 /// Solves the steady transport problem.
 pub fn solve_steady(
     problem: &TransportProblem,
-    settings: &TransportSettings,
+    params: &TransportParams,
 ) -> Result<SteadyTransport, TransportError> {
     let assembly = assemble_transport(problem);
-    let solver = SteadySolver::new(assembly.system.clone(), settings.multigrid.clone());
+    let solver = SteadySolver::new(assembly.system.clone(), params.multigrid.clone());
     let mut c = vec![0.0; assembly.rhs.len()];
-    let info = solver.solve(&assembly.rhs, &mut c, &settings.krylov)?;
+    let info = solver.solve(&assembly.rhs, &mut c, &params.krylov)?;
     if c.iter().any(|v| !v.is_finite()) {
         return Err(TransportError::NonFinite { iteration: info.iterations });
     }

@@ -21,7 +21,7 @@ use anyhow::{Context, Result};
 use solver::linalg::MultigridParams;
 use solver::problem::ChamberFace;
 use solver::solve_transient::{
-    solve_transient_case, TimeStepping, TransientCase, TransientError, TransientSettings, TransientSolution,
+    solve_transient_case, TimeStepping, TransientCase, TransientError, TransientParams, TransientSolution,
 };
 
 use crate::case::transient::{InitialCondition, TransientSolve, STEADY_DISTANCE};
@@ -34,7 +34,7 @@ use crate::io::initial_field::read_initial_concentration;
 use crate::io::table::{CellTable, Column, ColumnValues};
 use crate::io::transient_h5::{output_dataset_name, write_transient_fields_h5, OutputTime, TransientFile};
 use crate::io::xdmf_temporal::{write_temporal_xmf, TemporalGrid};
-use crate::outputs::columns::pressure_front_back_column;
+use crate::outputs::columns::cell_pressure_drop_column;
 use crate::outputs::summary::{
     FlowChange, FlowMode, FlowSummary, OutputSeries, RunSummary, Stepping, TransientSummary, TransportMode,
     TransportSummary,
@@ -73,7 +73,7 @@ pub fn transient_case<'a>(case: &'a Case, t: &TransientSolve) -> TransientCase<'
             max_step: t.output_every.min(t.end_time),
         },
     };
-    let settings = TransientSettings {
+    let params = TransientParams {
         start_time: 0.0,
         end_time: t.end_time,
         stepping,
@@ -89,7 +89,7 @@ pub fn transient_case<'a>(case: &'a Case, t: &TransientSolve) -> TransientCase<'
         steady,
         flow_changes: t.flow_change.into_iter().collect(),
         secretion_start: t.secretion_start.clone(),
-        settings,
+        params,
     }
 }
 
@@ -143,7 +143,7 @@ pub fn execute(case: &Case, out_dir: &Path, destination: &Path, options: &Transi
     std::fs::create_dir_all(&parts).with_context(|| format!("cannot create {}", parts.display()))?;
 
     let tcase = transient_case(case, t);
-    let times = tcase.settings.output_times.clone();
+    let times = tcase.params.output_times.clone();
     let eps = 1e-9 * t.end_time;
     let progress = TransientProgress::new(0.0, t.end_time, options.quiet);
     if let Some(state) = &resume {
@@ -289,14 +289,14 @@ fn final_table(
     let mut columns = time_columns(case, &part.sensed, &flow.drag, &t.secretion_start);
     let tail = columns.split_off(CONTRACT_COLUMNS);
     let stencils = solver::embedded::FacetStencils::build(&solution.geometry);
-    let front_back = solver::post::pressure_front_back::pressure_front_back(
+    let pressure_drops = solver::post::cell_pressure_drop::cell_pressure_drop(
         &solution.geometry,
         &stencils,
         &case.layout,
         &flow.velocity,
         &flow.pressure,
     );
-    columns.push(pressure_front_back_column(front_back));
+    columns.push(cell_pressure_drop_column(pressure_drops));
     columns.extend(crate::engine::estimates::estimate_columns(
         case,
         &sensing_of(&part.sensed, case.layout.cells.len()),

@@ -29,7 +29,7 @@ use super::{observed_order, Check, Tier, VerifyError};
 use crate::reference::brinkman_sphere::BrinkmanSphere;
 use crate::reference::darcy_sphere::DarcySphere;
 use mesh::{Axis, Cell, EmbeddedGeometry, Grid, Layout};
-use solver::flow::brinkman::{solve_brinkman, BrinkmanError, BrinkmanMedium, BrinkmanSettings};
+use solver::flow::brinkman::{solve_brinkman, BrinkmanError, BrinkmanMedium, BrinkmanParams};
 use solver::problem::ChamberFace;
 use solver::solve_case::CaseSolveError;
 use std::sync::Arc;
@@ -88,11 +88,11 @@ pub fn equator_profile(
     let geometry = EmbeddedGeometry::build(&grid, &layout, [false; 3]);
     let medium =
         BrinkmanMedium { viscosity, effective_viscosity: viscosity, permeability: Some(permeability) };
-    let settings = BrinkmanSettings {
+    let params = BrinkmanParams {
         far_field: Some(Arc::new(move |x| exact.velocity(x, [0.0; 3]))),
-        ..BrinkmanSettings::default()
+        ..BrinkmanParams::default()
     };
-    let solution = solve_brinkman(&geometry, &layout, &boundaries, &medium, speed, &settings)
+    let solution = solve_brinkman(&geometry, &layout, &boundaries, &medium, speed, &params)
         .map_err(|e: BrinkmanError| VerifyError::Solve(CaseSolveError::Brinkman(e)))?;
     let area = grid.face_area();
     let samples = (0..half)

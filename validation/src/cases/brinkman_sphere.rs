@@ -8,7 +8,7 @@
 use super::{observed_order, relative_error, Check, Tier, VerifyError};
 use crate::reference::brinkman_sphere::BrinkmanSphere;
 use mesh::{Cell, EmbeddedGeometry, Grid, Layout};
-use solver::flow::brinkman::{solve_brinkman, BrinkmanError, BrinkmanMedium, BrinkmanSettings};
+use solver::flow::brinkman::{solve_brinkman, BrinkmanError, BrinkmanMedium, BrinkmanParams};
 use solver::problem::{ChamberBoundaries, ChamberFace};
 use solver::solve_case::CaseSolveError;
 use std::sync::Arc;
@@ -34,12 +34,12 @@ pub fn sphere_drag(alpha: f64, per_radius: usize, reach: f64) -> Result<(f64, f6
     let geometry = EmbeddedGeometry::build(&grid, &layout, [false; 3]);
     let medium =
         BrinkmanMedium { viscosity, effective_viscosity: viscosity, permeability: Some(permeability) };
-    let settings = BrinkmanSettings {
+    let params = BrinkmanParams {
         far_field: Some(Arc::new(move |x| exact.velocity(x, [0.0; 3]))),
-        ..BrinkmanSettings::default()
+        ..BrinkmanParams::default()
     };
     let solution =
-        solve_brinkman(&geometry, &layout, &boundaries, &medium, speed, &settings).map_err(flow_error)?;
+        solve_brinkman(&geometry, &layout, &boundaries, &medium, speed, &params).map_err(flow_error)?;
     Ok((4.0 * solution.field.drag[0][0], exact.drag(), solution.field.iterations))
 }
 

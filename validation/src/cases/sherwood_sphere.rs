@@ -43,7 +43,7 @@ use solver::problem::{
     ChamberBoundaries, ChamberFace, FlowParameters, LigandParameters, MediumModel, SurfaceUptake,
 };
 use solver::solve_case::{solve_flow, SteadyCase};
-use solver::transport::{solve_steady, TransportProblem, TransportSettings};
+use solver::transport::{solve_steady, TransportParams, TransportProblem};
 
 const RADIUS: f64 = 5e-6;
 const SPEED: f64 = 1e-4;
@@ -113,11 +113,11 @@ impl SphereInStream {
             face_flux: &self.flow.face_flux,
             far_field_speed: SPEED,
         };
-        let settings = TransportSettings {
+        let params = TransportParams {
             krylov: KrylovParams { relative_tolerance: 1e-11, max_iterations: 2000 },
-            ..TransportSettings::default()
+            ..TransportParams::default()
         };
-        let solved = solve_steady(&problem, &settings).map_err(solver::solve_case::CaseSolveError::from)?;
+        let solved = solve_steady(&problem, &params).map_err(solver::solve_case::CaseSolveError::from)?;
         let c = &solved.concentration;
         let uptake: f64 = solved.assembly.facets.iter().map(|f| f.uptake.evaluate(c)).sum();
         Ok(SherwoodSample {

@@ -6,7 +6,7 @@
 use super::{Check, Tier, VerifyError};
 use crate::reference::hasimoto;
 use mesh::{Cell, EmbeddedGeometry, Grid, Layout};
-use solver::flow::brinkman::{solve_brinkman, BrinkmanMedium, BrinkmanSettings};
+use solver::flow::brinkman::{solve_brinkman, BrinkmanMedium, BrinkmanParams};
 use solver::problem::{ChamberBoundaries, ChamberFace};
 use solver::solve_case::CaseSolveError;
 use std::f64::consts::PI;
@@ -27,9 +27,8 @@ pub fn array_drag(phi: f64, per_radius: usize) -> Result<(f64, f64, f64, usize),
     let boundaries = ChamberBoundaries::new([[ChamberFace::Periodic; 2]; 3]);
     let geometry = EmbeddedGeometry::build(&grid, &layout, [true; 3]);
     let medium = BrinkmanMedium { viscosity: 1.0, effective_viscosity: 1.0, permeability: None };
-    let solution =
-        solve_brinkman(&geometry, &layout, &boundaries, &medium, 1.0, &BrinkmanSettings::default())
-            .map_err(|e| VerifyError::Solve(CaseSolveError::Brinkman(e)))?;
+    let solution = solve_brinkman(&geometry, &layout, &boundaries, &medium, 1.0, &BrinkmanParams::default())
+        .map_err(|e| VerifyError::Solve(CaseSolveError::Brinkman(e)))?;
     let reference = hasimoto::drag_per_sphere(1.0, radius, 1.0, phi_grid)?;
     let balance = solution.field.pressure_drop / side * side.powi(3);
     Ok((solution.field.drag[0][0], reference, balance, solution.field.iterations))

@@ -15,7 +15,7 @@ use solver::post::SensingModel;
 use solver::problem::{ChamberBoundaries, ChamberFace, LigandParameters, SurfaceUptake};
 use solver::solve_transient::{
     initial_state, integrate, FlowPhase, StepReport, TimeStepping, TransientObserver, TransientOutput,
-    TransientProblem, TransientSettings, TransientState,
+    TransientParams, TransientProblem, TransientState,
 };
 
 const SOURCE: &str =
@@ -83,7 +83,7 @@ pub fn puff_errors(n: usize, step: f64) -> Result<(f64, f64), VerifyError> {
         secretion_start: Vec::new(),
         sensing: SensingModel { uptake: SurfaceUptake::None, diffusivity: D, integration_time: 1.0 },
     };
-    let settings = TransientSettings {
+    let params = TransientParams {
         start_time: 0.0,
         end_time: RUN,
         stepping: TimeStepping::Fixed { step },
@@ -98,9 +98,9 @@ pub fn puff_errors(n: usize, step: f64) -> Result<(f64, f64), VerifyError> {
     let initial = field_at(AGE);
     let volume = grid.cell_volume();
     let initial_amount: f64 = initial.iter().sum::<f64>() * volume;
-    let state = initial_state(&problem, &settings, initial);
+    let state = initial_state(&problem, &params, initial);
     let mut last = Last { field: Vec::new(), stored: Vec::new() };
-    integrate(&problem, &settings, state, &mut last).map_err(|e| VerifyError::Transient(e.to_string()))?;
+    integrate(&problem, &params, state, &mut last).map_err(|e| VerifyError::Transient(e.to_string()))?;
     let expected = field_at(AGE + RUN);
     let num: f64 = last.field.iter().zip(&expected).map(|(a, b)| (a - b) * (a - b)).sum();
     let den: f64 = expected.iter().map(|b| b * b).sum();

@@ -7,7 +7,7 @@ use solver::problem::{ChamberBoundaries, FlowParameters, LigandParameters};
 use solver::solve_case::SteadyCase;
 use solver::solve_transient::{
     solve_transient_case, StepReport, TimeStepping, TransientCase, TransientError, TransientObserver,
-    TransientOutput, TransientSettings, TransientSolution, TransientState,
+    TransientOutput, TransientParams, TransientSolution, TransientState,
 };
 
 /// What was seen at each output time.
@@ -78,7 +78,7 @@ pub fn run_transient(
         },
         flow_changes: Vec::new(),
         secretion_start: vec![0.0; run.layout.cells.len()],
-        settings: TransientSettings {
+        params: TransientParams {
             start_time: 0.0,
             end_time: run.end_time,
             stepping: run.stepping,

@@ -127,7 +127,7 @@ mod tests {
     fn self_and_neighbour_parts_still_add_up() {
         use super::super::setup::darcy;
         use solver::linalg::{KrylovParams, MultigridParams};
-        use solver::post::decompose::{decompose, DecomposeInputs};
+        use solver::post::decompose::{decompose, DecomposeInputs, SplitMode};
         use solver::post::SensingModel;
         use solver::solve_case::{solve_steady_case, SteadyCase};
 
@@ -175,7 +175,7 @@ mod tests {
             krylov,
             multigrid: MultigridParams::default(),
         };
-        let split = decompose(&inputs, &[0, 1], true).unwrap();
+        let split = decompose(&inputs, &[0, 1], SplitMode::WithSumOfParts).unwrap();
         let sum = split.sum_of_parts.unwrap_or_default();
         let total = &solution.transport.concentration;
         assert_eq!(sum.len(), total.len());
@@ -197,7 +197,7 @@ mod tests {
         use solver::linalg::{KrylovParams, MultigridParams};
         use solver::solve_case::SteadyCase;
         use solver::solve_transient::integrate::relative_change;
-        use solver::solve_transient::{solve_transient_case, TimeStepping, TransientCase, TransientSettings};
+        use solver::solve_transient::{solve_transient_case, TimeStepping, TransientCase, TransientParams};
 
         let d = 1e-10;
         let unit = RADIUS * RADIUS / d;
@@ -232,7 +232,7 @@ mod tests {
             },
             flow_changes: Vec::new(),
             secretion_start: vec![0.0, 5.0 * unit],
-            settings: TransientSettings {
+            params: TransientParams {
                 start_time: 0.0,
                 end_time: 40.0 * unit,
                 stepping: TimeStepping::Adaptive {

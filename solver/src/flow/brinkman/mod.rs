@@ -31,8 +31,10 @@ pub mod surface_force;
 mod tests;
 
 pub use chamber_velocity::VelocityData;
-pub use resolution::ResolutionWarning;
-pub use solve_brinkman::{solve_brinkman, BrinkmanSettings, BrinkmanSolution, FlowKrylov};
+pub use resolution::ScreeningLengthWarning;
+pub use solve_brinkman::{
+    solve_brinkman, BrinkmanParams, BrinkmanSolution, BrinkmanStageSeconds, FlowKrylov,
+};
 pub use surface_force::SurfaceForces;
 
 use crate::linalg::SolveError;

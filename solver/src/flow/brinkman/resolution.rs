@@ -15,7 +15,7 @@ const ERROR_EXPONENT: f64 = DRAG_ERROR_MODEL.1;
 
 /// The screening length is under-resolved.
 #[derive(Clone, Debug, PartialEq)]
-pub struct ResolutionWarning {
+pub struct ScreeningLengthWarning {
     /// ℓ = √(μ_e K/μ) (m).
     pub screening_length: f64,
     /// Grid spacing h (m).
@@ -26,7 +26,7 @@ pub struct ResolutionWarning {
     pub suggested_spacing: f64,
 }
 
-impl std::fmt::Display for ResolutionWarning {
+impl std::fmt::Display for ScreeningLengthWarning {
     fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
         write!(
             f,
@@ -47,9 +47,9 @@ pub fn expected_drag_error(spacing: f64, screening_length: f64) -> f64 {
 }
 
 /// The warning, if the screening length of `medium` spans fewer than two spacings `h` (none for Stokes flow).
-pub fn check_resolution(medium: &BrinkmanMedium, spacing: f64) -> Option<ResolutionWarning> {
+pub fn check_resolution(medium: &BrinkmanMedium, spacing: f64) -> Option<ScreeningLengthWarning> {
     let l = medium.screening_length()?;
-    (l < REQUIRED_SPACINGS_PER_SCREENING_LENGTH * spacing).then(|| ResolutionWarning {
+    (l < REQUIRED_SPACINGS_PER_SCREENING_LENGTH * spacing).then(|| ScreeningLengthWarning {
         screening_length: l,
         spacing,
         expected_drag_error: expected_drag_error(spacing, l),

@@ -19,11 +19,11 @@ fn solve(
     speed: f64,
 ) -> BrinkmanSolution {
     let geometry = EmbeddedGeometry::build(grid, layout, boundaries.periodic_axes());
-    let settings = BrinkmanSettings {
+    let params = BrinkmanParams {
         krylov: crate::linalg::KrylovParams { relative_tolerance: 1e-10, max_iterations: 400 },
-        ..BrinkmanSettings::default()
+        ..BrinkmanParams::default()
     };
-    solve_brinkman(&geometry, layout, boundaries, medium, speed, &settings).expect("flow solves")
+    solve_brinkman(&geometry, layout, boundaries, medium, speed, &params).expect("flow solves")
 }
 
 /// Plane Brinkman channel (REFERENCES.md item A; Brinkman 1947 momentum equation, profile derived there):
@@ -118,7 +118,7 @@ fn sphere_iterations(n: usize, alpha: f64) -> usize {
     let k = (radius / alpha) * (radius / alpha);
     let medium = BrinkmanMedium { viscosity: 1.0, effective_viscosity: 1.0, permeability: Some(k) };
     let geometry = EmbeddedGeometry::build(&grid, &layout, boundaries.periodic_axes());
-    let sol = solve_brinkman(&geometry, &layout, &boundaries, &medium, 1.0, &BrinkmanSettings::default())
+    let sol = solve_brinkman(&geometry, &layout, &boundaries, &medium, 1.0, &BrinkmanParams::default())
         .expect("flow solves");
     // Divergence relative to the velocity-gradient scale U/h = n (U = 1).
     let relative_divergence = sol.field.max_divergence / n as f64;

@@ -30,7 +30,7 @@ pub enum Shadow {
     Unstored,
 }
 
-/// Settings of one BiCGSTAB solve.
+/// Parameters of one BiCGSTAB solve.
 #[derive(Clone, Debug, PartialEq, Default)]
 pub struct BicgstabParams {
     pub krylov: KrylovParams,

@@ -9,7 +9,7 @@
 use super::super::vector::{axpy, divide, dot, norm};
 use super::{KrylovParams, LinearOperator, SolveError, SolveInfo};
 
-/// Settings of one GMRES solve.
+/// Parameters of one GMRES solve.
 #[derive(Clone, Debug, PartialEq)]
 pub struct GmresParams {
     pub krylov: KrylovParams,

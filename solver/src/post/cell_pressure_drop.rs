@@ -1,15 +1,17 @@
-//! Pressure difference across each cell along the local flow: `p(front pole) − p(back pole)`.
+//! Pressure drop across each cell along the local flow: `p(upstream pole) − p(downstream pole)`.
 //!
 //! The local flow direction is the shell-averaged velocity around the cell (as for the sensing outputs); the
-//! front and back poles are the facets whose normals point most against and most along it, and the pressure there
-//! is extrapolated from the grid cells to the facet centroid (second order, tangential least squares).
+//! upstream and downstream poles are the facets whose normals point most against and most along it, and the
+//! pressure there is extrapolated from the grid cells to the facet centroid (second order, tangential least
+//! squares). "Front" means downstream everywhere in the outputs (front–back contrast, window counts), so this
+//! quantity is named by the flow's sides instead.
 
 use super::local_flow::shell_mean_velocity;
 use crate::embedded::FacetStencils;
 use mesh::{EmbeddedGeometry, Layout};
 
-/// `p_front − p_back` per cell (Pa); zero where there is no local flow or no facet.
-pub fn pressure_front_back(
+/// `p_upstream − p_downstream` per cell (Pa); zero where there is no local flow or no facet.
+pub fn cell_pressure_drop(
     geometry: &EmbeddedGeometry,
     stencils: &FacetStencils,
     layout: &Layout,
@@ -31,18 +33,18 @@ pub fn pressure_front_back(
                 return 0.0;
             }
             let along = |n: &[f64; 3]| (0..3).map(|a| n[a] * flow[a]).sum::<f64>() / speed;
-            let (mut front, mut back) = ((f64::INFINITY, 0usize), (f64::NEG_INFINITY, 0usize));
+            let (mut upstream, mut downstream) = ((f64::INFINITY, 0usize), (f64::NEG_INFINITY, 0usize));
             for (m, f) in facets.iter().enumerate() {
                 let c = along(&f.normal);
-                if c < front.0 {
-                    front = (c, m);
+                if c < upstream.0 {
+                    upstream = (c, m);
                 }
-                if c > back.0 {
-                    back = (c, m);
+                if c > downstream.0 {
+                    downstream = (c, m);
                 }
             }
             let value = |m: usize| FacetStencils::evaluate(&stencils.facets[first + m].tangential, pressure);
-            value(front.1) - value(back.1)
+            value(upstream.1) - value(downstream.1)
         })
         .collect()
 }
