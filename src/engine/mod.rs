@@ -77,6 +77,15 @@ pub fn solution_warnings(case: &Case, solution: &SteadySolution) -> Vec<String> 
     warnings
 }
 
+/// Every warning a case gets before it is solved: the case's own (from validation), the Brinkman resolution
+/// guard and the boundary-layer guard of the stream. The solve may add its own (see [`solution_warnings`]).
+pub fn case_warnings(case: &Case) -> Vec<String> {
+    let mut warnings = case.warnings.clone();
+    warnings.extend(flow_resolution_warning(case));
+    warnings.extend(estimates::boundary_layer_warning(case).map(|w| w.to_string()));
+    warnings
+}
+
 /// The Brinkman resolution guard, told before the solve starts.
 fn flow_resolution_warning(case: &Case) -> Option<String> {
     let medium = solver::flow::brinkman::BrinkmanMedium::from_model(case.flow.medium)?;
