@@ -56,23 +56,36 @@ fn estimate_and_split_columns_follow_the_contract_columns() {
     // on the demo case).
     assert!(surface.iter().all(|r| (0.7..1.4).contains(r)), "{surface:?}");
 
-    // Split of cells 0 and 2 only; self + neighbour = total bound rate.
-    let fraction = column(&rows, &header, "signal_fraction");
+    // Split of cells 0 and 2 only; self + neighbour = total bound rate and anisotropy vector; the share in [0, 1].
+    let share = column(&rows, &header, "self_signal_share");
+    let vector = |prefix: &str| ["x", "y", "z"].map(|a| column(&rows, &header, &format!("{prefix}_{a}")));
+    let (from_self, from_neighbours) = (vector("anisotropy_from_self"), vector("anisotropy_from_neighbours"));
+    let total = vector("anisotropy");
+    let along = column(&rows, &header, "anisotropy_along_flow");
+    let along_parts =
+        ["self", "neighbours"].map(|p| column(&rows, &header, &format!("anisotropy_from_{p}_along_flow")));
     let own = column(&rows, &header, "self_bound_rate");
     let others = column(&rows, &header, "neighbour_bound_rate");
     let bound = column(&rows, &header, "bound_rate");
     for i in 0..rows.len() {
         if i == 0 || i == 2 {
-            assert!(fraction[i].is_finite() && own[i] > 0.0);
+            assert!((0.0..=1.0).contains(&share[i]) && own[i] > 0.0, "{}", share[i]);
             assert!((own[i] + others[i] - bound[i]).abs() < 1e-9 * bound[i]);
+            let scale = (0..3).map(|a| total[a][i].abs()).fold(0.0, f64::max);
+            for a in 0..3 {
+                let sum = from_self[a][i] + from_neighbours[a][i];
+                assert!((sum - total[a][i]).abs() <= 1e-12 * scale, "axis {a}: {sum} vs {}", total[a][i]);
+            }
+            assert!((along_parts[0][i] + along_parts[1][i] - along[i]).abs() <= 1e-12 * scale);
         } else {
-            assert!(fraction[i].is_nan() && own[i].is_nan());
+            assert!(share[i].is_nan() && own[i].is_nan() && from_self[0][i].is_nan());
         }
     }
     let summary: serde_json::Value =
         serde_json::from_str(&std::fs::read_to_string(dir.path().join("out/summary.json")).unwrap()).unwrap();
     let per_cell = &summary["estimates"]["per_cell"];
-    assert_eq!(per_cell["signal_fraction"]["count"], 2);
+    assert_eq!(per_cell["self_signal_share"]["count"], 2);
+    assert!(per_cell.get("anisotropy_from_self_x").is_none(), "vector components are not summarised");
     assert!(per_cell["anisotropy_along_flow_over_estimate"]["median"].as_f64().unwrap().is_finite());
     assert_eq!(summary["estimates"]["self_neighbour"]["cells"], 2);
 }

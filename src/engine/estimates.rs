@@ -12,7 +12,7 @@ use serde_json::json;
 use solver::flow::brinkman::resolution::check_resolution;
 use solver::flow::brinkman::{BrinkmanMedium, ScreeningLengthWarning};
 use solver::linalg::{KrylovParams, MultigridParams};
-use solver::post::decompose::{decompose, DecomposeInputs, Decomposition, SplitMode};
+use solver::post::decompose::{decompose, DecomposeInputs, SplitMode};
 use solver::post::estimates::{
     biot_number, estimate_cell_sensing, homogenised_source_and_sink, isolated_anisotropy, CellEstimateInputs,
     ColumnInlet, IsolatedFlow, MeanFieldColumn, SensingEstimate,
@@ -24,6 +24,7 @@ use solver::transport::boundary_layer::{check_boundary_layer, BoundaryLayerWarni
 
 use crate::case::Case;
 use crate::io::table::{CellTable, Column, ColumnValues};
+use crate::outputs::columns::{split_columns, SPLIT_COLUMNS};
 use crate::outputs::summary::{ColumnQuantiles, SplitCost, SplitSummary};
 
 /// The mean-field background of the chamber, or why there is none.
@@ -442,10 +443,6 @@ pub fn estimate_columns(case: &Case, sensing: &[CellSensing]) -> Vec<Column> {
     ]
 }
 
-/// Columns of the self/neighbour split (NaN for cells not chosen).
-pub const SPLIT_COLUMNS: [&str; 4] =
-    ["self_anisotropy_along_flow", "self_bound_rate", "neighbour_bound_rate", "signal_fraction"];
-
 /// The self/neighbour split of a run: its `cells.csv` columns, its summary and its cost (when it ran).
 pub struct SelfNeighbourSplit {
     pub columns: Vec<Column>,
@@ -461,7 +458,7 @@ pub fn split_self_and_neighbours(case: &Case, solved: &SteadySolution) -> anyhow
     let cells = case.layout.cells.len();
     // Listed ids were checked against the layout when the case was validated.
     let chosen = case.sensing.decompose.choose(cells);
-    let mut columns: Vec<Vec<f64>> = vec![vec![f64::NAN; cells]; SPLIT_COLUMNS.len()];
+    let mut splits = Vec::new();
     let mut summary = SplitSummary {
         selection: format!("{:?}", case.sensing.decompose),
         cells: chosen.len(),
@@ -494,41 +491,20 @@ pub fn split_self_and_neighbours(case: &Case, solved: &SteadySolution) -> anyhow
                         "the self/neighbour split of a cell failed ({e}); its columns are NaN"
                     ));
                 }
-                record_split(&split, &mut columns, &mut summary);
+                summary.iterations = Some(split.cells.iter().map(|s| s.iterations).collect());
                 cost = Some(SplitCost {
                     setup_s: split.setup_seconds,
                     solve_s: split.solve_seconds,
                     seconds_per_right_hand_side: split.solve_seconds / split.right_hand_sides.max(1) as f64,
                     transport_s: solved.timing.transport,
                 });
+                splits = split.cells;
             }
             Err(e) => warnings.push(format!("the self/neighbour split failed ({e}); its columns are NaN")),
         }
     }
-    let descriptions = [
-        ("1", "anisotropy along the local flow of the cell's own field alone (its secretion in the full geometry and flow); NaN if not decomposed"),
-        ("molecules/s", "ligand bound from the cell's own secretion"),
-        ("molecules/s", "ligand bound from the other cells and the inlet (total minus own)"),
-        ("1", "share of the directional signal (first moment of the sensed flux along the flow) from the cell's own secretion"),
-    ];
-    let columns = SPLIT_COLUMNS
-        .iter()
-        .zip(descriptions)
-        .zip(columns)
-        .map(|((name, (unit, description)), values)| Column::real(name, unit, description, values))
-        .collect();
+    let columns = split_columns(cells, &splits);
     Ok(SelfNeighbourSplit { columns, summary, cost, warnings })
-}
-
-/// The split cells' values into the columns, and their iterations into the summary.
-fn record_split(split: &Decomposition, columns: &mut [Vec<f64>], summary: &mut SplitSummary) {
-    for s in &split.cells {
-        columns[0][s.cell] = s.self_anisotropy_along_flow;
-        columns[1][s.cell] = s.self_bound_rate;
-        columns[2][s.cell] = s.neighbour_bound_rate;
-        columns[3][s.cell] = s.signal_fraction;
-    }
-    summary.iterations = Some(split.cells.iter().map(|s| s.iterations).collect());
 }
 
 /// Median, 10th and 90th percentile (linear interpolation between order statistics, common practice) of every
@@ -537,7 +513,7 @@ pub fn column_aggregates(table: &CellTable) -> BTreeMap<String, ColumnQuantiles>
     let mut out = BTreeMap::new();
     for name in ESTIMATE_COLUMNS
         .iter()
-        .chain(SPLIT_COLUMNS.iter())
+        .chain(SPLIT_COLUMNS.iter().filter(|c| c.summarised).map(|c| &c.name))
         .chain(["anisotropy_along_flow", "direction_error"].iter())
     {
         let Some(column) = table.column(name) else { continue };

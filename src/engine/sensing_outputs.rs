@@ -6,9 +6,9 @@ use std::path::Path;
 use anyhow::Result;
 
 use crate::case::Case;
-use crate::engine::estimates::SPLIT_COLUMNS;
 use crate::io::sensing_by_position::write_sensing_by_position;
 use crate::io::{CellTable, ColumnValues};
+use crate::outputs::columns::SPLIT_COLUMNS;
 use crate::outputs::RunSummary;
 use crate::sensing::statistics::{sensing_statistics, CellValues, SensingStatistics, StatisticsParams};
 
@@ -31,7 +31,7 @@ pub fn run_statistics(case: &Case, table: &CellTable) -> SensingStatistics {
     let empty: &[f64] = &[];
     let quantities = SLAB_QUANTITIES
         .iter()
-        .chain(SPLIT_COLUMNS.iter())
+        .chain(SPLIT_COLUMNS.iter().filter(|c| c.summarised).map(|c| &c.name))
         .filter_map(|name| real(table, name).map(|v| (*name, v)))
         .filter(|(_, v)| v.iter().any(|x| !x.is_nan()))
         .collect();

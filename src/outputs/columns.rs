@@ -7,6 +7,7 @@
 //! `CellSensing` or the solver output it reads).
 
 use mesh::Cell;
+use solver::post::decompose::CellSplit;
 use solver::post::CellSensing;
 
 use crate::io::table::Column;
@@ -169,6 +170,71 @@ pub fn cell_pressure_drop_column(values: Vec<f64>) -> Column {
     )
 }
 
+/// One column of the self/neighbour split (`[sensing] decompose`), NaN for the cells not split.
+#[derive(Clone, Copy)]
+pub struct SplitColumn {
+    pub name: &'static str,
+    pub unit: &'static str,
+    pub description: &'static str,
+    pub value: fn(&CellSplit) -> f64,
+    /// Summarised (quantiles in `summary.json`, per slab in `sensing_by_position.csv`, aggregated by
+    /// `collect`): the scalars; the vector components are not.
+    pub summarised: bool,
+}
+
+const fn split(
+    name: &'static str,
+    unit: &'static str,
+    description: &'static str,
+    value: fn(&CellSplit) -> f64,
+) -> SplitColumn {
+    SplitColumn { name, unit, description, value, summarised: false }
+}
+
+const fn split_summarised(
+    name: &'static str,
+    unit: &'static str,
+    description: &'static str,
+    value: fn(&CellSplit) -> f64,
+) -> SplitColumn {
+    SplitColumn { name, unit, description, value, summarised: true }
+}
+
+fn along(v: [f64; 3], s: &CellSplit) -> f64 {
+    (0..3).map(|a| v[a] * s.local_flow_direction[a]).sum()
+}
+
+/// The self/neighbour split columns, in file order (after the estimate columns of a steady run, after the
+/// registered columns of a transient run).
+pub const SPLIT_COLUMNS: [SplitColumn; 12] = [
+    split("anisotropy_from_self_x", "1", "x of the part of the anisotropy vector due to the cell's own secretion, over the cell's total sensed flux (from_self + from_neighbours = anisotropy); NaN if not decomposed", |s| s.anisotropy_from_self[0]),
+    split("anisotropy_from_self_y", "1", "y of the anisotropy part due to the cell's own secretion", |s| s.anisotropy_from_self[1]),
+    split("anisotropy_from_self_z", "1", "z of the anisotropy part due to the cell's own secretion", |s| s.anisotropy_from_self[2]),
+    split("anisotropy_from_neighbours_x", "1", "x of the part of the anisotropy vector due to the other cells and the inlet, over the cell's total sensed flux", |s| s.anisotropy_from_neighbours[0]),
+    split("anisotropy_from_neighbours_y", "1", "y of the anisotropy part due to the other cells and the inlet", |s| s.anisotropy_from_neighbours[1]),
+    split("anisotropy_from_neighbours_z", "1", "z of the anisotropy part due to the other cells and the inlet", |s| s.anisotropy_from_neighbours[2]),
+    split_summarised("anisotropy_from_self_along_flow", "1", "own part of the anisotropy along the local flow (adds to the neighbour part to give anisotropy_along_flow)", |s| along(s.anisotropy_from_self, s)),
+    split_summarised("anisotropy_from_neighbours_along_flow", "1", "neighbour part of the anisotropy along the local flow", |s| along(s.anisotropy_from_neighbours, s)),
+    split_summarised("self_signal_share", "1", "|own part| / (|own part| + |neighbour part|) of the anisotropy vector, in [0, 1]: 1 isolated, 0.5 equally strong, near 0 neighbour-dominated; NaN if neither part has a direction", |s| s.self_signal_share),
+    split_summarised("own_field_anisotropy_along_flow", "1", "anisotropy along the local flow of the cell's own field normalised by its own sensed flux (how directional its own cloud is, not its share)", |s| s.own_field_anisotropy_along_flow),
+    split_summarised("self_bound_rate", "molecules/s", "ligand bound from the cell's own secretion", |s| s.self_bound_rate),
+    split_summarised("neighbour_bound_rate", "molecules/s", "ligand bound from the other cells and the inlet (total minus own)", |s| s.neighbour_bound_rate),
+];
+
+/// The split columns of a layout of `cells` cells from the split of some of them (NaN elsewhere).
+pub fn split_columns(cells: usize, splits: &[CellSplit]) -> Vec<Column> {
+    SPLIT_COLUMNS
+        .iter()
+        .map(|c| {
+            let mut values = vec![f64::NAN; cells];
+            for s in splits {
+                values[s.cell] = (c.value)(s);
+            }
+            Column::real(c.name, c.unit, c.description, values)
+        })
+        .collect()
+}
+
 /// The registered column called `name`.
 pub fn cell_column(name: &str) -> Option<&'static CellColumn> {
     CELL_COLUMNS.iter().find(|c| c.name == name)
@@ -208,5 +274,35 @@ mod tests {
         let transient = cell_columns(&state, RunKind::Transient);
         assert!(transient[13].description.contains("at the rates of this time"));
         assert_eq!(transient[16].description, columns[16].description);
+    }
+
+    #[test]
+    fn split_columns_read_their_own_part_and_leave_cells_not_split_nan() {
+        for c in &SPLIT_COLUMNS {
+            assert!(cell_column(c.name).is_none(), "{} is also a registered column", c.name);
+        }
+        let split = CellSplit {
+            cell: 1,
+            anisotropy_from_self: [1.0, 2.0, 3.0],
+            anisotropy_from_neighbours: [4.0, 5.0, 6.0],
+            self_signal_share: 0.25,
+            own_field_anisotropy_along_flow: 7.0,
+            local_flow_direction: [0.0, 1.0, 0.0],
+            self_bound_rate: 8.0,
+            neighbour_bound_rate: 9.0,
+            self_mean_surface_concentration: 10.0,
+            iterations: 3,
+        };
+        let columns = split_columns(2, &[split]);
+        let values: Vec<(f64, f64)> = columns
+            .iter()
+            .map(|c| match &c.values {
+                crate::io::table::ColumnValues::Real(v) => (v[0], v[1]),
+                other => panic!("{} is not real: {other:?}", c.name),
+            })
+            .collect();
+        assert!(values.iter().all(|(not_split, _)| not_split.is_nan()));
+        let split_values: Vec<f64> = values.iter().map(|v| v.1).collect();
+        assert_eq!(split_values, [1.0, 2.0, 3.0, 4.0, 5.0, 6.0, 2.0, 5.0, 0.25, 7.0, 8.0, 9.0]);
     }
 }

@@ -100,13 +100,13 @@ const SUMMARY_METRICS: [(&str, &str, &str, Metric); 13] = [
     }),
 ];
 
-/// Per-cell columns of `cells.csv` that are aggregated: (column, unit, description). `signal_fraction` is
+/// Per-cell columns of `cells.csv` that are aggregated: (column, unit, description). `self_signal_share` is
 /// aggregated only when some case has it.
 const CELL_QUANTITIES: [(&str, &str, &str); 4] = [
     ("anisotropy_along_flow", "1", "anisotropy component along the local flow"),
     ("bound_rate", "molecules/s", "ligand bound per cell"),
     ("direction_error", "1", "counting-noise error of the direction estimate"),
-    ("signal_fraction", "1", "fraction of the sensed signal from the cell's own secretion"),
+    ("self_signal_share", "1", "|own| / (|own| + |neighbour|) part of the anisotropy vector, in [0, 1]"),
 ];
 
 /// Where the time of one finished case went (a row of `timings.csv`; see `numkit::meter`).

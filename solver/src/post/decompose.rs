@@ -10,6 +10,11 @@
 //! the field of its secretion alone is solved in the full crowded geometry and flow, reusing one operator and one
 //! multigrid hierarchy for every right-hand side; the solves run in parallel batches of the thread count.
 //!
+//! What a cell senses splits the same way: its anisotropy vector `Σ j n A / Σ j A` is the own part (`j` of
+//! the own field) plus the rest (`j` of total − own), both over the total sensed flux, so they add up to the
+//! anisotropy exactly; [`split_cell`] evaluates one cell from its own and the total field (the transient split
+//! uses it at every output time).
+//!
 //! The operator is linear at every Péclet number (`transport::advection`), so the parts add up to the total to
 //! solver tolerance. A cell whose own solve fails is left out of the split and reported in
 //! [`Decomposition::failed`]; the other cells are still split.
@@ -45,20 +50,28 @@ pub struct DecomposeInputs<'a> {
 pub struct CellSplit {
     /// Index of the cell in the layout.
     pub cell: usize,
-    /// Anisotropy of the sensed flux (as in `integrate_surface`) of the cell's own field alone, along the local
-    /// flow direction of the total solve.
-    pub self_anisotropy_along_flow: f64,
+    /// The part of the cell's anisotropy vector due to its own secretion: `Σ j_self n A / Σ j A`, normalised by
+    /// the cell's total sensed flux, so that it adds to [`Self::anisotropy_from_neighbours`] to give the total.
+    pub anisotropy_from_self: [f64; 3],
+    /// The part due to everything else (the other cells and the inlet): `Σ (j − j_self) n A / Σ j A`.
+    pub anisotropy_from_neighbours: [f64; 3],
+    /// `|self part| / (|self part| + |neighbour part|)` of the anisotropy vector, in [0, 1]: 1 for an isolated
+    /// cell, ½ when both parts are equally strong, near 0 when neighbours dominate. Bounded because it is a
+    /// ratio of norms; unaffected by a small total flux because both parts share the normaliser. NaN when
+    /// neither part has a direction.
+    pub self_signal_share: f64,
+    /// Anisotropy along the local flow of the cell's own field normalised by its own sensed flux (how
+    /// directional its own cloud is in this geometry and flow, not its share of the total).
+    pub own_field_anisotropy_along_flow: f64,
+    /// The local flow direction of the total solve that "along the flow" refers to.
+    pub local_flow_direction: [f64; 3],
     /// Ligand bound from the cell's own secretion.
     pub self_bound_rate: f64,
     /// Ligand bound from everyone else's secretion and the inlet: total − self.
     pub neighbour_bound_rate: f64,
-    /// Share of the directional signal (the first moment `Σ j n·ê A` of the sensed flux along the flow) that
-    /// comes from the cell's own secretion: 1 for an isolated cell, near 0 when neighbours dominate. Not bounded
-    /// to [0, 1]: neighbours can oppose the cell's own signal.
-    pub signal_fraction: f64,
     /// Area-mean surface concentration of the own field (molecules/m^3).
     pub self_mean_surface_concentration: f64,
-    /// Krylov iterations of this right-hand side.
+    /// Krylov iterations of this right-hand side (steady), or summed over the time steps (transient).
     pub iterations: usize,
 }
 
@@ -213,7 +226,8 @@ fn solve_part(
     Ok((c, iterations))
 }
 
-fn facets_by_owner(geometry: &EmbeddedGeometry, cells: usize) -> Vec<Vec<usize>> {
+/// The facets of every cell, by owner.
+pub fn facets_by_owner(geometry: &EmbeddedGeometry, cells: usize) -> Vec<Vec<usize>> {
     let mut by_owner = vec![Vec::new(); cells];
     for (n, facet) in geometry.facets.iter().enumerate() {
         by_owner[facet.owner].push(n);
@@ -221,29 +235,97 @@ fn facets_by_owner(geometry: &EmbeddedGeometry, cells: usize) -> Vec<Vec<usize>>
     by_owner
 }
 
-/// Sums over one cell's facets of a field: `(Σ weight, Σ weight n·ê, bound, Σ c A, Σ A)`, with the weights of
-/// `integrate_surface` (bound flux, or the surface concentration of a reflecting cell).
-fn facet_moments(inputs: &DecomposeInputs, facets: &[usize], direction: [f64; 3], c: &[f64]) -> [f64; 5] {
-    let exchanges: &[FacetExchange] = &inputs.assembly.facets;
-    let mut m = [0.0; 5];
+/// Sums over one cell's facets of a field, with the weights of `integrate_surface` (bound flux, or the surface
+/// concentration of a reflecting cell).
+struct FacetMoments {
+    /// `Σ weight`.
+    weight: f64,
+    /// `Σ weight n`.
+    first: [f64; 3],
+    bound: f64,
+    /// `Σ c A`.
+    concentration_area: f64,
+    area: f64,
+}
+
+/// What the facet sums read: the cut surface, its exchange forms and the uptake model that picks the weight.
+#[derive(Clone, Copy)]
+pub struct SurfaceForms<'a> {
+    pub geometry: &'a EmbeddedGeometry,
+    pub exchanges: &'a [FacetExchange],
+    pub uptake: SurfaceUptake,
+}
+
+fn facet_moments(forms: SurfaceForms, facets: &[usize], c: &[f64]) -> FacetMoments {
+    let SurfaceForms { geometry, exchanges, uptake: uptake_model } = forms;
+    let mut m = FacetMoments { weight: 0.0, first: [0.0; 3], bound: 0.0, concentration_area: 0.0, area: 0.0 };
     for &n in facets {
-        let facet = &inputs.geometry.facets[n];
+        let facet = &geometry.facets[n];
         let ex = &exchanges[n];
         let cf = ex.surface_value.evaluate(c);
         let uptake = ex.uptake.evaluate(c);
-        let weight = match inputs.model.uptake {
+        let weight = match uptake_model {
             SurfaceUptake::None => cf * facet.area,
             SurfaceUptake::FirstOrder { .. } => uptake,
             SurfaceUptake::Absorbing => uptake - ex.secretion,
         };
-        let along: f64 = (0..3).map(|a| facet.normal[a] * direction[a]).sum();
-        m[0] += weight;
-        m[1] += weight * along;
-        m[2] += uptake;
-        m[3] += cf * facet.area;
-        m[4] += facet.area;
+        m.weight += weight;
+        for (v, n) in m.first.iter_mut().zip(facet.normal) {
+            *v += weight * n;
+        }
+        m.bound += uptake;
+        m.concentration_area += cf * facet.area;
+        m.area += facet.area;
     }
     m
+}
+
+fn dot(a: [f64; 3], b: [f64; 3]) -> f64 {
+    a[0] * b[0] + a[1] * b[1] + a[2] * b[2]
+}
+
+/// The split of `cell` (its `facets`) from its own field `own` and the total field `total`, in the local flow
+/// direction `direction` of the total solve. The facet forms are affine in the field, their constants written by
+/// the cell's own secretion, so the own part evaluates them on `own` and the rest is total − own.
+pub fn split_cell(
+    forms: SurfaceForms,
+    cell: usize,
+    facets: &[usize],
+    direction: [f64; 3],
+    own: &[f64],
+    total: &[f64],
+) -> CellSplit {
+    let own_m = facet_moments(forms, facets, own);
+    let total_m = facet_moments(forms, facets, total);
+    let rest_first: [f64; 3] = std::array::from_fn(|a| total_m.first[a] - own_m.first[a]);
+    // As `integrate_surface`: no sensed flux, no anisotropy.
+    let per_total =
+        |v: [f64; 3]| if total_m.weight != 0.0 { v.map(|x| x / total_m.weight) } else { [0.0; 3] };
+    let (own_norm, rest_norm) = (dot(own_m.first, own_m.first).sqrt(), dot(rest_first, rest_first).sqrt());
+    CellSplit {
+        cell,
+        anisotropy_from_self: per_total(own_m.first),
+        anisotropy_from_neighbours: per_total(rest_first),
+        self_signal_share: if own_norm + rest_norm > 0.0 {
+            own_norm / (own_norm + rest_norm)
+        } else {
+            f64::NAN
+        },
+        own_field_anisotropy_along_flow: if own_m.weight != 0.0 {
+            dot(own_m.first, direction) / own_m.weight
+        } else {
+            0.0
+        },
+        local_flow_direction: direction,
+        self_bound_rate: own_m.bound,
+        neighbour_bound_rate: total_m.bound - own_m.bound,
+        self_mean_surface_concentration: if own_m.area > 0.0 {
+            own_m.concentration_area / own_m.area
+        } else {
+            0.0
+        },
+        iterations: 0,
+    }
 }
 
 fn split_of(
@@ -253,18 +335,13 @@ fn split_of(
     own: &[f64],
     iterations: usize,
 ) -> CellSplit {
+    let forms = SurfaceForms {
+        geometry: inputs.geometry,
+        exchanges: &inputs.assembly.facets,
+        uptake: inputs.model.uptake,
+    };
     let e = inputs.sensing[cell].local_flow_direction;
-    let own_m = facet_moments(inputs, facets, e, own);
-    let total_m = facet_moments(inputs, facets, e, inputs.total);
-    CellSplit {
-        cell,
-        self_anisotropy_along_flow: if own_m[0] != 0.0 { own_m[1] / own_m[0] } else { 0.0 },
-        self_bound_rate: own_m[2],
-        neighbour_bound_rate: total_m[2] - own_m[2],
-        signal_fraction: if total_m[1] != 0.0 { own_m[1] / total_m[1] } else { f64::NAN },
-        self_mean_surface_concentration: if own_m[4] > 0.0 { own_m[3] / own_m[4] } else { 0.0 },
-        iterations,
-    }
+    CellSplit { iterations, ..split_cell(forms, cell, facets, e, own, inputs.total) }
 }
 
 /// Which cells to split, chosen from a layout of `cells` cells: every cell, a list, or an evenly spread sample
