@@ -12,7 +12,8 @@ use std::path::Path;
 use solver::post::estimates::IsolatedFlow;
 
 use crate::case::Case;
-use crate::engine::estimates::{Background, CaseEstimates, CriticalDensity};
+use crate::engine::estimates::CaseEstimates;
+use solver::post::chamber_estimates::{Background, CriticalDensity};
 
 impl CaseEstimates {
     /// Plain aligned table for the terminal.
@@ -143,42 +144,6 @@ impl CaseEstimates {
         if let Some(c) = self.critical_density {
             row(&mut t, "direction error at the outlet, this density", format!("{:.4e}", c.case_error));
         }
-        if !self.critical_density_by_position.is_empty() {
-            let level = case.sensing.readable_error;
-            let _ = writeln!(
-                t,
-                "\ndensity where the direction error reaches {level} (sensing.readable_error), by position:"
-            );
-            let _ = writeln!(t, "{:>10} {:>16} {:>16}", "x (um)", "density (1/m^3)", "volume fraction");
-            let cell_volume = 4.0 / 3.0 * std::f64::consts::PI * self.radius.powi(3);
-            for (x, c) in &self.critical_density_by_position {
-                let (rho, phi) = match c.and_then(|c| c.density) {
-                    Some(rho) => (format!("{rho:.4e}"), format!("{:.4e}", rho * cell_volume)),
-                    None => ("none".to_string(), "-".to_string()),
-                };
-                let _ = writeln!(t, "{:>10.1} {rho:>16} {phi:>16}", x * 1e6);
-            }
-            if let Some(layer) = self.outlet_layer {
-                let _ = writeln!(
-                    t,
-                    "(within {:.1} um of the outlet the column forces the background gradient to zero: the outlet value is not representative)",
-                    layer * 1e6
-                );
-            }
-            let _ = writeln!(t);
-        }
-        let regime = if self.regime_breaches.is_empty() {
-            format!(
-                "holds (volume fraction <= {}, cell Peclet <= {}{})",
-                solver::post::estimates::MEAN_FIELD_MAX_VOLUME_FRACTION,
-                solver::post::estimates::MEAN_FIELD_MAX_CELL_PECLET,
-                self.outlet_layer
-                    .map_or(String::new(), |l| format!(", away from the outlet layer {:.1} um", l * 1e6))
-            )
-        } else {
-            format!("not expected to hold: {}", self.regime_breaches.join("; "))
-        };
-        row(&mut t, "mean-field estimate", regime);
         let f = &self.forecast;
         row(
             &mut t,
@@ -210,7 +175,7 @@ pub fn execute(case_path: &Path, json: bool, node_memory: Option<f64>) -> anyhow
         }
     }
     if json {
-        println!("{}", serde_json::to_string_pretty(&estimates.to_json())?);
+        println!("{}", serde_json::to_string_pretty(&serde_json::to_value(estimates.summary())?)?);
     } else {
         for warning in crate::engine::case_warnings(&case) {
             eprintln!("warning: {warning}");
