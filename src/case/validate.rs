@@ -239,7 +239,7 @@ pub(super) fn validate(raw: RawCase, text: &str, path: &Path) -> Result<Case, Ca
     let (raw_solve, solve_span) = section(raw.solve);
     let mut solve = validate_solve(&src, &raw_solve)?;
     let (raw_sensing, _) = section(raw.sensing);
-    let sensing = validate_sensing(&src, &raw_sensing, fitted.size[0])?;
+    let sensing = validate_sensing(&src, &raw_sensing, fitted.size[0], placed.layout.cells.len())?;
     if solve.mode == SolveMode::Transient {
         let case_dir = path.parent().unwrap_or(Path::new("."));
         solve.transient = Some(super::transient::validate_transient(
@@ -444,6 +444,7 @@ fn validate_sensing(
     src: &Source,
     sensing: &RawSensing,
     chamber_length: f64,
+    cell_count: usize,
 ) -> Result<SensingParams, CaseError> {
     let integration_time = src.quantity_or(
         "sensing.integration_time",
@@ -452,7 +453,7 @@ fn validate_sensing(
         Range0::Positive,
         3600.0,
     )?;
-    let decompose = super::decompose::validate_decompose(src, sensing.decompose.as_ref())?;
+    let decompose = super::decompose::validate_decompose(src, sensing.decompose.as_ref(), cell_count)?;
     let readable_error = src.quantity_or(
         "sensing.readable_error",
         sensing.readable_error.as_ref(),

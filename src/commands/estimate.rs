@@ -177,13 +177,7 @@ pub fn execute(case_path: &Path, json: bool, node_memory: Option<f64>) -> anyhow
     if json {
         println!("{}", serde_json::to_string_pretty(&serde_json::to_value(estimates.summary())?)?);
     } else {
-        for warning in &case.warnings {
-            eprintln!("warning: {warning}");
-        }
-        if let Some(warning) = &estimates.flow_resolution {
-            eprintln!("warning: {warning}");
-        }
-        if let Some(warning) = &estimates.boundary_layer {
+        for warning in crate::engine::case_warnings(&case) {
             eprintln!("warning: {warning}");
         }
         print!("{}", estimates.table(&case));

@@ -11,7 +11,7 @@ use solver::flow::brinkman::resolution::check_resolution;
 use solver::flow::brinkman::{BrinkmanMedium, ScreeningLengthWarning};
 use solver::linalg::{KrylovParams, MultigridParams};
 use solver::post::chamber_estimates::{Background, ChamberEstimates, ChamberInputs};
-use solver::post::decompose::{decompose, DecomposeInputs, DecomposeSelection, SplitMode};
+use solver::post::decompose::{decompose, DecomposeInputs, SplitMode};
 use solver::post::estimates::{CellEstimateInputs, IsolatedFlow, SensingEstimate};
 use solver::post::{CellSensing, SensingModel};
 use solver::problem::SurfaceUptake;
@@ -19,7 +19,6 @@ use solver::solve_case::SteadySolution;
 use solver::transport::boundary_layer::{check_boundary_layer, BoundaryLayerWarning};
 
 use crate::case::Case;
-use crate::exit::InputError;
 use crate::io::table::{CellTable, Column, ColumnValues};
 use crate::outputs::columns::{split_columns, SPLIT_COLUMNS};
 use crate::outputs::summary::{
@@ -269,15 +268,7 @@ pub struct SelfNeighbourSplit {
 /// operator of the total solve) and turns the split into columns.
 pub fn split_self_and_neighbours(case: &Case, solved: &SteadySolution) -> anyhow::Result<SelfNeighbourSplit> {
     let cells = case.layout.cells.len();
-    if let DecomposeSelection::Cells(ids) = &case.sensing.decompose {
-        if let Some(bad) = ids.iter().find(|&&id| id >= cells) {
-            return Err(InputError(format!(
-                "sensing.decompose lists cell id {bad}, but the layout has {cells} cells (ids 0 to {})",
-                cells.saturating_sub(1)
-            ))
-            .into());
-        }
-    }
+    // Listed ids were checked against the layout when the case was validated.
     let chosen = case.sensing.decompose.choose(cells);
     let mut splits = Vec::new();
     let mut summary = SplitSummary {

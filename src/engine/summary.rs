@@ -32,7 +32,7 @@ pub struct RunMeasures<'a> {
 
 /// The sections that differ between steady and transient runs.
 pub struct RunSections {
-    pub timing_s: Resources,
+    pub resources: Resources,
     pub flow: FlowSummary,
     pub transport: TransportSummary,
     pub mass_balance: MassBalanceSummary,
@@ -45,7 +45,10 @@ fn units(table: &CellTable) -> BTreeMap<String, Unit> {
     let one = |key: &str, unit: &str| (key.to_string(), Unit::One(unit.to_string()));
     let mut units: BTreeMap<String, Unit> = [
         one("grid.spacing", "m"),
-        one("timing_s", "s"),
+        one("resources.*.wall_s", "s"),
+        one("resources.total_s", "s"),
+        one("resources.*.peak_resident_bytes", "bytes"),
+        one("resources.self_neighbour", "s"),
         one("flow.mean_velocity", "m/s"),
         one("flow.max_divergence", "1/s"),
         one("flow.pressure_drop", "Pa"),
@@ -118,7 +121,7 @@ impl RunSummary {
                 spacing: case.grid.spacing,
                 origin: case.grid.origin,
             },
-            timing_s: sections.timing_s,
+            resources: Some(sections.resources),
             flow: sections.flow,
             transport: sections.transport,
             mass_balance: sections.mass_balance,

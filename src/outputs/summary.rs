@@ -2,8 +2,8 @@
 //! through the same type by `collect` and the figures.
 //!
 //! The file is the structure serialised with its keys in alphabetical order at every level, pretty-printed
-//! and newline-terminated. Everything that varies between reruns of the same case (wall times, the cost of the
-//! self/neighbour split) is in [`Resources`] (`timing_s`); the rest of the file is the same byte for byte when
+//! and newline-terminated. Everything that varies between reruns of the same case (wall times, peak memory, the
+//! cost of the self/neighbour split) is in [`Resources`] (`resources`); the rest of the file is the same byte for byte when
 //! a case is run again on the same machine and thread count. Non-finite numbers are written as `null` (JSON has
 //! none); fields that may hold one read `null` back as NaN.
 //!
@@ -27,8 +27,10 @@ pub struct RunSummary {
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub solve_mode: Option<String>,
     pub grid: GridSummary,
-    /// Measured resources: the only section that changes when the same case runs again.
-    pub timing_s: Resources,
+    /// Measured resources: the only section that changes when the same case runs again. Summaries of
+    /// versions before this section was named `resources` (`timing_s`) read as `None`.
+    #[serde(default, skip_serializing_if = "Option::is_none", deserialize_with = "current_resources")]
+    pub resources: Option<Resources>,
     pub flow: FlowSummary,
     pub transport: TransportSummary,
     pub mass_balance: MassBalanceSummary,
@@ -51,26 +53,75 @@ pub struct GridSummary {
     pub origin: [f64; 3],
 }
 
-/// Wall times of the run's stages (s) and the cost of the self/neighbour split.
-#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+/// Measured resources of the run (`summary.json` → `resources`): wall time (s) and peak resident memory
+/// (bytes) of each stage it went through, in run order geometry, flow, transport, post, self_neighbour_split,
+/// write (transient runs: steady_reference and time_loop instead of transport and post), the whole run's wall
+/// time and the cost of the self/neighbour split.
+#[derive(Clone, Debug, Default, PartialEq, Serialize, Deserialize)]
 pub struct Resources {
-    pub geometry: f64,
-    pub flow: f64,
-    /// Steady runs: the transport solve and the per-cell sensing.
     #[serde(default, skip_serializing_if = "Option::is_none")]
-    pub transport: Option<f64>,
+    pub geometry: Option<StageCost>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
-    pub post: Option<f64>,
-    /// Transient runs: the steady reference and the time loop.
+    pub flow: Option<StageCost>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
-    pub steady_reference: Option<f64>,
+    pub transport: Option<StageCost>,
+    /// Per-cell sensing and the mass balance.
     #[serde(default, skip_serializing_if = "Option::is_none")]
-    pub time_loop: Option<f64>,
-    pub write: f64,
-    pub total: f64,
+    pub post: Option<StageCost>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub self_neighbour_split: Option<StageCost>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub steady_reference: Option<StageCost>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub time_loop: Option<StageCost>,
+    /// The output files up to `summary.json` (figures are drawn after it).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub write: Option<StageCost>,
+    pub total_s: f64,
+    pub peak_memory_scope: PeakScope,
     /// Steady runs that split some cells' fields into own and neighbour parts.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub self_neighbour: Option<SplitCost>,
+}
+
+/// What a stage's `peak_resident_bytes` covers.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum PeakScope {
+    /// The stage alone: the kernel's high-water mark was reset when it started.
+    Stage,
+    /// The process from its start to the stage's end (the kernel refused the reset).
+    SinceStart,
+    /// Not measured (no `/proc`, or cases of a sweep sharing one process): the peaks are `null`.
+    #[default]
+    Unavailable,
+}
+
+/// One stage: wall time (s) and peak resident set (bytes; `None` where it cannot be measured).
+#[derive(Clone, Copy, Debug, Default, PartialEq, Serialize, Deserialize)]
+pub struct StageCost {
+    pub wall_s: f64,
+    pub peak_resident_bytes: Option<u64>,
+}
+
+impl Resources {
+    /// The largest stage peak (bytes), if any was measured.
+    pub fn peak_resident_bytes(&self) -> Option<u64> {
+        [
+            self.geometry,
+            self.flow,
+            self.transport,
+            self.post,
+            self.self_neighbour_split,
+            self.steady_reference,
+            self.time_loop,
+            self.write,
+        ]
+        .iter()
+        .flatten()
+        .filter_map(|c| c.peak_resident_bytes)
+        .max()
+    }
 }
 
 /// Wall time of the self/neighbour split (s).
@@ -414,6 +465,12 @@ fn real<'de, D: Deserializer<'de>>(deserializer: D) -> Result<f64, D::Error> {
     Ok(Option::<f64>::deserialize(deserializer)?.unwrap_or(f64::NAN))
 }
 
+/// The `resources` section, or `None` for a section this version does not read (written by an older one).
+fn current_resources<'de, D: Deserializer<'de>>(deserializer: D) -> Result<Option<Resources>, D::Error> {
+    let value = Option::<serde_json::Value>::deserialize(deserializer)?;
+    Ok(value.and_then(|v| Resources::deserialize(v).ok()))
+}
+
 /// [`real`] for every element.
 fn reals<'de, D: Deserializer<'de>>(deserializer: D) -> Result<Vec<f64>, D::Error> {
     Ok(Vec::<Option<f64>>::deserialize(deserializer)?.into_iter().map(|v| v.unwrap_or(f64::NAN)).collect())
@@ -438,7 +495,28 @@ impl RunSummary {
 
 #[cfg(test)]
 mod tests {
-    use super::Unbounded;
+    use super::*;
+
+    #[test]
+    fn resources_round_trip_and_an_older_timing_section_reads_as_none() {
+        let stage = |wall_s, peak| Some(StageCost { wall_s, peak_resident_bytes: peak });
+        let r = Resources {
+            geometry: stage(0.5, Some(1 << 30)),
+            write: stage(1.5, None),
+            total_s: 2.0,
+            peak_memory_scope: PeakScope::Stage,
+            ..Resources::default()
+        };
+        assert_eq!(r.peak_resident_bytes(), Some(1 << 30));
+        let json = serde_json::to_value(&r).unwrap();
+        assert_eq!(json["peak_memory_scope"], "stage");
+        assert!(json.get("flow").is_none());
+        let de = |v: serde_json::Value| current_resources(v).unwrap();
+        assert_eq!(de(json), Some(r));
+        let old = serde_json::json!({ "geometry": 0.1, "flow": 0.2, "write": 0.3, "total": 0.7 });
+        assert_eq!(de(old), None);
+        assert_eq!(de(serde_json::Value::Null), None);
+    }
 
     #[test]
     fn unbounded_numbers_write_infinity_as_text_and_read_it_back() {

@@ -107,9 +107,11 @@ pub fn draw_sweep_figures(
         .iter()
         .enumerate()
         .filter(|(_, axis)| !axis.replicate)
-        .filter_map(|(a, axis)| match &table.column(&axis.key)?.data {
-            ColumnData::Real(v) => Some((a, Values::Numbers(v))),
-            ColumnData::Text(v) => Some((a, Values::Categories(v.clone()))),
+        .filter_map(|(a, axis)| match table.column(&axis.key).map(|c| &c.data) {
+            Some(ColumnData::Real(v)) => Some((a, Values::Numbers(v))),
+            Some(ColumnData::Text(v)) => Some((a, Values::Categories(v.clone()))),
+            // An axis of whole tables: one category per distinct table.
+            None => super::table_axis::table_axis_labels(table, a).map(|v| (a, Values::Categories(v))),
         })
         .collect();
     if parameters.is_empty() || metrics.is_empty() {

@@ -26,6 +26,7 @@ use solver::solve_transient::{
 
 use crate::case::transient::{InitialCondition, TransientSolve, STEADY_DISTANCE};
 use crate::case::{Case, OutputField};
+use crate::engine::stages::{MeteredStage, StageMeter};
 use crate::exit::{InputError, SolverFailure};
 use crate::io::cells_csv::write_cells_csv;
 use crate::io::fields_h5::FieldData;
@@ -35,8 +36,8 @@ use crate::io::transient_h5::{output_dataset_name, write_transient_fields_h5, Ou
 use crate::io::xdmf_temporal::{write_temporal_xmf, TemporalGrid};
 use crate::outputs::columns::cell_pressure_drop_column;
 use crate::outputs::summary::{
-    FlowChange, FlowMode, FlowSummary, OutputSeries, Resources, RunSummary, Stepping, TransientSummary,
-    TransportMode, TransportSummary,
+    FlowChange, FlowMode, FlowSummary, OutputSeries, RunSummary, Stepping, TransientSummary, TransportMode,
+    TransportSummary,
 };
 
 use super::summary::{mass_balance, RunMeasures, RunSections};
@@ -167,20 +168,24 @@ pub fn execute(case: &Case, out_dir: &Path, destination: &Path, options: &Transi
         STEADY_DISTANCE,
     );
     let started = Instant::now();
-    let solution =
-        solve_transient_case(&tcase, initial, resume, &mut observer, &mut |stage| progress.stage(stage))
-            .map_err(solve_error)?;
+    // Quiet runs are a sweep's cases, side by side in one process: times only, the process's peak is theirs.
+    let mut meter = if options.quiet { StageMeter::times_only() } else { StageMeter::new() };
+    let solution = solve_transient_case(&tcase, initial, resume, &mut observer, &mut |stage| {
+        progress.stage(stage);
+        meter.begin(MeteredStage::of(stage, false));
+    })
+    .map_err(solve_error)?;
     let checkpoints = observer.checkpoints_written;
     let final_part = observer.last_output.take();
     drop(observer);
 
     progress.writing();
-    let write_started = Instant::now();
+    meter.begin(MeteredStage::Write);
     let state = &solution.state;
     let Some(final_part) = final_part else {
         return Err(anyhow::anyhow!("the run ended without an output at its final time"));
     };
-    write_outputs(case, t, &solution, &final_part, out_dir, started, write_started, checkpoints)?;
+    write_outputs(case, t, &solution, &final_part, out_dir, &meter, checkpoints)?;
     // The run is complete: its restart data are no longer needed.
     std::fs::remove_dir_all(&parts).with_context(|| format!("cannot remove {}", parts.display()))?;
     let checkpoint = restart_files::checkpoint_path(out_dir);
@@ -332,8 +337,7 @@ fn write_outputs(
     solution: &TransientSolution,
     final_part: &OutputPart,
     out_dir: &Path,
-    started: Instant,
-    write_started: Instant,
+    meter: &StageMeter,
     checkpoints: usize,
 ) -> Result<()> {
     let state = &solution.state;
@@ -447,8 +451,7 @@ fn write_outputs(
         .collect();
     write_temporal_xmf(&out_dir.join("fields.xmf"), "fields.h5", &case.grid, &steps)?;
 
-    let summary =
-        run_summary(case, t, solution, final_part, &parts, &table, started, write_started, checkpoints);
+    let summary = run_summary(case, t, solution, final_part, &parts, &table, meter, checkpoints);
     crate::engine::sensing_outputs::write_sensing_by_position_of(&summary, &table, out_dir)?;
     summary.write(&out_dir.join("summary.json"))?;
     if case.output.figures {
@@ -470,14 +473,12 @@ fn run_summary(
     final_part: &OutputPart,
     parts: &[OutputPart],
     table: &CellTable,
-    started: Instant,
-    write_started: Instant,
+    meter: &StageMeter,
     checkpoints: usize,
 ) -> RunSummary {
     let state = &solution.state;
     let last_flow = &solution.flows[solution.flows.len() - 1];
     let b = &final_part.balance;
-    let timing = solution.timing;
     let has_outlet = case.boundaries.faces.iter().flatten().any(|f| *f == ChamberFace::Outlet);
     let measures = RunMeasures {
         case,
@@ -488,17 +489,7 @@ fn run_summary(
         warnings: &transient_warnings(case),
     };
     let sections = RunSections {
-        timing_s: Resources {
-            geometry: timing.geometry,
-            flow: timing.flow,
-            transport: None,
-            post: None,
-            steady_reference: Some(timing.steady_reference),
-            time_loop: Some(timing.time_loop),
-            write: write_started.elapsed().as_secs_f64(),
-            total: started.elapsed().as_secs_f64(),
-            self_neighbour: None,
-        },
+        resources: meter.resources(None),
         flow: FlowSummary {
             model: case.flow.medium.name().to_string(),
             mean_velocity: case.flow.mean_velocity,
