@@ -31,6 +31,9 @@ pub struct CellRow {
     pub anisotropy_along_flow: f64,
     pub direction_error: f64,
     pub estimate_anisotropy_along_flow: Option<f64>,
+    /// Along-flow parts of the anisotropy from the cell's own secretion and from the rest, for a cell with the
+    /// self/neighbour split.
+    pub split_along_flow: Option<[f64; 2]>,
 }
 
 /// Everything the run figures show.
@@ -111,6 +114,7 @@ fn read_cells(path: &Path) -> anyhow::Result<Vec<CellRow>> {
         need("direction_error")?,
     ];
     let estimate = find("estimate_anisotropy_along_flow");
+    let split = find("anisotropy_from_self_along_flow").zip(find("anisotropy_from_neighbours_along_flow"));
     let mut rows = Vec::new();
     for record in reader.records() {
         let record = record?;
@@ -122,6 +126,8 @@ fn read_cells(path: &Path) -> anyhow::Result<Vec<CellRow>> {
             anisotropy_along_flow: v(cols[7]),
             direction_error: v(cols[8]),
             estimate_anisotropy_along_flow: estimate.map(v).filter(|x| x.is_finite()),
+            // Not split: NaN in both columns.
+            split_along_flow: split.map(|(a, b)| [v(a), v(b)]).filter(|p| p.iter().any(|x| !x.is_nan())),
         });
     }
     Ok(rows)
