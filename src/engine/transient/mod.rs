@@ -358,13 +358,7 @@ fn write_outputs(
 
     let phases = solution.flows.len();
     let mut fields = Vec::new();
-    let field = |group: &str, name: &str, unit: &str, description: &str, values: &[f64]| FieldData {
-        group: group.into(),
-        name: name.into(),
-        unit: unit.into(),
-        description: description.into(),
-        values: values.to_vec(),
-    };
+    let field = FieldData::borrowed;
     for (phase, flow) in solution.flows.iter().enumerate() {
         let group = flow_group(phase, phases);
         let when = if group == "flow" { "at the end of the run" } else { "before flow.change_at" };
@@ -429,6 +423,7 @@ fn write_outputs(
         cells: &table,
         timeseries: &series,
         provenance: &provenance,
+        storage: case.output.storage,
     };
     // One hold of HDF5's process-wide lock for the whole file, as `report.rs` does for steady runs: transient
     // cases of a sweep writing at once take turns file by file instead of alternating call by call.
@@ -454,7 +449,13 @@ fn write_outputs(
             TemporalGrid { time: o.time, scalars, velocity }
         })
         .collect();
-    write_temporal_xmf(&out_dir.join("fields.xmf"), "fields.h5", &case.grid, &steps)?;
+    write_temporal_xmf(
+        &out_dir.join("fields.xmf"),
+        "fields.h5",
+        &case.grid,
+        &steps,
+        case.output.storage.precision,
+    )?;
 
     let summary = run_summary(case, t, solution, final_part, &parts, &table, meter, checkpoints);
     crate::engine::sensing_outputs::write_sensing_by_position_of(&summary, &table, out_dir)?;
