@@ -239,8 +239,16 @@ pub(super) fn validate(raw: RawCase, text: &str, path: &Path) -> Result<Case, Ca
     let (raw_solve, solve_span) = section(raw.solve);
     let mut solve = validate_solve(&src, &raw_solve)?;
     let (raw_sensing, _) = section(raw.sensing);
-    let sensing = validate_sensing(&src, &raw_sensing, fitted.size[0])?;
+    let sensing = validate_sensing(&src, &raw_sensing, fitted.size[0], placed.layout.cells.len())?;
     if solve.mode == SolveMode::Transient {
+        if let Some(v) = &raw_sensing.decompose {
+            // Said once rather than ignored: a transient run writes no split columns.
+            warnings.push(format!(
+                "{} line {}: sensing.decompose is not carried out in transient runs (no self/neighbour columns are written); run the case with solve.mode = \"steady\" for the split",
+                path.display(),
+                src.line(&v.span())
+            ));
+        }
         let case_dir = path.parent().unwrap_or(Path::new("."));
         solve.transient = Some(super::transient::validate_transient(
             &src,
@@ -444,6 +452,7 @@ fn validate_sensing(
     src: &Source,
     sensing: &RawSensing,
     chamber_length: f64,
+    cell_count: usize,
 ) -> Result<SensingParams, CaseError> {
     let integration_time = src.quantity_or(
         "sensing.integration_time",
@@ -452,7 +461,7 @@ fn validate_sensing(
         Range0::Positive,
         3600.0,
     )?;
-    let decompose = super::decompose::validate_decompose(src, sensing.decompose.as_ref())?;
+    let decompose = super::decompose::validate_decompose(src, sensing.decompose.as_ref(), cell_count)?;
     let readable_error = src.quantity_or(
         "sensing.readable_error",
         sensing.readable_error.as_ref(),

@@ -30,7 +30,7 @@ use super::assemble_momentum::MomentumBlock;
 use super::momentum_rows::{MomentumRows, PressureStencil};
 use super::pressure_gradient::PressureCoupling;
 use crate::linalg::multigrid::{Multigrid, MultigridWork};
-use crate::linalg::{AdvectionScheme, FaceCoupledOperator, MultigridParams};
+use crate::linalg::{AdvectionScheme, FaceCoupledOperator, MultigridParams, SparseVector};
 use rayon::prelude::*;
 
 /// The assembled system with its preconditioner hierarchies. The face arrays of the momentum blocks are
@@ -170,6 +170,22 @@ impl SaddleSystem {
                 }
             },
         );
+    }
+
+    /// Largest |net outflow| / grid-cell volume left in the continuity rows at `x` (in the velocity unit of `x`
+    /// per metre): `|(s Gᵀ u − b_p)_P| / (s h³)` over the pressure unknowns.
+    pub fn continuity_peak(&self, x: &[f64], rhs: &SparseVector) -> f64 {
+        let xs = self.split(x);
+        let mut r = vec![0.0; self.coupling.grid.len()];
+        self.coupling.divergence_transpose([xs[0], xs[1], xs[2]], self.scale, &mut r);
+        for &(i, b) in rhs.entries.iter().filter(|(i, _)| *i >= self.offsets[3]) {
+            r[i - self.offsets[3]] -= b;
+        }
+        let volume = self.scale * self.coupling.grid.cell_volume();
+        r.par_iter()
+            .zip(self.coupling.pressure_active.par_iter())
+            .map(|(&r, &a)| if a { r.abs() / volume } else { 0.0 })
+            .reduce(|| 0.0, f64::max)
     }
 
     pub fn work(&self) -> PreconditionerWork {

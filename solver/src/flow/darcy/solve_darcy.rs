@@ -63,7 +63,7 @@ pub fn solve_darcy(
     };
     let drag = pressure_force(geometry, stencils, &pressure, cells);
     let velocity = FlowField::cell_velocity(grid, &face_flux);
-    let max_divergence = FlowField::max_divergence(grid, &face_flux, &active);
+    let divergence = crate::flow::divergence_peak(grid, &face_flux, &active);
     Ok(FlowField {
         face_flux,
         pressure,
@@ -71,7 +71,8 @@ pub fn solve_darcy(
         drag,
         iterations: info.iterations,
         relative_residual: info.relative_residual,
-        max_divergence,
+        max_divergence: divergence.value,
+        max_divergence_cell: divergence.grid_cell,
         pressure_drop,
     })
 }
