@@ -134,7 +134,7 @@ impl RunSummary {
                 peclet_chamber: case.flow.mean_velocity * case.chamber_size[0] / d,
                 per_cell: column_aggregates(m.table),
                 self_neighbour: sections.self_neighbour,
-                case: estimates.to_json(),
+                case: estimates.summary(),
             },
             cells: CellsSummary { count, volume_fraction: cell_volume_fraction, number_density },
             sensing: Some(super::sensing_outputs::run_statistics(case, m.table)),

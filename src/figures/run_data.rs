@@ -73,11 +73,15 @@ impl RunFigureData {
         let grid = &summary.grid;
         let extent = [0, 1, 2].map(|a| grid.shape[a] as f64 * grid.spacing);
         let estimates = &summary.estimates;
-        let dense = &estimates.case["profile_dense"];
-        let xs = dense["x"].as_array().cloned().unwrap_or_default();
-        let values = dense["anisotropy_along_flow"].as_array().cloned().unwrap_or_default();
-        let meanfield_profile =
-            xs.iter().zip(&values).filter_map(|(x, a)| Some((x.as_f64()?, a.as_f64()?))).collect();
+        let dense = &estimates.case.profile_dense;
+        // A value written as null (not finite) is not drawn.
+        let meanfield_profile = dense
+            .x
+            .iter()
+            .zip(&dense.anisotropy_along_flow)
+            .filter(|(_, a)| !a.is_nan())
+            .map(|(&x, &a)| (x, a))
+            .collect();
         let plane = read_mid_plane(&dir.join("fields.h5")).ok().flatten();
         Ok(RunFigureData {
             title: summary.title.clone(),
@@ -86,7 +90,7 @@ impl RunFigureData {
             cells,
             meanfield_profile,
             isolated_anisotropy: estimates.isolated_anisotropy,
-            integration_time: estimates.case["integration_time"].as_f64(),
+            integration_time: Some(estimates.case.integration_time),
             readable_error: summary.sensing.as_ref().map_or(DEFAULT_READABLE_ERROR, |s| s.readable_error),
         })
     }
