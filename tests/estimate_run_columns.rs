@@ -97,11 +97,28 @@ fn bad_decompose_values_are_input_errors_naming_the_key() {
         ("\"some\"", "sensing.decompose"),
         ("\"sample:0\"", "sensing.decompose"),
         ("[1, -2]", "sensing.decompose[1]"),
-        ("[0, 99]", "sensing.decompose lists cell id 99"),
+        ("[0, 99]", "sensing.decompose[1] = 99 is not a cell of the layout"),
     ] {
         let out = run(dir.path(), &case_text(value));
         assert_eq!(out.status.code(), Some(2), "{value}");
         let stderr = String::from_utf8_lossy(&out.stderr);
         assert!(stderr.contains(needle), "{value}: {stderr}");
+        assert!(!dir.path().join("out").exists(), "{value}: nothing is written");
     }
+}
+
+/// An id beyond the layout is an error of the case, found before anything is solved: `estimate`, which solves
+/// nothing, refuses it too.
+#[test]
+fn decompose_ids_are_checked_with_the_case() {
+    let dir = tempfile::tempdir().unwrap();
+    let case = dir.path().join("case.toml");
+    std::fs::write(&case, case_text("[3, 6]")).unwrap();
+    let out = Command::new(env!("CARGO_BIN_EXE_plumefield"))
+        .args(["estimate", case.to_str().unwrap()])
+        .output()
+        .expect("runs");
+    assert_eq!(out.status.code(), Some(2));
+    let stderr = String::from_utf8_lossy(&out.stderr);
+    assert!(stderr.contains("sensing.decompose[1] = 6 is not a cell of the layout"), "{stderr}");
 }

@@ -10,7 +10,7 @@ use std::path::Path;
 
 use plumefield::io::{
     write_cells_csv, write_fields_h5, write_fields_xmf, write_summary_json, CellTable, Column, FieldData,
-    Provenance,
+    FieldStorage, Precision, Provenance,
 };
 
 /// Seeded values with awkward decimals, uniform in [0, 1).
@@ -41,6 +41,11 @@ const CELL_COLUMNS: [(&str, &str); 18] = [
 
 /// Writes fields.h5, fields.xmf, cells.csv and summary.json of a small synthetic run into `dir`.
 fn write_synthetic_run(dir: &Path) -> anyhow::Result<()> {
+    write_synthetic_run_as(dir, FieldStorage::default())
+}
+
+/// [`write_synthetic_run`] with the 3-D fields stored as `storage` says.
+fn write_synthetic_run_as(dir: &Path, storage: FieldStorage) -> anyhow::Result<()> {
     let grid = mesh::Grid::new([-1.0e-5, 2.0e-6, 3.3e-6], 2.0e-6, [7, 5, 4]);
     let mut rng = seeded(7);
     let mut field = |group: &str, name: &str, unit: &str, scale: f64| FieldData {
@@ -48,7 +53,7 @@ fn write_synthetic_run(dir: &Path) -> anyhow::Result<()> {
         name: name.into(),
         unit: unit.into(),
         description: format!("synthetic {name}"),
-        values: (0..grid.len()).map(|_| scale * (rng.next_f64() - 0.25)).collect(),
+        values: (0..grid.len()).map(|_| scale * (rng.next_f64() - 0.25)).collect::<Vec<f64>>().into(),
     };
     let fields = vec![
         field("flow", "u", "m/s", 2e-6),
@@ -88,8 +93,8 @@ fn write_synthetic_run(dir: &Path) -> anyhow::Result<()> {
         case_text,
         command_line: "plumefield run synthetic.toml".into(),
     };
-    write_fields_h5(&dir.join("fields.h5"), &grid, &volume_fraction, &fields, &cells, &provenance)?;
-    write_fields_xmf(&dir.join("fields.xmf"), "fields.h5", &grid, &fields)?;
+    write_fields_h5(&dir.join("fields.h5"), &grid, &volume_fraction, &fields, &cells, &provenance, storage)?;
+    write_fields_xmf(&dir.join("fields.xmf"), "fields.h5", &grid, &fields, storage.precision)?;
     write_cells_csv(&dir.join("cells.csv"), &cells)?;
     write_summary_json(
         &dir.join("summary.json"),
@@ -115,6 +120,27 @@ fn outside_readers_accept_the_outputs() {
     assert!(stdout.contains("all output checks passed"));
     if vtk {
         assert!(stdout.contains("VTK vtkXdmfReader opens it"), "VTK part did not run");
+    }
+}
+
+#[test]
+fn outside_readers_accept_single_precision_and_every_compression() {
+    let Some(python::Readers { vtk }) = python::readers() else { return };
+    for (precision, compression, label) in [
+        (Precision::Single, 1, "32-bit, gzip"),
+        (Precision::Single, 9, "32-bit, gzip"),
+        (Precision::Double, 0, "64-bit, uncompressed"),
+        (Precision::Single, 0, "32-bit, uncompressed"),
+    ] {
+        let dir = tempfile::tempdir().unwrap();
+        write_synthetic_run_as(dir.path(), FieldStorage { precision, compression }).unwrap();
+        let out = run_check(dir.path(), vtk);
+        assert!(out.status.success(), "check_outputs.py failed for {precision:?} level {compression}");
+        let stdout = String::from_utf8_lossy(&out.stdout);
+        assert!(stdout.contains(label), "{precision:?} level {compression}: {stdout}");
+        if vtk {
+            assert!(stdout.contains("VTK vtkXdmfReader opens it"), "VTK part did not run");
+        }
     }
 }
 

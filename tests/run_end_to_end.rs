@@ -47,6 +47,32 @@ fn summary_number(summary: &str, path: &[&str]) -> f64 {
     v.as_f64().unwrap_or_else(|| panic!("{path:?} is not a number in summary.json"))
 }
 
+/// Every stage of a steady run has its wall time and, where the kernel resets the high-water mark, its own
+/// peak resident memory: at least the grid-sized fields alive in it, at most the run's peak.
+fn check_stage_resources(summary: &str) {
+    let v: serde_json::Value = serde_json::from_str(summary).expect("summary.json parses");
+    let r = &v["resources"];
+    assert!(v.get("timing_s").is_none(), "the old section name is gone");
+    let stages = ["geometry", "flow", "transport", "post", "self_neighbour_split", "write"];
+    let scope = r["peak_memory_scope"].as_str().expect("peak_memory_scope");
+    let mut total = 0.0;
+    for stage in stages {
+        let wall = r[stage]["wall_s"].as_f64().unwrap_or_else(|| panic!("resources.{stage}.wall_s"));
+        assert!(wall >= 0.0, "{stage}: {wall}");
+        total += wall;
+        let peak = r[stage]["peak_resident_bytes"].as_u64();
+        match scope {
+            "unavailable" => assert!(peak.is_none(), "{stage}"),
+            _ => assert!(peak.is_some_and(|p| p > 1 << 20), "{stage}: {peak:?}"),
+        }
+    }
+    assert!(total <= r["total_s"].as_f64().expect("total_s") + 1e-6);
+    if scope == "stage" || scope == "since_start" {
+        let status = std::fs::read_to_string("/proc/self/status").expect("/proc on Linux");
+        assert!(status.contains("VmHWM"), "a meter that reads VmHWM");
+    }
+}
+
 #[test]
 fn run_writes_contract_outputs_with_closed_mass_balance() {
     let (out, output) = run(&small_chamber(&INLET_OUTLET), "ok");
@@ -71,6 +97,7 @@ fn run_writes_contract_outputs_with_closed_mass_balance() {
     let divergence = summary_number(&summary, &["flow", "max_divergence"]);
     // Divergence relative to the flow's own scale U/h = 1 /s.
     assert!(divergence < 1e-6, "max divergence {divergence:e} 1/s");
+    check_stage_resources(&summary);
 
     // Outside readers on the real folder (h5py; VTK when importable).
     if common::python::readers().is_some() {

@@ -19,6 +19,8 @@ pub enum Stage {
     Geometry,
     Flow,
     Transport,
+    /// Transient runs: the time steps after the steady reference.
+    TimeLoop,
     Sensing,
 }
 

@@ -15,9 +15,11 @@ use super::CaseError;
 /// Number of cells split when the case does not say.
 pub const DEFAULT_SAMPLE: usize = 4;
 
+/// The selection; listed ids are checked against the layout's `cell_count` here, before anything is solved.
 pub(super) fn validate_decompose(
     src: &Source,
     value: Option<&Spanned<toml::Value>>,
+    cell_count: usize,
 ) -> Result<DecomposeSelection, CaseError> {
     let Some(value) = value else { return Ok(DecomposeSelection::Sample(DEFAULT_SAMPLE)) };
     let span: Range<usize> = value.span();
@@ -49,7 +51,20 @@ pub(super) fn validate_decompose(
             let mut ids = Vec::with_capacity(items.len());
             for (i, item) in items.iter().enumerate() {
                 match item.as_integer() {
-                    Some(id) if id >= 0 => ids.push(id as usize),
+                    Some(id) if id >= 0 && (id as u64) < cell_count as u64 => ids.push(id as usize),
+                    Some(id) if id >= 0 => {
+                        let last = match cell_count {
+                            0 => "it has no cells".to_string(),
+                            n => format!("ids 0 to {}", n - 1),
+                        };
+                        return Err(src.error(
+                            &format!("{key}[{i}]"),
+                            Some(&span),
+                            format!(
+                                "{key}[{i}] = {id} is not a cell of the layout ({cell_count} cells, {last})"
+                            ),
+                        ));
+                    }
                     _ => {
                         return Err(src.error(
                             &format!("{key}[{i}]"),

@@ -8,6 +8,7 @@ use anyhow::{Context, Result};
 
 use crate::exit::{one_line, InputError, SolverFailure};
 use crate::forecast::{format_bytes, format_seconds, Forecast};
+use crate::sweep::collect::finished_case_warnings;
 use crate::sweep::done_marker::{case_state, write_failed, CaseState};
 use crate::sweep::lock::{LockError, SweepLock};
 use crate::sweep::memory_reuse;
@@ -111,6 +112,8 @@ pub(super) struct Checked {
     forecast: Forecast,
     shape: [usize; 3],
     cells: usize,
+    /// What the case is warned about before it is solved.
+    warnings: Vec<String>,
 }
 
 /// Validate the cases `indices` and forecast each (errors name the axis; exit code 2). Cases are parsed on
@@ -127,6 +130,7 @@ pub(super) fn validate(plan: &Plan, indices: &[usize]) -> Result<Vec<Checked>> {
                 forecast: Forecast::of(&case),
                 shape: case.grid.shape,
                 cells: case.layout.cells.len(),
+                warnings: crate::engine::case_warnings(&case),
             })
         })
         .collect();
@@ -206,7 +210,7 @@ fn print_plan(plan: &Plan, dir: &Path, node_memory: Option<f64>) -> Result<()> {
         "id", "status", "grid", "cells", "memory", "time"
     );
     let (mut memory, mut seconds) = (0.0_f64, 0.0);
-    for Checked { index: i, forecast, shape, cells } in checked {
+    for Checked { index: i, forecast, shape, cells, warnings } in checked {
         let status = match case_state(&plan.case_dir(dir, i), &plan.cases[i].sha256) {
             CaseState::Done(_) => "done",
             CaseState::Failed(_) => "failed",
@@ -224,6 +228,9 @@ fn print_plan(plan: &Plan, dir: &Path, node_memory: Option<f64>) -> Result<()> {
             format_seconds(forecast.seconds_one_thread),
             plan.describe(i)
         );
+        for warning in warnings {
+            println!("{:<11} warning: {warning}", "");
+        }
     }
     println!(
         "largest case needs about {}; all cases about {} of one core (forecast from the grid size)",
@@ -264,6 +271,9 @@ pub(super) fn run_task(plan: &Plan, dir: &Path, task: usize, threads: Option<usi
     match pool.install(|| run_case(plan, dir, task, threads, OutputSync::EachFile)) {
         Ok(marker) => {
             eprintln!("{} done in {:.2} s", planned.id, marker.elapsed_s);
+            for warning in finished_case_warnings(&case_dir) {
+                eprintln!("{} warning: {warning}", planned.id);
+            }
             Ok(())
         }
         Err(record) => {
@@ -513,6 +523,9 @@ pub(super) fn run_batch(
                 plan.cases[index].id,
                 plan.describe(index)
             );
+            for warning in finished_case_warnings(&plan.case_dir(dir, index)) {
+                eprintln!("sweep ▸ {} warning: {warning}", plan.cases[index].id);
+            }
         }
         CaseEvent::Failed { index, error } => {
             let k = counter.fetch_add(1, std::sync::atomic::Ordering::SeqCst) + 1;

@@ -7,7 +7,7 @@
 pub mod estimates;
 mod report;
 pub mod sensing_outputs;
-mod stages;
+pub mod stages;
 mod summary;
 pub mod transient;
 
@@ -17,6 +17,7 @@ use crate::io::output_folder::{LeftStaging, OutputFolder, OutputFolderError};
 use anyhow::{Context, Result};
 use solver::linalg::KrylovParams;
 use solver::solve_case::{solve_steady_case, SteadyCase, SteadySolution};
+use stages::{MeteredStage, StageMeter};
 use std::path::Path;
 use std::time::Instant;
 
@@ -76,6 +77,15 @@ pub fn solution_warnings(case: &Case, solution: &SteadySolution) -> Vec<String> 
     warnings
 }
 
+/// Every warning a case gets before it is solved: the case's own (from validation), the Brinkman resolution
+/// guard and the boundary-layer guard of the stream. The solve may add its own (see [`solution_warnings`]).
+pub fn case_warnings(case: &Case) -> Vec<String> {
+    let mut warnings = case.warnings.clone();
+    warnings.extend(flow_resolution_warning(case));
+    warnings.extend(estimates::boundary_layer_warning(case).map(|w| w.to_string()));
+    warnings
+}
+
 /// The Brinkman resolution guard, told before the solve starts.
 fn flow_resolution_warning(case: &Case) -> Option<String> {
     let medium = solver::flow::brinkman::BrinkmanMedium::from_model(case.flow.medium)?;
@@ -127,15 +137,18 @@ pub fn execute_with(
     }
     let progress = stages::StageProgress::new(5);
     let started = Instant::now();
-    let solved = solve_steady_case(&steady_case(case), &mut |stage| progress.numerical_stage(stage))
-        .map_err(|e| anyhow::Error::new(SolverFailure { message: e.to_string() }))?;
+    let mut meter = StageMeter::new();
+    let solved = solve_steady_case(&steady_case(case), &mut |stage| {
+        progress.numerical_stage(stage);
+        meter.begin(MeteredStage::of(stage, true));
+    })
+    .map_err(|e| anyhow::Error::new(SolverFailure { message: e.to_string() }))?;
     let warnings = solution_warnings(case, &solved);
     for warning in warnings.iter().filter(|&w| Some(w) != told_before.as_ref()) {
         progress.println(&format!("warning: {warning}"));
     }
-    progress.stage("writing outputs");
-    let write_started = Instant::now();
-    report::write_outputs(case, &solved, &warnings, &staging, started, write_started)
+    progress.stage("self/neighbour split and outputs");
+    report::write_outputs(case, &solved, &warnings, &staging, &mut meter)
         .with_context(|| format!("cannot write the outputs of {}", out_dir.display()))?;
     folder.commit().map_err(folder_error)?;
     progress.finish(&format!(

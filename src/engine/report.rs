@@ -1,5 +1,6 @@
 //! Turns a solved case into the output files of DESIGN.md §6: cells.csv, fields.h5 + fields.xmf, summary.json.
 
+use super::stages::{MeteredStage, StageMeter};
 use super::summary::{mass_balance, RunMeasures, RunSections};
 use crate::case::{Case, OutputField};
 use crate::io::cells_csv::write_cells_csv;
@@ -7,14 +8,11 @@ use crate::io::fields_h5::{write_fields_h5, FieldData};
 use crate::io::table::CellTable;
 use crate::io::xdmf::write_fields_xmf;
 use crate::outputs::columns::{cell_columns, cell_pressure_drop_column, CellState, RunKind};
-use crate::outputs::summary::{
-    FlowMode, FlowSummary, Resources, RunSummary, TransportMode, TransportSummary,
-};
+use crate::outputs::summary::{FlowMode, FlowSummary, RunSummary, TransportMode, TransportSummary};
 use anyhow::Result;
 use solver::problem::ChamberFace;
 use solver::solve_case::SteadySolution as SolvedCase;
 use std::path::Path;
-use std::time::Instant;
 
 /// The per-cell table, columns in the order DESIGN.md §6 fixes.
 pub fn cell_table(case: &Case, solved: &SolvedCase) -> CellTable {
@@ -26,15 +24,9 @@ pub fn cell_table(case: &Case, solved: &SolvedCase) -> CellTable {
     table
 }
 
-fn field_data(case: &Case, solved: &SolvedCase) -> Vec<FieldData> {
+fn field_data<'a>(case: &Case, solved: &'a SolvedCase) -> Vec<FieldData<'a>> {
     let mut fields = Vec::new();
-    let f = |group: &str, name: &str, unit: &str, description: &str, values: &[f64]| FieldData {
-        group: group.into(),
-        name: name.into(),
-        unit: unit.into(),
-        description: description.into(),
-        values: values.to_vec(),
-    };
+    let f = FieldData::borrowed;
     for wanted in &case.output.fields {
         match wanted {
             OutputField::Velocity => {
@@ -80,16 +72,18 @@ fn measured_outlet_concentration(case: &Case, solved: &SolvedCase) -> Option<f64
     (flux > 0.0).then(|| carried / flux)
 }
 
+/// The self/neighbour split (its own stage of `meter`), then the output files (the write stage).
 pub fn write_outputs(
     case: &Case,
     solved: &SolvedCase,
     warnings: &[String],
     out_dir: &Path,
-    started: Instant,
-    write_started: Instant,
+    meter: &mut StageMeter,
 ) -> Result<()> {
-    let mut table = cell_table(case, solved);
+    meter.begin(MeteredStage::SelfNeighbourSplit);
     let split = crate::engine::estimates::split_self_and_neighbours(case, solved)?;
+    meter.begin(MeteredStage::Write);
+    let mut table = cell_table(case, solved);
     for warning in &split.warnings {
         eprintln!("warning: {warning}");
     }
@@ -110,11 +104,17 @@ pub fn write_outputs(
             &fields,
             &table,
             &provenance,
+            case.output.storage,
         )
     })?;
-    write_fields_xmf(&out_dir.join("fields.xmf"), "fields.h5", &case.grid, &fields)?;
+    write_fields_xmf(
+        &out_dir.join("fields.xmf"),
+        "fields.h5",
+        &case.grid,
+        &fields,
+        case.output.storage.precision,
+    )?;
 
-    let t = solved.timing;
     let measures = RunMeasures {
         case,
         volume_fraction: &solved.geometry.volume_fraction,
@@ -124,17 +124,7 @@ pub fn write_outputs(
         warnings,
     };
     let sections = RunSections {
-        timing_s: Resources {
-            geometry: t.geometry,
-            flow: t.flow,
-            transport: Some(t.transport),
-            post: Some(t.sensing),
-            steady_reference: None,
-            time_loop: None,
-            write: write_started.elapsed().as_secs_f64(),
-            total: started.elapsed().as_secs_f64(),
-            self_neighbour: split.cost,
-        },
+        resources: meter.resources(split.cost),
         flow: FlowSummary {
             model: case.flow.medium.name().to_string(),
             mean_velocity: case.flow.mean_velocity,

@@ -1,7 +1,13 @@
-//! Progress display for the numerical stages of one run (the numerics are `solver::solve_case`).
+//! The stages of one run as the user sees them: the progress line on stderr and the meter of each stage's wall
+//! time and peak memory for `summary.json` (the numerics are `solver::solve_case`).
+
+use std::time::Instant;
 
 use indicatif::{ProgressBar, ProgressStyle};
+use numkit::meter;
 use solver::solve_case::Stage;
+
+use crate::outputs::summary::{PeakScope, Resources, SplitCost, StageCost};
 
 /// A stage-by-stage progress line on stderr in the house layout, e.g. `plumefield ▸ 2 of 4 · flow · 3s`
 /// (indicatif hides it when stderr is not a terminal).
@@ -30,6 +36,7 @@ impl StageProgress {
             Stage::Geometry => "embedded-boundary geometry",
             Stage::Flow => "flow",
             Stage::Transport => "ligand transport",
+            Stage::TimeLoop => "time steps",
             Stage::Sensing => "per-cell sensing",
         });
     }
@@ -41,5 +48,120 @@ impl StageProgress {
     pub fn finish(&self, message: &str) {
         self.bar.finish_and_clear();
         eprintln!("{message}");
+    }
+}
+
+/// The stages whose wall time and peak resident memory `summary.json` → `resources` records.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum MeteredStage {
+    Geometry,
+    Flow,
+    Transport,
+    Post,
+    SelfNeighbourSplit,
+    SteadyReference,
+    TimeLoop,
+    Write,
+}
+
+impl MeteredStage {
+    /// The metered stage that a numerical stage of the solver starts (`steady`: of a steady run).
+    pub fn of(stage: Stage, steady: bool) -> MeteredStage {
+        match stage {
+            Stage::Geometry => MeteredStage::Geometry,
+            Stage::Flow => MeteredStage::Flow,
+            Stage::Transport if steady => MeteredStage::Transport,
+            Stage::Transport => MeteredStage::SteadyReference,
+            Stage::TimeLoop => MeteredStage::TimeLoop,
+            Stage::Sensing => MeteredStage::Post,
+        }
+    }
+}
+
+/// Wall time and peak resident memory stage by stage. Each stage starts with the kernel's high-water mark
+/// reset to the current resident set (Linux ≥ 4.0, `clear_refs`), so its peak is its own; where the reset is
+/// refused a stage's peak is the process's peak so far, and where `/proc` is missing, or several cases share
+/// the process, there is no peak ([`PeakScope`] says which).
+pub struct StageMeter {
+    started: Instant,
+    scope: PeakScope,
+    current: Option<(MeteredStage, Instant)>,
+    done: Vec<(MeteredStage, StageCost)>,
+}
+
+impl Default for StageMeter {
+    fn default() -> Self {
+        Self::new()
+    }
+}
+
+impl StageMeter {
+    /// Starts the run's clock.
+    pub fn new() -> Self {
+        let scope = if meter::peak_resident_bytes().is_none() {
+            PeakScope::Unavailable
+        } else if meter::reset_peak_resident() {
+            PeakScope::Stage
+        } else {
+            PeakScope::SinceStart
+        };
+        StageMeter { started: Instant::now(), scope, current: None, done: Vec::new() }
+    }
+
+    /// Wall times only, and no reset of the process's high-water mark (for cases that share the process).
+    pub fn times_only() -> Self {
+        StageMeter { started: Instant::now(), scope: PeakScope::Unavailable, current: None, done: Vec::new() }
+    }
+
+    /// Ends the current stage (if any) and starts `stage`.
+    pub fn begin(&mut self, stage: MeteredStage) {
+        self.end();
+        if self.scope == PeakScope::Stage && !meter::reset_peak_resident() {
+            self.scope = PeakScope::SinceStart;
+        }
+        self.current = Some((stage, Instant::now()));
+    }
+
+    /// Ends the current stage.
+    pub fn end(&mut self) {
+        if let Some((stage, _)) = self.current {
+            let cost = self.current_cost();
+            self.done.push((stage, cost));
+            self.current = None;
+        }
+    }
+
+    fn current_cost(&self) -> StageCost {
+        let wall_s = self.current.map_or(0.0, |(_, t)| t.elapsed().as_secs_f64());
+        let peak = match self.scope {
+            PeakScope::Unavailable => None,
+            _ => meter::peak_resident_bytes(),
+        };
+        StageCost { wall_s, peak_resident_bytes: peak }
+    }
+
+    /// The stages so far, the current one measured up to now, and the run's wall time so far.
+    pub fn resources(&self, self_neighbour: Option<SplitCost>) -> Resources {
+        let mut r = Resources {
+            total_s: self.started.elapsed().as_secs_f64(),
+            peak_memory_scope: self.scope,
+            self_neighbour,
+            ..Resources::default()
+        };
+        let current = self.current.map(|(stage, _)| (stage, self.current_cost()));
+        for (stage, cost) in self.done.iter().copied().chain(current) {
+            let slot = match stage {
+                MeteredStage::Geometry => &mut r.geometry,
+                MeteredStage::Flow => &mut r.flow,
+                MeteredStage::Transport => &mut r.transport,
+                MeteredStage::Post => &mut r.post,
+                MeteredStage::SelfNeighbourSplit => &mut r.self_neighbour_split,
+                MeteredStage::SteadyReference => &mut r.steady_reference,
+                MeteredStage::TimeLoop => &mut r.time_loop,
+                MeteredStage::Write => &mut r.write,
+            };
+            *slot = Some(cost);
+        }
+        r
     }
 }

@@ -32,7 +32,7 @@ pub struct RunMeasures<'a> {
 
 /// The sections that differ between steady and transient runs.
 pub struct RunSections {
-    pub timing_s: Resources,
+    pub resources: Resources,
     pub flow: FlowSummary,
     pub transport: TransportSummary,
     pub mass_balance: MassBalanceSummary,
@@ -45,7 +45,10 @@ fn units(table: &CellTable) -> BTreeMap<String, Unit> {
     let one = |key: &str, unit: &str| (key.to_string(), Unit::One(unit.to_string()));
     let mut units: BTreeMap<String, Unit> = [
         one("grid.spacing", "m"),
-        one("timing_s", "s"),
+        one("resources.*.wall_s", "s"),
+        one("resources.total_s", "s"),
+        one("resources.*.peak_resident_bytes", "bytes"),
+        one("resources.self_neighbour", "s"),
         one("flow.mean_velocity", "m/s"),
         one("flow.max_divergence", "1/s"),
         one("flow.pressure_drop", "Pa"),
@@ -57,6 +60,7 @@ fn units(table: &CellTable) -> BTreeMap<String, Unit> {
         one("sensing.statistics_margin", "m"),
         one("sensing.by_position.x_low", "m"),
         one("sensing.by_position.x_high", "m"),
+        one("sensing.time_to_readable", "s"),
     ]
     .into_iter()
     .collect();
@@ -90,6 +94,12 @@ impl RunSummary {
         let number_density = count as f64 / chamber_volume;
         let d = case.ligand.diffusivity;
         let estimates = CaseEstimates::for_case(case);
+        let sensing = super::sensing_outputs::run_statistics(case, m.table);
+        // One line when the per-cell estimate misjudges where cells fail (also kept in `warnings`).
+        let estimate_warning = crate::sensing::statistics::estimate_disagreement(&sensing);
+        if let Some(line) = &estimate_warning {
+            eprintln!("warning: {line}");
+        }
         let meanfield = meanfield_outlet_concentration(
             number_density,
             case.secretion_rate,
@@ -118,7 +128,7 @@ impl RunSummary {
                 spacing: case.grid.spacing,
                 origin: case.grid.origin,
             },
-            timing_s: sections.timing_s,
+            resources: Some(sections.resources),
             flow: sections.flow,
             transport: sections.transport,
             mass_balance: sections.mass_balance,
@@ -131,11 +141,11 @@ impl RunSummary {
                 peclet_chamber: case.flow.mean_velocity * case.chamber_size[0] / d,
                 per_cell: column_aggregates(m.table),
                 self_neighbour: sections.self_neighbour,
-                case: estimates.to_json(),
+                case: estimates.summary(),
             },
             cells: CellsSummary { count, volume_fraction: cell_volume_fraction, number_density },
-            sensing: Some(super::sensing_outputs::run_statistics(case, m.table)),
-            warnings: case.warnings.iter().chain(m.warnings).cloned().collect(),
+            sensing: Some(sensing.clone()),
+            warnings: case.warnings.iter().chain(m.warnings).cloned().chain(estimate_warning).collect(),
             units,
         }
     }

@@ -2,8 +2,8 @@
 //! through the same type by `collect` and the figures.
 //!
 //! The file is the structure serialised with its keys in alphabetical order at every level, pretty-printed
-//! and newline-terminated. Everything that varies between reruns of the same case (wall times, the cost of the
-//! self/neighbour split) is in [`Resources`] (`timing_s`); the rest of the file is the same byte for byte when
+//! and newline-terminated. Everything that varies between reruns of the same case (wall times, peak memory, the
+//! cost of the self/neighbour split) is in [`Resources`] (`resources`); the rest of the file is the same byte for byte when
 //! a case is run again on the same machine and thread count. Non-finite numbers are written as `null` (JSON has
 //! none); fields that may hold one read `null` back as NaN.
 //!
@@ -27,8 +27,10 @@ pub struct RunSummary {
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub solve_mode: Option<String>,
     pub grid: GridSummary,
-    /// Measured resources: the only section that changes when the same case runs again.
-    pub timing_s: Resources,
+    /// Measured resources: the only section that changes when the same case runs again. Summaries of
+    /// versions before this section was named `resources` (`timing_s`) read as `None`.
+    #[serde(default, skip_serializing_if = "Option::is_none", deserialize_with = "current_resources")]
+    pub resources: Option<Resources>,
     pub flow: FlowSummary,
     pub transport: TransportSummary,
     pub mass_balance: MassBalanceSummary,
@@ -51,26 +53,75 @@ pub struct GridSummary {
     pub origin: [f64; 3],
 }
 
-/// Wall times of the run's stages (s) and the cost of the self/neighbour split.
-#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+/// Measured resources of the run (`summary.json` → `resources`): wall time (s) and peak resident memory
+/// (bytes) of each stage it went through, in run order geometry, flow, transport, post, self_neighbour_split,
+/// write (transient runs: steady_reference and time_loop instead of transport and post), the whole run's wall
+/// time and the cost of the self/neighbour split.
+#[derive(Clone, Debug, Default, PartialEq, Serialize, Deserialize)]
 pub struct Resources {
-    pub geometry: f64,
-    pub flow: f64,
-    /// Steady runs: the transport solve and the per-cell sensing.
     #[serde(default, skip_serializing_if = "Option::is_none")]
-    pub transport: Option<f64>,
+    pub geometry: Option<StageCost>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
-    pub post: Option<f64>,
-    /// Transient runs: the steady reference and the time loop.
+    pub flow: Option<StageCost>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
-    pub steady_reference: Option<f64>,
+    pub transport: Option<StageCost>,
+    /// Per-cell sensing and the mass balance.
     #[serde(default, skip_serializing_if = "Option::is_none")]
-    pub time_loop: Option<f64>,
-    pub write: f64,
-    pub total: f64,
+    pub post: Option<StageCost>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub self_neighbour_split: Option<StageCost>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub steady_reference: Option<StageCost>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub time_loop: Option<StageCost>,
+    /// The output files up to `summary.json` (figures are drawn after it).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub write: Option<StageCost>,
+    pub total_s: f64,
+    pub peak_memory_scope: PeakScope,
     /// Steady runs that split some cells' fields into own and neighbour parts.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub self_neighbour: Option<SplitCost>,
+}
+
+/// What a stage's `peak_resident_bytes` covers.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum PeakScope {
+    /// The stage alone: the kernel's high-water mark was reset when it started.
+    Stage,
+    /// The process from its start to the stage's end (the kernel refused the reset).
+    SinceStart,
+    /// Not measured (no `/proc`, or cases of a sweep sharing one process): the peaks are `null`.
+    #[default]
+    Unavailable,
+}
+
+/// One stage: wall time (s) and peak resident set (bytes; `None` where it cannot be measured).
+#[derive(Clone, Copy, Debug, Default, PartialEq, Serialize, Deserialize)]
+pub struct StageCost {
+    pub wall_s: f64,
+    pub peak_resident_bytes: Option<u64>,
+}
+
+impl Resources {
+    /// The largest stage peak (bytes), if any was measured.
+    pub fn peak_resident_bytes(&self) -> Option<u64> {
+        [
+            self.geometry,
+            self.flow,
+            self.transport,
+            self.post,
+            self.self_neighbour_split,
+            self.steady_reference,
+            self.time_loop,
+            self.write,
+        ]
+        .iter()
+        .flatten()
+        .filter_map(|c| c.peak_resident_bytes)
+        .max()
+    }
 }
 
 /// Wall time of the self/neighbour split (s).
@@ -237,7 +288,141 @@ pub struct EstimatesSummary {
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub self_neighbour: Option<SplitSummary>,
     /// The `estimate` command's JSON for the case.
-    pub case: serde_json::Value,
+    pub case: CaseEstimatesSummary,
+}
+
+/// The estimates of a case without a solve: `estimates.case` of `summary.json` and `plumefield estimate --json`
+/// (SI units; `null` where an estimate does not apply).
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct CaseEstimatesSummary {
+    /// `"darcy"`, `"brinkman"` or `"stokes"`.
+    pub flow_model: String,
+    /// a/√K of a Brinkman medium.
+    pub brinkman_alpha: Option<f64>,
+    pub flow_resolution: Option<FlowResolutionSummary>,
+    /// Absent in summaries written before the boundary-layer guard.
+    #[serde(default)]
+    pub boundary_layer: Option<BoundaryLayerSummary>,
+    pub radius: f64,
+    #[serde(deserialize_with = "real")]
+    pub peclet_cell: f64,
+    #[serde(deserialize_with = "real")]
+    pub peclet_chamber: f64,
+    pub biot: Option<f64>,
+    #[serde(deserialize_with = "real")]
+    pub decay_number: f64,
+    pub own_surface_concentration: Option<f64>,
+    pub isolated_anisotropy: Option<f64>,
+    #[serde(deserialize_with = "real")]
+    pub number_density: f64,
+    #[serde(deserialize_with = "real")]
+    pub volume_fraction: f64,
+    pub background: BackgroundSummary,
+    pub profile: ProfileSummary,
+    pub profile_dense: DenseProfileSummary,
+    pub integration_time: f64,
+    pub critical_density: Option<CriticalDensitySummary>,
+    pub forecast: ForecastSummary,
+    pub units: BTreeMap<String, String>,
+}
+
+/// The Brinkman screening length is under-resolved.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct FlowResolutionSummary {
+    pub screening_length: f64,
+    pub spacing: f64,
+    pub expected_drag_error: f64,
+    pub suggested_spacing: f64,
+    pub message: String,
+}
+
+/// The boundary layers at the cells are under-resolved.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct BoundaryLayerSummary {
+    pub surface_peclet: f64,
+    pub expected_error: f64,
+    pub suggested_spacing: f64,
+    pub message: String,
+}
+
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct BackgroundSummary {
+    /// `"column"`, `"uniform"`, `"isolated"` or `"none"`.
+    pub kind: String,
+    pub note: String,
+    pub outlet_concentration: Option<f64>,
+}
+
+/// The typical cell's estimates at points along x.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct ProfileSummary {
+    pub x: Vec<f64>,
+    #[serde(deserialize_with = "reals")]
+    pub background: Vec<f64>,
+    #[serde(deserialize_with = "reals")]
+    pub mean_surface_concentration: Vec<f64>,
+    #[serde(deserialize_with = "reals")]
+    pub anisotropy_along_flow: Vec<f64>,
+    pub direction_error: Vec<Unbounded>,
+}
+
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct DenseProfileSummary {
+    pub x: Vec<f64>,
+    #[serde(deserialize_with = "reals")]
+    pub anisotropy_along_flow: Vec<f64>,
+}
+
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct CriticalDensitySummary {
+    pub density: Option<f64>,
+    pub rising: bool,
+    pub range: [f64; 2],
+    /// Where the direction error is taken: `"outlet"`.
+    pub position: String,
+    pub isolated_direction_error: Unbounded,
+    pub case_direction_error: Unbounded,
+}
+
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct ForecastSummary {
+    pub grid_cells: usize,
+    pub memory_bytes: f64,
+    pub seconds: f64,
+    pub decompose_seconds: f64,
+}
+
+/// A number that may be infinite: JSON has no infinity, so it is written as the string `"inf"` (or `"-inf"`).
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Unbounded(pub f64);
+
+impl Serialize for Unbounded {
+    fn serialize<S: serde::Serializer>(&self, serializer: S) -> Result<S::Ok, S::Error> {
+        match self.0 {
+            x if x.is_finite() => serializer.serialize_f64(x),
+            x if x > 0.0 => serializer.serialize_str("inf"),
+            x if x < 0.0 => serializer.serialize_str("-inf"),
+            // NaN: `null`, as every other non-finite number.
+            _ => serializer.serialize_none(),
+        }
+    }
+}
+
+impl<'de> Deserialize<'de> for Unbounded {
+    fn deserialize<D: Deserializer<'de>>(deserializer: D) -> Result<Self, D::Error> {
+        #[derive(Deserialize)]
+        #[serde(untagged)]
+        enum Written {
+            Number(Option<f64>),
+            Text(String),
+        }
+        Ok(Unbounded(match Written::deserialize(deserializer)? {
+            Written::Number(x) => x.unwrap_or(f64::NAN),
+            Written::Text(t) if t == "inf" => f64::INFINITY,
+            Written::Text(t) if t == "-inf" => f64::NEG_INFINITY,
+            Written::Text(t) => return Err(serde::de::Error::custom(format!("not a number: {t:?}"))),
+        }))
+    }
 }
 
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
@@ -280,6 +465,12 @@ fn real<'de, D: Deserializer<'de>>(deserializer: D) -> Result<f64, D::Error> {
     Ok(Option::<f64>::deserialize(deserializer)?.unwrap_or(f64::NAN))
 }
 
+/// The `resources` section, or `None` for a section this version does not read (written by an older one).
+fn current_resources<'de, D: Deserializer<'de>>(deserializer: D) -> Result<Option<Resources>, D::Error> {
+    let value = Option::<serde_json::Value>::deserialize(deserializer)?;
+    Ok(value.and_then(|v| Resources::deserialize(v).ok()))
+}
+
 /// [`real`] for every element.
 fn reals<'de, D: Deserializer<'de>>(deserializer: D) -> Result<Vec<f64>, D::Error> {
     Ok(Vec::<Option<f64>>::deserialize(deserializer)?.into_iter().map(|v| v.unwrap_or(f64::NAN)).collect())
@@ -299,5 +490,42 @@ impl RunSummary {
         let bytes = std::fs::read(path).with_context(|| format!("cannot read {}", path.display()))?;
         serde_json::from_slice(&bytes)
             .with_context(|| format!("{} is not a summary of this version of plumefield", path.display()))
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn resources_round_trip_and_an_older_timing_section_reads_as_none() {
+        let stage = |wall_s, peak| Some(StageCost { wall_s, peak_resident_bytes: peak });
+        let r = Resources {
+            geometry: stage(0.5, Some(1 << 30)),
+            write: stage(1.5, None),
+            total_s: 2.0,
+            peak_memory_scope: PeakScope::Stage,
+            ..Resources::default()
+        };
+        assert_eq!(r.peak_resident_bytes(), Some(1 << 30));
+        let json = serde_json::to_value(&r).unwrap();
+        assert_eq!(json["peak_memory_scope"], "stage");
+        assert!(json.get("flow").is_none());
+        let de = |v: serde_json::Value| current_resources(v).unwrap();
+        assert_eq!(de(json), Some(r));
+        let old = serde_json::json!({ "geometry": 0.1, "flow": 0.2, "write": 0.3, "total": 0.7 });
+        assert_eq!(de(old), None);
+        assert_eq!(de(serde_json::Value::Null), None);
+    }
+
+    #[test]
+    fn unbounded_numbers_write_infinity_as_text_and_read_it_back() {
+        for (x, text) in [(1.5, "1.5"), (f64::INFINITY, "\"inf\""), (f64::NEG_INFINITY, "\"-inf\"")] {
+            assert_eq!(serde_json::to_string(&Unbounded(x)).unwrap(), text);
+            assert_eq!(serde_json::from_str::<Unbounded>(text).unwrap(), Unbounded(x));
+        }
+        assert_eq!(serde_json::to_string(&Unbounded(f64::NAN)).unwrap(), "null");
+        assert!(serde_json::from_str::<Unbounded>("null").unwrap().0.is_nan());
+        assert!(serde_json::from_str::<Unbounded>("\"many\"").is_err());
     }
 }

@@ -188,8 +188,25 @@ pub fn collect_cases(
             role: ColumnRole::Label,
             data: ColumnData::Text(status),
         },
+        SweepColumn {
+            name: "warnings".into(),
+            unit: String::new(),
+            description: "the case's warnings from summary.json (validation and solve), joined with \"; \""
+                .into(),
+            role: ColumnRole::Label,
+            data: ColumnData::Text(
+                data.iter()
+                    .map(|d| d.as_ref().map(|d| d.summary.warnings.join("; ")).unwrap_or_default())
+                    .collect(),
+            ),
+        },
     ];
     for (a, axis) in plan.axes.iter().enumerate() {
+        let texts: Vec<&str> = plan.cases.iter().map(|c| c.values[a].text.as_str()).collect();
+        if let Some(table_columns) = super::table_axis::table_axis_columns(&axis.key, a, &texts) {
+            columns.extend(table_columns);
+            continue;
+        }
         let numeric = plan.cases.iter().all(|c| c.values[a].si.is_some());
         let data = if numeric && axis.unit.is_some() {
             ColumnData::Real(plan.cases.iter().map(|c| c.values[a].si.unwrap_or(f64::NAN)).collect())
@@ -249,6 +266,12 @@ pub fn collect_cases(
     columns.extend(super::sensing_columns::sensing_columns(&sensing));
     let timings = data.iter().map(|d| d.as_ref().map(|d| d.timing)).collect();
     Ok((SweepTable { columns, rows }, plan, timings))
+}
+
+/// The warnings a finished case recorded in its `summary.json` (the case's own and the solve's); none when
+/// the summary cannot be read (the case is then reported by `collect`).
+pub fn finished_case_warnings(case_dir: &Path) -> Vec<String> {
+    RunSummary::read(&case_dir.join("summary.json")).map(|s| s.warnings).unwrap_or_default()
 }
 
 fn read_case(case_dir: &Path, timing: CaseTiming) -> Result<CaseData> {

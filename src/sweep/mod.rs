@@ -25,6 +25,7 @@ pub mod sensing_columns;
 pub mod slurm;
 pub mod sweep_curves;
 pub mod sweep_file;
+pub mod table_axis;
 
 pub use error::SweepError;
 pub use expand::{Plan, PlannedCase};

@@ -22,6 +22,7 @@ use super::done_marker::{
 };
 use super::expand::Plan;
 use crate::case::SolveMode;
+use crate::engine::stages::{MeteredStage, StageMeter};
 use crate::engine::transient::{self, TransientOptions};
 use crate::engine::{solution_warnings, steady_case, write_outputs};
 use crate::exit::{one_line, InputError, SolverFailure};
@@ -245,8 +246,10 @@ pub fn run_case(
             })
         })?;
     } else {
+        // Cases run side by side in this process: its memory peak is theirs together, so times only.
+        let mut meter = StageMeter::times_only();
         let solved = std::panic::catch_unwind(AssertUnwindSafe(|| {
-            solve_steady_case(&steady_case(&case), &mut |_| {})
+            solve_steady_case(&steady_case(&case), &mut |stage| meter.begin(MeteredStage::of(stage, true)))
         }))
         .map_err(caught)?
         .map_err(|e| {
@@ -259,7 +262,7 @@ pub fn run_case(
         })?;
         let warnings = solution_warnings(&case, &solved);
         write(&mut || {
-            write_outputs(&case, &solved, &warnings, &case_dir, started, Instant::now())
+            write_outputs(&case, &solved, &warnings, &case_dir, &mut meter)
                 .map_err(|e| failure(plan, index, "io", one_line(&e)))
         })?;
     }

@@ -38,13 +38,15 @@ pub fn show(output: &Output) -> String {
     )
 }
 
-/// Rows of a CSV file as (header, rows of fields).
+/// Rows of a CSV file as (header, rows of fields); quoted fields (a `warnings` text with commas) read whole.
 pub fn read_csv(path: &Path) -> (Vec<String>, Vec<Vec<String>>) {
-    let content =
-        std::fs::read_to_string(path).unwrap_or_else(|e| panic!("cannot read {}: {e}", path.display()));
-    let mut lines = content.lines();
-    let header = lines.next().unwrap_or("").split(',').map(str::to_string).collect();
-    let rows = lines.map(|l| l.split(',').map(str::to_string).collect()).collect();
+    let mut reader =
+        csv::Reader::from_path(path).unwrap_or_else(|e| panic!("cannot read {}: {e}", path.display()));
+    let header = reader.headers().expect("a header").iter().map(str::to_string).collect();
+    let rows = reader
+        .records()
+        .map(|r| r.unwrap_or_else(|e| panic!("{}: {e}", path.display())).iter().map(str::to_string).collect())
+        .collect();
     (header, rows)
 }
 

@@ -30,8 +30,8 @@ mod vector;
 
 pub use apply_operator::{apply_face_coupled, PackedOperator};
 pub use krylov::{
-    bicgstab, gmres, BicgstabParams, BicgstabWork, GmresParams, KrylovParams, LinearOperator, RightHandSide,
-    Shadow, SolveError, SolveInfo, SparseVector,
+    bicgstab, bicgstab_until, gmres, BicgstabParams, BicgstabWork, GmresParams, KrylovParams, LinearOperator,
+    RightHandSide, Shadow, SolveError, SolveInfo, SparseVector,
 };
 pub use multigrid::{Cycle, MultigridParams};
 pub use operator::{AdvectionScheme, FaceCoupledOperator};

@@ -134,6 +134,7 @@ pub fn solve_transient_case(
     drop(steady);
     let t_steady = t2.elapsed().as_secs_f64();
 
+    on_stage(Stage::TimeLoop);
     let t3 = Instant::now();
     let mut run_params = case.params.clone();
     run_params.steady = Some(reference.clone());

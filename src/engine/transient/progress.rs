@@ -49,7 +49,8 @@ impl TransientProgress {
         self.bar.set_message(match stage {
             Stage::Geometry => "embedded-boundary geometry",
             Stage::Flow => "flow of every phase",
-            Stage::Transport => "steady reference, then time steps",
+            Stage::Transport => "steady reference",
+            Stage::TimeLoop => "time steps",
             Stage::Sensing => "per-cell sensing",
         });
     }
