@@ -181,6 +181,8 @@ pub struct RawSolve {
     pub end_time: Value<RawNumber>,
     pub time_step: Value<RawNumber>,
     pub output_every: Value<RawNumber>,
+    /// A list of times, or `{ from, to, count, scale }`.
+    pub output_times: Value<toml::Value>,
     pub adaptive: Value<bool>,
     pub error_tolerance: Value<RawNumber>,
     pub initial_condition: Value<String>,

@@ -242,6 +242,14 @@ pub(super) fn validate(raw: RawCase, text: &str, path: &Path) -> Result<Case, Ca
     let (raw_sensing, _) = section(raw.sensing);
     let sensing = validate_sensing(&src, &raw_sensing, fitted.size[0], placed.layout.cells.len())?;
     if solve.mode == SolveMode::Transient {
+        if let Some(v) = &raw_sensing.decompose {
+            // Said once rather than ignored: a transient run writes no split columns.
+            warnings.push(format!(
+                "{} line {}: sensing.decompose is not carried out in transient runs (no self/neighbour columns are written); run the case with solve.mode = \"steady\" for the split",
+                path.display(),
+                src.line(&v.span())
+            ));
+        }
         let case_dir = path.parent().unwrap_or(Path::new("."));
         solve.transient = Some(super::transient::validate_transient(
             &src,

@@ -7,7 +7,8 @@
 //! /flow_initial/{u,v,w,pressure}     the flow before `flow.change_at` (only when the flow changes)
 //! /ligand/concentration              the final field
 //! /ligand/steady_concentration       the steady field of the final configuration (the approach's target)
-//! /ligand/<index>                    (nz, ny, nx) field at output time number <index> (six digits, from 000000),
+//! /ligand/<index>                    (only when output.fields lists "concentration", as are the two above)
+//!                                    (nz, ny, nx) field at output time number <index> (six digits, from 000000),
 //!                                    attributes `time` (s) and `time_units` = "s"
 //! /ligand/times                      (n_times,) output times (s), in index order
 //! /cells/<column>                    the final per-cell table (= cells.csv)
@@ -50,6 +51,9 @@ pub struct TransientFile<'a> {
     /// Flow fields, final concentration, steady reference: written as in a steady file.
     pub fields: &'a [FieldData<'a>],
     pub outputs: &'a [OutputTime],
+    /// Write `/ligand/<index>` per output time (`[output] fields` lists the concentration); `field_at` is not
+    /// called otherwise.
+    pub snapshots: bool,
     pub cells: &'a CellTable,
     pub timeseries: &'a CellTable,
     pub provenance: &'a Provenance,
@@ -84,7 +88,7 @@ pub fn write_transient_fields_h5(
             write_field_3d(&group, name, file.grid, &field.values, unit, description, file.storage)?;
         }
         let ligand = if h5.link_exists("ligand") { h5.group("ligand")? } else { new_group(&h5, "ligand")? };
-        for (i, output) in file.outputs.iter().enumerate() {
+        for (i, output) in file.outputs.iter().enumerate().filter(|_| file.snapshots) {
             let values = field_at(i)?;
             let name = output_dataset_name(output.index);
             write_field_3d(
@@ -111,7 +115,12 @@ pub fn write_transient_fields_h5(
             .obj_track_times(false)
             .create("times")
             .context("cannot write /ligand/times")?;
-        describe(&ds, "s", "output times; /ligand/<index> holds the field at times[index]")?;
+        let what = if file.snapshots {
+            "output times; /ligand/<index> holds the field at times[index]"
+        } else {
+            "output times (no fields kept: output.fields does not list the concentration)"
+        };
+        describe(&ds, "s", what)?;
 
         super::fields_h5::write_cells(&h5, file.cells)?;
         let cells = h5.group("cells")?;

@@ -160,6 +160,39 @@ pub fn cell_columns(state: &CellState, kind: RunKind) -> Vec<Column> {
     CELL_COLUMNS.iter().map(|c| c.column(state, kind)).collect()
 }
 
+/// A per-cell time that only a transient run's final `cells.csv` carries, found by the time loop.
+#[derive(Clone, Copy)]
+pub struct TimeColumn {
+    pub name: &'static str,
+    pub unit: &'static str,
+    pub description: &'static str,
+}
+
+/// The times to 90% and 99% of the steady sensed rate and the time to a readable cue, in file order.
+pub const TRANSIENT_TIME_COLUMNS: [TimeColumn; 3] = [
+    TimeColumn {
+        name: "time_to_90_percent",
+        unit: "s",
+        description: "first time the cell's sensed rate reached 90% of its steady value (NaN: not reached)",
+    },
+    TimeColumn {
+        name: "time_to_99_percent",
+        unit: "s",
+        description: "first time the cell's sensed rate reached 99% of its steady value (NaN: not reached)",
+    },
+    TimeColumn {
+        name: "time_to_readable",
+        unit: "s",
+        description: "first time after sensing.window_start from which window_direction_error stays at or below sensing.readable_error to the end (NaN: not readable at the end)",
+    },
+];
+
+impl TimeColumn {
+    pub fn column(&self, values: Vec<f64>) -> Column {
+        Column::real(self.name, self.unit, self.description, values)
+    }
+}
+
 /// `cell_pressure_drop` of `cells.csv` (after the registered columns; computed from the pressure field).
 pub fn cell_pressure_drop_column(values: Vec<f64>) -> Column {
     Column::real(

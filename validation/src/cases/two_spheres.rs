@@ -244,6 +244,7 @@ mod tests {
                 krylov,
                 multigrid: MultigridParams::default(),
                 window_start: 0.0,
+                readable_error: 1.0,
                 steady: None,
                 stop_at_steady: None,
                 switched_on_far_field: true,
