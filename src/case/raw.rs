@@ -207,4 +207,6 @@ pub struct RawSensing {
 pub struct RawOutput {
     pub fields: Value<Vec<Spanned<String>>>,
     pub figures: Value<bool>,
+    pub precision: Value<String>,
+    pub compression: Value<RawNumber>,
 }

@@ -113,6 +113,7 @@ fn base_case_is_valid_and_in_si() {
     assert_eq!(case.sensing.integration_time, 3600.0);
     assert_eq!(case.output.fields, OutputField::ALL.to_vec());
     assert!(case.output.figures);
+    assert_eq!(case.output.storage, crate::io::FieldStorage::default());
     assert!(case.warnings.is_empty(), "{:?}", case.warnings);
     // SHA-256 of the text bytes.
     assert_eq!(case.sha256, super::sha256_hex(BASE.as_bytes()));
@@ -581,6 +582,20 @@ fn sensing_and_output_rules() {
     expect_error(&text, "output.fields[1]", Some("fields"), &["listed twice"]);
     let text = edit("figures = true", "figures = \"yes\"");
     expect_error(&text, "output.figures", Some("figures"), &["output.figures"]);
+    let text = edit("figures = true", "figures = true\nprecision = \"half\"");
+    expect_error(
+        &text,
+        "output.precision",
+        Some("precision"),
+        &["\"half\" is not a precision", "\"single\""],
+    );
+    let text = edit("figures = true", "figures = true\ncompression = 10");
+    expect_error(&text, "output.compression", Some("compression"), &["0 (none) to 9"]);
+    let text = edit("figures = true", "figures = true\ncompression = 1.5");
+    expect_error(&text, "output.compression", Some("compression"), &["whole number"]);
+    let text = edit("figures = true", "figures = true\nprecision = \"single\"\ncompression = 0");
+    let storage = parse(&text).unwrap_or_else(|e| panic!("{e}")).output.storage;
+    assert_eq!(storage, crate::io::FieldStorage { precision: crate::io::Precision::Single, compression: 0 });
 }
 
 #[test]

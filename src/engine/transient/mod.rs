@@ -99,6 +99,21 @@ fn transient_warnings(case: &Case) -> Vec<String> {
     crate::engine::estimates::boundary_layer_warning(case).map(|w| w.to_string()).into_iter().collect()
 }
 
+/// The divergence check of each flow phase (the mean velocity before and after a flow change).
+fn flow_divergence_warnings(case: &Case, t: &TransientSolve, solution: &TransientSolution) -> Vec<String> {
+    let speeds = [case.flow.mean_velocity, last_flow_speed(case, t)];
+    let grid = &solution.geometry.grid;
+    solution
+        .flows
+        .iter()
+        .zip(speeds)
+        .filter_map(|(flow, speed)| {
+            solver::flow::check_divergence(grid, &flow.divergence_peak(), speed, case.solve.tolerance)
+        })
+        .map(|w| w.to_string())
+        .collect()
+}
+
 /// Solves a transient case into `out_dir`; the closing line names `destination`, the folder the user asked
 /// for (`out_dir` is the staging folder beside it when `run` replaces the folder whole).
 pub fn execute(case: &Case, out_dir: &Path, destination: &Path, options: &TransientOptions) -> Result<()> {
@@ -160,6 +175,9 @@ pub fn execute(case: &Case, out_dir: &Path, destination: &Path, options: &Transi
         meter.begin(MeteredStage::of(stage, false));
     })
     .map_err(solve_error)?;
+    for warning in flow_divergence_warnings(case, t, &solution) {
+        progress.println(&format!("warning: {warning}"));
+    }
     let checkpoints = observer.checkpoints_written;
     let final_part = observer.last_output.take();
     drop(observer);
@@ -340,13 +358,7 @@ fn write_outputs(
 
     let phases = solution.flows.len();
     let mut fields = Vec::new();
-    let field = |group: &str, name: &str, unit: &str, description: &str, values: &[f64]| FieldData {
-        group: group.into(),
-        name: name.into(),
-        unit: unit.into(),
-        description: description.into(),
-        values: values.to_vec(),
-    };
+    let field = FieldData::borrowed;
     for (phase, flow) in solution.flows.iter().enumerate() {
         let group = flow_group(phase, phases);
         let when = if group == "flow" { "at the end of the run" } else { "before flow.change_at" };
@@ -411,6 +423,7 @@ fn write_outputs(
         cells: &table,
         timeseries: &series,
         provenance: &provenance,
+        storage: case.output.storage,
     };
     // One hold of HDF5's process-wide lock for the whole file, as `report.rs` does for steady runs: transient
     // cases of a sweep writing at once take turns file by file instead of alternating call by call.
@@ -436,7 +449,13 @@ fn write_outputs(
             TemporalGrid { time: o.time, scalars, velocity }
         })
         .collect();
-    write_temporal_xmf(&out_dir.join("fields.xmf"), "fields.h5", &case.grid, &steps)?;
+    write_temporal_xmf(
+        &out_dir.join("fields.xmf"),
+        "fields.h5",
+        &case.grid,
+        &steps,
+        case.output.storage.precision,
+    )?;
 
     let summary = run_summary(case, t, solution, final_part, &parts, &table, meter, checkpoints);
     crate::engine::sensing_outputs::write_sensing_by_position_of(&summary, &table, out_dir)?;
@@ -473,7 +492,7 @@ fn run_summary(
         table,
         final_mean_velocity: last_flow_speed(case, t),
         measured_outlet_concentration: final_part.outlet_concentration,
-        warnings: &transient_warnings(case),
+        warnings: &[transient_warnings(case), flow_divergence_warnings(case, t, solution)].concat(),
     };
     let sections = RunSections {
         resources: meter.resources(None),
