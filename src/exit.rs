@@ -40,10 +40,35 @@ pub fn exit_code(error: &anyhow::Error) -> i32 {
     }
 }
 
-/// The error chain as one line: the messages joined by ": ", with no line breaks.
+/// The error chain as one line: the messages joined by ": ", with no line breaks; an HDF5 library error is
+/// told by its cause (the operating system's words for a failed write), not by the library's call stack.
 pub fn one_line(error: &anyhow::Error) -> String {
-    let parts: Vec<String> = error.chain().map(|cause| cause.to_string().replace('\n', " ")).collect();
+    let parts: Vec<String> = error
+        .chain()
+        .map(|cause| match cause.downcast_ref::<hdf5::Error>() {
+            Some(h5) => hdf5_cause(&h5.to_string()),
+            None => cause.to_string(),
+        })
+        .map(|text| text.replace('\n', " "))
+        .collect();
     parts.join(": ")
+}
+
+/// The cause in an HDF5 error text: `errno = N` as the system's message ("File too large (os error 27)"),
+/// else the text without the library's function names (`H5Fclose(): `).
+fn hdf5_cause(text: &str) -> String {
+    let errno = text
+        .split("errno = ")
+        .nth(1)
+        .and_then(|rest| rest.split(|c: char| !c.is_ascii_digit()).next())
+        .and_then(|n| n.parse::<i32>().ok());
+    if let Some(code) = errno {
+        return std::io::Error::from_raw_os_error(code).to_string();
+    }
+    text.split(": ")
+        .filter(|part| !(part.starts_with("H5") && part.ends_with("()")))
+        .collect::<Vec<_>>()
+        .join(": ")
 }
 
 #[cfg(test)]
@@ -61,5 +86,13 @@ mod tests {
         assert_eq!(exit_code(&solver), FAILURE);
         let io = anyhow::Error::new(std::io::Error::other("disk full"));
         assert_eq!(exit_code(&io), FAILURE);
+    }
+
+    #[test]
+    fn hdf5_errors_are_told_by_their_cause() {
+        let stack = "H5C_dest(): set slist enabled failed: file write failed: time = Sat Dec  5 2026 , \
+                     filename = 'x.tmp', file descriptor = 3, errno = 27, error message = 'File too large'";
+        assert_eq!(hdf5_cause(stack), std::io::Error::from_raw_os_error(27).to_string());
+        assert_eq!(hdf5_cause("H5Fclose(): H5F_close(): cannot close file"), "cannot close file");
     }
 }
