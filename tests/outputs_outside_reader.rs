@@ -12,32 +12,12 @@ use plumefield::io::{
     write_cells_csv, write_fields_h5, write_fields_xmf, write_summary_json, CellTable, Column, FieldData,
     FieldStorage, Precision, Provenance,
 };
+use plumefield::outputs::columns::{CellColumn, CELL_COLUMNS};
 
 /// Seeded values with awkward decimals, uniform in [0, 1).
 fn seeded(seed: u64) -> numkit::Xoshiro256StarStar {
     numkit::Xoshiro256StarStar::seed_from_u64(seed)
 }
-
-const CELL_COLUMNS: [(&str, &str); 18] = [
-    ("id", "1"),
-    ("x", "m"),
-    ("y", "m"),
-    ("z", "m"),
-    ("radius", "m"),
-    ("secretion_rate", "1/s"),
-    ("mean_surface_concentration", "molecules/m^3"),
-    ("bound_rate", "1/s"),
-    ("anisotropy_x", "1"),
-    ("anisotropy_y", "1"),
-    ("anisotropy_z", "1"),
-    ("anisotropy_along_flow", "1"),
-    ("front_back_contrast", "1"),
-    ("direction_error", "1"),
-    ("drag_x", "N"),
-    ("drag_y", "N"),
-    ("drag_z", "N"),
-    ("local_speed", "m/s"),
-];
 
 /// Writes fields.h5, fields.xmf, cells.csv and summary.json of a small synthetic run into `dir`.
 fn write_synthetic_run(dir: &Path) -> anyhow::Result<()> {
@@ -66,10 +46,11 @@ fn write_synthetic_run_as(dir: &Path, storage: FieldStorage) -> anyhow::Result<(
 
     let n_cells = 6;
     let mut rng = seeded(11);
+    // The registry's columns, so the readers see the names and units a run writes.
     let columns = CELL_COLUMNS
         .iter()
         .enumerate()
-        .map(|(index, &(name, unit))| {
+        .map(|(index, &CellColumn { name, unit, .. })| {
             if name == "id" {
                 Column::int(name, unit, "cell identifier", (0..n_cells as u64).collect())
             } else {
@@ -104,9 +85,14 @@ fn write_synthetic_run_as(dir: &Path, storage: FieldStorage) -> anyhow::Result<(
 }
 
 fn run_check(dir: &Path, require_vtk: bool) -> std::process::Output {
+    let registry = python::write_column_registry(dir);
+    let registry = registry.to_str().expect("temporary folders have UTF-8 names");
     let dir = dir.to_str().expect("temporary folders have UTF-8 names");
-    let args: &[&str] = if require_vtk { &[dir, "--require-vtk"] } else { &[dir] };
-    python::run_script("check_outputs.py", args)
+    let mut args = vec![dir, "--columns", registry];
+    if require_vtk {
+        args.push("--require-vtk");
+    }
+    python::run_script("check_outputs.py", &args)
 }
 
 #[test]
@@ -161,4 +147,22 @@ fn outside_check_catches_a_one_ulp_difference() {
     let out = run_check(dir.path(), false);
     assert_eq!(out.status.code(), Some(1), "a one-ulp change went unnoticed");
     assert!(String::from_utf8_lossy(&out.stderr).contains("cells.csv x row 0"));
+}
+
+#[test]
+fn outside_check_holds_the_files_to_the_registry() {
+    // The registry check must be able to fail: a registry whose bound_rate has another unit than the files.
+    let Some(_) = python::readers() else { return };
+    let dir = tempfile::tempdir().unwrap();
+    write_synthetic_run(dir.path()).unwrap();
+    let registry = python::write_column_registry(dir.path());
+    let text = std::fs::read_to_string(&registry).unwrap();
+    let changed =
+        text.replace(r#""name":"bound_rate","unit":"molecules/s""#, r#""name":"bound_rate","unit":"1/s""#);
+    assert_ne!(changed, text, "the registry lists bound_rate in molecules/s");
+    std::fs::write(&registry, changed).unwrap();
+    let args = [dir.path().to_str().unwrap(), "--columns", registry.to_str().unwrap()];
+    let out = python::run_script("check_outputs.py", &args);
+    assert_eq!(out.status.code(), Some(1), "a unit that differs from the registry went unnoticed");
+    assert!(String::from_utf8_lossy(&out.stderr).contains("/cells/bound_rate has units"));
 }

@@ -191,3 +191,77 @@ fn bad_find_tables_exit_2_naming_the_key() {
         assert!(!out.join("cases").exists());
     }
 }
+
+/// None when a Slurm cluster is available (`scripts/slurm-start`, `SLURM_CONF`), else the reason to skip.
+fn no_cluster() -> Option<String> {
+    if std::env::var_os("SLURM_CONF").is_none() {
+        return Some("SLURM_CONF is not set (start a local cluster with scripts/slurm-start)".into());
+    }
+    match std::process::Command::new("sbatch").arg("--version").output() {
+        Ok(out) if out.status.success() => None,
+        _ => Some("sbatch cannot be run".into()),
+    }
+}
+
+/// Jobs of this user still in the queue.
+fn queued() -> usize {
+    let out = std::process::Command::new("squeue").args(["-h", "--me"]).output().expect("squeue");
+    text(&out.stdout).lines().filter(|l| !l.trim().is_empty()).count()
+}
+
+fn wait_until(what: &str, done: impl Fn() -> bool) {
+    let started = std::time::Instant::now();
+    while !done() {
+        assert!(started.elapsed().as_secs() < 300, "{what}: still waiting after 300 s");
+        std::thread::sleep(std::time::Duration::from_millis(300));
+    }
+}
+
+#[test]
+fn slurm_rounds_by_dependent_job_and_by_one_command_per_round_give_the_local_result() {
+    if let Some(reason) = no_cluster() {
+        assert!(std::env::var_os("PLUMEFIELD_REQUIRE_SLURM").is_none(), "no Slurm cluster: {reason}");
+        eprintln!("skipped: {reason}");
+        return;
+    }
+    let dir = tempfile::tempdir().unwrap();
+    let base = SPHERE.replace("LAYOUT", CENTRED).replace("spacing = \"2 um\"", "spacing = \"3 um\"");
+    let sweep = write(
+        dir.path(),
+        &base,
+        "[[axis]]\nkey = \"flow.mean_velocity\"\nfrom = \"0.05 um/s\"\nto = \"1 um/s\"\nscale = \"log\"\n\
+         [find]\nmetric = \"direction_error_median\"\nlevel = 1\naxis = \"flow.mean_velocity\"\n",
+    );
+    let local = dir.path().join("local");
+    let run = pf(&["sweep", sweep.to_str().unwrap(), "-o", local.to_str().unwrap(), "--jobs", "2"]);
+    assert_eq!(run.status.code(), Some(0), "{}", show(&run));
+    let expected = std::fs::read_to_string(local.join("crossing.csv")).unwrap();
+    assert!(expected.contains(",found,"), "{expected}");
+
+    // (a) The job after each round decides and submits the next one.
+    let auto = dir.path().join("auto");
+    let out = pf(&[
+        "sweep",
+        sweep.to_str().unwrap(),
+        "--slurm",
+        auto.to_str().unwrap(),
+        "--submit",
+        "--auto-rounds",
+    ]);
+    assert_eq!(out.status.code(), Some(0), "{}", show(&out));
+    wait_until("the automatic rounds", || auto.join("crossing.csv").exists() && queued() == 0);
+    assert_eq!(std::fs::read_to_string(auto.join("crossing.csv")).unwrap(), expected);
+
+    // (b) One command per round, each after the previous round's jobs have ended.
+    let by_hand = dir.path().join("by_hand");
+    for round in 1..=12 {
+        let out = pf(&["sweep", sweep.to_str().unwrap(), "--slurm", by_hand.to_str().unwrap(), "--submit"]);
+        assert_eq!(out.status.code(), Some(0), "round {round}: {}", show(&out));
+        if text(&out.stdout).contains("the search is over") {
+            break;
+        }
+        assert!(text(&out.stdout).contains(&format!("round {round}:")), "{}", show(&out));
+        wait_until("a round's jobs", || queued() == 0);
+    }
+    assert_eq!(std::fs::read_to_string(by_hand.join("crossing.csv")).unwrap(), expected);
+}

@@ -1,7 +1,7 @@
 #!/usr/bin/env python3
 """Checks a plumefield run directory with readers that share no code with the writers.
 
-Usage: python3 check_outputs.py DIR [--require-vtk]
+Usage: python3 check_outputs.py DIR [--require-vtk] [--columns REGISTRY.json]
 
 Reads DIR/fields.h5 with h5py, DIR/cells.csv with Python's csv module and, when the `vtk` wheel is
 importable, DIR/fields.xmf with VTK's XDMF reader (the reader behind ParaView's XDMF support). Checks:
@@ -13,6 +13,9 @@ importable, DIR/fields.xmf with VTK's XDMF reader (the reader behind ParaView's 
     of (nx+1, ny+1, nz+1) points whose cell data equal the HDF5 values at probe cells.
 Exit status 0 when all checks pass, 1 on the first failed check (with a message), 2 on bad usage.
 --require-vtk turns a missing `vtk` module into a failure instead of a skipped part.
+--columns REGISTRY.json (a list of {"name", "unit"}, written by the test from the product's column registry):
+  cells.csv starts with exactly these columns in this order, and /cells/<name> and summary.json's
+  units["cells.csv"] carry these units.
 """
 
 import csv
@@ -108,6 +111,28 @@ def check_cells(h5_path, csv_path):
     print(f"cells.csv: {len(rows)} rows x {len(header)} columns equal /cells/* bit for bit")
 
 
+def check_registry(h5_path, csv_path, summary_path, registry_path):
+    import json
+    with open(registry_path) as fh:
+        registry = json.load(fh)
+    names = [c["name"] for c in registry]
+    with open(csv_path, newline="") as fh:
+        header = next(csv.reader(fh))
+    require(header[:len(names)] == names, f"cells.csv starts with {header[:len(names)]}, the registry lists {names}")
+    with h5py.File(h5_path, "r") as f:
+        for c in registry:
+            unit = text(f["cells"][c["name"]].attrs["units"])
+            require(unit == c["unit"], f"/cells/{c['name']} has units {unit!r}, the registry says {c['unit']!r}")
+    if os.path.isfile(summary_path):
+        with open(summary_path) as fh:
+            units = json.load(fh).get("units", {}).get("cells.csv")
+        if units is not None:
+            for c in registry:
+                require(units.get(c["name"]) == c["unit"],
+                        f"summary.json units of {c['name']} are {units.get(c['name'])!r}, the registry says {c['unit']!r}")
+    print(f"cells.csv: the {len(names)} registered columns come first, in order, with their units")
+
+
 def xdmf_attributes(xmf_path, h5_name, shape, itemsize):
     """Maps each XDMF attribute to the HDF5 dataset paths it reads, checking dimensions against the grid."""
     nx, ny, nz = shape
@@ -189,8 +214,16 @@ def check_xdmf(directory, shape, itemsize, origin, spacing, require_vtk):
 
 
 def main(argv):
-    args = [a for a in argv[1:] if not a.startswith("--")]
-    flags = [a for a in argv[1:] if a.startswith("--")]
+    args, flags, registry = [], [], None
+    rest = argv[1:]
+    while rest:
+        a = rest.pop(0)
+        if a == "--columns" and rest:
+            registry = rest.pop(0)
+        elif a.startswith("--"):
+            flags.append(a)
+        else:
+            args.append(a)
     if len(args) != 1 or any(flag != "--require-vtk" for flag in flags):
         print(__doc__, file=sys.stderr)
         return 2
@@ -204,6 +237,8 @@ def main(argv):
         require(not leftovers, f"temporary files left behind: {leftovers}")
         shape, origin, spacing, itemsize = check_h5(h5_path)
         check_cells(h5_path, csv_path)
+        if registry is not None:
+            check_registry(h5_path, csv_path, os.path.join(directory, "summary.json"), registry)
         check_xdmf(directory, shape, itemsize, origin, spacing, "--require-vtk" in flags)
         summary = os.path.join(directory, "summary.json")
         if os.path.isfile(summary):

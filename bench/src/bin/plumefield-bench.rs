@@ -79,11 +79,11 @@ struct Run {
     #[serde(default)]
     stencil_s: f64,
     /// CPU seconds of one operator application and of one stencil application (one-thread pool: the meaningful
-    /// figures on a loaded machine; NaN for pools of more threads, whose work runs on other threads).
+    /// figures on a loaded machine; none for pools of more threads, whose work runs on other threads).
     #[serde(default)]
-    apply_cpu_s: f64,
+    apply_cpu_s: Option<f64>,
     #[serde(default)]
-    stencil_cpu_s: f64,
+    stencil_cpu_s: Option<f64>,
 }
 
 #[derive(Serialize, Deserialize, Debug)]
@@ -309,7 +309,7 @@ fn solve(
                 let mut y = vec![0.0; n];
                 let (apply, apply_cpu) = fastest(|| solver.apply(&x, &mut y));
                 let (stencil, stencil_cpu) = fastest(|| plain_stencil(grid.shape, &x, &mut y));
-                let one = |cpu: f64| if threads == 1 { cpu } else { f64::NAN };
+                let one = |cpu: f64| (threads == 1 && cpu.is_finite()).then_some(cpu);
                 Ok(Run {
                     threads,
                     setup_s: setup,
@@ -389,14 +389,16 @@ fn print_ours(f: &Figures) {
             r.solve_cpu_s
         );
     }
-    for r in f.runs.iter().filter(|r| r.apply_cpu_s.is_finite()) {
-        println!(
-            "{} thread, CPU time: apply {:.2} ms, stencil {:.2} ms, apply/st. {:.2}",
-            r.threads,
-            1e3 * r.apply_cpu_s,
-            1e3 * r.stencil_cpu_s,
-            r.apply_cpu_s / r.stencil_cpu_s
-        );
+    for r in &f.runs {
+        if let (Some(apply), Some(stencil)) = (r.apply_cpu_s, r.stencil_cpu_s) {
+            println!(
+                "{} thread, CPU time: apply {:.2} ms, stencil {:.2} ms, apply/st. {:.2}",
+                r.threads,
+                1e3 * apply,
+                1e3 * stencil,
+                apply / stencil
+            );
+        }
     }
     println!(
         "apply/st.: one operator application in stencil-equivalents (one plain 7-point constant-coefficient f64 \
@@ -576,10 +578,9 @@ fn compare(ours_path: &Path, peers_path: &Path) -> Result<()> {
     match one.filter(|r| r.stencil_s > 0.0) {
         Some(r) => {
             // CPU times where measured: on a loaded machine the wall time of the longer product is inflated more.
-            let (apply, stencil, clock) = if r.apply_cpu_s > 0.0 && r.stencil_cpu_s > 0.0 {
-                (r.apply_cpu_s, r.stencil_cpu_s, "CPU")
-            } else {
-                (r.apply_s, r.stencil_s, "wall")
+            let (apply, stencil, clock) = match (r.apply_cpu_s, r.stencil_cpu_s) {
+                (Some(a), Some(s)) if a > 0.0 && s > 0.0 => (a, s, "CPU"),
+                _ => (r.apply_s, r.stencil_s, "wall"),
             };
             let ratio = apply / stencil;
             println!(

@@ -389,7 +389,7 @@ impl PackedOperator {
         let nx = self.shape[0];
         let wide = wide_vectors();
         y.par_chunks_mut(nx).with_min_len(min_lines(nx)).enumerate().for_each_init(
-            || LineScratch::new(nx),
+            || LineScratch::new(self),
             |scratch, (line, yl)| {
                 let faces = LineFaces::new(self.shape, self.periodic, line);
                 let irregular = &self.cells[self.line_start[line]..self.line_start[line + 1]];
@@ -403,8 +403,8 @@ impl PackedOperator {
                     };
                     apply_line_dispatch::<UPWIND>(wide, flux, &faces, &coefficients, x, yl, &mut scratch.qx);
                 } else {
-                    scratch.load(self, &faces, irregular);
-                    let LineScratch { x: gx, sides, sink, active, qx } = scratch;
+                    scratch.load(&faces, irregular);
+                    let LineScratch { x: gx, sides, sink, active, qx } = &mut *scratch;
                     let coefficients = LineCoefficients {
                         x: gx,
                         sides: [&sides[0], &sides[1], &sides[2], &sides[3]],
@@ -412,6 +412,7 @@ impl PackedOperator {
                         active: Some(active),
                     };
                     apply_line_dispatch::<UPWIND>(wide, flux, &faces, &coefficients, x, yl, qx);
+                    scratch.unload(self, &faces, irregular);
                 }
             },
         );
@@ -428,39 +429,49 @@ struct LineScratch {
 }
 
 impl LineScratch {
-    fn new(nx: usize) -> Self {
+    /// Regular values throughout: [`Self::load`] writes one line's irregular cells over them and
+    /// [`Self::unload`] puts the regular values back, so a line costs in proportion to its irregular cells.
+    fn new(packed: &PackedOperator) -> Self {
+        let nx = packed.regular_sink.len();
         LineScratch {
-            x: vec![0.0; nx + 1],
-            sides: std::array::from_fn(|_| vec![0.0; nx]),
-            sink: vec![0.0; nx],
+            x: packed.regular_conductance.clone(),
+            sides: std::array::from_fn(|_| packed.regular_conductance[..nx].to_vec()),
+            sink: packed.regular_sink.clone(),
             active: vec![true; nx],
             qx: vec![0.0; nx + 1],
         }
     }
 
-    fn load(&mut self, packed: &PackedOperator, faces: &LineFaces, irregular: &[IrregularCell]) {
-        let nx = self.sink.len();
-        self.x.copy_from_slice(&packed.regular_conductance);
-        for s in &mut self.sides {
-            s.copy_from_slice(&packed.regular_conductance[..nx]);
-        }
-        self.sink.copy_from_slice(&packed.regular_sink);
-        self.active.iter_mut().for_each(|a| *a = true);
+    fn load(&mut self, faces: &LineFaces, irregular: &[IrregularCell]) {
         for cell in irregular {
-            let i = cell.i as usize;
             let [below, above, s0, s1, s2, s3] = cell.conductance;
-            self.x[i] = below;
-            if i + 1 < nx {
-                self.x[i + 1] = above;
-            } else if faces.wrap_x {
-                self.x[0] = above;
-            }
-            for (side, g) in self.sides.iter_mut().zip([s0, s1, s2, s3]) {
-                side[i] = g;
-            }
-            self.sink[i] = cell.sink;
-            self.active[i] = cell.active;
+            self.write(faces, cell.i as usize, [below, above], [s0, s1, s2, s3], cell.sink, cell.active);
         }
+    }
+
+    fn unload(&mut self, packed: &PackedOperator, faces: &LineFaces, irregular: &[IrregularCell]) {
+        let (g, s) = (packed.regular_conductance[0], packed.regular_sink[0]);
+        for cell in irregular {
+            self.write(faces, cell.i as usize, [g, g], [g; 4], s, true);
+        }
+    }
+
+    /// The coefficients of cell i: its x faces below and above (the one above is face 0 at a periodic wrap),
+    /// its four side faces, sink and activity.
+    #[inline]
+    fn write(&mut self, faces: &LineFaces, i: usize, x: [f64; 2], sides: [f64; 4], sink: f64, active: bool) {
+        let nx = self.sink.len();
+        self.x[i] = x[0];
+        if i + 1 < nx {
+            self.x[i + 1] = x[1];
+        } else if faces.wrap_x {
+            self.x[0] = x[1];
+        }
+        for (side, g) in self.sides.iter_mut().zip(sides) {
+            side[i] = g;
+        }
+        self.sink[i] = sink;
+        self.active[i] = active;
     }
 }
 

@@ -14,7 +14,7 @@
 //! levels are swept sequentially (see [`ColouredStencil::needs_sequential_sweeps`]).
 
 use super::operator::{AdvectionScheme, FaceCoupledOperator};
-use super::real::{wide_vectors, Real};
+use super::real::Real;
 use super::stencil::{face_coefficients, face_index, min_lines, LineNeighbours};
 use rayon::prelude::*;
 
@@ -339,7 +339,6 @@ impl<T: Real> ColouredStencil<T> {
 
     /// Off-diagonal sums `Σ_6 a_PN x_N` of the cells of `colour` on `line` into `off[0..slots]`.
     #[allow(clippy::too_many_arguments)]
-    #[inline(always)]
     fn line_off_diagonal(
         &self,
         colour: usize,
@@ -429,17 +428,20 @@ impl<T: Real> ColouredStencil<T> {
         let h = self.half;
         let (own_all, other_all) = split_own_other(x, colour);
         let b = &b[colour];
-        let wide = wide_vectors();
         let update = |line: usize, own: &mut [T], neighbours: [&[T]; 4], off: &mut [T]| {
-            let other = other_all_line(other_all, h, line);
-            #[cfg(target_arch = "x86_64")]
-            if wide {
-                // SAFETY: `wide` comes from `wide_vectors`, true only when the CPU runs AVX2.
-                unsafe { self.smooth_line_avx2(colour, line, own, other, neighbours, b, off) };
-                return;
+            let count = self.line_off_diagonal(
+                colour,
+                line,
+                own,
+                other_all_line(other_all, h, line),
+                neighbours,
+                off,
+            );
+            let d = &self.colours[colour].diag[line * h..line * h + count];
+            let bl = &b[line * h..line * h + count];
+            for m in 0..count {
+                own[m] = (bl[m] - off[m]) / d[m];
             }
-            let _ = wide;
-            self.smooth_line(colour, line, own, other, neighbours, b, off);
         };
         if self.needs_sequential_sweeps() || self.cells() < 4096 {
             let mut scratch: [Vec<T>; 4] = Default::default();
@@ -459,49 +461,6 @@ impl<T: Real> ColouredStencil<T> {
         }
     }
 
-    /// The Gauss–Seidel update of the cells of `colour` on `line` (`own`: that line's segment of the colour,
-    /// `b`: the colour's whole right-hand side).
-    #[allow(clippy::too_many_arguments)]
-    #[inline(always)]
-    fn smooth_line(
-        &self,
-        colour: usize,
-        line: usize,
-        own: &mut [T],
-        other: &[T],
-        neighbours: [&[T]; 4],
-        b: &[T],
-        off: &mut [T],
-    ) {
-        let h = self.half;
-        let count = self.line_off_diagonal(colour, line, own, other, neighbours, off);
-        let d = &self.colours[colour].diag[line * h..line * h + count];
-        let bl = &b[line * h..line * h + count];
-        for m in 0..count {
-            own[m] = (bl[m] - off[m]) / d[m];
-        }
-    }
-
-    /// [`Self::smooth_line`] compiled for AVX2 (the same bits; see [`super::real`]).
-    ///
-    /// # Safety
-    /// The CPU must run AVX2.
-    #[cfg(target_arch = "x86_64")]
-    #[target_feature(enable = "avx2")]
-    #[allow(clippy::too_many_arguments)]
-    unsafe fn smooth_line_avx2(
-        &self,
-        colour: usize,
-        line: usize,
-        own: &mut [T],
-        other: &[T],
-        neighbours: [&[T]; 4],
-        b: &[T],
-        off: &mut [T],
-    ) {
-        self.smooth_line(colour, line, own, other, neighbours, b, off);
-    }
-
     /// First Gauss–Seidel sweep of `colour` from a zero initial guess: `x_P ← b_P / a_PP` on that colour (every
     /// neighbour is zero). The other colour is not touched; the next sweep overwrites it.
     pub fn smooth_from_zero(&self, colour: usize, x: &mut Split<T>, b: &Split<T>) {
@@ -515,42 +474,6 @@ impl<T: Real> ColouredStencil<T> {
 
     /// Residual `b − A x` on the cells of `colour` of `line`, into `out[0..slots]`; returns the slot count.
     pub fn line_residual(
-        &self,
-        colour: usize,
-        line: usize,
-        x: &Split<T>,
-        b: &Split<T>,
-        scratch: &mut [Vec<T>; 4],
-        out: &mut [T],
-    ) -> usize {
-        #[cfg(target_arch = "x86_64")]
-        if wide_vectors() {
-            // SAFETY: the CPU runs AVX2, checked just above.
-            return unsafe { self.line_residual_avx2(colour, line, x, b, scratch, out) };
-        }
-        self.line_residual_baseline(colour, line, x, b, scratch, out)
-    }
-
-    /// [`Self::line_residual`] compiled for AVX2 (the same bits; see [`super::real`]).
-    ///
-    /// # Safety
-    /// The CPU must run AVX2.
-    #[cfg(target_arch = "x86_64")]
-    #[target_feature(enable = "avx2")]
-    unsafe fn line_residual_avx2(
-        &self,
-        colour: usize,
-        line: usize,
-        x: &Split<T>,
-        b: &Split<T>,
-        scratch: &mut [Vec<T>; 4],
-        out: &mut [T],
-    ) -> usize {
-        self.line_residual_baseline(colour, line, x, b, scratch, out)
-    }
-
-    #[inline(always)]
-    fn line_residual_baseline(
         &self,
         colour: usize,
         line: usize,
@@ -667,43 +590,6 @@ mod tests {
                         rn[p]
                     );
                 }
-            }
-        }
-    }
-
-    /// The AVX2 and baseline builds of the line kernels give the same bits (f32, odd sizes, periodic wraps).
-    #[cfg(target_arch = "x86_64")]
-    #[test]
-    fn wide_and_baseline_line_kernels_agree_bit_for_bit() {
-        if !wide_vectors() {
-            return;
-        }
-        let op = random_operator([37, 5, 6], [true, true, false], 12);
-        let a = ColouredStencil::<f32>::assemble(&op, AdvectionScheme::Central, 0.25);
-        let (mut x, mut b) = (a.zeros(), a.zeros());
-        let to_f32 = |v: Vec<f64>| v.into_iter().map(|v| v as f32).collect::<Vec<f32>>();
-        a.load_natural(&to_f32(random_vector(a.cells(), 3)), &mut x);
-        a.load_natural(&to_f32(random_vector(a.cells(), 4)), &mut b);
-        let h = a.half();
-        let mut scratch = <[Vec<f32>; 4]>::default();
-        let (mut narrow, mut wide) = (vec![0.0f32; h], vec![0.0f32; h]);
-        for colour in 0..2 {
-            for line in 0..a.lines() {
-                let n1 = a.line_residual_baseline(colour, line, &x, &b, &mut scratch, &mut narrow);
-                // SAFETY: `wide_vectors` said the CPU runs AVX2.
-                let n2 = unsafe { a.line_residual_avx2(colour, line, &x, &b, &mut scratch, &mut wide) };
-                assert_eq!(n1, n2);
-                assert!(narrow[..n1].iter().zip(&wide[..n2]).all(|(p, q)| p.to_bits() == q.to_bits()));
-                let other = x[1 - colour][line * h..(line + 1) * h].to_vec();
-                let mut own1 = x[colour][line * h..(line + 1) * h].to_vec();
-                let mut own2 = own1.clone();
-                let neighbours = a.neighbour_lines(line, &x[colour], &x[1 - colour], &mut scratch);
-                let neighbours: Vec<Vec<f32>> = neighbours.iter().map(|s| s.to_vec()).collect();
-                let nb = || [&neighbours[0][..], &neighbours[1][..], &neighbours[2][..], &neighbours[3][..]];
-                a.smooth_line(colour, line, &mut own1, &other, nb(), &b[colour], &mut narrow);
-                // SAFETY: as above.
-                unsafe { a.smooth_line_avx2(colour, line, &mut own2, &other, nb(), &b[colour], &mut wide) };
-                assert!(own1.iter().zip(&own2).all(|(p, q)| p.to_bits() == q.to_bits()), "line {line}");
             }
         }
     }

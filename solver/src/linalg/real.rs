@@ -2,10 +2,10 @@
 //! (half the memory traffic; the preconditioner only needs a few digits, the Krylov method keeps f64) — and
 //! whether the line kernels may run in 256-bit vectors.
 //!
-//! The line kernels (operator product, smoothing, residual) are compiled twice: for the baseline x86-64 (SSE2,
-//! two f64 lanes) and for AVX2 (four), chosen at run time. Both perform the same IEEE operations in the same
-//! order — Rust neither fuses a multiply and an add nor reassociates sums without being told — so the results
-//! are the same bits on every machine.
+//! The line kernel of the operator product is compiled twice: for the baseline x86-64 (SSE2, two f64 lanes)
+//! and for AVX2 (four), chosen at run time. Both perform the same IEEE operations in the same order — Rust
+//! neither fuses a multiply and an add nor reassociates sums without being told — so the results are the same
+//! bits on every machine.
 
 /// True where the CPU runs AVX2 (checked once by the standard library, then a cached load).
 #[inline]
