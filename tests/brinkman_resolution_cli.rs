@@ -137,6 +137,8 @@ fn run_of_a_resolved_case_records_no_guard() {
     let stderr = String::from_utf8_lossy(&out.stderr);
     assert!(out.status.success(), "{stderr}");
     assert!(!stderr.contains("screening length"), "{stderr}");
+    // The divergence check of every run is silent for a converged flow.
+    assert!(!stderr.contains("divergence"), "{stderr}");
     let text = std::fs::read_to_string(dir.path().join("out/summary.json")).expect("summary.json");
     let summary: serde_json::Value = serde_json::from_str(&text).expect("valid JSON");
     assert_eq!(summary["flow"]["screening_length_resolved"], true);

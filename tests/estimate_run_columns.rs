@@ -52,8 +52,7 @@ fn estimate_and_split_columns_follow_the_contract_columns() {
         assert!((ratio[i] - measured[i] / estimate[i]).abs() <= 1e-12 * ratio[i].abs());
     }
     let surface = column(&rows, &header, "mean_surface_concentration_over_estimate");
-    // Six dilute cells: the estimate of the surface concentration holds to tens of per cent (measured 1.0 ± 0.05
-    // on the demo case).
+    // Six dilute cells: the estimate of the surface concentration holds to tens of per cent.
     assert!(surface.iter().all(|r| (0.7..1.4).contains(r)), "{surface:?}");
 
     // Split of cells 0 and 2 only; self + neighbour = total bound rate and anisotropy vector; the share in [0, 1].

@@ -6,14 +6,14 @@ use std::process::Command;
 
 mod common;
 
-/// The small chamber with smaller cells, five of them, and figures on (`figures`).
-fn case_text(figures: bool) -> String {
+/// The small chamber with smaller cells, five of them, and figures on (`figures`), the split of `decompose`.
+fn case_text(figures: bool, decompose: &str) -> String {
     common::small_chamber(&[
         ("chamber.size", r#"["96 um", "48 um", "32 um"]"#),
         ("flow.mean_velocity", r#""1 um/s""#),
         ("cells.radius", r#""6 um""#),
         ("cells.layout", r#"{ kind = "random", count = 5, min_gap = "2 um", seed = 5 }"#),
-        ("sensing.decompose", r#""none""#),
+        ("sensing.decompose", decompose),
         ("output.figures", if figures { "true" } else { "false" }),
     ])
 }
@@ -41,7 +41,7 @@ fn png_size(path: &Path) -> (u32, u32) {
 fn run_draws_figures_and_plot_redraws_them() {
     let dir = tempfile::tempdir().unwrap();
     let case = dir.path().join("case.toml");
-    std::fs::write(&case, case_text(true)).unwrap();
+    std::fs::write(&case, case_text(true, r#""none""#)).unwrap();
     let out = dir.path().join("out");
     let run = plumefield(&["run", case.to_str().unwrap(), "-o", out.to_str().unwrap()]);
     assert!(run.status.success(), "{}", String::from_utf8_lossy(&run.stderr));
@@ -81,11 +81,32 @@ fn run_draws_figures_and_plot_redraws_them() {
     assert_eq!(missing.status.code(), Some(2));
 }
 
+/// With the split of every cell, `run` also draws the own/neighbour signal figure, and it passes the checks.
+#[test]
+fn a_split_run_draws_own_against_neighbour_signal() {
+    let dir = tempfile::tempdir().unwrap();
+    let case = dir.path().join("case.toml");
+    std::fs::write(&case, case_text(true, r#""all""#)).unwrap();
+    let out = dir.path().join("out");
+    let run = plumefield(&["run", case.to_str().unwrap(), "-o", out.to_str().unwrap()]);
+    assert!(run.status.success(), "{}", String::from_utf8_lossy(&run.stderr));
+    let path = out.join("figures/self_and_neighbour_signal.png");
+    let (w, h) = png_size(&path);
+    assert!(w >= 600 && h >= 300, "{w}x{h}");
+    let drawn = plumefield::figures::run_figures::draw_run_figures(&out).expect("figures");
+    assert_eq!(drawn.len(), FIGURES.len() + 1);
+    let (_, record) = drawn.iter().find(|(p, _)| p.ends_with("self_and_neighbour_signal.png")).unwrap();
+    assert_eq!(record.check(), Ok(()));
+    // Five cells, two parts each, plus each bin's means.
+    assert!(record.points.len() >= 12, "{}", record.points.len());
+    assert_eq!(record.not_drawn, 0);
+}
+
 #[test]
 fn figures_false_draws_nothing() {
     let dir = tempfile::tempdir().unwrap();
     let case = dir.path().join("case.toml");
-    std::fs::write(&case, case_text(false)).unwrap();
+    std::fs::write(&case, case_text(false, r#""none""#)).unwrap();
     let out = dir.path().join("out");
     let run = plumefield(&["run", case.to_str().unwrap(), "-o", out.to_str().unwrap()]);
     assert!(run.status.success(), "{}", String::from_utf8_lossy(&run.stderr));

@@ -10,37 +10,22 @@ use std::path::Path;
 
 use plumefield::io::{
     write_cells_csv, write_fields_h5, write_fields_xmf, write_summary_json, CellTable, Column, FieldData,
-    Provenance,
+    FieldStorage, Precision, Provenance,
 };
+use plumefield::outputs::columns::{CellColumn, CELL_COLUMNS};
 
 /// Seeded values with awkward decimals, uniform in [0, 1).
 fn seeded(seed: u64) -> numkit::Xoshiro256StarStar {
     numkit::Xoshiro256StarStar::seed_from_u64(seed)
 }
 
-const CELL_COLUMNS: [(&str, &str); 18] = [
-    ("id", "1"),
-    ("x", "m"),
-    ("y", "m"),
-    ("z", "m"),
-    ("radius", "m"),
-    ("secretion_rate", "1/s"),
-    ("mean_surface_concentration", "molecules/m^3"),
-    ("bound_rate", "1/s"),
-    ("anisotropy_x", "1"),
-    ("anisotropy_y", "1"),
-    ("anisotropy_z", "1"),
-    ("anisotropy_along_flow", "1"),
-    ("front_back_contrast", "1"),
-    ("direction_error", "1"),
-    ("drag_x", "N"),
-    ("drag_y", "N"),
-    ("drag_z", "N"),
-    ("local_speed", "m/s"),
-];
-
 /// Writes fields.h5, fields.xmf, cells.csv and summary.json of a small synthetic run into `dir`.
 fn write_synthetic_run(dir: &Path) -> anyhow::Result<()> {
+    write_synthetic_run_as(dir, FieldStorage::default())
+}
+
+/// [`write_synthetic_run`] with the 3-D fields stored as `storage` says.
+fn write_synthetic_run_as(dir: &Path, storage: FieldStorage) -> anyhow::Result<()> {
     let grid = mesh::Grid::new([-1.0e-5, 2.0e-6, 3.3e-6], 2.0e-6, [7, 5, 4]);
     let mut rng = seeded(7);
     let mut field = |group: &str, name: &str, unit: &str, scale: f64| FieldData {
@@ -48,7 +33,7 @@ fn write_synthetic_run(dir: &Path) -> anyhow::Result<()> {
         name: name.into(),
         unit: unit.into(),
         description: format!("synthetic {name}"),
-        values: (0..grid.len()).map(|_| scale * (rng.next_f64() - 0.25)).collect(),
+        values: (0..grid.len()).map(|_| scale * (rng.next_f64() - 0.25)).collect::<Vec<f64>>().into(),
     };
     let fields = vec![
         field("flow", "u", "m/s", 2e-6),
@@ -61,10 +46,11 @@ fn write_synthetic_run(dir: &Path) -> anyhow::Result<()> {
 
     let n_cells = 6;
     let mut rng = seeded(11);
+    // The registry's columns, so the readers see the names and units a run writes.
     let columns = CELL_COLUMNS
         .iter()
         .enumerate()
-        .map(|(index, &(name, unit))| {
+        .map(|(index, &CellColumn { name, unit, .. })| {
             if name == "id" {
                 Column::int(name, unit, "cell identifier", (0..n_cells as u64).collect())
             } else {
@@ -88,8 +74,8 @@ fn write_synthetic_run(dir: &Path) -> anyhow::Result<()> {
         case_text,
         command_line: "plumefield run synthetic.toml".into(),
     };
-    write_fields_h5(&dir.join("fields.h5"), &grid, &volume_fraction, &fields, &cells, &provenance)?;
-    write_fields_xmf(&dir.join("fields.xmf"), "fields.h5", &grid, &fields)?;
+    write_fields_h5(&dir.join("fields.h5"), &grid, &volume_fraction, &fields, &cells, &provenance, storage)?;
+    write_fields_xmf(&dir.join("fields.xmf"), "fields.h5", &grid, &fields, storage.precision)?;
     write_cells_csv(&dir.join("cells.csv"), &cells)?;
     write_summary_json(
         &dir.join("summary.json"),
@@ -99,9 +85,14 @@ fn write_synthetic_run(dir: &Path) -> anyhow::Result<()> {
 }
 
 fn run_check(dir: &Path, require_vtk: bool) -> std::process::Output {
+    let registry = python::write_column_registry(dir);
+    let registry = registry.to_str().expect("temporary folders have UTF-8 names");
     let dir = dir.to_str().expect("temporary folders have UTF-8 names");
-    let args: &[&str] = if require_vtk { &[dir, "--require-vtk"] } else { &[dir] };
-    python::run_script("check_outputs.py", args)
+    let mut args = vec![dir, "--columns", registry];
+    if require_vtk {
+        args.push("--require-vtk");
+    }
+    python::run_script("check_outputs.py", &args)
 }
 
 #[test]
@@ -115,6 +106,27 @@ fn outside_readers_accept_the_outputs() {
     assert!(stdout.contains("all output checks passed"));
     if vtk {
         assert!(stdout.contains("VTK vtkXdmfReader opens it"), "VTK part did not run");
+    }
+}
+
+#[test]
+fn outside_readers_accept_single_precision_and_every_compression() {
+    let Some(python::Readers { vtk }) = python::readers() else { return };
+    for (precision, compression, label) in [
+        (Precision::Single, 1, "32-bit, gzip"),
+        (Precision::Single, 9, "32-bit, gzip"),
+        (Precision::Double, 0, "64-bit, uncompressed"),
+        (Precision::Single, 0, "32-bit, uncompressed"),
+    ] {
+        let dir = tempfile::tempdir().unwrap();
+        write_synthetic_run_as(dir.path(), FieldStorage { precision, compression }).unwrap();
+        let out = run_check(dir.path(), vtk);
+        assert!(out.status.success(), "check_outputs.py failed for {precision:?} level {compression}");
+        let stdout = String::from_utf8_lossy(&out.stdout);
+        assert!(stdout.contains(label), "{precision:?} level {compression}: {stdout}");
+        if vtk {
+            assert!(stdout.contains("VTK vtkXdmfReader opens it"), "VTK part did not run");
+        }
     }
 }
 
@@ -135,4 +147,22 @@ fn outside_check_catches_a_one_ulp_difference() {
     let out = run_check(dir.path(), false);
     assert_eq!(out.status.code(), Some(1), "a one-ulp change went unnoticed");
     assert!(String::from_utf8_lossy(&out.stderr).contains("cells.csv x row 0"));
+}
+
+#[test]
+fn outside_check_holds_the_files_to_the_registry() {
+    // The registry check must be able to fail: a registry whose bound_rate has another unit than the files.
+    let Some(_) = python::readers() else { return };
+    let dir = tempfile::tempdir().unwrap();
+    write_synthetic_run(dir.path()).unwrap();
+    let registry = python::write_column_registry(dir.path());
+    let text = std::fs::read_to_string(&registry).unwrap();
+    let changed =
+        text.replace(r#""name":"bound_rate","unit":"molecules/s""#, r#""name":"bound_rate","unit":"1/s""#);
+    assert_ne!(changed, text, "the registry lists bound_rate in molecules/s");
+    std::fs::write(&registry, changed).unwrap();
+    let args = [dir.path().to_str().unwrap(), "--columns", registry.to_str().unwrap()];
+    let out = python::run_script("check_outputs.py", &args);
+    assert_eq!(out.status.code(), Some(1), "a unit that differs from the registry went unnoticed");
+    assert!(String::from_utf8_lossy(&out.stderr).contains("/cells/bound_rate has units"));
 }

@@ -101,7 +101,10 @@ fn run_writes_contract_outputs_with_closed_mass_balance() {
 
     // Outside readers on the real folder (h5py; VTK when importable).
     if common::python::readers().is_some() {
-        let check = common::python::run_script("check_outputs.py", &[out.to_str().expect("UTF-8 path")]);
+        let registry =
+            common::python::write_column_registry(out.parent().expect("the output folder has a parent"));
+        let args = [out.to_str().expect("UTF-8 path"), "--columns", registry.to_str().expect("UTF-8 path")];
+        let check = common::python::run_script("check_outputs.py", &args);
         assert!(check.status.success(), "outside-reader check failed (its output is above)");
     }
 }

@@ -79,8 +79,8 @@ fn a_chamber_without_cells_carries_the_undisturbed_stream() {
 
 #[test]
 fn one_cell_in_a_darcy_stream_feels_the_mean_speed() {
-    // The shell mean over cut grid cells approaches the stream at first order in h/a (measured 1.3, 0.9 and
-    // 0.7 % below it at 3.2, 4 and 5 spacings per radius); 4 is the resolution of the README's example.
+    // The shell mean over cut grid cells approaches the stream at first order in h/a; 4 spacings per radius is
+    // the resolution of the README's example.
     let grid = grid(4);
     let n = grid.shape[0];
     let centre = [0.5 * grid.extent()[0]; 3];

@@ -93,6 +93,8 @@ pub struct OutputParams {
     pub fields: Vec<OutputField>,
     /// Default true.
     pub figures: bool,
+    /// `precision` (default double) and `compression` (deflate level, default 1) of the 3-D fields.
+    pub storage: crate::io::FieldStorage,
 }
 
 /// A validated case, SI units throughout.

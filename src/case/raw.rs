@@ -181,6 +181,8 @@ pub struct RawSolve {
     pub end_time: Value<RawNumber>,
     pub time_step: Value<RawNumber>,
     pub output_every: Value<RawNumber>,
+    /// A list of times, or `{ from, to, count, scale }`.
+    pub output_times: Value<toml::Value>,
     pub adaptive: Value<bool>,
     pub error_tolerance: Value<RawNumber>,
     pub initial_condition: Value<String>,
@@ -205,4 +207,6 @@ pub struct RawSensing {
 pub struct RawOutput {
     pub fields: Value<Vec<Spanned<String>>>,
     pub figures: Value<bool>,
+    pub precision: Value<String>,
+    pub compression: Value<RawNumber>,
 }

@@ -113,6 +113,7 @@ fn base_case_is_valid_and_in_si() {
     assert_eq!(case.sensing.integration_time, 3600.0);
     assert_eq!(case.output.fields, OutputField::ALL.to_vec());
     assert!(case.output.figures);
+    assert_eq!(case.output.storage, crate::io::FieldStorage::default());
     assert!(case.warnings.is_empty(), "{:?}", case.warnings);
     // SHA-256 of the text bytes.
     assert_eq!(case.sha256, super::sha256_hex(BASE.as_bytes()));
@@ -520,9 +521,38 @@ fn solve_rules() {
     let case = parse(&transient.replace("tolerance = 1e-8", "tolerance = 1e-8\noutput_every = \"30 min\""))
         .unwrap_or_else(|e| panic!("{e}"));
     let t = case.solve.transient.expect("transient params");
-    assert_eq!((t.end_time, t.time_step, t.output_every, t.adaptive), (7200.0, 60.0, 1800.0, None));
+    assert_eq!((t.end_time, t.time_step, t.adaptive), (7200.0, 60.0, None));
+    assert_eq!((t.output_times, t.longest_output_gap), (vec![1800.0, 3600.0, 5400.0, 7200.0], 1800.0));
     let text = transient.replace("tolerance = 1e-8", "tolerance = 1e-8\noutput_every = \"90 s\"");
     expect_error(&text, "solve.output_every", Some("output_every"), &["whole multiple of solve.time_step"]);
+    // Output times as a list or spaced in log time; never beside output_every.
+    let with = |line: &str| transient.replace("tolerance = 1e-8", &format!("tolerance = 1e-8\n{line}"));
+    let t = parse(&with("output_times = [\"1 min\", 600, \"1 h\"]")).unwrap_or_else(|e| panic!("{e}"));
+    let t = t.solve.transient.expect("transient");
+    assert_eq!((t.output_times, t.longest_output_gap), (vec![60.0, 600.0, 3600.0], 3600.0));
+    let t = parse(&with("output_times = { from = \"1 min\", to = \"100 min\", count = 3, scale = \"log\" }"))
+        .unwrap_or_else(|e| panic!("{e}"));
+    let times = t.solve.transient.expect("transient").output_times;
+    assert_eq!(times.len(), 3);
+    assert!((times[0], times[2]) == (60.0, 6000.0) && (times[1] - 600.0).abs() < 1e-9, "{times:?}");
+    let both = "output_every = \"30 min\"\noutput_times = [60]";
+    expect_error(&with(both), "solve.output_times", Some("output_times"), &["not both"]);
+    expect_error(
+        &with("output_times = [600, 60]"),
+        "solve.output_times",
+        Some("output_times"),
+        &["must increase"],
+    );
+    expect_error(
+        &with("output_times = [\"3 h\"]"),
+        "solve.output_times",
+        Some("output_times"),
+        &["after solve.end_time"],
+    );
+    let bad_scale = "output_times = { from = 1, to = 9, count = 3, scale = \"cubic\" }";
+    expect_error(&with(bad_scale), "solve.output_times", Some("output_times"), &["\"linear\" or \"log\""]);
+    let no_count = "output_times = { from = 1, to = 9 }";
+    expect_error(&with(no_count), "solve.output_times", Some("output_times"), &["count is missing"]);
     let text = transient.replace("tolerance = 1e-8", "tolerance = 1e-8\nerror_tolerance = 1e-3");
     expect_error(&text, "solve.error_tolerance", Some("error_tolerance"), &["only used with solve.adaptive"]);
     let text = edit("tolerance = 1e-8", "tolerance = 0.1");
@@ -552,6 +582,20 @@ fn sensing_and_output_rules() {
     expect_error(&text, "output.fields[1]", Some("fields"), &["listed twice"]);
     let text = edit("figures = true", "figures = \"yes\"");
     expect_error(&text, "output.figures", Some("figures"), &["output.figures"]);
+    let text = edit("figures = true", "figures = true\nprecision = \"half\"");
+    expect_error(
+        &text,
+        "output.precision",
+        Some("precision"),
+        &["\"half\" is not a precision", "\"single\""],
+    );
+    let text = edit("figures = true", "figures = true\ncompression = 10");
+    expect_error(&text, "output.compression", Some("compression"), &["0 (none) to 9"]);
+    let text = edit("figures = true", "figures = true\ncompression = 1.5");
+    expect_error(&text, "output.compression", Some("compression"), &["whole number"]);
+    let text = edit("figures = true", "figures = true\nprecision = \"single\"\ncompression = 0");
+    let storage = parse(&text).unwrap_or_else(|e| panic!("{e}")).output.storage;
+    assert_eq!(storage, crate::io::FieldStorage { precision: crate::io::Precision::Single, compression: 0 });
 }
 
 #[test]
@@ -617,5 +661,22 @@ fn sensing_statistics_keys_default_and_refuse_bad_values() {
         "sensing.statistics_margin",
         Some("statistics_margin"),
         &["expected a length"],
+    );
+}
+
+#[test]
+fn an_explicit_split_in_a_transient_run_is_said_to_be_not_carried_out() {
+    let transient =
+        edit("mode = \"steady\"", "mode = \"transient\"\nend_time = \"2 h\"\ntime_step = \"60 s\"");
+    let quiet = parse(&transient).expect("transient case");
+    assert!(!quiet.warnings.iter().any(|w| w.contains("sensing.decompose")), "{:?}", quiet.warnings);
+    let asked = parse(
+        &transient.replace("integration_time = \"1 h\"", "integration_time = \"1 h\"\ndecompose = \"all\""),
+    )
+    .expect("transient case with decompose");
+    assert!(
+        asked.warnings.iter().any(|w| w.contains("sensing.decompose is not carried out in transient runs")),
+        "{:?}",
+        asked.warnings
     );
 }

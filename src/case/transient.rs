@@ -5,7 +5,7 @@
 use std::ops::Range;
 use std::path::PathBuf;
 
-use super::raw::{RawCells, RawFlow, RawSensing, RawSolve};
+use super::raw::{RawCells, RawFlow, RawNumber, RawSensing, RawSolve};
 use super::units::Dimension;
 use super::validate::{Range0, Source};
 use super::CaseError;
@@ -25,7 +25,11 @@ pub struct TransientSolve {
     pub end_time: f64,
     /// Fixed step, or the first step when adaptive (s).
     pub time_step: f64,
-    pub output_every: f64,
+    /// Output times (s), increasing, in (0, end_time]; the final state is written as well when the end time
+    /// is not among them.
+    pub output_times: Vec<f64>,
+    /// Longest gap between output times (from 0 and to the end): the longest adaptive step.
+    pub longest_output_gap: f64,
     /// `Some(tolerance)`: adaptive steps with this relative local-error tolerance.
     pub adaptive: Option<f64>,
     pub initial: InitialCondition,
@@ -62,6 +66,7 @@ pub(super) fn transient_only_keys<'a>(
     add("solve.end_time", solve.end_time.as_ref().map(|v| v.span()));
     add("solve.time_step", solve.time_step.as_ref().map(|v| v.span()));
     add("solve.output_every", solve.output_every.as_ref().map(|v| v.span()));
+    add("solve.output_times", solve.output_times.as_ref().map(|v| v.span()));
     add("solve.adaptive", solve.adaptive.as_ref().map(|v| v.span()));
     add("solve.error_tolerance", solve.error_tolerance.as_ref().map(|v| v.span()));
     add("solve.initial_condition", solve.initial_condition.as_ref().map(|v| v.span()));
@@ -109,13 +114,6 @@ pub(super) fn validate_transient(
         Range0::Positive,
         "\"60 s\" (the first step when adaptive)",
     )?;
-    let output_every = src.quantity_or(
-        "solve.output_every",
-        solve.output_every.as_ref(),
-        Dimension::TIME,
-        Range0::Positive,
-        end_time,
-    )?;
     let span_of = |v: &Option<toml::Spanned<_>>| v.as_ref().map(|s: &toml::Spanned<_>| s.span());
     if time_step > end_time {
         return Err(src.error(
@@ -124,16 +122,55 @@ pub(super) fn validate_transient(
             format!("solve.time_step ({time_step} s) is longer than solve.end_time ({end_time} s)"),
         ));
     }
-    if end_time / output_every > MAX_OUTPUTS {
-        return Err(src.error(
-            "solve.output_every",
-            span_of(&solve.output_every).as_ref(),
-            format!(
-                "solve.output_every would write {:.0} output times; at most {MAX_OUTPUTS:.0}",
-                end_time / output_every
-            ),
-        ));
-    }
+    let output_times = match (&solve.output_every, &solve.output_times) {
+        (Some(_), Some(times)) => {
+            return Err(src.error(
+                "solve.output_times",
+                Some(&times.span()),
+                "give either solve.output_times or solve.output_every, not both",
+            ))
+        }
+        (_, Some(times)) => listed_output_times(src, times, end_time)?,
+        (every, None) => {
+            let output_every = src.quantity_or(
+                "solve.output_every",
+                every.as_ref(),
+                Dimension::TIME,
+                Range0::Positive,
+                end_time,
+            )?;
+            if end_time / output_every > MAX_OUTPUTS {
+                return Err(src.error(
+                    "solve.output_every",
+                    span_of(&solve.output_every).as_ref(),
+                    format!(
+                        "solve.output_every would write {:.0} output times; at most {MAX_OUTPUTS:.0}",
+                        end_time / output_every
+                    ),
+                ));
+            }
+            // Fixed steps must land on the output times.
+            let ratio = output_every / time_step;
+            let fixed = !solve.adaptive.as_ref().is_some_and(|a| *a.get_ref());
+            if fixed && (ratio - ratio.round()).abs() > 1e-9 * ratio.max(1.0) {
+                return Err(src.error(
+                    "solve.output_every",
+                    span_of(&solve.output_every).as_ref(),
+                    format!(
+                        "solve.output_every ({output_every} s) must be a whole multiple of solve.time_step ({time_step} s) when the steps are fixed"
+                    ),
+                ));
+            }
+            every_output_time(output_every, end_time)
+        }
+    };
+    let longest_output_gap = std::iter::once(0.0)
+        .chain(output_times.iter().copied())
+        .chain(std::iter::once(end_time))
+        .collect::<Vec<f64>>()
+        .windows(2)
+        .map(|w| w[1] - w[0])
+        .fold(0.0, f64::max);
     let adaptive = solve.adaptive.as_ref().is_some_and(|a| *a.get_ref());
     let adaptive = if adaptive {
         let tol = src.quantity_or(
@@ -157,17 +194,6 @@ pub(super) fn validate_transient(
                 "solve.error_tolerance",
                 Some(&v.span()),
                 "solve.error_tolerance is only used with solve.adaptive = true",
-            ));
-        }
-        // Fixed steps must land on the output times.
-        let ratio = output_every / time_step;
-        if (ratio - ratio.round()).abs() > 1e-9 * ratio.max(1.0) {
-            return Err(src.error(
-                "solve.output_every",
-                span_of(&solve.output_every).as_ref(),
-                format!(
-                    "solve.output_every ({output_every} s) must be a whole multiple of solve.time_step ({time_step} s) when the steps are fixed"
-                ),
             ));
         }
         None
@@ -240,7 +266,8 @@ pub(super) fn validate_transient(
     Ok(TransientSolve {
         end_time,
         time_step,
-        output_every,
+        output_times,
+        longest_output_gap,
         adaptive,
         initial,
         stop_at_steady,
@@ -248,4 +275,125 @@ pub(super) fn validate_transient(
         flow_change,
         window_start,
     })
+}
+
+/// Output times `k · output_every` (k ≥ 1) up to the end time.
+fn every_output_time(output_every: f64, end_time: f64) -> Vec<f64> {
+    let mut times = Vec::new();
+    let mut k = 1u64;
+    loop {
+        let time = k as f64 * output_every;
+        if time > end_time * (1.0 + 1e-12) {
+            break;
+        }
+        times.push(time.min(end_time));
+        k += 1;
+    }
+    times
+}
+
+/// `solve.output_times`: a list of times, or `{ from, to, count, scale = "linear" | "log" }` (count times from
+/// `from` to `to`, both included, equally spaced in time or in log time).
+fn listed_output_times(
+    src: &Source,
+    value: &toml::Spanned<toml::Value>,
+    end_time: f64,
+) -> Result<Vec<f64>, CaseError> {
+    let key = "solve.output_times";
+    let span = value.span();
+    let fail = |message: String| src.error(key, Some(&span), message);
+    let time_of = |name: &str, v: &toml::Value| -> Result<f64, CaseError> {
+        let raw = match v {
+            toml::Value::Integer(i) => RawNumber::Si(*i as f64),
+            toml::Value::Float(f) => RawNumber::Si(*f),
+            toml::Value::String(text) => RawNumber::Text(text.clone()),
+            other => {
+                return Err(src.error(
+                    name,
+                    Some(&span),
+                    format!(
+                        "{name} = {other} is not a time (a number of seconds or a string such as \"10 min\")"
+                    ),
+                ))
+            }
+        };
+        src.quantity(name, &toml::Spanned::new(span.clone(), raw), Dimension::TIME, Range0::Positive)
+    };
+    let times = match value.get_ref() {
+        toml::Value::Array(list) => {
+            if list.len() as f64 > MAX_OUTPUTS {
+                return Err(fail(format!("{key} lists {} times; at most {MAX_OUTPUTS:.0}", list.len())));
+            }
+            let times = list.iter().map(|v| time_of(key, v)).collect::<Result<Vec<f64>, _>>()?;
+            if times.is_empty() {
+                return Err(fail(format!("{key} is an empty list; list at least one time")));
+            }
+            if let Some(w) = times.windows(2).find(|w| w[1] <= w[0]) {
+                return Err(fail(format!("{key} must increase: {} s is followed by {} s", w[0], w[1])));
+            }
+            times
+        }
+        toml::Value::Table(table) => {
+            if let Some(unknown) =
+                table.keys().find(|k| !["from", "to", "count", "scale"].contains(&k.as_str()))
+            {
+                return Err(fail(format!("{key} has no key \"{unknown}\" (from, to, count, scale)")));
+            }
+            let get = |name: &str| {
+                table
+                    .get(name)
+                    .ok_or_else(|| fail(format!("{key}.{name} is missing (from, to and count are needed)")))
+            };
+            let from = time_of(&format!("{key}.from"), get("from")?)?;
+            let to = time_of(&format!("{key}.to"), get("to")?)?;
+            let count = match get("count")? {
+                toml::Value::Integer(n) if *n >= 2 && (*n as f64) <= MAX_OUTPUTS => *n as usize,
+                other => {
+                    return Err(fail(format!(
+                        "{key}.count = {other} must be a whole number from 2 to {MAX_OUTPUTS:.0}"
+                    )))
+                }
+            };
+            let log = match table.get("scale") {
+                None => false,
+                Some(toml::Value::String(s)) if s == "linear" => false,
+                Some(toml::Value::String(s)) if s == "log" => true,
+                Some(other) => {
+                    return Err(fail(format!("{key}.scale = {other} is not \"linear\" or \"log\"")))
+                }
+            };
+            if to <= from {
+                return Err(fail(format!("{key}.to ({to} s) must be later than {key}.from ({from} s)")));
+            }
+            let at = |k: usize| {
+                let s = k as f64 / (count - 1) as f64;
+                if log {
+                    (from.ln() + s * (to.ln() - from.ln())).exp()
+                } else {
+                    from + s * (to - from)
+                }
+            };
+            // The ends exactly as written.
+            (0..count)
+                .map(|k| {
+                    if k == 0 {
+                        from
+                    } else if k + 1 == count {
+                        to
+                    } else {
+                        at(k)
+                    }
+                })
+                .collect()
+        }
+        other => {
+            return Err(fail(format!(
+                "{key} = {other} is neither a list of times nor {{ from, to, count, scale = \"log\" }}"
+            )))
+        }
+    };
+    if let Some(&late) = times.iter().find(|&&t| t > end_time * (1.0 + 1e-12)) {
+        return Err(fail(format!("{key}: {late} s is after solve.end_time ({end_time} s)")));
+    }
+    Ok(times)
 }

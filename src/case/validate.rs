@@ -12,6 +12,7 @@ use super::raw::{RawCase, RawLigand, RawMedium, RawNumber, RawOutput, RawSensing
 use super::source_map::line_of;
 use super::units::{parse_quantity, Dimension, UnitError};
 use super::{Case, CaseError, OutputField, OutputParams, SensingParams, SolveMode, SolveParams};
+use crate::io::{FieldStorage, Precision};
 use solver::problem::{FlowParameters, LigandParameters, MediumModel, SurfaceUptake};
 
 /// The case text and file name, to turn spans into line numbers in errors.
@@ -241,6 +242,14 @@ pub(super) fn validate(raw: RawCase, text: &str, path: &Path) -> Result<Case, Ca
     let (raw_sensing, _) = section(raw.sensing);
     let sensing = validate_sensing(&src, &raw_sensing, fitted.size[0], placed.layout.cells.len())?;
     if solve.mode == SolveMode::Transient {
+        if let Some(v) = &raw_sensing.decompose {
+            // Said once rather than ignored: a transient run writes no split columns.
+            warnings.push(format!(
+                "{} line {}: sensing.decompose is not carried out in transient runs (no self/neighbour columns are written); run the case with solve.mode = \"steady\" for the split",
+                path.display(),
+                src.line(&v.span())
+            ));
+        }
         let case_dir = path.parent().unwrap_or(Path::new("."));
         solve.transient = Some(super::transient::validate_transient(
             &src,
@@ -527,5 +536,34 @@ fn validate_output(src: &Source, output: &RawOutput) -> Result<OutputParams, Cas
         }
     };
     let figures = output.figures.as_ref().map_or(true, |f| *f.get_ref());
-    Ok(OutputParams { fields, figures })
+    let mut storage = FieldStorage::default();
+    if let Some(p) = &output.precision {
+        storage.precision = match p.get_ref().as_str() {
+            "single" => Precision::Single,
+            "double" => Precision::Double,
+            other => {
+                return Err(src.error(
+                    "output.precision",
+                    Some(&p.span()),
+                    format!(
+                        "output.precision = \"{other}\" is not a precision; use \"single\" or \"double\""
+                    ),
+                ))
+            }
+        };
+    }
+    if let Some(level) = &output.compression {
+        let n = src.whole_number("output.compression", level, 0)?;
+        if n > 9 {
+            return Err(src.error(
+                "output.compression",
+                Some(&level.span()),
+                format!(
+                    "output.compression = {n} is not a deflate level; use 0 (none) to 9 (smallest files)"
+                ),
+            ));
+        }
+        storage.compression = n as u8;
+    }
+    Ok(OutputParams { fields, figures, storage })
 }

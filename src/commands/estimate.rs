@@ -12,7 +12,8 @@ use std::path::Path;
 use solver::post::estimates::IsolatedFlow;
 
 use crate::case::Case;
-use crate::engine::estimates::{Background, CaseEstimates, CriticalDensity};
+use crate::engine::estimates::CaseEstimates;
+use solver::post::chamber_estimates::{Background, CriticalDensity};
 
 impl CaseEstimates {
     /// Plain aligned table for the terminal.
@@ -174,7 +175,7 @@ pub fn execute(case_path: &Path, json: bool, node_memory: Option<f64>) -> anyhow
         }
     }
     if json {
-        println!("{}", serde_json::to_string_pretty(&estimates.to_json())?);
+        println!("{}", serde_json::to_string_pretty(&serde_json::to_value(estimates.summary())?)?);
     } else {
         for warning in crate::engine::case_warnings(&case) {
             eprintln!("warning: {warning}");

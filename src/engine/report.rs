@@ -24,15 +24,9 @@ pub fn cell_table(case: &Case, solved: &SolvedCase) -> CellTable {
     table
 }
 
-fn field_data(case: &Case, solved: &SolvedCase) -> Vec<FieldData> {
+fn field_data<'a>(case: &Case, solved: &'a SolvedCase) -> Vec<FieldData<'a>> {
     let mut fields = Vec::new();
-    let f = |group: &str, name: &str, unit: &str, description: &str, values: &[f64]| FieldData {
-        group: group.into(),
-        name: name.into(),
-        unit: unit.into(),
-        description: description.into(),
-        values: values.to_vec(),
-    };
+    let f = FieldData::borrowed;
     for wanted in &case.output.fields {
         match wanted {
             OutputField::Velocity => {
@@ -110,9 +104,16 @@ pub fn write_outputs(
             &fields,
             &table,
             &provenance,
+            case.output.storage,
         )
     })?;
-    write_fields_xmf(&out_dir.join("fields.xmf"), "fields.h5", &case.grid, &fields)?;
+    write_fields_xmf(
+        &out_dir.join("fields.xmf"),
+        "fields.h5",
+        &case.grid,
+        &fields,
+        case.output.storage.precision,
+    )?;
 
     let measures = RunMeasures {
         case,

@@ -38,6 +38,8 @@ pub fn run_statistics(case: &Case, table: &CellTable) -> SensingStatistics {
     let cells = CellValues {
         x: real(table, "x").unwrap_or(empty),
         direction_error: real(table, "direction_error").unwrap_or(empty),
+        estimate_direction_error: real(table, "estimate_direction_error"),
+        time_to_readable: real(table, "time_to_readable"),
         quantities,
     };
     let params = StatisticsParams {

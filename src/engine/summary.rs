@@ -60,6 +60,7 @@ fn units(table: &CellTable) -> BTreeMap<String, Unit> {
         one("sensing.statistics_margin", "m"),
         one("sensing.by_position.x_low", "m"),
         one("sensing.by_position.x_high", "m"),
+        one("sensing.time_to_readable", "s"),
     ]
     .into_iter()
     .collect();
@@ -93,6 +94,12 @@ impl RunSummary {
         let number_density = count as f64 / chamber_volume;
         let d = case.ligand.diffusivity;
         let estimates = CaseEstimates::for_case(case);
+        let sensing = super::sensing_outputs::run_statistics(case, m.table);
+        // One line when the per-cell estimate misjudges where cells fail (also kept in `warnings`).
+        let estimate_warning = crate::sensing::statistics::estimate_disagreement(&sensing);
+        if let Some(line) = &estimate_warning {
+            eprintln!("warning: {line}");
+        }
         let meanfield = meanfield_outlet_concentration(
             number_density,
             case.secretion_rate,
@@ -134,11 +141,11 @@ impl RunSummary {
                 peclet_chamber: case.flow.mean_velocity * case.chamber_size[0] / d,
                 per_cell: column_aggregates(m.table),
                 self_neighbour: sections.self_neighbour,
-                case: estimates.to_json(),
+                case: estimates.summary(),
             },
             cells: CellsSummary { count, volume_fraction: cell_volume_fraction, number_density },
-            sensing: Some(super::sensing_outputs::run_statistics(case, m.table)),
-            warnings: case.warnings.iter().chain(m.warnings).cloned().collect(),
+            sensing: Some(sensing.clone()),
+            warnings: case.warnings.iter().chain(m.warnings).cloned().chain(estimate_warning).collect(),
             units,
         }
     }

@@ -10,8 +10,8 @@ use plotters::prelude::*;
 use super::run_data::RunFigureData;
 use super::style::legend::along;
 use super::style::{
-    chart, choose_scale, colour_maps, drawing, place_legend, plot_box, register_fonts, titled, write_png,
-    Axis, FigureRecord, Legend, Swatch, INK,
+    chart, choose_scale, colour_maps, drawing, place_legend, register_fonts, titled, write_png, Axis,
+    FigureRecord, Legend, Swatch, INK,
 };
 
 /// Height of the plot area in pixels (for the legend's headroom).
@@ -85,15 +85,10 @@ pub fn draw(data: &RunFigureData, path: &Path) -> anyhow::Result<FigureRecord> {
         if not_drawn > 0 {
             legend.add(Swatch::Blank, format!("{not_drawn} cells without a finite anisotropy, not drawn"));
         }
-        let plot_px = plot_box(&plot);
-        record.legend = place_legend(root, &legend, plot_px, &occupied, (plot_px.0 .0, plot_px.0 .1))?;
-        record.notes.extend(legend.entries.iter().map(|e| e.1.clone()));
-        record.occupied = occupied;
+        place_legend(root, &plot, &legend, occupied, &mut record)?;
         Ok(())
     })?;
     record.points.extend(measured);
     record.points.extend(estimate);
-    record.x = Some(x);
-    record.y = Some(y);
-    Ok(record)
+    Ok(record.with_axes(x, y))
 }

@@ -20,8 +20,8 @@ use plotters::prelude::*;
 use super::direction_error_histogram::failed_text;
 use super::style::legend::along;
 use super::style::{
-    chart, colour_maps, drawing, place_legend, plot_box, register_fonts, significant, titled, write_png,
-    Axis, DisplayUnit, FigureRecord, Legend, Scale, Swatch, LEVEL, MUTED,
+    chart, colour_maps, drawing, place_legend, register_fonts, significant, titled, write_png, Axis,
+    DisplayUnit, FigureRecord, Legend, Scale, Swatch, LEVEL, MUTED,
 };
 
 /// Whether the run folder holds a transient run (`summary.json` → `solve_mode`).
@@ -331,15 +331,10 @@ fn draw_approach(data: &Approach, path: &Path, x: &Axis, unit: &DisplayUnit) -> 
                 plot.draw_series(std::iter::once(PathElement::new(vec![p0, p1], colour.stroke_width(2)))),
             )?;
         }
-        let plot_px = plot_box(&plot);
-        record.legend = place_legend(root, &legend, plot_px, &occupied, plot_px.0)?;
-        record.notes.extend(legend.entries.iter().map(|e| e.1.clone()));
-        record.occupied = occupied;
+        place_legend(root, &plot, &legend, occupied, &mut record)?;
         Ok(())
     })?;
-    record.x = Some(x.clone());
-    record.y = Some(y);
-    Ok(record)
+    Ok(record.with_axes(x.clone(), y))
 }
 
 fn draw_readable(
@@ -392,17 +387,12 @@ fn draw_readable(
             drawing(plot.draw_series(line.iter().map(|&p| Circle::new(p, 3, colour.filled()))))?;
             drawing(plot.draw_series(std::iter::once(PathElement::new(line, colour.stroke_width(2)))))?;
         }
-        let plot_px = plot_box(&plot);
-        record.legend = place_legend(root, &legend, plot_px, &occupied, plot_px.0)?;
-        record.notes.extend(legend.entries.iter().map(|e| e.1.clone()));
-        record.occupied = occupied;
+        place_legend(root, &plot, &legend, occupied, &mut record)?;
         Ok(())
     })?;
     record.points.extend(now);
     record.points.extend(window);
-    record.x = Some(x.clone());
-    record.y = Some(y);
-    Ok(record)
+    Ok(record.with_axes(x.clone(), y))
 }
 
 #[cfg(test)]

@@ -140,9 +140,7 @@ pub fn draw(data: &RunFigureData, path: &Path) -> anyhow::Result<FigureRecord> {
         colour_bar(&bar, &colour_axis, colour_maps::signed)?;
         Ok(())
     })?;
-    record.x = Some(x);
-    record.y = Some(y);
-    Ok(record)
+    Ok(record.with_axes(x, y))
 }
 
 /// Length of the largest arrow in plot units (µm) relative to the lattice step.

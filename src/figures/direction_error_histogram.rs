@@ -10,8 +10,8 @@ use plotters::prelude::*;
 use super::run_data::RunFigureData;
 use super::style::legend::along;
 use super::style::{
-    chart, colour_maps, drawing, place_legend, plot_box, register_fonts, significant, titled, write_png,
-    Axis, FigureRecord, Legend, Scale, Swatch, LEVEL, MUTED,
+    chart, colour_maps, drawing, place_legend, register_fonts, significant, titled, write_png, Axis,
+    FigureRecord, Legend, Scale, Swatch, LEVEL, MUTED,
 };
 
 const BINS: usize = 30;
@@ -103,15 +103,10 @@ pub fn draw(data: &RunFigureData, path: &Path) -> anyhow::Result<FigureRecord> {
             LEVEL.stroke_width(2),
         ))))?;
         occupied.extend(along(&[plot.backend_coord(&(lx, 0.0)), plot.backend_coord(&(lx, y.range.1))]));
-        let plot_px = plot_box(&plot);
-        record.legend = place_legend(root, &legend, plot_px, &occupied, plot_px.0)?;
-        record.notes.extend(legend.entries.iter().map(|e| e.1.clone()));
-        record.occupied = occupied;
+        place_legend(root, &plot, &legend, occupied, &mut record)?;
         Ok(())
     })?;
-    record.x = Some(x);
-    record.y = Some(y);
-    Ok(record)
+    Ok(record.with_axes(x, y))
 }
 
 #[cfg(test)]
@@ -127,6 +122,7 @@ mod tests {
             anisotropy_along_flow: 0.1,
             direction_error: error,
             estimate_anisotropy_along_flow: None,
+            split_along_flow: None,
         }
     }
 

@@ -10,4 +10,5 @@ pub mod concentration_slice;
 pub mod direction_error_histogram;
 pub mod run_data;
 pub mod run_figures;
+pub mod self_and_neighbour_signal;
 pub mod style;

@@ -31,6 +31,9 @@ pub struct CellRow {
     pub anisotropy_along_flow: f64,
     pub direction_error: f64,
     pub estimate_anisotropy_along_flow: Option<f64>,
+    /// Along-flow parts of the anisotropy from the cell's own secretion and from the rest, for a cell with the
+    /// self/neighbour split.
+    pub split_along_flow: Option<[f64; 2]>,
 }
 
 /// Everything the run figures show.
@@ -70,11 +73,15 @@ impl RunFigureData {
         let grid = &summary.grid;
         let extent = [0, 1, 2].map(|a| grid.shape[a] as f64 * grid.spacing);
         let estimates = &summary.estimates;
-        let dense = &estimates.case["profile_dense"];
-        let xs = dense["x"].as_array().cloned().unwrap_or_default();
-        let values = dense["anisotropy_along_flow"].as_array().cloned().unwrap_or_default();
-        let meanfield_profile =
-            xs.iter().zip(&values).filter_map(|(x, a)| Some((x.as_f64()?, a.as_f64()?))).collect();
+        let dense = &estimates.case.profile_dense;
+        // A value written as null (not finite) is not drawn.
+        let meanfield_profile = dense
+            .x
+            .iter()
+            .zip(&dense.anisotropy_along_flow)
+            .filter(|(_, a)| !a.is_nan())
+            .map(|(&x, &a)| (x, a))
+            .collect();
         let plane = read_mid_plane(&dir.join("fields.h5")).ok().flatten();
         Ok(RunFigureData {
             title: summary.title.clone(),
@@ -83,7 +90,7 @@ impl RunFigureData {
             cells,
             meanfield_profile,
             isolated_anisotropy: estimates.isolated_anisotropy,
-            integration_time: estimates.case["integration_time"].as_f64(),
+            integration_time: Some(estimates.case.integration_time),
             readable_error: summary.sensing.as_ref().map_or(DEFAULT_READABLE_ERROR, |s| s.readable_error),
         })
     }
@@ -107,6 +114,7 @@ fn read_cells(path: &Path) -> anyhow::Result<Vec<CellRow>> {
         need("direction_error")?,
     ];
     let estimate = find("estimate_anisotropy_along_flow");
+    let split = find("anisotropy_from_self_along_flow").zip(find("anisotropy_from_neighbours_along_flow"));
     let mut rows = Vec::new();
     for record in reader.records() {
         let record = record?;
@@ -118,6 +126,8 @@ fn read_cells(path: &Path) -> anyhow::Result<Vec<CellRow>> {
             anisotropy_along_flow: v(cols[7]),
             direction_error: v(cols[8]),
             estimate_anisotropy_along_flow: estimate.map(v).filter(|x| x.is_finite()),
+            // Not split: NaN in both columns.
+            split_along_flow: split.map(|(a, b)| [v(a), v(b)]).filter(|p| p.iter().any(|x| !x.is_nan())),
         });
     }
     Ok(rows)

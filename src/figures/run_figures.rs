@@ -10,12 +10,13 @@ use super::run_data::RunFigureData;
 use super::style::FigureRecord;
 use super::{
     anisotropy_map, anisotropy_profile, approach_to_steady, concentration_slice, direction_error_histogram,
+    self_and_neighbour_signal,
 };
 
 type Draw = fn(&RunFigureData, &Path) -> anyhow::Result<FigureRecord>;
 
 /// Draws every run figure of output folder `dir`; returns the files written with what each shows. The slice is
-/// skipped when the run did not write the concentration field.
+/// skipped when the run did not write the concentration field, the own/neighbour signal when no cell was split.
 pub fn draw_run_figures(dir: &Path) -> anyhow::Result<Vec<(PathBuf, FigureRecord)>> {
     let data = RunFigureData::read(dir)?;
     let folder = dir.join("figures");
@@ -25,6 +26,9 @@ pub fn draw_run_figures(dir: &Path) -> anyhow::Result<Vec<(PathBuf, FigureRecord
         ("anisotropy_profile.png", anisotropy_profile::draw),
         ("direction_error_histogram.png", direction_error_histogram::draw),
     ];
+    if self_and_neighbour_signal::has_split(&data) {
+        figures.push(("self_and_neighbour_signal.png", self_and_neighbour_signal::draw));
+    }
     if data.plane.is_some() {
         figures.insert(0, ("concentration_slice.png", concentration_slice::draw));
     }

@@ -143,18 +143,18 @@ pub fn sync_parent_directory(_path: &Path) -> std::io::Result<()> {
     Ok(())
 }
 
+/// The names in `dir`, sorted: what a write left behind, for the tests of the writers.
+#[cfg(test)]
+pub(crate) fn entries(dir: &Path) -> Vec<String> {
+    let mut names: Vec<String> =
+        fs::read_dir(dir).unwrap().map(|e| e.unwrap().file_name().to_string_lossy().into_owned()).collect();
+    names.sort();
+    names
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
-
-    fn entries(dir: &Path) -> Vec<String> {
-        let mut names: Vec<String> = fs::read_dir(dir)
-            .unwrap()
-            .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
-            .collect();
-        names.sort();
-        names
-    }
 
     #[test]
     fn write_atomic_creates_and_replaces_without_leftovers() {

@@ -13,26 +13,29 @@
 //!
 //! 3-D arrays are stored `(nz, ny, nx)` so x varies fastest: the flat order `i + nx (j + ny k)` of the solver
 //! is written unchanged, and XDMF readers take the last dimension as x. Every dataset carries string
-//! attributes `units` and `description`. 3-D datasets are chunked (at most 32³) and compressed with shuffle
-//! followed by deflate (byte shuffling first groups the exponent bytes of neighbouring doubles, which deflate
-//! then compresses far better; common practice). Object time stamps are off, so the file depends only on its
-//! content and `created_utc`.
+//! attributes `units` and `description`. 3-D datasets are stored in the precision of [`FieldStorage`] and
+//! chunked (at most 32³); at a compression level above 0 they are compressed with shuffle followed by deflate
+//! (byte shuffling first groups the exponent bytes of neighbouring values, which deflate then compresses far
+//! better; common practice), chunk by chunk in parallel (`field_chunks.rs`). Object time stamps are off, so the
+//! file depends only on its content and `created_utc`.
 
+use std::borrow::Cow;
 use std::path::Path;
 
 use anyhow::{anyhow, Context};
 use hdf5::types::VarLenUnicode;
 use hdf5::{File, Group, Location};
-use ndarray::{ArrayView1, ArrayView3};
+use ndarray::ArrayView1;
 use thiserror::Error;
 
 use super::atomic::with_atomic_file;
+pub use super::field_chunks::{FieldStorage, Precision};
 use super::provenance::created_utc;
 use super::table::{CellTable, ColumnValues};
 
 /// One cell-centred field for `fields.h5` and `fields.xmf`.
 #[derive(Clone, Debug, PartialEq)]
-pub struct FieldData {
+pub struct FieldData<'a> {
     /// HDF5 group: `"flow"` or `"ligand"`.
     pub group: String,
     /// Dataset name inside the group, e.g. `"u"`, `"pressure"`, `"concentration"`.
@@ -40,11 +43,22 @@ pub struct FieldData {
     /// SI unit string (`"m/s"`, `"Pa"`, `"molecules/m^3"`, `"1"`).
     pub unit: String,
     pub description: String,
-    /// One value per grid cell, flat index `i + nx * (j + ny * k)`.
-    pub values: Vec<f64>,
+    /// One value per grid cell, flat index `i + nx * (j + ny * k)` (borrowed from the solution: no copy).
+    pub values: Cow<'a, [f64]>,
 }
 
-impl FieldData {
+impl<'a> FieldData<'a> {
+    /// A field that borrows its values from the solution.
+    pub fn borrowed(group: &str, name: &str, unit: &str, description: &str, values: &'a [f64]) -> Self {
+        FieldData {
+            group: group.into(),
+            name: name.into(),
+            unit: unit.into(),
+            description: description.into(),
+            values: Cow::Borrowed(values),
+        }
+    }
+
     /// Path of the dataset inside `fields.h5`, e.g. `/flow/u`.
     pub fn dataset_path(&self) -> String {
         format!("/{}/{}", self.group, self.name)
@@ -81,10 +95,9 @@ pub enum FieldsError {
     Duplicate { path: String },
 }
 
-/// Level 4 of deflate: most of the gain of level 9 on smooth fields at a fraction of the time (common practice).
+/// Deflate level of the per-cell columns (small): most of the gain of level 9 at a fraction of the time
+/// (common practice).
 const DEFLATE_LEVEL: u8 = 4;
-/// Largest chunk edge of the 3-D datasets: 32³ doubles = 256 KiB per chunk (common practice for 3-D fields).
-const CHUNK_EDGE: usize = 32;
 
 /// Checks `fields` against `grid`: lengths, plain names, no reserved groups, no duplicates.
 pub fn validate_fields(grid: &mesh::Grid, fields: &[FieldData]) -> Result<(), FieldsError> {
@@ -132,11 +145,13 @@ pub fn write_fields_h5(
     fields: &[FieldData],
     cells: &CellTable,
     provenance: &Provenance,
+    storage: FieldStorage,
 ) -> anyhow::Result<()> {
-    write_fields_h5_created(path, grid, volume_fraction, fields, cells, provenance, &created_utc())
+    write_fields_h5_created(path, grid, volume_fraction, fields, cells, provenance, storage, &created_utc())
 }
 
 /// [`write_fields_h5`] with the creation stamp given, so identical content can be shown to give identical bytes.
+#[allow(clippy::too_many_arguments)]
 fn write_fields_h5_created(
     path: &Path,
     grid: &mesh::Grid,
@@ -144,6 +159,7 @@ fn write_fields_h5_created(
     fields: &[FieldData],
     cells: &CellTable,
     provenance: &Provenance,
+    storage: FieldStorage,
     created: &str,
 ) -> anyhow::Result<()> {
     if volume_fraction.len() != grid.len() {
@@ -161,14 +177,22 @@ fn write_fields_h5_created(
             .create(temp)
             .with_context(|| format!("cannot create HDF5 file {}", temp.display()))?;
         write_provenance(&file, provenance, created)?;
-        write_grid(&file, grid, volume_fraction)?;
+        write_grid(&file, grid, volume_fraction, storage)?;
         for field in fields {
             let group = if file.link_exists(&field.group) {
                 file.group(&field.group)?
             } else {
                 new_group(&file, &field.group)?
             };
-            write_field_3d(&group, &field.name, grid, &field.values, &field.unit, &field.description)?;
+            write_field_3d(
+                &group,
+                &field.name,
+                grid,
+                &field.values,
+                &field.unit,
+                &field.description,
+                storage,
+            )?;
         }
         write_cells(&file, cells)?;
         file.close().context("cannot close the HDF5 file")?;
@@ -191,7 +215,12 @@ pub(super) fn write_provenance(file: &File, p: &Provenance, created: &str) -> an
     )
 }
 
-pub(super) fn write_grid(file: &File, grid: &mesh::Grid, volume_fraction: &[f64]) -> anyhow::Result<()> {
+pub(super) fn write_grid(
+    file: &File,
+    grid: &mesh::Grid,
+    volume_fraction: &[f64],
+    storage: FieldStorage,
+) -> anyhow::Result<()> {
     let g = new_group(file, "grid")?;
     let origin =
         g.new_dataset_builder().with_data(&grid.origin[..]).obj_track_times(false).create("origin")?;
@@ -213,10 +242,11 @@ pub(super) fn write_grid(file: &File, grid: &mesh::Grid, volume_fraction: &[f64]
         volume_fraction,
         "1",
         "fraction of each grid cell occupied by fluid (1 = open, 0 = inside a cell)",
+        storage,
     )
 }
 
-/// A 3-D cell-centred dataset `(nz, ny, nx)`, chunked, shuffled and deflated.
+/// A 3-D cell-centred dataset `(nz, ny, nx)` stored as `storage` says.
 pub(super) fn write_field_3d(
     group: &Group,
     name: &str,
@@ -224,20 +254,9 @@ pub(super) fn write_field_3d(
     values: &[f64],
     unit: &str,
     description: &str,
+    storage: FieldStorage,
 ) -> anyhow::Result<()> {
-    let [nx, ny, nz] = grid.shape;
-    let view = ArrayView3::from_shape((nz, ny, nx), values)
-        .map_err(|e| anyhow!("field {name}: {} values do not fit the grid ({e})", values.len()))?;
-    let chunk = (nz.min(CHUNK_EDGE), ny.min(CHUNK_EDGE), nx.min(CHUNK_EDGE));
-    let ds = group
-        .new_dataset_builder()
-        .with_data(view)
-        .chunk(chunk)
-        .shuffle()
-        .deflate(DEFLATE_LEVEL)
-        .obj_track_times(false)
-        .create(name)
-        .with_context(|| format!("cannot write dataset {}/{name}", group.name()))?;
+    let ds = super::field_chunks::write_chunked_field(group, name, grid.shape, values, storage)?;
     describe(&ds, unit, description)
 }
 
@@ -324,13 +343,13 @@ mod tests {
             .collect()
     }
 
-    fn fields(grid: &mesh::Grid) -> Vec<FieldData> {
+    fn fields(grid: &mesh::Grid) -> Vec<FieldData<'static>> {
         let f = |group: &str, name: &str, unit: &str, scale: f64| FieldData {
             group: group.into(),
             name: name.into(),
             unit: unit.into(),
             description: format!("test field {name}"),
-            values: coded(grid, scale),
+            values: coded(grid, scale).into(),
         };
         vec![
             f("flow", "u", "m/s", 1e-6),
@@ -370,7 +389,7 @@ mod tests {
         let g = grid();
         let vf: Vec<f64> = (0..g.len()).map(|n| (n % 7) as f64 / 6.0).collect();
         let fs = fields(&g);
-        write_fields_h5(&path, &g, &vf, &fs, &cells(), &provenance()).unwrap();
+        write_fields_h5(&path, &g, &vf, &fs, &cells(), &provenance(), FieldStorage::default()).unwrap();
         assert_eq!(std::fs::read_dir(dir.path()).unwrap().count(), 1, "temporary file left behind");
 
         let file = File::open(&path).unwrap();
@@ -385,7 +404,7 @@ mod tests {
         assert_eq!(file.dataset("grid/shape").unwrap().read_1d::<u64>().unwrap().to_vec(), vec![5, 4, 3]);
 
         let mut all = vec![("grid/volume_fraction".to_string(), "1".to_string(), vf.clone())];
-        all.extend(fs.iter().map(|f| (f.dataset_path(), f.unit.clone(), f.values.clone())));
+        all.extend(fs.iter().map(|f| (f.dataset_path(), f.unit.clone(), f.values.to_vec())));
         for (name, unit, values) in all {
             let ds = file.dataset(&name).unwrap();
             assert_eq!(ds.shape(), vec![3, 4, 5], "{name}");
@@ -393,7 +412,8 @@ mod tests {
             assert!(!text_attr(&ds, "description").is_empty());
             assert_eq!(ds.chunk(), Some(vec![3, 4, 5]));
             let filters = ds.filters();
-            assert_eq!(filters, vec![Filter::Shuffle, Filter::Deflate(DEFLATE_LEVEL)], "{name}");
+            let level = FieldStorage::default().compression;
+            assert_eq!(filters, vec![Filter::Shuffle, Filter::Deflate(level)], "{name}");
             let read = ds.read::<f64, Ix3>().unwrap();
             // Element (k, j, i) of the stored array is grid cell (i, j, k).
             for (n, value) in values.iter().enumerate() {
@@ -423,9 +443,18 @@ mod tests {
             name: "concentration".into(),
             unit: "molecules/m^3".into(),
             description: "smooth".into(),
-            values: smooth,
+            values: smooth.into(),
         };
-        write_fields_h5(&path, &g, &vec![1.0; g.len()], &[f], &CellTable::default(), &provenance()).unwrap();
+        write_fields_h5(
+            &path,
+            &g,
+            &vec![1.0; g.len()],
+            &[f],
+            &CellTable::default(),
+            &provenance(),
+            FieldStorage::default(),
+        )
+        .unwrap();
         let file = File::open(&path).unwrap();
         let ds = file.dataset("ligand/concentration").unwrap();
         assert_eq!(ds.chunk(), Some(vec![8, 32, 32]));
@@ -443,8 +472,9 @@ mod tests {
         let g = grid();
         let vf = vec![1.0; g.len()];
         let mut short = fields(&g);
-        short[1].values.pop();
-        let err = write_fields_h5(&path, &g, &vf, &short, &cells(), &provenance()).unwrap_err();
+        short[1].values.to_mut().pop();
+        let err = write_fields_h5(&path, &g, &vf, &short, &cells(), &provenance(), FieldStorage::default())
+            .unwrap_err();
         assert!(err.to_string().contains("/flow/pressure"), "{err}");
         let mut dup = fields(&g);
         dup.push(dup[0].clone());
@@ -455,7 +485,16 @@ mod tests {
         let mut slash = fields(&g);
         slash[0].name = "u/v".into();
         assert!(matches!(validate_fields(&g, &slash), Err(FieldsError::InvalidName { .. })));
-        assert!(write_fields_h5(&path, &g, &vf[1..], &fields(&g), &cells(), &provenance()).is_err());
+        assert!(write_fields_h5(
+            &path,
+            &g,
+            &vf[1..],
+            &fields(&g),
+            &cells(),
+            &provenance(),
+            FieldStorage::default()
+        )
+        .is_err());
         assert_eq!(std::fs::read_dir(dir.path()).unwrap().count(), 0);
     }
 
@@ -467,7 +506,16 @@ mod tests {
         let mut p = provenance();
         // A NUL byte cannot be stored as HDF5 text: the write fails half-way, after the file was created.
         p.command_line = "plumefield run \0".into();
-        let err = write_fields_h5(&path, &g, &vec![1.0; g.len()], &fields(&g), &cells(), &p).unwrap_err();
+        let err = write_fields_h5(
+            &path,
+            &g,
+            &vec![1.0; g.len()],
+            &fields(&g),
+            &cells(),
+            &p,
+            FieldStorage::default(),
+        )
+        .unwrap_err();
         assert!(format!("{err:#}").contains("cannot be stored"), "{err:#}");
         assert_eq!(std::fs::read_dir(dir.path()).unwrap().count(), 0);
     }
@@ -482,9 +530,14 @@ mod tests {
         let a = dir.path().join("a.h5");
         let b = dir.path().join("b.h5");
         let stamp = "2024-01-01T00:00:00Z";
-        write_fields_h5_created(&a, &g, &vf, &fields(&g), &cells(), &provenance(), stamp).unwrap();
-        std::thread::sleep(std::time::Duration::from_millis(1100));
-        write_fields_h5_created(&b, &g, &vf, &fields(&g), &cells(), &provenance(), stamp).unwrap();
+        let storage = FieldStorage::default();
+        for (n, path) in [&a, &b].into_iter().enumerate() {
+            if n > 0 {
+                std::thread::sleep(std::time::Duration::from_millis(1100));
+            }
+            write_fields_h5_created(path, &g, &vf, &fields(&g), &cells(), &provenance(), storage, stamp)
+                .unwrap();
+        }
         assert!(std::fs::read(&a).unwrap() == std::fs::read(&b).unwrap(), "files differ");
     }
 }

@@ -254,6 +254,7 @@ fn now_unix_s() -> u64 {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::io::atomic::entries;
 
     fn take(dir: &Path) -> (Result<SweepLock, LockError>, Vec<String>) {
         let mut messages = Vec::new();
@@ -263,15 +264,6 @@ mod tests {
 
     fn plant(dir: &Path, holder: &LockHolder) {
         fs::write(dir.join(LOCK_FILE), serde_json::to_vec(holder).unwrap()).unwrap();
-    }
-
-    fn entries(dir: &Path) -> Vec<String> {
-        let mut names: Vec<String> = fs::read_dir(dir)
-            .unwrap()
-            .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
-            .collect();
-        names.sort();
-        names
     }
 
     #[test]

@@ -5,6 +5,7 @@
 pub mod atomic;
 pub mod binary_record;
 pub mod cells_csv;
+pub mod field_chunks;
 pub mod fields_h5;
 pub mod folder_lock;
 pub mod initial_field;
@@ -20,7 +21,7 @@ pub mod xdmf_temporal;
 
 pub use atomic::{with_atomic_file, write_atomic};
 pub use cells_csv::write_cells_csv;
-pub use fields_h5::{write_fields_h5, FieldData, FieldsError, Provenance};
+pub use fields_h5::{write_fields_h5, FieldData, FieldStorage, FieldsError, Precision, Provenance};
 pub use provenance::git_revision;
 pub use summary_json::write_summary_json;
 pub use table::{CellTable, Column, ColumnValues, TableError};

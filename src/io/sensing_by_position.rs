@@ -14,10 +14,17 @@ use crate::sensing::statistics::{SensingStatistics, Spread};
 pub fn sensing_by_position_bytes(stats: &SensingStatistics, units: &dyn Fn(&str) -> String) -> Vec<u8> {
     let names: Vec<&String> =
         stats.by_position.first().map(|s| s.quantities.keys().collect()).unwrap_or_default();
-    let mut header: Vec<String> =
-        ["slab [1]", "x_low [m]", "x_high [m]", "cells [1]", "failed [1]", "failed_fraction [1]"]
-            .map(String::from)
-            .to_vec();
+    let mut header: Vec<String> = [
+        "slab [1]",
+        "x_low [m]",
+        "x_high [m]",
+        "cells [1]",
+        "failed [1]",
+        "failed_fraction [1]",
+        "estimated_failed_fraction [1]",
+    ]
+    .map(String::from)
+    .to_vec();
     let spread_header =
         |name: &str, unit: &str| ["p10", "median", "p90"].map(|s| format!("{name}_{s} [{unit}]"));
     header.extend(spread_header("direction_error", "1"));
@@ -34,6 +41,7 @@ pub fn sensing_by_position_bytes(stats: &SensingStatistics, units: &dyn Fn(&str)
             slab.cells.to_string(),
             slab.failed.to_string(),
             format_real(slab.failed_fraction),
+            format_real(slab.estimated_failed_fraction),
         ];
         row.extend(spread(&slab.direction_error));
         for name in &names {

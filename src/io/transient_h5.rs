@@ -7,7 +7,8 @@
 //! /flow_initial/{u,v,w,pressure}     the flow before `flow.change_at` (only when the flow changes)
 //! /ligand/concentration              the final field
 //! /ligand/steady_concentration       the steady field of the final configuration (the approach's target)
-//! /ligand/<index>                    (nz, ny, nx) field at output time number <index> (six digits, from 000000),
+//! /ligand/<index>                    (only when output.fields lists "concentration", as are the two above)
+//!                                    (nz, ny, nx) field at output time number <index> (six digits, from 000000),
 //!                                    attributes `time` (s) and `time_units` = "s"
 //! /ligand/times                      (n_times,) output times (s), in index order
 //! /cells/<column>                    the final per-cell table (= cells.csv)
@@ -23,7 +24,7 @@ use ndarray::ArrayView1;
 use super::atomic::with_atomic_file;
 use super::fields_h5::{
     describe, new_group, set_text_attr, validate_fields, write_field_3d, write_grid, write_provenance,
-    write_table, FieldData, Provenance,
+    write_table, FieldData, FieldStorage, Provenance,
 };
 use super::provenance::created_utc;
 use super::table::CellTable;
@@ -48,11 +49,16 @@ pub struct TransientFile<'a> {
     pub grid: &'a mesh::Grid,
     pub volume_fraction: &'a [f64],
     /// Flow fields, final concentration, steady reference: written as in a steady file.
-    pub fields: &'a [FieldData],
+    pub fields: &'a [FieldData<'a>],
     pub outputs: &'a [OutputTime],
+    /// Write `/ligand/<index>` per output time (`[output] fields` lists the concentration); `field_at` is not
+    /// called otherwise.
+    pub snapshots: bool,
     pub cells: &'a CellTable,
     pub timeseries: &'a CellTable,
     pub provenance: &'a Provenance,
+    /// Precision and compression of every 3-D dataset.
+    pub storage: FieldStorage,
 }
 
 /// Writes the file atomically; `field_at(i)` returns the concentration of `outputs[i]`.
@@ -71,17 +77,18 @@ pub fn write_transient_fields_h5(
             .with_context(|| format!("cannot create HDF5 file {}", temp.display()))?;
         write_provenance(&h5, file.provenance, &created_utc())?;
         set_text_attr(&h5, "solve_mode", "transient")?;
-        write_grid(&h5, file.grid, file.volume_fraction)?;
+        write_grid(&h5, file.grid, file.volume_fraction, file.storage)?;
         for field in file.fields {
             let group = if h5.link_exists(&field.group) {
                 h5.group(&field.group)?
             } else {
                 new_group(&h5, &field.group)?
             };
-            write_field_3d(&group, &field.name, file.grid, &field.values, &field.unit, &field.description)?;
+            let (name, unit, description) = (&field.name, &field.unit, &field.description);
+            write_field_3d(&group, name, file.grid, &field.values, unit, description, file.storage)?;
         }
         let ligand = if h5.link_exists("ligand") { h5.group("ligand")? } else { new_group(&h5, "ligand")? };
-        for (i, output) in file.outputs.iter().enumerate() {
+        for (i, output) in file.outputs.iter().enumerate().filter(|_| file.snapshots) {
             let values = field_at(i)?;
             let name = output_dataset_name(output.index);
             write_field_3d(
@@ -91,6 +98,7 @@ pub fn write_transient_fields_h5(
                 &values,
                 "molecules/m^3",
                 &format!("ligand concentration at t = {} s, cell-centred (zero inside cells)", output.time),
+                file.storage,
             )?;
             let ds = ligand.dataset(&name)?;
             ds.new_attr::<f64>()
@@ -107,7 +115,12 @@ pub fn write_transient_fields_h5(
             .obj_track_times(false)
             .create("times")
             .context("cannot write /ligand/times")?;
-        describe(&ds, "s", "output times; /ligand/<index> holds the field at times[index]")?;
+        let what = if file.snapshots {
+            "output times; /ligand/<index> holds the field at times[index]"
+        } else {
+            "output times (no fields kept: output.fields does not list the concentration)"
+        };
+        describe(&ds, "s", what)?;
 
         super::fields_h5::write_cells(&h5, file.cells)?;
         let cells = h5.group("cells")?;

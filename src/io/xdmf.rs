@@ -12,7 +12,7 @@ use std::path::Path;
 use anyhow::Context;
 
 use super::atomic::write_atomic;
-use super::fields_h5::{validate_fields, FieldData};
+use super::fields_h5::{validate_fields, FieldData, Precision};
 use super::number_text::format_real;
 
 /// Writes the XDMF sidecar for the fields of `fields.h5` (named `h5_file_name`, relative to the sidecar).
@@ -23,8 +23,9 @@ pub fn write_fields_xmf(
     h5_file_name: &str,
     grid: &mesh::Grid,
     fields: &[FieldData],
+    precision: Precision,
 ) -> anyhow::Result<()> {
-    let text = fields_xmf_text(h5_file_name, grid, fields)?;
+    let text = fields_xmf_text(h5_file_name, grid, fields, precision)?;
     write_atomic(path, text.as_bytes()).with_context(|| format!("cannot write {}", path.display()))
 }
 
@@ -60,6 +61,7 @@ pub fn fields_xmf_text(
     h5_file_name: &str,
     grid: &mesh::Grid,
     fields: &[FieldData],
+    precision: Precision,
 ) -> anyhow::Result<String> {
     validate_fields(grid, fields)?;
     let [nx, ny, nz] = grid.shape;
@@ -88,7 +90,7 @@ pub fn fields_xmf_text(
             r#"      <Attribute Name="{}" AttributeType="Scalar" Center="Cell">"#,
             escape_xml(label)
         );
-        let _ = writeln!(x, "        {}", hdf_item(&cells, &file, dataset));
+        let _ = writeln!(x, "        {}", hdf_item(&cells, &file, dataset, precision));
         let _ = writeln!(x, r#"      </Attribute>"#);
     }
 
@@ -100,7 +102,11 @@ pub fn fields_xmf_text(
             r#"        <DataItem ItemType="Function" Function="JOIN($0, $1, $2)" Dimensions="{cells} 3">"#
         );
         for component in ["u", "v", "w"] {
-            let _ = writeln!(x, "          {}", hdf_item(&cells, &file, &format!("/flow/{component}")));
+            let _ = writeln!(
+                x,
+                "          {}",
+                hdf_item(&cells, &file, &format!("/flow/{component}"), precision)
+            );
         }
         let _ = writeln!(x, r#"        </DataItem>"#);
         let _ = writeln!(x, r#"      </Attribute>"#);
@@ -112,10 +118,11 @@ pub fn fields_xmf_text(
     Ok(x)
 }
 
-/// A DataItem that reads one `(nz, ny, nx)` double dataset from the HDF5 file.
-pub(super) fn hdf_item(cells: &str, file: &str, dataset: &str) -> String {
+/// A DataItem that reads one `(nz, ny, nx)` floating-point dataset of `precision` from the HDF5 file.
+pub(super) fn hdf_item(cells: &str, file: &str, dataset: &str, precision: Precision) -> String {
     format!(
-        r#"<DataItem Dimensions="{cells}" NumberType="Float" Precision="8" Format="HDF">{file}:{}</DataItem>"#,
+        r#"<DataItem Dimensions="{cells}" NumberType="Float" Precision="{}" Format="HDF">{file}:{}</DataItem>"#,
+        precision.bytes(),
         escape_xml(dataset)
     )
 }
@@ -140,13 +147,13 @@ pub(super) fn escape_xml(text: &str) -> String {
 mod tests {
     use super::*;
 
-    fn field(group: &str, name: &str, grid: &mesh::Grid) -> FieldData {
+    fn field(group: &str, name: &str, grid: &mesh::Grid) -> FieldData<'static> {
         FieldData {
             group: group.into(),
             name: name.into(),
             unit: "1".into(),
             description: String::new(),
-            values: vec![0.0; grid.len()],
+            values: vec![0.0; grid.len()].into(),
         }
     }
 
@@ -154,7 +161,7 @@ mod tests {
     fn sidecar_lists_node_counts_and_geometry_in_z_y_x_order() {
         let grid = mesh::Grid::new([1e-5, 2e-5, 3e-5], 2.5e-6, [6, 5, 4]);
         let fields = vec![field("flow", "u", &grid), field("ligand", "concentration", &grid)];
-        let text = fields_xmf_text("fields.h5", &grid, &fields).unwrap();
+        let text = fields_xmf_text("fields.h5", &grid, &fields, Precision::Double).unwrap();
         assert!(text.contains(r#"TopologyType="3DCoRectMesh" Dimensions="5 6 7""#), "{text}");
         assert!(text.contains(">3e-5 2e-5 1e-5</DataItem>"), "{text}");
         assert!(text.contains(">2.5e-6 2.5e-6 2.5e-6</DataItem>"), "{text}");
@@ -173,7 +180,7 @@ mod tests {
     fn velocity_vector_joins_three_components() {
         let grid = mesh::Grid::new([0.0; 3], 1.0, [2, 2, 2]);
         let fields: Vec<FieldData> = ["u", "v", "w"].iter().map(|c| field("flow", c, &grid)).collect();
-        let text = fields_xmf_text("out & co.h5", &grid, &fields).unwrap();
+        let text = fields_xmf_text("out & co.h5", &grid, &fields, Precision::Double).unwrap();
         assert!(text.contains(r#"Function="JOIN($0, $1, $2)" Dimensions="2 2 2 3""#), "{text}");
         assert!(text.contains("out &amp; co.h5:/flow/w"), "{text}");
     }
@@ -184,8 +191,8 @@ mod tests {
         let path = dir.path().join("fields.xmf");
         let grid = mesh::Grid::new([0.0; 3], 1.0, [2, 2, 2]);
         let mut f = field("flow", "u", &grid);
-        f.values.pop();
-        assert!(write_fields_xmf(&path, "fields.h5", &grid, &[f]).is_err());
+        f.values.to_mut().pop();
+        assert!(write_fields_xmf(&path, "fields.h5", &grid, &[f], Precision::Double).is_err());
         assert!(!path.exists());
     }
 }

@@ -12,6 +12,7 @@ use std::path::Path;
 use anyhow::Context;
 
 use super::atomic::write_atomic;
+use super::fields_h5::Precision;
 use super::number_text::format_real;
 use super::xdmf::{escape_xml, hdf_item, write_mesh};
 
@@ -32,13 +33,19 @@ pub fn write_temporal_xmf(
     h5_file_name: &str,
     grid: &mesh::Grid,
     steps: &[TemporalGrid],
+    precision: Precision,
 ) -> anyhow::Result<()> {
-    let text = temporal_xmf_text(h5_file_name, grid, steps);
+    let text = temporal_xmf_text(h5_file_name, grid, steps, precision);
     write_atomic(path, text.as_bytes()).with_context(|| format!("cannot write {}", path.display()))
 }
 
 /// The XML text of the temporal sidecar.
-pub fn temporal_xmf_text(h5_file_name: &str, grid: &mesh::Grid, steps: &[TemporalGrid]) -> String {
+pub fn temporal_xmf_text(
+    h5_file_name: &str,
+    grid: &mesh::Grid,
+    steps: &[TemporalGrid],
+    precision: Precision,
+) -> String {
     let [nx, ny, nz] = grid.shape;
     let cells = format!("{nz} {ny} {nx}");
     let file = escape_xml(h5_file_name);
@@ -62,7 +69,7 @@ pub fn temporal_xmf_text(h5_file_name: &str, grid: &mesh::Grid, steps: &[Tempora
                 r#"        <Attribute Name="{}" AttributeType="Scalar" Center="Cell">"#,
                 escape_xml(label)
             );
-            let _ = writeln!(x, "          {}", hdf_item(&cells, &file, dataset));
+            let _ = writeln!(x, "          {}", hdf_item(&cells, &file, dataset, precision));
             let _ = writeln!(x, r#"        </Attribute>"#);
         }
         if let Some(components) = &step.velocity {
@@ -73,7 +80,7 @@ pub fn temporal_xmf_text(h5_file_name: &str, grid: &mesh::Grid, steps: &[Tempora
                 r#"          <DataItem ItemType="Function" Function="JOIN($0, $1, $2)" Dimensions="{cells} 3">"#
             );
             for dataset in components {
-                let _ = writeln!(x, "            {}", hdf_item(&cells, &file, dataset));
+                let _ = writeln!(x, "            {}", hdf_item(&cells, &file, dataset, precision));
             }
             let _ = writeln!(x, r#"          </DataItem>"#);
             let _ = writeln!(x, r#"        </Attribute>"#);
@@ -102,7 +109,7 @@ mod tests {
                 velocity: (i == 0).then(|| ["/flow/u".into(), "/flow/v".into(), "/flow/w".into()]),
             })
             .collect();
-        let text = temporal_xmf_text("fields.h5", &grid, &steps);
+        let text = temporal_xmf_text("fields.h5", &grid, &steps, Precision::Double);
         assert!(text.contains(r#"GridType="Collection" CollectionType="Temporal""#));
         assert_eq!(text.matches("<Time Value=").count(), 3);
         assert!(text.contains(r#"<Time Value="90.5"/>"#), "{text}");

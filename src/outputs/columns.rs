@@ -42,6 +42,9 @@ pub struct CellColumn {
     /// The description in transient runs, where the value is that of one output time (`None`: the same).
     pub at_a_time: Option<&'static str>,
     pub source: Source,
+    /// Set when `collect` aggregates the column over the cells of each case: the short words that describe
+    /// it in `sweep.csv` and label the sweep figures.
+    pub aggregate: Option<&'static str>,
 }
 
 /// Which description a column carries.
@@ -57,7 +60,7 @@ const fn column(
     description: &'static str,
     source: Source,
 ) -> CellColumn {
-    CellColumn { name, unit, description, at_a_time: None, source }
+    CellColumn { name, unit, description, at_a_time: None, source, aggregate: None }
 }
 
 /// The per-cell columns of every run, in file order.
@@ -77,12 +80,15 @@ pub const CELL_COLUMNS: [CellColumn; 18] = [
         "area-mean ligand concentration on the cell surface",
         Source::Sensed(|s| s.mean_surface_concentration),
     ),
-    column(
-        "bound_rate",
-        "molecules/s",
-        "ligand bound by the cell's surface uptake",
-        Source::Sensed(|s| s.bound_rate),
-    ),
+    CellColumn {
+        aggregate: Some("ligand bound per cell"),
+        ..column(
+            "bound_rate",
+            "molecules/s",
+            "ligand bound by the cell's surface uptake",
+            Source::Sensed(|s| s.bound_rate),
+        )
+    },
     column(
         "anisotropy_x",
         "1",
@@ -91,12 +97,15 @@ pub const CELL_COLUMNS: [CellColumn; 18] = [
     ),
     column("anisotropy_y", "1", "y of the anisotropy vector", Source::Sensed(|s| s.anisotropy[1])),
     column("anisotropy_z", "1", "z of the anisotropy vector", Source::Sensed(|s| s.anisotropy[2])),
-    column(
-        "anisotropy_along_flow",
-        "1",
-        "anisotropy component along the local flow direction",
-        Source::Sensed(|s| s.anisotropy_along_flow),
-    ),
+    CellColumn {
+        aggregate: Some("anisotropy component along the local flow"),
+        ..column(
+            "anisotropy_along_flow",
+            "1",
+            "anisotropy component along the local flow direction",
+            Source::Sensed(|s| s.anisotropy_along_flow),
+        )
+    },
     CellColumn {
         at_a_time: Some(
             "(N_front - N_back)/(N_front + N_back) of the rates at this time, front = downstream hemisphere",
@@ -112,6 +121,7 @@ pub const CELL_COLUMNS: [CellColumn; 18] = [
         at_a_time: Some(
             "Poisson standard error of the contrast over sensing.integration_time at the rates of this time, divided by its magnitude",
         ),
+        aggregate: Some("counting-noise error of the direction estimate"),
         ..column(
             "direction_error",
             "1",
@@ -160,6 +170,39 @@ pub fn cell_columns(state: &CellState, kind: RunKind) -> Vec<Column> {
     CELL_COLUMNS.iter().map(|c| c.column(state, kind)).collect()
 }
 
+/// A per-cell time that only a transient run's final `cells.csv` carries, found by the time loop.
+#[derive(Clone, Copy)]
+pub struct TimeColumn {
+    pub name: &'static str,
+    pub unit: &'static str,
+    pub description: &'static str,
+}
+
+/// The times to 90% and 99% of the steady sensed rate and the time to a readable cue, in file order.
+pub const TRANSIENT_TIME_COLUMNS: [TimeColumn; 3] = [
+    TimeColumn {
+        name: "time_to_90_percent",
+        unit: "s",
+        description: "first time the cell's sensed rate reached 90% of its steady value (NaN: not reached)",
+    },
+    TimeColumn {
+        name: "time_to_99_percent",
+        unit: "s",
+        description: "first time the cell's sensed rate reached 99% of its steady value (NaN: not reached)",
+    },
+    TimeColumn {
+        name: "time_to_readable",
+        unit: "s",
+        description: "first time after sensing.window_start from which window_direction_error stays at or below sensing.readable_error to the end (NaN: not readable at the end)",
+    },
+];
+
+impl TimeColumn {
+    pub fn column(&self, values: Vec<f64>) -> Column {
+        Column::real(self.name, self.unit, self.description, values)
+    }
+}
+
 /// `cell_pressure_drop` of `cells.csv` (after the registered columns; computed from the pressure field).
 pub fn cell_pressure_drop_column(values: Vec<f64>) -> Column {
     Column::real(
@@ -177,9 +220,11 @@ pub struct SplitColumn {
     pub unit: &'static str,
     pub description: &'static str,
     pub value: fn(&CellSplit) -> f64,
-    /// Summarised (quantiles in `summary.json`, per slab in `sensing_by_position.csv`, aggregated by
-    /// `collect`): the scalars; the vector components are not.
+    /// Summarised (quantiles in `summary.json`, per slab in `sensing_by_position.csv`): the scalars; the
+    /// vector components are not.
     pub summarised: bool,
+    /// As [`CellColumn::aggregate`].
+    pub aggregate: Option<&'static str>,
 }
 
 const fn split(
@@ -188,7 +233,7 @@ const fn split(
     description: &'static str,
     value: fn(&CellSplit) -> f64,
 ) -> SplitColumn {
-    SplitColumn { name, unit, description, value, summarised: false }
+    SplitColumn { name, unit, description, value, summarised: false, aggregate: None }
 }
 
 const fn split_summarised(
@@ -197,7 +242,7 @@ const fn split_summarised(
     description: &'static str,
     value: fn(&CellSplit) -> f64,
 ) -> SplitColumn {
-    SplitColumn { name, unit, description, value, summarised: true }
+    SplitColumn { name, unit, description, value, summarised: true, aggregate: None }
 }
 
 fn along(v: [f64; 3], s: &CellSplit) -> f64 {
@@ -215,7 +260,10 @@ pub const SPLIT_COLUMNS: [SplitColumn; 12] = [
     split("anisotropy_from_neighbours_z", "1", "z of the anisotropy part due to the other cells and the inlet", |s| s.anisotropy_from_neighbours[2]),
     split_summarised("anisotropy_from_self_along_flow", "1", "own part of the anisotropy along the local flow (adds to the neighbour part to give anisotropy_along_flow)", |s| along(s.anisotropy_from_self, s)),
     split_summarised("anisotropy_from_neighbours_along_flow", "1", "neighbour part of the anisotropy along the local flow", |s| along(s.anisotropy_from_neighbours, s)),
-    split_summarised("self_signal_share", "1", "|own part| / (|own part| + |neighbour part|) of the anisotropy vector, in [0, 1]: 1 isolated, 0.5 equally strong, near 0 neighbour-dominated; NaN if neither part has a direction", |s| s.self_signal_share),
+    SplitColumn {
+        aggregate: Some("|own| / (|own| + |neighbour|) part of the anisotropy vector, in [0, 1]"),
+        ..split_summarised("self_signal_share", "1", "|own part| / (|own part| + |neighbour part|) of the anisotropy vector, in [0, 1]: 1 isolated, 0.5 equally strong, near 0 neighbour-dominated; NaN if neither part has a direction", |s| s.self_signal_share)
+    },
     split_summarised("own_field_anisotropy_along_flow", "1", "anisotropy along the local flow of the cell's own field normalised by its own sensed flux (how directional its own cloud is, not its share)", |s| s.own_field_anisotropy_along_flow),
     split_summarised("self_bound_rate", "molecules/s", "ligand bound from the cell's own secretion", |s| s.self_bound_rate),
     split_summarised("neighbour_bound_rate", "molecules/s", "ligand bound from the other cells and the inlet (total minus own)", |s| s.neighbour_bound_rate),
@@ -235,6 +283,28 @@ pub fn split_columns(cells: usize, splits: &[CellSplit]) -> Vec<Column> {
         .collect()
 }
 
+/// A per-cell column that `collect` aggregates over the cells of each case (p10, median, p90 in `sweep.csv`).
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct AggregatedColumn {
+    pub name: &'static str,
+    pub unit: &'static str,
+    /// Short words for `sweep.csv` and the sweep figures.
+    pub words: &'static str,
+}
+
+/// Every aggregated column of the registry and the split, by name (the order of their `sweep.csv` columns).
+pub fn aggregated_columns() -> Vec<AggregatedColumn> {
+    let cells = CELL_COLUMNS
+        .iter()
+        .filter_map(|c| Some(AggregatedColumn { name: c.name, unit: c.unit, words: c.aggregate? }));
+    let split = SPLIT_COLUMNS
+        .iter()
+        .filter_map(|c| Some(AggregatedColumn { name: c.name, unit: c.unit, words: c.aggregate? }));
+    let mut all: Vec<AggregatedColumn> = cells.chain(split).collect();
+    all.sort_by_key(|c| c.name);
+    all
+}
+
 /// The registered column called `name`.
 pub fn cell_column(name: &str) -> Option<&'static CellColumn> {
     CELL_COLUMNS.iter().find(|c| c.name == name)
@@ -243,6 +313,18 @@ pub fn cell_column(name: &str) -> Option<&'static CellColumn> {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn aggregated_columns_are_registered_once_by_name() {
+        let names: Vec<&str> = aggregated_columns().iter().map(|c| c.name).collect();
+        assert_eq!(names, ["anisotropy_along_flow", "bound_rate", "direction_error", "self_signal_share"]);
+        for c in aggregated_columns() {
+            let unit = cell_column(c.name)
+                .map(|r| r.unit)
+                .or_else(|| SPLIT_COLUMNS.iter().find(|s| s.name == c.name).map(|s| s.unit));
+            assert_eq!(unit, Some(c.unit), "{} has its registry unit", c.name);
+        }
+    }
 
     #[test]
     fn names_are_unique_and_every_source_reads_its_own_value() {

@@ -288,7 +288,141 @@ pub struct EstimatesSummary {
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub self_neighbour: Option<SplitSummary>,
     /// The `estimate` command's JSON for the case.
-    pub case: serde_json::Value,
+    pub case: CaseEstimatesSummary,
+}
+
+/// The estimates of a case without a solve: `estimates.case` of `summary.json` and `plumefield estimate --json`
+/// (SI units; `null` where an estimate does not apply).
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct CaseEstimatesSummary {
+    /// `"darcy"`, `"brinkman"` or `"stokes"`.
+    pub flow_model: String,
+    /// a/√K of a Brinkman medium.
+    pub brinkman_alpha: Option<f64>,
+    pub flow_resolution: Option<FlowResolutionSummary>,
+    /// Absent in summaries written before the boundary-layer guard.
+    #[serde(default)]
+    pub boundary_layer: Option<BoundaryLayerSummary>,
+    pub radius: f64,
+    #[serde(deserialize_with = "real")]
+    pub peclet_cell: f64,
+    #[serde(deserialize_with = "real")]
+    pub peclet_chamber: f64,
+    pub biot: Option<f64>,
+    #[serde(deserialize_with = "real")]
+    pub decay_number: f64,
+    pub own_surface_concentration: Option<f64>,
+    pub isolated_anisotropy: Option<f64>,
+    #[serde(deserialize_with = "real")]
+    pub number_density: f64,
+    #[serde(deserialize_with = "real")]
+    pub volume_fraction: f64,
+    pub background: BackgroundSummary,
+    pub profile: ProfileSummary,
+    pub profile_dense: DenseProfileSummary,
+    pub integration_time: f64,
+    pub critical_density: Option<CriticalDensitySummary>,
+    pub forecast: ForecastSummary,
+    pub units: BTreeMap<String, String>,
+}
+
+/// The Brinkman screening length is under-resolved.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct FlowResolutionSummary {
+    pub screening_length: f64,
+    pub spacing: f64,
+    pub expected_drag_error: f64,
+    pub suggested_spacing: f64,
+    pub message: String,
+}
+
+/// The boundary layers at the cells are under-resolved.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct BoundaryLayerSummary {
+    pub surface_peclet: f64,
+    pub expected_error: f64,
+    pub suggested_spacing: f64,
+    pub message: String,
+}
+
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct BackgroundSummary {
+    /// `"column"`, `"uniform"`, `"isolated"` or `"none"`.
+    pub kind: String,
+    pub note: String,
+    pub outlet_concentration: Option<f64>,
+}
+
+/// The typical cell's estimates at points along x.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct ProfileSummary {
+    pub x: Vec<f64>,
+    #[serde(deserialize_with = "reals")]
+    pub background: Vec<f64>,
+    #[serde(deserialize_with = "reals")]
+    pub mean_surface_concentration: Vec<f64>,
+    #[serde(deserialize_with = "reals")]
+    pub anisotropy_along_flow: Vec<f64>,
+    pub direction_error: Vec<Unbounded>,
+}
+
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct DenseProfileSummary {
+    pub x: Vec<f64>,
+    #[serde(deserialize_with = "reals")]
+    pub anisotropy_along_flow: Vec<f64>,
+}
+
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct CriticalDensitySummary {
+    pub density: Option<f64>,
+    pub rising: bool,
+    pub range: [f64; 2],
+    /// Where the direction error is taken: `"outlet"`.
+    pub position: String,
+    pub isolated_direction_error: Unbounded,
+    pub case_direction_error: Unbounded,
+}
+
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct ForecastSummary {
+    pub grid_cells: usize,
+    pub memory_bytes: f64,
+    pub seconds: f64,
+    pub decompose_seconds: f64,
+}
+
+/// A number that may be infinite: JSON has no infinity, so it is written as the string `"inf"` (or `"-inf"`).
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Unbounded(pub f64);
+
+impl Serialize for Unbounded {
+    fn serialize<S: serde::Serializer>(&self, serializer: S) -> Result<S::Ok, S::Error> {
+        match self.0 {
+            x if x.is_finite() => serializer.serialize_f64(x),
+            x if x > 0.0 => serializer.serialize_str("inf"),
+            x if x < 0.0 => serializer.serialize_str("-inf"),
+            // NaN: `null`, as every other non-finite number.
+            _ => serializer.serialize_none(),
+        }
+    }
+}
+
+impl<'de> Deserialize<'de> for Unbounded {
+    fn deserialize<D: Deserializer<'de>>(deserializer: D) -> Result<Self, D::Error> {
+        #[derive(Deserialize)]
+        #[serde(untagged)]
+        enum Written {
+            Number(Option<f64>),
+            Text(String),
+        }
+        Ok(Unbounded(match Written::deserialize(deserializer)? {
+            Written::Number(x) => x.unwrap_or(f64::NAN),
+            Written::Text(t) if t == "inf" => f64::INFINITY,
+            Written::Text(t) if t == "-inf" => f64::NEG_INFINITY,
+            Written::Text(t) => return Err(serde::de::Error::custom(format!("not a number: {t:?}"))),
+        }))
+    }
 }
 
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
@@ -382,5 +516,16 @@ mod tests {
         let old = serde_json::json!({ "geometry": 0.1, "flow": 0.2, "write": 0.3, "total": 0.7 });
         assert_eq!(de(old), None);
         assert_eq!(de(serde_json::Value::Null), None);
+    }
+
+    #[test]
+    fn unbounded_numbers_write_infinity_as_text_and_read_it_back() {
+        for (x, text) in [(1.5, "1.5"), (f64::INFINITY, "\"inf\""), (f64::NEG_INFINITY, "\"-inf\"")] {
+            assert_eq!(serde_json::to_string(&Unbounded(x)).unwrap(), text);
+            assert_eq!(serde_json::from_str::<Unbounded>(text).unwrap(), Unbounded(x));
+        }
+        assert_eq!(serde_json::to_string(&Unbounded(f64::NAN)).unwrap(), "null");
+        assert!(serde_json::from_str::<Unbounded>("null").unwrap().0.is_nan());
+        assert!(serde_json::from_str::<Unbounded>("\"many\"").is_err());
     }
 }

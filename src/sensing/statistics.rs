@@ -34,6 +34,10 @@ pub struct CellValues<'a> {
     /// Centre x (m).
     pub x: &'a [f64],
     pub direction_error: &'a [f64],
+    /// The direction error the per-cell estimate predicts (`estimate_direction_error`), where the run has it.
+    pub estimate_direction_error: Option<&'a [f64]>,
+    /// Transient runs: each cell's time to a readable cue (NaN: never); `None` in steady runs.
+    pub time_to_readable: Option<&'a [f64]>,
     /// Further quantities summarised per slab by name (NaN where a cell has no value, e.g. cells left out
     /// of the self/neighbour split).
     pub quantities: Vec<(&'a str, &'a [f64])>,
@@ -72,8 +76,55 @@ pub struct Slab {
     /// `failed / cells`; NaN (null) for an empty slab.
     #[serde(serialize_with = "real_or_text", deserialize_with = "real_from_text")]
     pub failed_fraction: f64,
+    /// The failed fraction the per-cell estimate (`estimate_direction_error`) predicts for the same cells;
+    /// NaN (null) for an empty slab or without estimate columns.
+    #[serde(default = "nan", serialize_with = "real_or_text", deserialize_with = "real_from_text")]
+    pub estimated_failed_fraction: f64,
     pub direction_error: Spread,
     pub quantities: BTreeMap<String, Spread>,
+}
+
+fn nan() -> f64 {
+    f64::NAN
+}
+
+/// Slabs with at least this many cells are compared with the estimate.
+pub const ESTIMATE_CHECK_MIN_CELLS: usize = 10;
+/// A slab whose estimated and measured failed fractions differ by more than this is reported.
+pub const ESTIMATE_CHECK_GAP: f64 = 0.25;
+
+/// One line when the per-cell estimate misjudges the failed fraction of some slab with at least
+/// [`ESTIMATE_CHECK_MIN_CELLS`] cells by more than [`ESTIMATE_CHECK_GAP`] (the worst slab named).
+pub fn estimate_disagreement(stats: &SensingStatistics) -> Option<String> {
+    let gap = |s: &Slab| (s.estimated_failed_fraction - s.failed_fraction).abs();
+    let off: Vec<&Slab> = stats
+        .by_position
+        .iter()
+        .filter(|s| s.cells >= ESTIMATE_CHECK_MIN_CELLS && gap(s) > ESTIMATE_CHECK_GAP)
+        .collect();
+    let worst = off.iter().copied().max_by(|a, b| gap(a).total_cmp(&gap(b)))?;
+    Some(format!(
+        "the per-cell estimate misjudges the failed fraction in {} of {} slabs along x by more than {ESTIMATE_CHECK_GAP}; worst slab {} (x {:.4e}..{:.4e} m, {} cells): estimated {:.2}, measured {:.2} (summary.json: sensing.by_position)",
+        off.len(),
+        stats.by_position.len(),
+        worst.index,
+        worst.x_low,
+        worst.x_high,
+        worst.cells,
+        worst.estimated_failed_fraction,
+        worst.failed_fraction
+    ))
+}
+
+/// Times to a readable cue of the counted cells (transient runs): quantiles of the cells that became readable
+/// and how many never did by the end of the run.
+#[derive(Clone, Copy, Debug, PartialEq, Serialize, Deserialize)]
+pub struct ReadableTimes {
+    /// Over the cells that became readable (`count` of them).
+    #[serde(flatten)]
+    pub quantiles: Spread,
+    /// Cells whose window direction error was above `readable_error` at the end.
+    pub never: usize,
 }
 
 /// The `sensing` object of `summary.json`.
@@ -90,6 +141,9 @@ pub struct SensingStatistics {
     #[serde(serialize_with = "real_or_text", deserialize_with = "real_from_text")]
     pub failed_fraction: f64,
     pub direction_error: Spread,
+    /// Transient runs only (s).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub time_to_readable: Option<ReadableTimes>,
     pub by_position: Vec<Slab>,
 }
 
@@ -130,6 +184,9 @@ pub fn sensing_statistics(
                 cells: ids.len(),
                 failed,
                 failed_fraction: fraction(failed, ids.len()),
+                estimated_failed_fraction: cells.estimate_direction_error.map_or(f64::NAN, |e| {
+                    fraction(ids.iter().filter(|&&i| fails(e[i], readable)).count(), ids.len())
+                }),
                 direction_error: Spread::of(ids.iter().map(|&i| cells.direction_error[i])),
                 quantities: cells
                     .quantities
@@ -148,6 +205,10 @@ pub fn sensing_statistics(
         failed,
         failed_fraction: fraction(failed, counted.len()),
         direction_error: Spread::of(counted.iter().map(|&i| cells.direction_error[i])),
+        time_to_readable: cells.time_to_readable.map(|t| ReadableTimes {
+            quantiles: Spread::of(counted.iter().map(|&i| t[i])),
+            never: counted.iter().filter(|&&i| t[i].is_nan()).count(),
+        }),
         by_position,
     }
 }
@@ -183,7 +244,13 @@ mod tests {
     use super::*;
 
     fn stats(x: &[f64], e: &[f64], params: StatisticsParams) -> SensingStatistics {
-        let cells = CellValues { x, direction_error: e, quantities: vec![("a", e)] };
+        let cells = CellValues {
+            x,
+            direction_error: e,
+            estimate_direction_error: None,
+            time_to_readable: None,
+            quantities: vec![("a", e)],
+        };
         sensing_statistics(&cells, [0.0, 100.0], &params)
     }
 
@@ -220,6 +287,63 @@ mod tests {
         assert_eq!((s.by_position[0].x_low, s.by_position[3].x_high), (10.0, 90.0));
         assert!(s.by_position[1].failed_fraction.is_nan());
         assert_eq!(s.by_position[0].quantities["a"].median, 2.0);
+    }
+
+    #[test]
+    fn readable_times_count_the_never_readable_and_leave_them_out_of_the_quantiles() {
+        let (x, e) = ([10.0, 20.0, 30.0, 95.0], [0.5, 0.8, 2.0, 0.5]);
+        let t = [100.0, 300.0, f64::NAN, 1.0];
+        let cells = CellValues {
+            x: &x,
+            direction_error: &e,
+            estimate_direction_error: None,
+            time_to_readable: Some(&t),
+            quantities: vec![],
+        };
+        let s = sensing_statistics(
+            &cells,
+            [0.0, 100.0],
+            &StatisticsParams { margin: 10.0, ..Default::default() },
+        );
+        let r = s.time_to_readable.unwrap();
+        assert_eq!(
+            (r.never, r.quantiles.count, r.quantiles.median),
+            (1, 2, 200.0),
+            "the cell at 95 is left out"
+        );
+        let j = serde_json::to_value(&s).unwrap();
+        assert_eq!(
+            (j["time_to_readable"]["never"].as_u64(), j["time_to_readable"]["median"].as_f64()),
+            (Some(1), Some(200.0))
+        );
+        let back: SensingStatistics = serde_json::from_value(j).unwrap();
+        assert_eq!(back.time_to_readable, s.time_to_readable);
+    }
+
+    /// Ten cells in one slab: the estimate calls 2 failed where 6 are (gap 0.4 > 0.25): one line; with nine
+    /// cells the slab is too small to judge.
+    #[test]
+    fn a_slab_the_estimate_misjudges_is_reported_once() {
+        let x = [10.0; 10];
+        let measured = [2.0, 2.0, 2.0, 2.0, 2.0, 2.0, 0.5, 0.5, 0.5, 0.5];
+        let estimated = [2.0, 2.0, 0.5, 0.5, 0.5, 0.5, 0.5, 0.5, 0.5, 0.5];
+        let cells = |n: usize| CellValues {
+            x: &x[..n],
+            direction_error: &measured[..n],
+            estimate_direction_error: Some(&estimated[..n]),
+            time_to_readable: None,
+            quantities: vec![],
+        };
+        let params = StatisticsParams { position_bins: 2, ..Default::default() };
+        let s = sensing_statistics(&cells(10), [0.0, 100.0], &params);
+        assert_eq!(
+            (s.by_position[0].failed_fraction, s.by_position[0].estimated_failed_fraction),
+            (0.6, 0.2)
+        );
+        assert!(s.by_position[1].estimated_failed_fraction.is_nan());
+        let line = estimate_disagreement(&s).expect("reported");
+        assert!(line.contains("1 of 2 slabs") && line.contains("estimated 0.20, measured 0.60"), "{line}");
+        assert!(estimate_disagreement(&sensing_statistics(&cells(9), [0.0, 100.0], &params)).is_none());
     }
 
     #[test]

@@ -16,6 +16,7 @@ use super::done_marker::{case_state, CaseState};
 use super::plan_record::PlanRecord;
 use crate::io::number_text::format_real;
 use crate::io::{with_atomic_file, write_atomic};
+use crate::outputs::columns::{aggregated_columns, AggregatedColumn};
 use crate::outputs::RunSummary;
 
 /// Values of one column.
@@ -98,15 +99,6 @@ const SUMMARY_METRICS: [(&str, &str, &str, Metric); 13] = [
     ("estimates.isolated_anisotropy", "1", "anisotropy of an isolated cell (low-Péclet estimate)", |s| {
         s.estimates.isolated_anisotropy
     }),
-];
-
-/// Per-cell columns of `cells.csv` that are aggregated: (column, unit, description). `self_signal_share` is
-/// aggregated only when some case has it.
-const CELL_QUANTITIES: [(&str, &str, &str); 4] = [
-    ("anisotropy_along_flow", "1", "anisotropy component along the local flow"),
-    ("bound_rate", "molecules/s", "ligand bound per cell"),
-    ("direction_error", "1", "counting-noise error of the direction estimate"),
-    ("self_signal_share", "1", "|own| / (|own| + |neighbour|) part of the anisotropy vector, in [0, 1]"),
 ];
 
 /// Where the time of one finished case went (a row of `timings.csv`; see `numkit::meter`).
@@ -234,7 +226,7 @@ pub fn collect_cases(
             data: ColumnData::Real(values),
         });
     }
-    for (quantity, unit, description) in CELL_QUANTITIES {
+    for AggregatedColumn { name: quantity, unit, words: description } in aggregated_columns() {
         let present = data.iter().flatten().any(|d| d.cells.iter().any(|(name, _)| name == quantity));
         if !present {
             continue;
@@ -280,10 +272,11 @@ fn read_case(case_dir: &Path, timing: CaseTiming) -> Result<CaseData> {
     let mut reader = csv::Reader::from_path(&cells_path)
         .with_context(|| format!("cannot read {}", cells_path.display()))?;
     let headers: Vec<String> = reader.headers()?.iter().map(str::to_string).collect();
+    let aggregated = aggregated_columns();
     let wanted: Vec<(usize, &str)> = headers
         .iter()
         .enumerate()
-        .filter_map(|(i, h)| CELL_QUANTITIES.iter().find(|(q, ..)| q == h).map(|(q, ..)| (i, *q)))
+        .filter_map(|(i, h)| aggregated.iter().find(|q| q.name == h).map(|q| (i, q.name)))
         .collect();
     let mut cells: Vec<(String, Vec<f64>)> =
         wanted.iter().map(|(_, q)| (q.to_string(), Vec::new())).collect();

@@ -11,8 +11,8 @@ use super::crossing_table::CrossingRow;
 use super::sweep_curves::key_in_words;
 use crate::figures::style::legend::along;
 use crate::figures::style::{
-    axis_label, chart, choose_scale, colour_maps, drawing, place_legend, plot_box, register_fonts,
-    significant, titled, write_png, Axis, DisplayUnit, FigureRecord, Legend, Swatch,
+    axis_label, chart, choose_scale, colour_maps, drawing, place_legend, register_fonts, significant, titled,
+    write_png, Axis, DisplayUnit, FigureRecord, Legend, Swatch,
 };
 
 const SIZE: (u32, u32) = (900, 600);
@@ -140,13 +140,8 @@ pub fn draw_crossing(
                 record.points.push((*xv, r.crossing * y_unit.factor));
             }
         }
-        let plot_px = plot_box(&plot);
-        record.legend = place_legend(root, &legend, plot_px, &occupied, plot_px.0)?;
-        record.notes.extend(legend.entries.iter().map(|e| e.1.clone()));
-        record.occupied = occupied;
+        place_legend(root, &plot, &legend, occupied, &mut record)?;
         Ok(())
     })?;
-    record.x = Some(x);
-    record.y = Some(y);
-    Ok(Some(record))
+    Ok(Some(record.with_axes(x, y)))
 }

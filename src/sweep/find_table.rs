@@ -14,6 +14,7 @@ use serde::Deserialize;
 
 use super::axis::Scale;
 use super::sweep_file::Axis;
+use crate::outputs::columns::aggregated_columns;
 
 /// A checked `[find]` table.
 #[derive(Clone, Debug, PartialEq)]
@@ -45,13 +46,13 @@ pub struct RawFind {
 /// Summary metrics of `sweep.csv` (the others are `<quantity>_<p10|median|p90>` and `sensing.*`).
 const METRIC_PREFIXES: [&str; 6] =
     ["cells.", "flow.", "transport.", "mass_balance.", "estimates.", "sensing."];
-const CELL_QUANTITIES: [&str; 4] =
-    ["anisotropy_along_flow", "bound_rate", "direction_error", "signal_fraction"];
 
 /// Whether `name` can be a metric column of `sweep.csv` (the cases decide whether it is present).
 fn is_metric_name(name: &str) -> bool {
     METRIC_PREFIXES.iter().any(|p| name.starts_with(p) && name.len() > p.len())
-        || CELL_QUANTITIES.iter().any(|q| ["p10", "median", "p90"].iter().any(|s| name == format!("{q}_{s}")))
+        || aggregated_columns()
+            .iter()
+            .any(|q| ["p10", "median", "p90"].iter().any(|s| name == format!("{}_{s}", q.name)))
 }
 
 impl FindSpec {
@@ -145,12 +146,23 @@ mod tests {
 
     #[test]
     fn metric_names() {
-        for good in
-            ["direction_error_median", "sensing.failed_fraction", "mass_balance.uptake", "bound_rate_p90"]
-        {
+        for good in [
+            "direction_error_median",
+            "sensing.failed_fraction",
+            "mass_balance.uptake",
+            "bound_rate_p90",
+            "self_signal_share_p10",
+        ] {
             assert!(is_metric_name(good), "{good}");
         }
-        for bad in ["failed_fraction", "case_id", "status", "sensing.", "direction_error_mean"] {
+        for bad in [
+            "failed_fraction",
+            "case_id",
+            "status",
+            "sensing.",
+            "direction_error_mean",
+            "signal_fraction_median",
+        ] {
             assert!(!is_metric_name(bad), "{bad}");
         }
     }

@@ -17,8 +17,8 @@ use super::collect::{ColumnData, ColumnRole, SweepTable};
 use super::plan_record::PlanRecord;
 use crate::figures::style::legend::along;
 use crate::figures::style::{
-    axis_label, chart, choose_scale, colour_maps, drawing, place_legend, plot_box, register_fonts,
-    significant, titled, write_png, Axis, DisplayUnit, FigureRecord, Legend, Scale, Swatch, LEVEL,
+    axis_label, chart, choose_scale, colour_maps, drawing, place_legend, register_fonts, significant, titled,
+    write_png, Axis, DisplayUnit, FigureRecord, Legend, Scale, Swatch, LEVEL,
 };
 
 /// Summary metrics worth a figure (the others, such as iteration counts, are diagnostics).
@@ -348,15 +348,10 @@ fn draw_one(
             }
             occupied.extend(along(&[plot.backend_coord(&(x0, level)), plot.backend_coord(&(x1, level))]));
         }
-        let plot_px = plot_box(&plot);
-        record.legend = place_legend(root, &legend, plot_px, &occupied, plot_px.0)?;
-        record.notes.extend(legend.entries.iter().map(|e| e.1.clone()));
-        record.occupied = occupied;
+        place_legend(root, &plot, &legend, occupied, &mut record)?;
         Ok(())
     })?;
-    record.x = Some(x);
-    record.y = Some(y);
-    Ok(record)
+    Ok(record.with_axes(x, y))
 }
 
 fn capitalised(text: &str) -> String {

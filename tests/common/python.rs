@@ -54,6 +54,20 @@ fn find() -> Result<Readers, String> {
     Ok(Readers { vtk })
 }
 
+/// Writes the product's per-cell column registry (name and unit of each column, in file order) to
+/// `dir/column_registry.json`, for a script's `--columns`: the outside readers check the files against the
+/// registry itself, not a copy of it.
+pub fn write_column_registry(dir: &Path) -> PathBuf {
+    let registry: Vec<serde_json::Value> = plumefield::outputs::columns::CELL_COLUMNS
+        .iter()
+        .map(|c| serde_json::json!({ "name": c.name, "unit": c.unit }))
+        .collect();
+    let path = dir.join("column_registry.json");
+    std::fs::write(&path, serde_json::to_vec(&registry).expect("a list of strings serialises"))
+        .expect("write");
+    path
+}
+
 /// `tests/python/<name>`.
 pub fn script(name: &str) -> PathBuf {
     Path::new(env!("CARGO_MANIFEST_DIR")).join("tests").join("python").join(name)

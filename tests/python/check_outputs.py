@@ -1,17 +1,21 @@
 #!/usr/bin/env python3
 """Checks a plumefield run directory with readers that share no code with the writers.
 
-Usage: python3 check_outputs.py DIR [--require-vtk]
+Usage: python3 check_outputs.py DIR [--require-vtk] [--columns REGISTRY.json]
 
 Reads DIR/fields.h5 with h5py, DIR/cells.csv with Python's csv module and, when the `vtk` wheel is
 importable, DIR/fields.xmf with VTK's XDMF reader (the reader behind ParaView's XDMF support). Checks:
-  * /grid/shape is (nx, ny, nz) and every 3-D dataset has shape (nz, ny, nx), chunked, shuffle + gzip;
+  * /grid/shape is (nx, ny, nz) and every 3-D dataset has shape (nz, ny, nx), chunked, float32 or float64
+    (all alike), either shuffle + gzip or unfiltered (all alike);
   * every dataset carries string attributes `units` and `description`; the root carries the provenance;
   * /cells/<column> equals the cells.csv column of the same name to the last bit, in the header's order;
   * the XDMF sidecar names only datasets that exist, with matching dimensions, and VTK opens it as an image
     of (nx+1, ny+1, nz+1) points whose cell data equal the HDF5 values at probe cells.
 Exit status 0 when all checks pass, 1 on the first failed check (with a message), 2 on bad usage.
 --require-vtk turns a missing `vtk` module into a failure instead of a skipped part.
+--columns REGISTRY.json (a list of {"name", "unit"}, written by the test from the product's column registry):
+  cells.csv starts with exactly these columns in this order, and /cells/<name> and summary.json's
+  units["cells.csv"] carry these units.
 """
 
 import csv
@@ -55,6 +59,7 @@ def check_h5(path):
         datasets = {}
         f.visititems(lambda name, obj: datasets.__setitem__(name, obj) if isinstance(obj, h5py.Dataset) else None)
         n_3d = 0
+        storage = set()
         for name, ds in datasets.items():
             for attr in ("units", "description"):
                 require(attr in ds.attrs, f"/{name} has no {attr!r} attribute")
@@ -63,14 +68,19 @@ def check_h5(path):
                 n_3d += 1
                 require(ds.shape == (nz, ny, nx), f"/{name} has shape {ds.shape}, expected (nz, ny, nx) = {(nz, ny, nx)}")
                 require(ds.chunks is not None, f"/{name} is not chunked")
-                require(ds.shuffle and ds.compression == "gzip", f"/{name}: shuffle={ds.shuffle} compression={ds.compression}")
+                filters = (bool(ds.shuffle), ds.compression)
+                require(filters in ((True, "gzip"), (False, None)), f"/{name}: shuffle={ds.shuffle} compression={ds.compression}")
+                require(ds.dtype in (np.float32, np.float64), f"/{name} has dtype {ds.dtype}")
+                storage.add((ds.dtype.itemsize, filters))
                 require(np.all(np.isfinite(ds[()])), f"/{name} holds non-finite values")
+        require(len(storage) == 1, f"3-D datasets stored in different ways: {sorted(storage, key=str)}")
         require("grid/volume_fraction" in datasets, "/grid/volume_fraction missing")
         vf = f["grid/volume_fraction"][()]
         require(vf.min() >= 0.0 and vf.max() <= 1.0, f"volume fraction outside [0, 1]: {vf.min()}..{vf.max()}")
+        ((itemsize, (shuffled, compression)),) = storage
         print(f"fields.h5: grid (nx, ny, nz) = {shape}, h = {spacing:g} m, {len(datasets)} datasets "
-              f"({n_3d} 3-D), all with units and description")
-        return shape, origin, spacing
+              f"({n_3d} 3-D, {8 * itemsize}-bit, {compression or 'uncompressed'}), all with units and description")
+        return shape, origin, spacing, itemsize
 
 
 def check_cells(h5_path, csv_path):
@@ -101,7 +111,29 @@ def check_cells(h5_path, csv_path):
     print(f"cells.csv: {len(rows)} rows x {len(header)} columns equal /cells/* bit for bit")
 
 
-def xdmf_attributes(xmf_path, h5_name, shape):
+def check_registry(h5_path, csv_path, summary_path, registry_path):
+    import json
+    with open(registry_path) as fh:
+        registry = json.load(fh)
+    names = [c["name"] for c in registry]
+    with open(csv_path, newline="") as fh:
+        header = next(csv.reader(fh))
+    require(header[:len(names)] == names, f"cells.csv starts with {header[:len(names)]}, the registry lists {names}")
+    with h5py.File(h5_path, "r") as f:
+        for c in registry:
+            unit = text(f["cells"][c["name"]].attrs["units"])
+            require(unit == c["unit"], f"/cells/{c['name']} has units {unit!r}, the registry says {c['unit']!r}")
+    if os.path.isfile(summary_path):
+        with open(summary_path) as fh:
+            units = json.load(fh).get("units", {}).get("cells.csv")
+        if units is not None:
+            for c in registry:
+                require(units.get(c["name"]) == c["unit"],
+                        f"summary.json units of {c['name']} are {units.get(c['name'])!r}, the registry says {c['unit']!r}")
+    print(f"cells.csv: the {len(names)} registered columns come first, in order, with their units")
+
+
+def xdmf_attributes(xmf_path, h5_name, shape, itemsize):
     """Maps each XDMF attribute to the HDF5 dataset paths it reads, checking dimensions against the grid."""
     nx, ny, nz = shape
     root = ET.parse(xmf_path).getroot()
@@ -122,16 +154,18 @@ def xdmf_attributes(xmf_path, h5_name, shape):
                 require(file_name == h5_name, f"attribute {attr.get('Name')} points at {file_name}")
                 item_dims = tuple(int(d) for d in item.get("Dimensions").split())
                 require(item_dims == (nz, ny, nx), f"{dataset}: DataItem dimensions {item_dims}")
+                require(item.get("Precision") == str(itemsize),
+                        f"{dataset}: DataItem Precision {item.get('Precision')}, HDF5 stores {itemsize} bytes")
                 paths.append(dataset)
         require(paths, f"attribute {attr.get('Name')} reads no HDF5 data")
         attributes[attr.get("Name")] = paths
     return attributes
 
 
-def check_xdmf(directory, shape, origin, spacing, require_vtk):
+def check_xdmf(directory, shape, itemsize, origin, spacing, require_vtk):
     h5_path = os.path.join(directory, "fields.h5")
     xmf_path = os.path.join(directory, "fields.xmf")
-    attributes = xdmf_attributes(xmf_path, "fields.h5", shape)
+    attributes = xdmf_attributes(xmf_path, "fields.h5", shape, itemsize)
     with h5py.File(h5_path, "r") as f:
         for name, paths in attributes.items():
             for p in paths:
@@ -180,8 +214,16 @@ def check_xdmf(directory, shape, origin, spacing, require_vtk):
 
 
 def main(argv):
-    args = [a for a in argv[1:] if not a.startswith("--")]
-    flags = [a for a in argv[1:] if a.startswith("--")]
+    args, flags, registry = [], [], None
+    rest = argv[1:]
+    while rest:
+        a = rest.pop(0)
+        if a == "--columns" and rest:
+            registry = rest.pop(0)
+        elif a.startswith("--"):
+            flags.append(a)
+        else:
+            args.append(a)
     if len(args) != 1 or any(flag != "--require-vtk" for flag in flags):
         print(__doc__, file=sys.stderr)
         return 2
@@ -193,9 +235,11 @@ def main(argv):
             require(os.path.isfile(p), f"{p} missing")
         leftovers = [n for n in os.listdir(directory) if n.startswith(".") and n.endswith(".tmp")]
         require(not leftovers, f"temporary files left behind: {leftovers}")
-        shape, origin, spacing = check_h5(h5_path)
+        shape, origin, spacing, itemsize = check_h5(h5_path)
         check_cells(h5_path, csv_path)
-        check_xdmf(directory, shape, origin, spacing, "--require-vtk" in flags)
+        if registry is not None:
+            check_registry(h5_path, csv_path, os.path.join(directory, "summary.json"), registry)
+        check_xdmf(directory, shape, itemsize, origin, spacing, "--require-vtk" in flags)
         summary = os.path.join(directory, "summary.json")
         if os.path.isfile(summary):
             import json

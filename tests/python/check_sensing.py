@@ -84,6 +84,13 @@ def main(directory):
     for b, (slab, written, row) in enumerate(zip(members, s["by_position"], table)):
         n, f = len(slab), sum(map(fails, slab))
         fraction = f / n if n else math.nan
+        if "estimate_direction_error" in rows[0] if rows else False:
+            e = sum(1 for r in slab if not (float(r["estimate_direction_error"]) <= readable))
+            estimated = e / n if n else math.nan
+            check(f"slab {b} estimated_failed_fraction (summary.json)", estimated,
+                  json_real(written["estimated_failed_fraction"]))
+            check(f"slab {b} estimated_failed_fraction (csv)", estimated,
+                  float(row["estimated_failed_fraction [1]"]))
         for what, ours, json_value, csv_key in (
             ("cells", n, written["cells"], "cells [1]"),
             ("failed", f, written["failed"], "failed [1]"),

@@ -162,7 +162,7 @@ def main(argv):
             require(os.path.isfile(os.path.join(directory, name)), f"{name} missing")
         leftovers = [n for n in os.listdir(directory) if n.endswith(".tmp")]
         require(not leftovers, f"temporary files left behind: {leftovers}")
-        shape, _, _ = check_h5(os.path.join(directory, "fields.h5"))
+        shape, _, _, _ = check_h5(os.path.join(directory, "fields.h5"))
         times = check_series(directory, shape)
         check_temporal_xmf(directory, shape, times, "--require-vtk" in flags)
     except CheckFailed as e:

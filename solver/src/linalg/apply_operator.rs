@@ -4,11 +4,20 @@
 //! (A c)_P = Σ_faces f of P [ G_f (c_P − c_N) + Q_f,out · c_f ] + S_P c_P ,   inactive rows: (A c)_P = c_P
 //! ```
 //!
-//! It reads the operator's face arrays instead of an assembled stencil, so the full-precision system needs no
-//! second copy of its coefficients (the f64 stencil would cost 56 bytes per grid cell). Being written from the
-//! definition rather than from [`super::stencil::face_coefficients`], it also cross-checks the assembly.
+//! It reads face arrays instead of an assembled stencil, so the full-precision system needs no second copy of
+//! its coefficients (the f64 stencil would cost 56 bytes per grid cell). Being written from the definition
+//! rather than from [`super::stencil::face_coefficients`], it also cross-checks the assembly.
+//!
+//! Two forms share one line kernel, and so give the same bits:
+//! - [`apply_face_coupled`] reads every conductance and sink from the operator's arrays;
+//! - [`PackedOperator`] keeps the flux arrays only and stores the conductance of a full-aperture face and the
+//!   sink of a plain fluid cell once: a grid cell is *regular* when it is active, has that sink and that
+//!   conductance on all six faces, and only the irregular cells (cut cells, their neighbours, cells at chamber
+//!   faces) carry their own values. The product then streams the three flux arrays, x and y, which is what
+//!   varies from face to face (the advective part), and no conductance or sink array.
 
 use super::operator::{AdvectionScheme, FaceCoupledOperator};
+use super::real::wide_vectors;
 use super::stencil::{face_index, min_lines};
 use rayon::prelude::*;
 
@@ -37,82 +46,433 @@ pub fn apply_face_coupled(op: &FaceCoupledOperator, scheme: AdvectionScheme, x: 
     }
 }
 
-fn apply_with<const UPWIND: bool>(op: &FaceCoupledOperator, x: &[f64], y: &mut [f64]) {
-    let [nx, ny, nz] = op.shape;
-    let n = nx * ny * nz;
-    assert_eq!(x.len(), n, "operator apply: x has the wrong length");
-    assert_eq!(y.len(), n, "operator apply: y has the wrong length");
-    let wraps = [0, 1, 2].map(|a| op.periodic[a] && op.shape[a] > 1);
-    let plane = nx * ny;
-    y.par_chunks_mut(nx).with_min_len(min_lines(nx)).enumerate().for_each(|(line, yl)| {
-        let j = line % ny;
-        let k = line / ny;
+/// The y and z faces of an x-line, in the order the rows add them: lower y, upper y, lower z, upper z.
+#[derive(Clone, Copy)]
+struct Side {
+    axis: usize,
+    /// False across a non-periodic chamber face (no coupling).
+    exists: bool,
+    /// First grid cell of the neighbour line.
+    neighbour: usize,
+    /// First face between the two lines.
+    face: usize,
+}
+
+/// Where the faces and neighbours of one x-line live.
+struct LineFaces {
+    base: usize,
+    /// First x-face of the line (`nx + 1` per line; face 0 is the wrap-around face of a periodic x).
+    x_face: usize,
+    wrap_x: bool,
+    sides: [Side; 4],
+}
+
+impl LineFaces {
+    fn new(shape: [usize; 3], periodic: [bool; 3], line: usize) -> Self {
+        let [nx, ny, nz] = shape;
+        let (j, k) = (line % ny, line / ny);
         let base = line * nx;
-        let xl = &x[base..base + nx];
-        let sink = &op.sink[base..base + nx];
-        for i in 0..nx {
-            yl[i] = sink[i] * xl[i];
-        }
-        // x: faces 1..nx−1 inside the line, face 0 wraps between cell nx−1 (lower) and cell 0 (upper).
-        let xf = face_index(op.shape, 0, 0, j, k);
-        let (g, f) = (&op.conductance[0][xf..xf + nx + 1], &op.flux[0][xf..xf + nx + 1]);
-        for i in 1..nx {
-            let q = face_flux::<UPWIND>(g[i], f[i], xl[i - 1], xl[i]);
-            yl[i - 1] += q;
-            yl[i] -= q;
-        }
-        if wraps[0] {
-            let q = face_flux::<UPWIND>(g[0], f[0], xl[nx - 1], xl[0]);
-            yl[nx - 1] += q;
-            yl[0] -= q;
-        }
-        // y and z: the faces below and above the line, each against a whole neighbour line.
-        let neighbour_lines = [
-            (
-                1,
-                j > 0 || wraps[1],
-                if j > 0 { base - nx } else { base + nx * (ny - 1) },
-                face_index(op.shape, 1, 0, j, k),
-            ),
-            (
-                1,
-                j + 1 < ny || wraps[1],
-                if j + 1 < ny { base + nx } else { base - nx * (ny - 1) },
-                face_index(op.shape, 1, 0, if j + 1 < ny { j + 1 } else { 0 }, k),
-            ),
-            (2, k > 0 || wraps[2], if k > 0 { base - plane } else { base + plane * (nz - 1) }, base),
-            (
-                2,
-                k + 1 < nz || wraps[2],
-                if k + 1 < nz { base + plane } else { base - plane * (nz - 1) },
-                if k + 1 < nz { base + plane } else { nx * j },
-            ),
+        let plane = nx * ny;
+        let wraps = [0, 1, 2].map(|a| periodic[a] && shape[a] > 1);
+        let sides = [
+            Side {
+                axis: 1,
+                exists: j > 0 || wraps[1],
+                neighbour: if j > 0 { base - nx } else { base + nx * (ny - 1) },
+                face: face_index(shape, 1, 0, j, k),
+            },
+            Side {
+                axis: 1,
+                exists: j + 1 < ny || wraps[1],
+                neighbour: if j + 1 < ny { base + nx } else { base - nx * (ny - 1) },
+                face: face_index(shape, 1, 0, if j + 1 < ny { j + 1 } else { 0 }, k),
+            },
+            Side {
+                axis: 2,
+                exists: k > 0 || wraps[2],
+                neighbour: if k > 0 { base - plane } else { base + plane * (nz - 1) },
+                face: base,
+            },
+            Side {
+                axis: 2,
+                exists: k + 1 < nz || wraps[2],
+                neighbour: if k + 1 < nz { base + plane } else { base - plane * (nz - 1) },
+                face: if k + 1 < nz { base + plane } else { nx * j },
+            },
         ];
-        for (side, &(axis, exists, neighbour, face)) in neighbour_lines.iter().enumerate() {
-            if !exists {
-                continue;
-            }
-            let xn = &x[neighbour..neighbour + nx];
-            let g = &op.conductance[axis][face..face + nx];
-            let f = &op.flux[axis][face..face + nx];
-            if side % 2 == 0 {
-                // Face below: the neighbour is the lower cell.
-                for i in 0..nx {
-                    yl[i] -= face_flux::<UPWIND>(g[i], f[i], xn[i], xl[i]);
-                }
+        LineFaces { base, x_face: face_index(shape, 0, 0, j, k), wrap_x: wraps[0], sides }
+    }
+}
+
+/// Conductances, sinks and activity of one line's rows.
+struct LineCoefficients<'a> {
+    /// The line's `nx + 1` x-faces.
+    x: &'a [f64],
+    /// `nx` faces per side, in the order of [`LineFaces::sides`] (unread where the side does not exist).
+    sides: [&'a [f64]; 4],
+    sink: &'a [f64],
+    /// None: every cell of the line is active.
+    active: Option<&'a [bool]>,
+}
+
+impl<'a> LineCoefficients<'a> {
+    /// The coefficients of the line `faces` describes, read from the operator's arrays.
+    fn of(op: &'a FaceCoupledOperator, faces: &LineFaces) -> Self {
+        let nx = op.shape[0];
+        let base = faces.base;
+        let side = |s: usize| {
+            let d = faces.sides[s];
+            if d.exists {
+                &op.conductance[d.axis][d.face..d.face + nx]
             } else {
-                for i in 0..nx {
-                    yl[i] += face_flux::<UPWIND>(g[i], f[i], xl[i], xn[i]);
-                }
+                &[][..]
+            }
+        };
+        LineCoefficients {
+            x: &op.conductance[0][faces.x_face..faces.x_face + nx + 1],
+            sides: [side(0), side(1), side(2), side(3)],
+            sink: &op.sink[base..base + nx],
+            active: Some(&op.active[base..base + nx]),
+        }
+    }
+}
+
+/// `y = A x` on one x-line (`yl` is the line's part of y; `qx` a scratch of `nx + 1`). Each row adds its face
+/// terms in one fixed order — x below, x above, y below, y above, z below, z above — so both forms of the
+/// product give the same bits.
+#[inline(always)]
+fn apply_line<const UPWIND: bool>(
+    flux: &[Vec<f64>; 3],
+    faces: &LineFaces,
+    c: &LineCoefficients,
+    x: &[f64],
+    yl: &mut [f64],
+    qx: &mut [f64],
+) {
+    let nx = yl.len();
+    let xl = &x[faces.base..faces.base + nx];
+    let sink = &c.sink[..nx];
+    for i in 0..nx {
+        yl[i] = sink[i] * xl[i];
+    }
+    // x: face i lies between cells i − 1 and i; face 0 wraps between cell nx − 1 (lower) and cell 0 (upper).
+    let (g, f) = (&c.x[..nx + 1], &flux[0][faces.x_face..faces.x_face + nx + 1]);
+    let qx = &mut qx[..nx + 1];
+    for i in 1..nx {
+        qx[i] = face_flux::<UPWIND>(g[i], f[i], xl[i - 1], xl[i]);
+    }
+    if nx > 1 {
+        yl[0] += qx[1];
+        for i in 1..nx - 1 {
+            yl[i] = yl[i] - qx[i] + qx[i + 1];
+        }
+        yl[nx - 1] -= qx[nx - 1];
+    }
+    if faces.wrap_x {
+        let q = face_flux::<UPWIND>(g[0], f[0], xl[nx - 1], xl[0]);
+        yl[nx - 1] += q;
+        yl[0] -= q;
+    }
+    // y and z: the faces below and above the line, each against a whole neighbour line.
+    for (s, side) in faces.sides.iter().enumerate() {
+        if !side.exists {
+            continue;
+        }
+        let xn = &x[side.neighbour..side.neighbour + nx];
+        let g = &c.sides[s][..nx];
+        let f = &flux[side.axis][side.face..side.face + nx];
+        if s % 2 == 0 {
+            // Face below: the neighbour is the lower cell.
+            for i in 0..nx {
+                yl[i] -= face_flux::<UPWIND>(g[i], f[i], xn[i], xl[i]);
+            }
+        } else {
+            for i in 0..nx {
+                yl[i] += face_flux::<UPWIND>(g[i], f[i], xl[i], xn[i]);
             }
         }
-        let active = &op.active[base..base + nx];
+    }
+    if let Some(active) = c.active {
         for i in 0..nx {
             if !active[i] {
                 yl[i] = xl[i];
             }
         }
-    });
+    }
+}
+
+/// [`apply_line`] in AVX2 where `wide` (from [`wide_vectors`]) says the CPU has it.
+#[inline(always)]
+fn apply_line_dispatch<const UPWIND: bool>(
+    wide: bool,
+    flux: &[Vec<f64>; 3],
+    faces: &LineFaces,
+    c: &LineCoefficients,
+    x: &[f64],
+    yl: &mut [f64],
+    qx: &mut [f64],
+) {
+    #[cfg(target_arch = "x86_64")]
+    if wide {
+        // SAFETY: `wide` comes from `wide_vectors`, true only when the CPU runs AVX2.
+        unsafe { apply_line_avx2::<UPWIND>(flux, faces, c, x, yl, qx) };
+        return;
+    }
+    let _ = wide;
+    apply_line::<UPWIND>(flux, faces, c, x, yl, qx);
+}
+
+/// # Safety
+/// The CPU must run AVX2.
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx2")]
+unsafe fn apply_line_avx2<const UPWIND: bool>(
+    flux: &[Vec<f64>; 3],
+    faces: &LineFaces,
+    c: &LineCoefficients,
+    x: &[f64],
+    yl: &mut [f64],
+    qx: &mut [f64],
+) {
+    apply_line::<UPWIND>(flux, faces, c, x, yl, qx);
+}
+
+fn check_lengths(shape: [usize; 3], x: &[f64], y: &[f64]) {
+    let n = shape[0] * shape[1] * shape[2];
+    assert_eq!(x.len(), n, "operator apply: x has the wrong length");
+    assert_eq!(y.len(), n, "operator apply: y has the wrong length");
+}
+
+fn apply_with<const UPWIND: bool>(op: &FaceCoupledOperator, x: &[f64], y: &mut [f64]) {
+    check_lengths(op.shape, x, y);
+    let nx = op.shape[0];
+    let wide = wide_vectors();
+    y.par_chunks_mut(nx).with_min_len(min_lines(nx)).enumerate().for_each_init(
+        || vec![0.0; nx + 1],
+        |qx, (line, yl)| {
+            let faces = LineFaces::new(op.shape, op.periodic, line);
+            let coefficients = LineCoefficients::of(op, &faces);
+            apply_line_dispatch::<UPWIND>(wide, &op.flux, &faces, &coefficients, x, yl, qx);
+        },
+    );
+}
+
+/// One irregular grid cell of a [`PackedOperator`]: its own conductances and sink.
+#[derive(Clone, Copy, Debug)]
+struct IrregularCell {
+    /// Index along its x-line.
+    i: u32,
+    active: bool,
+    /// Faces x below, x above, then the four sides in the order of [`LineFaces::sides`].
+    conductance: [f64; 6],
+    sink: f64,
+}
+
+/// The face-coupled operator without its conductance and sink arrays: the common values once, the irregular
+/// cells' own values line by line (see the module documentation). Built from an operator whose faces touching
+/// inactive cells carry no coupling; [`PackedOperator::apply`] takes that operator's flux arrays.
+#[derive(Clone, Debug)]
+pub struct PackedOperator {
+    shape: [usize; 3],
+    periodic: [bool; 3],
+    /// The common conductance, `nx + 1` times (the coefficient slices of a regular line).
+    regular_conductance: Vec<f64>,
+    /// The common sink, `nx` times.
+    regular_sink: Vec<f64>,
+    /// Irregular cells of x-line l: `cells[line_start[l]..line_start[l + 1]]`, ascending along the line.
+    line_start: Vec<usize>,
+    cells: Vec<IrregularCell>,
+}
+
+/// The value most entries hold, if one holds more than half of them (Boyer–Moore majority vote, exact bits);
+/// otherwise some entry (every cell is then irregular or nearly, and the product stays exact).
+fn majority(values: impl Iterator<Item = f64>) -> f64 {
+    let (mut candidate, mut count) = (0.0f64, 0usize);
+    for v in values {
+        if count == 0 {
+            candidate = v;
+            count = 1;
+        } else if v.to_bits() == candidate.to_bits() {
+            count += 1;
+        } else {
+            count -= 1;
+        }
+    }
+    candidate
+}
+
+impl PackedOperator {
+    /// Packs `op`. Faces touching an inactive cell must carry no coupling (the operator's contract).
+    pub fn pack(op: &FaceCoupledOperator) -> Self {
+        let [nx, ny, nz] = op.shape;
+        let g0 = majority(op.conductance.iter().flat_map(|g| g.iter().copied()));
+        let s0 = majority(op.sink.iter().copied());
+        let lines: Vec<Vec<IrregularCell>> = (0..ny * nz)
+            .into_par_iter()
+            .with_min_len(min_lines(nx))
+            .map(|line| {
+                let faces = LineFaces::new(op.shape, op.periodic, line);
+                let gx = &op.conductance[0][faces.x_face..faces.x_face + nx + 1];
+                let mut irregular = Vec::new();
+                for i in 0..nx {
+                    let p = faces.base + i;
+                    let below = if i > 0 || faces.wrap_x { gx[i] } else { g0 };
+                    let above = if i + 1 < nx {
+                        gx[i + 1]
+                    } else if faces.wrap_x {
+                        gx[0]
+                    } else {
+                        g0
+                    };
+                    let side = |s: usize| {
+                        faces.sides[s]
+                            .exists
+                            .then(|| faces.sides[s])
+                            .map_or(g0, |d| op.conductance[d.axis][d.face + i])
+                    };
+                    let conductance = [below, above, side(0), side(1), side(2), side(3)];
+                    let regular = op.active[p]
+                        && op.sink[p].to_bits() == s0.to_bits()
+                        && conductance.iter().all(|g| g.to_bits() == g0.to_bits());
+                    if !regular {
+                        irregular.push(IrregularCell {
+                            i: i as u32,
+                            active: op.active[p],
+                            conductance,
+                            sink: op.sink[p],
+                        });
+                    }
+                }
+                irregular
+            })
+            .collect();
+        let mut line_start = Vec::with_capacity(lines.len() + 1);
+        line_start.push(0);
+        let mut cells = Vec::with_capacity(lines.iter().map(Vec::len).sum());
+        for l in lines {
+            cells.extend_from_slice(&l);
+            line_start.push(cells.len());
+        }
+        PackedOperator {
+            shape: op.shape,
+            periodic: op.periodic,
+            regular_conductance: vec![g0; nx + 1],
+            regular_sink: vec![s0; nx],
+            line_start,
+            cells,
+        }
+    }
+
+    /// Number of irregular grid cells (with their own conductances or sink).
+    pub fn irregular_cells(&self) -> usize {
+        self.cells.len()
+    }
+
+    /// Bytes held (the flux arrays belong to the operator).
+    pub fn memory_bytes(&self) -> usize {
+        8 * (self.regular_conductance.len() + self.regular_sink.len() + self.line_start.len())
+            + std::mem::size_of::<IrregularCell>() * self.cells.len()
+    }
+
+    /// `y = A x` under `scheme`, with the flux arrays of the operator this was packed from: the same bits as
+    /// [`apply_face_coupled`] on that operator.
+    pub fn apply(&self, op: &FaceCoupledOperator, scheme: AdvectionScheme, x: &[f64], y: &mut [f64]) {
+        assert_eq!(op.shape, self.shape, "packed operator applied with another operator's fluxes");
+        match scheme {
+            AdvectionScheme::Central => self.apply_with::<false>(&op.flux, x, y),
+            AdvectionScheme::Upwind => self.apply_with::<true>(&op.flux, x, y),
+        }
+    }
+
+    fn apply_with<const UPWIND: bool>(&self, flux: &[Vec<f64>; 3], x: &[f64], y: &mut [f64]) {
+        check_lengths(self.shape, x, y);
+        let nx = self.shape[0];
+        let wide = wide_vectors();
+        y.par_chunks_mut(nx).with_min_len(min_lines(nx)).enumerate().for_each_init(
+            || LineScratch::new(self),
+            |scratch, (line, yl)| {
+                let faces = LineFaces::new(self.shape, self.periodic, line);
+                let irregular = &self.cells[self.line_start[line]..self.line_start[line + 1]];
+                if irregular.is_empty() {
+                    let g = &self.regular_conductance[..nx];
+                    let coefficients = LineCoefficients {
+                        x: &self.regular_conductance,
+                        sides: [g, g, g, g],
+                        sink: &self.regular_sink,
+                        active: None,
+                    };
+                    apply_line_dispatch::<UPWIND>(wide, flux, &faces, &coefficients, x, yl, &mut scratch.qx);
+                } else {
+                    scratch.load(&faces, irregular);
+                    let LineScratch { x: gx, sides, sink, active, qx } = &mut *scratch;
+                    let coefficients = LineCoefficients {
+                        x: gx,
+                        sides: [&sides[0], &sides[1], &sides[2], &sides[3]],
+                        sink,
+                        active: Some(active),
+                    };
+                    apply_line_dispatch::<UPWIND>(wide, flux, &faces, &coefficients, x, yl, qx);
+                    scratch.unload(self, &faces, irregular);
+                }
+            },
+        );
+    }
+}
+
+/// The coefficients of one line with irregular cells, spread out for the line kernel.
+struct LineScratch {
+    x: Vec<f64>,
+    sides: [Vec<f64>; 4],
+    sink: Vec<f64>,
+    active: Vec<bool>,
+    qx: Vec<f64>,
+}
+
+impl LineScratch {
+    /// Regular values throughout: [`Self::load`] writes one line's irregular cells over them and
+    /// [`Self::unload`] puts the regular values back, so a line costs in proportion to its irregular cells.
+    fn new(packed: &PackedOperator) -> Self {
+        let nx = packed.regular_sink.len();
+        LineScratch {
+            x: packed.regular_conductance.clone(),
+            sides: std::array::from_fn(|_| packed.regular_conductance[..nx].to_vec()),
+            sink: packed.regular_sink.clone(),
+            active: vec![true; nx],
+            qx: vec![0.0; nx + 1],
+        }
+    }
+
+    fn load(&mut self, faces: &LineFaces, irregular: &[IrregularCell]) {
+        for cell in irregular {
+            let [below, above, s0, s1, s2, s3] = cell.conductance;
+            self.write(faces, cell.i as usize, [below, above], [s0, s1, s2, s3], cell.sink, cell.active);
+        }
+    }
+
+    fn unload(&mut self, packed: &PackedOperator, faces: &LineFaces, irregular: &[IrregularCell]) {
+        let (g, s) = (packed.regular_conductance[0], packed.regular_sink[0]);
+        for cell in irregular {
+            self.write(faces, cell.i as usize, [g, g], [g; 4], s, true);
+        }
+    }
+
+    /// The coefficients of cell i: its x faces below and above (the one above is face 0 at a periodic wrap),
+    /// its four side faces, sink and activity.
+    #[inline]
+    fn write(&mut self, faces: &LineFaces, i: usize, x: [f64; 2], sides: [f64; 4], sink: f64, active: bool) {
+        let nx = self.sink.len();
+        self.x[i] = x[0];
+        if i + 1 < nx {
+            self.x[i + 1] = x[1];
+        } else if faces.wrap_x {
+            self.x[0] = x[1];
+        }
+        for (side, g) in self.sides.iter_mut().zip(sides) {
+            side[i] = g;
+        }
+        self.sink[i] = sink;
+        self.active[i] = active;
+    }
 }
 
 /// Zeroes conductance and flux on every coupling face (interior or periodic) that touches an inactive cell.
@@ -181,6 +541,72 @@ mod tests {
                 }
                 assert_eq!(y1[3], x[3]);
             }
+        }
+    }
+
+    /// The packed form gives the same bits as the full arrays: an operator whose conductances and sinks mostly
+    /// take one value, with scattered other values, inactive cells, every periodicity and both schemes.
+    #[test]
+    fn packed_product_is_bit_identical_to_the_full_arrays() {
+        for (shape, periodic) in [
+            ([9, 6, 5], [false, false, false]),
+            ([8, 6, 4], [true, true, true]),
+            ([7, 5, 3], [true, false, true]),
+            ([2, 7, 3], [true, true, false]),
+            ([1, 4, 4], [false, true, true]),
+        ] {
+            let mut op = random_operator(shape, periodic, 23);
+            let pick = random_vector(op.sink.len() + 3 * 400, 9);
+            for (a, g) in op.conductance.iter_mut().enumerate() {
+                for (f, g) in g.iter_mut().enumerate() {
+                    if pick[(f * 7 + a * 13) % pick.len()] < 0.94 {
+                        *g = 0.75;
+                    }
+                }
+            }
+            for (p, s) in op.sink.iter_mut().enumerate() {
+                if pick[p] < 0.9 {
+                    *s = 0.125;
+                }
+            }
+            let n = op.sink.len();
+            op.active[5] = false;
+            op.active[n - 3] = false;
+            decouple_inactive_cells(&mut op);
+            let packed = PackedOperator::pack(&op);
+            assert!(packed.irregular_cells() > 0, "{shape:?}: nothing irregular");
+            assert!(packed.line_start.windows(2).any(|w| w[0] == w[1]), "{shape:?}: no regular line");
+            let x = random_vector(op.sink.len(), 6);
+            for scheme in [AdvectionScheme::Central, AdvectionScheme::Upwind] {
+                let mut full = vec![0.0; x.len()];
+                let mut lean = vec![1.0; x.len()];
+                apply_face_coupled(&op, scheme, &x, &mut full);
+                packed.apply(&op, scheme, &x, &mut lean);
+                for p in 0..x.len() {
+                    assert_eq!(full[p].to_bits(), lean[p].to_bits(), "{shape:?} {scheme:?} row {p}");
+                }
+            }
+        }
+    }
+
+    /// The AVX2 build of the line kernel gives the same bits as the baseline build.
+    #[cfg(target_arch = "x86_64")]
+    #[test]
+    fn wide_and_baseline_line_kernels_agree_bit_for_bit() {
+        if !wide_vectors() {
+            return;
+        }
+        let op = random_operator([37, 6, 5], [true, false, true], 3);
+        let x = random_vector(op.sink.len(), 8);
+        let nx = op.shape[0];
+        let mut qx = vec![0.0; nx + 1];
+        for line in 0..op.shape[1] * op.shape[2] {
+            let faces = LineFaces::new(op.shape, op.periodic, line);
+            let c = LineCoefficients::of(&op, &faces);
+            let (mut narrow, mut wide) = (vec![0.0; nx], vec![0.0; nx]);
+            apply_line_dispatch::<false>(false, &op.flux, &faces, &c, &x, &mut narrow, &mut qx);
+            apply_line_dispatch::<false>(true, &op.flux, &faces, &c, &x, &mut wide, &mut qx);
+            assert!(narrow.iter().zip(&wide).all(|(a, b)| a.to_bits() == b.to_bits()), "line {line}");
         }
     }
 }

@@ -2,7 +2,8 @@
 //!
 //! - [`operator`]: the face-coupled operator form shared by flow and transport.
 //! - [`stencil`]: its assembly into a 7-point stencil ([`Stencil7`], also exported as CSR).
-//! - [`apply_operator`]: the matrix-free product straight from the face arrays (the exact f64 system).
+//! - [`apply_operator`]: the matrix-free product straight from the face arrays (the exact f64 system), also in
+//!   a packed form that stores only the conductances and sinks of irregular cells ([`PackedOperator`]).
 //! - [`coarsen`], [`transfer`], [`smooth`], [`dense_lu`], [`multigrid`]: the cell-centred multigrid
 //!   preconditioner (f32 levels, stored per red–black colour by `coloured_stencil`).
 //! - [`krylov`]: the Krylov methods (BiCGSTAB, flexible GMRES) behind the [`LinearOperator`] trait, on the
@@ -27,10 +28,10 @@ pub mod test_problems;
 pub mod transfer;
 mod vector;
 
-pub use apply_operator::apply_face_coupled;
+pub use apply_operator::{apply_face_coupled, PackedOperator};
 pub use krylov::{
-    bicgstab, gmres, BicgstabParams, BicgstabWork, GmresParams, KrylovParams, LinearOperator, RightHandSide,
-    Shadow, SolveError, SolveInfo, SparseVector,
+    bicgstab, bicgstab_until, gmres, BicgstabParams, BicgstabWork, GmresParams, KrylovParams, LinearOperator,
+    RightHandSide, Shadow, SolveError, SolveInfo, SparseVector,
 };
 pub use multigrid::{Cycle, MultigridParams};
 pub use operator::{AdvectionScheme, FaceCoupledOperator};

@@ -1,5 +1,24 @@
 //! The floating-point types a multigrid level may store: f64 for the exact operator, f32 for the hierarchy
-//! (half the memory traffic; the preconditioner only needs a few digits, the Krylov method keeps f64).
+//! (half the memory traffic; the preconditioner only needs a few digits, the Krylov method keeps f64) — and
+//! whether the line kernels may run in 256-bit vectors.
+//!
+//! The line kernel of the operator product is compiled twice: for the baseline x86-64 (SSE2, two f64 lanes)
+//! and for AVX2 (four), chosen at run time. Both perform the same IEEE operations in the same order — Rust
+//! neither fuses a multiply and an add nor reassociates sums without being told — so the results are the same
+//! bits on every machine.
+
+/// True where the CPU runs AVX2 (checked once by the standard library, then a cached load).
+#[inline]
+pub(crate) fn wide_vectors() -> bool {
+    #[cfg(target_arch = "x86_64")]
+    {
+        std::arch::is_x86_feature_detected!("avx2")
+    }
+    #[cfg(not(target_arch = "x86_64"))]
+    {
+        false
+    }
+}
 
 use std::ops::{Add, AddAssign, Div, Mul, Neg, Sub, SubAssign};
 

@@ -4,14 +4,14 @@
 //! of cut cells whose fluxes use wider interpolation). The correction enters the products of the Krylov method
 //! only; the multigrid hierarchy is built from the face-coupled part, which the Krylov method corrects for.
 
-use super::apply_operator::decouple_inactive_cells;
+use super::apply_operator::{decouple_inactive_cells, PackedOperator};
 use super::krylov::{
     bicgstab, BicgstabParams, BicgstabWork, KrylovParams, LinearOperator, RightHandSide, SolveError,
     SolveInfo,
 };
 use super::multigrid::{Multigrid, MultigridParams};
 use super::operator::{AdvectionScheme, FaceCoupledOperator};
-use super::sparse_correction::{apply_corrected, SparseCorrection};
+use super::sparse_correction::SparseCorrection;
 use super::stencil::Stencil7;
 use super::vector::norm;
 use sprs::CsMat;
@@ -29,6 +29,8 @@ pub struct LinearSystem {
 /// Built once per operator; reusable for many right-hand sides.
 pub struct SteadySolver {
     system: LinearSystem,
+    /// The operator's conductances and sinks, packed for the product (which reads the operator's fluxes).
+    packed: PackedOperator,
     /// The correction's nonzero rows, packed for the product.
     correction: SparseCorrection,
     multigrid: Multigrid,
@@ -47,13 +49,15 @@ impl SteadySolver {
             system.correction = Some(if c.is_csr() { c } else { c.to_csr() });
         }
         let correction = system.correction.as_ref().map(SparseCorrection::pack).unwrap_or_default();
+        let packed = PackedOperator::pack(&system.operator);
         let multigrid = Multigrid::new(&system.operator, system.scheme, params);
-        SteadySolver { system, correction, multigrid, work: Mutex::new(None) }
+        SteadySolver { system, packed, correction, multigrid, work: Mutex::new(None) }
     }
 
     /// `y = A x` with the full system (face-coupled operator plus correction).
     pub fn apply(&self, x: &[f64], y: &mut [f64]) {
-        apply_corrected(&self.system.operator, self.system.scheme, &self.correction, x, y);
+        self.packed.apply(&self.system.operator, self.system.scheme, x, y);
+        self.correction.add_product(x, y);
     }
 
     /// `‖b − A x‖₂`.
@@ -89,6 +93,12 @@ impl SteadySolver {
         &self.system
     }
 
+    /// The system back, as [`SteadySolver::new`] left it: faces touching inactive cells decoupled (which the
+    /// operator's contract already required) and the correction in CSR.
+    pub fn into_system(self) -> LinearSystem {
+        self.system
+    }
+
     /// Number of multigrid levels (1: the operator is solved directly).
     pub fn levels(&self) -> usize {
         self.multigrid.levels()
@@ -111,6 +121,7 @@ impl SteadySolver {
             + self.multigrid.work_bytes()
             + 6 * 8 * n
             + self.correction.memory_bytes()
+            + self.packed.memory_bytes()
     }
 }
 

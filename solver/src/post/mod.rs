@@ -2,6 +2,7 @@
 //! across each cell.
 
 pub mod cell_pressure_drop;
+pub mod chamber_estimates;
 pub mod counting_noise;
 pub mod decompose;
 pub mod estimates;

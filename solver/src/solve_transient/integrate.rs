@@ -6,7 +6,7 @@ use super::{
     FlowPhase, StepReport, TimeStepping, TransientError, TransientObserver, TransientOutput, TransientParams,
     TransientProblem,
 };
-use crate::post::sensing_window::{cell_rates, WindowCounts};
+use crate::post::sensing_window::{becomes_readable_by, cell_rates, ReadableSince, WindowCounts};
 use crate::post::{cell_sensing_in_local_flow, local_flow_per_cell, CellSensing};
 use crate::problem::{ChamberFace, SurfaceUptake};
 use crate::transport::chamber_faces::BoundaryExchange;
@@ -149,6 +149,7 @@ pub fn initial_state(
         counts: WindowCounts::new(cells),
         last_rates: Vec::new(),
         crossings: Crossings::new(cells),
+        readable: ReadableSince::new(cells),
         outputs_done: 0,
         worst_balance_error: 0.0,
         stopped_at_steady: false,
@@ -457,7 +458,10 @@ impl<'a, 'p> Stepper<'a, 'p> {
         let sensing = sense(problem, &self.system, &self.facets_now, &c_new);
         let rates = self.rates(&sensing);
         if t >= params.window_start - eps {
+            let before: Vec<f64> = state.counts.contrast_and_error().iter().map(|w| w.1).collect();
             state.counts.add_step(&state.last_rates, &rates, h);
+            let after: Vec<f64> = state.counts.contrast_and_error().iter().map(|w| w.1).collect();
+            state.readable.update(t, t_new, &before, &after, params.readable_error);
         }
         let outlet = outlet_concentration(problem, self.system.phase.face_flux, &c_new);
         let mut distance = None;
@@ -498,9 +502,11 @@ impl<'a, 'p> Stepper<'a, 'p> {
             self.spare.extend(state.previous.drain(..).map(|(_, c)| c));
         }
         let at_output = params.output_times.iter().any(|&o| (o - t_new).abs() <= eps);
+        let mut held_for_readable = 0;
         if let (Some(tol), Some(d)) = (params.stop_at_steady, distance) {
             if t_new >= marks.last_event - eps && d <= tol {
-                state.stopped_at_steady = true;
+                held_for_readable = still_approaching_readable(params, state);
+                state.stopped_at_steady = held_for_readable == 0;
             }
         }
         let report = StepReport {
@@ -510,6 +516,7 @@ impl<'a, 'p> Stepper<'a, 'p> {
             iterations,
             balance_error: balance.relative_error,
             distance_to_steady: distance,
+            held_for_readable,
         };
         observer.step(state, &report).map_err(TransientError::Observer)?;
         if at_output || state.stopped_at_steady || state.time >= params.end_time - eps {
@@ -517,6 +524,24 @@ impl<'a, 'p> Stepper<'a, 'p> {
         }
         Ok(())
     }
+}
+
+/// Cells not yet readable whose window error reaches `readable_error` before the end time at the rates of
+/// `state` (at steady state these rates hold, so the prediction is the run's own future).
+fn still_approaching_readable(params: &TransientParams, state: &TransientState) -> usize {
+    let from = state.time.max(params.window_start);
+    (0..state.readable.since.len())
+        .filter(|&i| {
+            state.readable.since[i].is_none()
+                && becomes_readable_by(
+                    (state.counts.front[i], state.counts.back[i]),
+                    &state.last_rates[i],
+                    from,
+                    params.end_time,
+                    params.readable_error,
+                )
+        })
+        .count()
 }
 
 /// The phase in force at `t`.

@@ -93,6 +93,9 @@ pub struct TransientParams {
     pub multigrid: MultigridParams,
     /// Cumulative counts start here (s).
     pub window_start: f64,
+    /// Window direction error at or below which a cell reads its cue (the time to a readable cue is measured
+    /// against it, and a stop at steady state waits for cells still approaching it).
+    pub readable_error: f64,
     pub steady: Option<SteadyReference>,
     /// Stop once `‖c − c_steady‖/‖c_steady‖` falls below this (after the last event).
     pub stop_at_steady: Option<f64>,
@@ -110,6 +113,9 @@ pub struct StepReport {
     pub iterations: usize,
     pub balance_error: f64,
     pub distance_to_steady: Option<f64>,
+    /// At steady state with `stop_at_steady`: cells whose window error, not yet readable, will reach the
+    /// readable level before the end time at the present rates (the run goes on for them); 0 otherwise.
+    pub held_for_readable: usize,
 }
 
 /// The fields at an output time.

@@ -2,7 +2,7 @@
 //! checkpoint content), as plain numbers. [`TransientState::encode`] flattens it into one `f64` vector and
 //! [`TransientState::decode`] reads it back; the binary stores that vector (the solver touches no files).
 
-use crate::post::sensing_window::WindowCounts;
+use crate::post::sensing_window::{ReadableSince, WindowCounts};
 
 /// Fractions of the steady value whose first crossing times are recorded.
 pub const FRACTIONS: [f64; 2] = [0.9, 0.99];
@@ -78,6 +78,8 @@ pub struct TransientState {
     /// Per-cell `[bound, front, back]` rates at `time` (molecules/s).
     pub last_rates: Vec<[f64; 3]>,
     pub crossings: Crossings,
+    /// Per cell: since when the window direction error has stayed readable (the time to a readable cue).
+    pub readable: ReadableSince,
     /// Output times written so far.
     pub outputs_done: usize,
     /// Largest relative mass-balance error of any step so far.
@@ -125,6 +127,8 @@ impl TransientState {
         out.push(opt(self.crossings.last_outlet));
         let cells: Vec<f64> = self.crossings.cells.iter().flat_map(|c| c.map(opt)).collect();
         push_vec(&mut out, &cells);
+        let readable: Vec<f64> = self.readable.since.iter().map(|&t| opt(t)).collect();
+        push_vec(&mut out, &readable);
         out.push(MAGIC);
         out
     }
@@ -156,6 +160,7 @@ impl TransientState {
         let last_outlet = r.optional()?;
         let flat = r.vec()?;
         let cells = flat.chunks_exact(2).map(|c| [as_opt(c[0]), as_opt(c[1])]).collect();
+        let readable = ReadableSince { since: r.vec()?.into_iter().map(as_opt).collect() };
         if r.next()? != MAGIC || r.at != data.len() {
             return Err(DecodeError("wrong trailer"));
         }
@@ -170,6 +175,7 @@ impl TransientState {
             counts,
             last_rates,
             crossings: Crossings { outlet: o, cells, last_outlet },
+            readable,
             outputs_done,
             worst_balance_error,
             stopped_at_steady,
@@ -230,6 +236,7 @@ mod tests {
             counts: WindowCounts { bound: vec![1.0, 2.0], front: vec![3.0, 4.0], back: vec![5.0, 6.0] },
             last_rates: vec![[1.0, 2.0, 3.0], [4.0, 5.0, 6.0]],
             crossings,
+            readable: ReadableSince { since: vec![Some(4.5), None] },
             outputs_done: 3,
             worst_balance_error: 1e-10,
             stopped_at_steady: false,

@@ -34,7 +34,7 @@ use crate::io::initial_field::read_initial_concentration;
 use crate::io::table::{CellTable, Column, ColumnValues};
 use crate::io::transient_h5::{output_dataset_name, write_transient_fields_h5, OutputTime, TransientFile};
 use crate::io::xdmf_temporal::{write_temporal_xmf, TemporalGrid};
-use crate::outputs::columns::cell_pressure_drop_column;
+use crate::outputs::columns::{cell_pressure_drop_column, TRANSIENT_TIME_COLUMNS};
 use crate::outputs::summary::{
     FlowChange, FlowMode, FlowSummary, OutputSeries, RunSummary, Stepping, TransientSummary, TransportMode,
     TransportSummary,
@@ -47,40 +47,24 @@ use observer::RunObserver;
 use progress::{human_time, TransientProgress};
 use restart_files::{parts_dir, read_checkpoint, read_part, OutputPart};
 
-/// Output times `k · output_every` (k ≥ 1) up to the end time (the end time itself is always written).
-pub fn output_times(t: &TransientSolve) -> Vec<f64> {
-    let mut times = Vec::new();
-    let mut k = 1u64;
-    loop {
-        let time = k as f64 * t.output_every;
-        if time > t.end_time * (1.0 + 1e-12) {
-            break;
-        }
-        times.push(time.min(t.end_time));
-        k += 1;
-    }
-    times
-}
-
 /// The numerical view of a validated transient case.
 pub fn transient_case<'a>(case: &'a Case, t: &TransientSolve) -> TransientCase<'a> {
     let steady = super::steady_case(case);
     let stepping = match t.adaptive {
         None => TimeStepping::Fixed { step: t.time_step },
-        Some(tolerance) => TimeStepping::Adaptive {
-            initial_step: t.time_step,
-            tolerance,
-            max_step: t.output_every.min(t.end_time),
-        },
+        Some(tolerance) => {
+            TimeStepping::Adaptive { initial_step: t.time_step, tolerance, max_step: t.longest_output_gap }
+        }
     };
     let params = TransientParams {
         start_time: 0.0,
         end_time: t.end_time,
         stepping,
-        output_times: output_times(t),
+        output_times: t.output_times.clone(),
         krylov: steady.krylov.clone(),
         multigrid: MultigridParams::default(),
         window_start: t.window_start,
+        readable_error: case.sensing.readable_error,
         steady: None,
         stop_at_steady: t.stop_at_steady,
         switched_on_far_field: true,
@@ -113,6 +97,21 @@ fn solve_error(error: TransientError) -> anyhow::Error {
 /// stream's cell Péclet number (as `estimate` reports it).
 fn transient_warnings(case: &Case) -> Vec<String> {
     crate::engine::estimates::boundary_layer_warning(case).map(|w| w.to_string()).into_iter().collect()
+}
+
+/// The divergence check of each flow phase (the mean velocity before and after a flow change).
+fn flow_divergence_warnings(case: &Case, t: &TransientSolve, solution: &TransientSolution) -> Vec<String> {
+    let speeds = [case.flow.mean_velocity, last_flow_speed(case, t)];
+    let grid = &solution.geometry.grid;
+    solution
+        .flows
+        .iter()
+        .zip(speeds)
+        .filter_map(|(flow, speed)| {
+            solver::flow::check_divergence(grid, &flow.divergence_peak(), speed, case.solve.tolerance)
+        })
+        .map(|w| w.to_string())
+        .collect()
 }
 
 /// Solves a transient case into `out_dir`; the closing line names `destination`, the folder the user asked
@@ -167,6 +166,7 @@ pub fn execute(case: &Case, out_dir: &Path, destination: &Path, options: &Transi
         eps,
         STEADY_DISTANCE,
     );
+    observer.keep_fields = writes_snapshots(case);
     let started = Instant::now();
     // Quiet runs are a sweep's cases, side by side in one process: times only, the process's peak is theirs.
     let mut meter = if options.quiet { StageMeter::times_only() } else { StageMeter::new() };
@@ -175,6 +175,9 @@ pub fn execute(case: &Case, out_dir: &Path, destination: &Path, options: &Transi
         meter.begin(MeteredStage::of(stage, false));
     })
     .map_err(solve_error)?;
+    for warning in flow_divergence_warnings(case, t, &solution) {
+        progress.println(&format!("warning: {warning}"));
+    }
     let checkpoints = observer.checkpoints_written;
     let final_part = observer.last_output.take();
     drop(observer);
@@ -193,7 +196,7 @@ pub fn execute(case: &Case, out_dir: &Path, destination: &Path, options: &Transi
         std::fs::remove_file(&checkpoint)
             .with_context(|| format!("cannot remove {}", checkpoint.display()))?;
     }
-    let ending = if state.stopped_at_steady {
+    let ending = if state.stopped_at_steady && state.time < t.end_time - eps {
         format!(
             "steady state reached at t = {} (within {STEADY_DISTANCE:.0e} of the steady field), stopped early as solve.stop_at_steady asks",
             human_time(state.time)
@@ -211,6 +214,12 @@ pub fn execute(case: &Case, out_dir: &Path, destination: &Path, options: &Transi
         destination.display()
     ));
     Ok(())
+}
+
+/// Whether the run writes the concentration (final, steady and one snapshot per output time): only when
+/// `[output] fields` lists it.
+fn writes_snapshots(case: &Case) -> bool {
+    case.output.fields.contains(&OutputField::Concentration)
 }
 
 /// The flow phase in force during the step that ends at `time` (0 before the change, 1 after).
@@ -305,18 +314,10 @@ fn final_table(
     let crossing = |k: usize| -> Vec<f64> {
         solution.state.crossings.cells.iter().map(|c| c[k].unwrap_or(f64::NAN)).collect()
     };
-    columns.push(Column::real(
-        "time_to_90_percent",
-        "s",
-        "first time the cell's sensed rate reached 90% of its steady value (NaN: not reached)",
-        crossing(0),
-    ));
-    columns.push(Column::real(
-        "time_to_99_percent",
-        "s",
-        "first time the cell's sensed rate reached 99% of its steady value (NaN: not reached)",
-        crossing(1),
-    ));
+    let [to_90, to_99, to_readable] = TRANSIENT_TIME_COLUMNS;
+    columns.push(to_90.column(crossing(0)));
+    columns.push(to_99.column(crossing(1)));
+    columns.push(to_readable.column(solution.state.readable.times()));
     // With first-order uptake the sensed rate is the bound rate, so the steady reference is the steady bound rate
     // (the approach-to-steady figure divides `bound_rate` of cells_timeseries.csv by it).
     if matches!(case.ligand.uptake, solver::problem::SurfaceUptake::FirstOrder { .. }) {
@@ -342,12 +343,13 @@ fn write_outputs(
 ) -> Result<()> {
     let state = &solution.state;
     let cells = case.layout.cells.len();
-    let grid_len = case.grid.len();
+    let snapshots = writes_snapshots(case);
+    let field_len = if snapshots { case.grid.len() } else { 0 };
     let eps = 1e-9 * t.end_time;
     // Every output time, without its field (read again one at a time when fields.h5 is written).
     let mut parts = Vec::with_capacity(state.outputs_done);
     for index in 0..state.outputs_done {
-        let mut part = read_part(out_dir, &case.sha256, index, cells, grid_len)?;
+        let mut part = read_part(out_dir, &case.sha256, index, cells, field_len)?;
         part.concentration = Vec::new();
         parts.push(part);
     }
@@ -356,13 +358,7 @@ fn write_outputs(
 
     let phases = solution.flows.len();
     let mut fields = Vec::new();
-    let field = |group: &str, name: &str, unit: &str, description: &str, values: &[f64]| FieldData {
-        group: group.into(),
-        name: name.into(),
-        unit: unit.into(),
-        description: description.into(),
-        values: values.to_vec(),
-    };
+    let field = FieldData::borrowed;
     for (phase, flow) in solution.flows.iter().enumerate() {
         let group = flow_group(phase, phases);
         let when = if group == "flow" { "at the end of the run" } else { "before flow.change_at" };
@@ -390,20 +386,22 @@ fn write_outputs(
             }
         }
     }
-    fields.push(field(
-        "ligand",
-        "concentration",
-        "molecules/m^3",
-        "ligand concentration at the final time of the transient run, cell-centred (zero inside cells)",
-        &state.concentration,
-    ));
-    fields.push(field(
-        "ligand",
-        "steady_concentration",
-        "molecules/m^3",
-        "steady ligand concentration of the final configuration (the field the run approaches)",
-        &solution.steady.concentration,
-    ));
+    if snapshots {
+        fields.push(field(
+            "ligand",
+            "concentration",
+            "molecules/m^3",
+            "ligand concentration at the final time of the transient run, cell-centred (zero inside cells)",
+            &state.concentration,
+        ));
+        fields.push(field(
+            "ligand",
+            "steady_concentration",
+            "molecules/m^3",
+            "steady ligand concentration of the final configuration (the field the run approaches)",
+            &solution.steady.concentration,
+        ));
+    }
     let outputs: Vec<OutputTime> = parts
         .iter()
         .map(|p| OutputTime {
@@ -421,26 +419,28 @@ fn write_outputs(
         volume_fraction: &solution.geometry.volume_fraction,
         fields: &fields,
         outputs: &outputs,
+        snapshots,
         cells: &table,
         timeseries: &series,
         provenance: &provenance,
+        storage: case.output.storage,
     };
     // One hold of HDF5's process-wide lock for the whole file, as `report.rs` does for steady runs: transient
     // cases of a sweep writing at once take turns file by file instead of alternating call by call.
     hdf5::sync::sync(|| {
         write_transient_fields_h5(&out_dir.join("fields.h5"), &file, &mut |i| {
-            Ok(read_part(out_dir, &case.sha256, outputs[i].index, cells, grid_len)?.concentration)
+            Ok(read_part(out_dir, &case.sha256, outputs[i].index, cells, field_len)?.concentration)
         })
     })?;
     let has = |f: OutputField| case.output.fields.contains(&f);
     let steps: Vec<TemporalGrid> = outputs
         .iter()
         .map(|o| {
-            let mut scalars = vec![
-                ("volume_fraction".to_string(), "/grid/volume_fraction".to_string()),
-                ("concentration".to_string(), format!("/ligand/{}", output_dataset_name(o.index))),
-                ("steady_concentration".to_string(), "/ligand/steady_concentration".to_string()),
-            ];
+            let mut scalars = vec![("volume_fraction".to_string(), "/grid/volume_fraction".to_string())];
+            if snapshots {
+                scalars.push(("concentration".into(), format!("/ligand/{}", output_dataset_name(o.index))));
+                scalars.push(("steady_concentration".into(), "/ligand/steady_concentration".into()));
+            }
             if has(OutputField::Pressure) {
                 scalars.push(("pressure".into(), format!("/{}/pressure", o.flow_group)));
             }
@@ -449,7 +449,13 @@ fn write_outputs(
             TemporalGrid { time: o.time, scalars, velocity }
         })
         .collect();
-    write_temporal_xmf(&out_dir.join("fields.xmf"), "fields.h5", &case.grid, &steps)?;
+    write_temporal_xmf(
+        &out_dir.join("fields.xmf"),
+        "fields.h5",
+        &case.grid,
+        &steps,
+        case.output.storage.precision,
+    )?;
 
     let summary = run_summary(case, t, solution, final_part, &parts, &table, meter, checkpoints);
     crate::engine::sensing_outputs::write_sensing_by_position_of(&summary, &table, out_dir)?;
@@ -486,7 +492,7 @@ fn run_summary(
         table,
         final_mean_velocity: last_flow_speed(case, t),
         measured_outlet_concentration: final_part.outlet_concentration,
-        warnings: &transient_warnings(case),
+        warnings: &[transient_warnings(case), flow_divergence_warnings(case, t, solution)].concat(),
     };
     let sections = RunSections {
         resources: meter.resources(None),

@@ -28,6 +28,8 @@ pub struct RunObserver<'a> {
     /// Relative L2 distance below which the field counts as steady (for the message).
     pub steady_distance: f64,
     pub checkpoints_written: usize,
+    /// Keep each output time's field (only when the run writes concentration snapshots).
+    pub keep_fields: bool,
     pending: Option<TransientState>,
     steady_announced: bool,
     /// The last output time seen (the final state once the run ends).
@@ -60,6 +62,7 @@ impl<'a> RunObserver<'a> {
             eps,
             steady_distance,
             checkpoints_written: 0,
+            keep_fields: true,
             pending: None,
             steady_announced: false,
             last_output: None,
@@ -75,7 +78,14 @@ impl TransientObserver for RunObserver<'_> {
             if d <= self.steady_distance && !self.steady_announced {
                 self.steady_announced = true;
                 self.steady_at = Some(report.time);
-                if !state.stopped_at_steady {
+                if report.held_for_readable > 0 {
+                    self.progress.println(&format!(
+                        "note: the field is within {:.0e} (relative L2) of the steady field at t = {}, but the run goes on: {} cell(s) still counting towards sensing.readable_error will reach it before solve.end_time",
+                        self.steady_distance,
+                        human_time(report.time),
+                        report.held_for_readable
+                    ));
+                } else if !state.stopped_at_steady {
                     self.progress.println(&format!(
                         "note: the field is within {:.0e} (relative L2) of the steady field at t = {}; solve.stop_at_steady = true would stop here",
                         self.steady_distance,
@@ -104,7 +114,7 @@ impl TransientObserver for RunObserver<'_> {
     }
 
     fn output(&mut self, output: &TransientOutput<'_>) -> Result<(), String> {
-        let part = OutputPart::from_output(output);
+        let part = OutputPart::from_output(output, self.keep_fields);
         write_part(self.out_dir, self.case_sha256, &part).map_err(|e| format!("{e:#}"))?;
         self.last_output = Some(part);
         if let Some(state) = self.pending.take() {

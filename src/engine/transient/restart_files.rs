@@ -79,7 +79,9 @@ pub struct OutputPart {
 }
 
 impl OutputPart {
-    pub fn from_output(output: &TransientOutput) -> Self {
+    /// The record of `output`; its field only when `keep_field` (a run that writes no concentration snapshots
+    /// keeps none).
+    pub fn from_output(output: &TransientOutput, keep_field: bool) -> Self {
         OutputPart {
             index: output.index,
             time: output.time,
@@ -87,7 +89,7 @@ impl OutputPart {
             outlet_concentration: output.outlet_concentration,
             balance: output.balance,
             sensed: sensed_values(output),
-            concentration: output.concentration.to_vec(),
+            concentration: if keep_field { output.concentration.to_vec() } else { Vec::new() },
         }
     }
 
@@ -113,7 +115,7 @@ impl OutputPart {
         v
     }
 
-    fn decode(v: &[f64], cells: usize, grid_len: usize) -> Option<Self> {
+    fn decode(v: &[f64], cells: usize, field_len: usize) -> Option<Self> {
         let head = v.get(..12)?;
         let n_sensed = head[11] as usize;
         if n_sensed != RECORD_VALUES * cells {
@@ -121,7 +123,7 @@ impl OutputPart {
         }
         let sensed = v.get(12..12 + n_sensed)?.to_vec();
         let n_grid = *v.get(12 + n_sensed)? as usize;
-        if n_grid != grid_len || v.len() != 13 + n_sensed + n_grid {
+        if n_grid != field_len || v.len() != 13 + n_sensed + n_grid {
             return None;
         }
         Some(OutputPart {
@@ -151,13 +153,14 @@ pub fn write_part(dir: &Path, case_sha256: &str, part: &OutputPart) -> anyhow::R
         .with_context(|| format!("cannot write {}", path.display()))
 }
 
-/// Reads the record of output time `index`, checking that it belongs to this case and grid.
+/// Reads the record of output time `index`, checking that it belongs to this case and grid (`field_len`: the
+/// grid's cell count, or 0 for a run that keeps no fields).
 pub fn read_part(
     dir: &Path,
     case_sha256: &str,
     index: usize,
     cells: usize,
-    grid_len: usize,
+    field_len: usize,
 ) -> anyhow::Result<OutputPart> {
     let path = part_path(dir, index);
     let record = read_record(&path, OUTPUT_KIND).with_context(|| {
@@ -166,7 +169,7 @@ pub fn read_part(
     if record.tag != case_sha256 {
         return Err(anyhow::anyhow!("{} belongs to another case file", path.display()));
     }
-    let part = OutputPart::decode(&record.values, cells, grid_len)
+    let part = OutputPart::decode(&record.values, cells, field_len)
         .ok_or_else(|| anyhow::anyhow!("{} does not fit this case's grid and cells", path.display()))?;
     if part.index != index {
         return Err(anyhow::anyhow!(

@@ -123,23 +123,29 @@ pub fn plot_box(chart: &Chart) -> PixelBox {
     ((xs.start, ys.start), (xs.end, ys.end))
 }
 
-/// Places `legend` clear of `occupied` inside the plot, else in the strip below it at `fallback` (top-left
-/// pixel); draws it on `root` and returns its box.
+/// Places `legend` clear of `occupied` (the pixels of the plotted data) inside the plot of `chart`, else at the
+/// plot's top-left corner; draws it on `root` and records its box, its entries and the data pixels in `record`.
 pub fn place_legend(
     root: &Figure,
+    chart: &Chart,
     legend: &Legend,
-    plot: PixelBox,
-    occupied: &[(i32, i32)],
-    fallback: (i32, i32),
-) -> anyhow::Result<Option<PixelBox>> {
-    if legend.entries.is_empty() {
-        return Ok(None);
-    }
-    let size = legend.size(root);
-    let at = Legend::place(size, plot, occupied)
-        .unwrap_or(((fallback.0, fallback.1), (fallback.0 + size.0, fallback.1 + size.1)));
-    legend.draw(root, at)?;
-    Ok(Some(at))
+    occupied: Vec<(i32, i32)>,
+    record: &mut FigureRecord,
+) -> anyhow::Result<()> {
+    let plot = plot_box(chart);
+    record.legend = if legend.entries.is_empty() {
+        None
+    } else {
+        let size = legend.size(root);
+        let corner = plot.0;
+        let at =
+            Legend::place(size, plot, &occupied).unwrap_or((corner, (corner.0 + size.0, corner.1 + size.1)));
+        legend.draw(root, at)?;
+        Some(at)
+    };
+    record.notes.extend(legend.entries.iter().map(|e| e.1.clone()));
+    record.occupied = occupied;
+    Ok(())
 }
 
 /// Draws a figure of `size` (width, height) pixels with `draw` in memory, encodes it as PNG and writes it to

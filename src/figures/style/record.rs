@@ -26,6 +26,11 @@ pub struct FigureRecord {
 }
 
 impl FigureRecord {
+    /// The record with its axes, once the figure is drawn.
+    pub fn with_axes(self, x: Axis, y: Axis) -> Self {
+        FigureRecord { x: Some(x), y: Some(y), ..self }
+    }
+
     /// Every eye-free rule of the house style; the first broken one as an error.
     pub fn check(&self) -> Result<(), String> {
         let name = &self.file;

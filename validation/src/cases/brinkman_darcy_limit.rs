@@ -264,8 +264,7 @@ mod tests {
     use super::*;
 
     /// Coarsest useful grid (√K/h = 1, α = 10, a fraction of a second): the layer is there and decays, and
-    /// the solve follows the exact Brinkman profile within 0.03U (measured 0.020U at n ≈ 2.5; 0.007U at √K/h
-    /// = 2).
+    /// the solve follows the exact Brinkman profile within 0.03U (bench/RECORDS.md).
     #[test]
     fn slip_layer_decays_into_darcy_flow() {
         let (samples, _) = equator_profile(10.0, 1.0, 2.0).expect("solves");
@@ -274,36 +273,6 @@ mod tests {
         let beyond = samples.iter().filter(|s| s.screening_lengths >= 4.0).map(|s| s.computed_departure());
         assert!(beyond.fold(0.0, f64::max) <= 0.15 * 1.1);
         assert!(largest_error(&samples) < 0.03, "{}", largest_error(&samples));
-    }
-
-    /// The study behind the tolerances (slow, minutes: prints the profiles and the checks).
-    #[test]
-    #[ignore]
-    fn darcy_limit_study() {
-        for (alpha, s, reach) in
-            [(10.0, 1.0, 2.0), (10.0, 2.0, 2.0), (10.0, 4.0, 2.0), (30.0, 1.0, 1.5), (30.0, 2.0, 1.5)]
-        {
-            let t = std::time::Instant::now();
-            let (samples, it) = equator_profile(alpha, s, reach).expect("solves");
-            println!("alpha {alpha} sqrtK/h {s} reach {reach}: it {it} {:.1}s", t.elapsed().as_secs_f64());
-            for x in samples.iter().take(30) {
-                println!(
-                    "  n {:6.3}  u {:8.5} brinkman {:8.5} darcy {:8.5}  dep {:8.5} exact dep {:8.5}",
-                    x.screening_lengths,
-                    x.computed,
-                    x.brinkman,
-                    x.darcy,
-                    x.computed_departure(),
-                    x.exact_departure()
-                );
-            }
-            for c in checks_for(alpha, s, &samples, None) {
-                println!(
-                    "  {} | {}: {:.5} vs {:.5} err {:.2e} {}",
-                    c.case, c.quantity, c.computed, c.reference, c.relative_error, c.passed
-                );
-            }
-        }
     }
 
     /// A tier's checks pass (quick by default, full with PLUMEFIELD_FULL set; the full tier takes minutes).

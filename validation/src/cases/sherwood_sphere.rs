@@ -8,23 +8,16 @@
 //! speed is fixed and the diffusivity sets `Pe = U d / D`, so one flow serves every Péclet number of a grid.
 //! With the uptake Q (molecules/s), `Sh = Q / (2π a D c∞)`.
 //!
-//! The box: the uniform stream imposed at ±6a raises the drag to 1.46 × 6πμaU (measured), and the wall shear
-//! with it; the leading term scales as shear^{1/3}, so the reference is `0.991 (K Pe)^{1/3} + 0.922` with K the
-//! measured drag ratio (an approximation: it assumes the box scales the shear without changing its shape).
+//! The box: the uniform stream imposed at ±6a raises the drag above 6πμaU (by the factor K the solve gives), and
+//! the wall shear with it; the leading term scales as shear^{1/3}, so the reference is
+//! `0.991 (K Pe)^{1/3} + 0.922` (an approximation: it assumes the box scales the shear without changing its
+//! shape).
 //!
 //! What limits the agreement: the boundary layer is `δ ≈ d/Sh`, a twelfth of the diameter at Pe = 1000, so
 //! a/h = 8 puts about 1.3 spacings across it; faces beside the sphere above cell Péclet 2 carry the fitted flux
 //! (first order across the stream); the absorbing closure is first order (`transport::surface_exchange`).
 //!
-//! Measured (box ±6a; Sh, then the difference from the box-corrected reference; surface cell Péclet in
-//! brackets):
-//!
-//! ```text
-//! a/h   Pe = 100               Pe = 300               Pe = 1000
-//! 4     5.723  −6.8 % (4.2)    7.545 −10.7 % (12.6)   8.768 −28 %  (42.1)
-//! 6     6.043  −1.6 % (2.1)    8.630  +2.1 % (6.2)    11.88  −2.4 % (20.7)
-//! 8     6.107  −0.6 % (1.2)    8.744  +3.5 % (3.7)    13.37  +9.9 % (12.3)
-//! ```
+//! The study on a/h = 4, 6, 8 at Pe = 100, 300, 1000 is in `bench/RECORDS.md`.
 //!
 //! Resolved grids (surface cell Péclet ≤ 2) agree within 1 %; at Pe = 1000 no grid that fits here resolves
 //! the layer (it needs a/h ≈ 50 for surface Péclet 2) and Sh is still rising with refinement. The earlier
@@ -143,8 +136,8 @@ fn ligand(diffusivity: f64) -> LigandParameters {
 }
 
 /// Quick: the molecule balance at Pe = 1000 on a coarse grid (a/h = 4, box ±4a). Full: Sh at Pe = 100, 300,
-/// 1000 on a/h = 8 (box ±6a) against the box-corrected two-term result, within 2, 5 and 12 % (the measured
-/// table above: the layer is resolved at Pe = 100 only).
+/// 1000 on a/h = 8 (box ±6a) against the box-corrected two-term result, within 2, 5 and 12 % (the
+/// layer is resolved at Pe = 100 only; the study in `bench/RECORDS.md`).
 pub fn run(tier: Tier) -> Result<Vec<Check>, VerifyError> {
     let mut checks = Vec::new();
     match tier {

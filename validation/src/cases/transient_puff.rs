@@ -91,6 +91,7 @@ pub fn puff_errors(n: usize, step: f64) -> Result<(f64, f64), VerifyError> {
         krylov: KrylovParams { relative_tolerance: 1e-12, max_iterations: 500 },
         multigrid: MultigridParams::default(),
         window_start: 0.0,
+        readable_error: 1.0,
         steady: None,
         stop_at_steady: None,
         switched_on_far_field: false,

@@ -86,6 +86,7 @@ pub fn run_transient(
             krylov,
             multigrid: MultigridParams::default(),
             window_start: 0.0,
+            readable_error: 1.0,
             steady: None,
             stop_at_steady: None,
             switched_on_far_field: true,

@@ -92,7 +92,7 @@ pub fn run(tier: Tier) -> Result<Vec<Check>, VerifyError> {
     for (k, &t) in outputs.iter().enumerate() {
         let exact = closed_form(t, 0.0)?;
         let case = format!("switched-on sphere, t = {t} a²/D (a/h = {resolution}, Δt = a²/D/{})", steps[2]);
-        // Spatial (a/h = 6) and far-field-box error: 0.4% at t = 0.25, 0.1% at t = 1 (measured).
+        // 1 %: room for the spatial (a/h = 6) and far-field-box error, which the time-step study leaves alone.
         let check =
             Check::new(&case, "mean surface concentration", series[2].surface[k], exact, 1e-2, SOURCE);
         if k == outputs.len() - 1 {

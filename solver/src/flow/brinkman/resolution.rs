@@ -7,8 +7,8 @@ use super::BrinkmanMedium;
 pub const REQUIRED_SPACINGS_PER_SCREENING_LENGTH: f64 = 2.0;
 
 /// Drag error model `e ≈ C (h/ℓ)^p`, fitted to the isolated-sphere study (`validation::cases::brinkman_sphere`,
-/// quarter domain with exact far-field data, α = a/ℓ = 10 at a/h = 4…16, i.e. h/ℓ = 2.5…0.625; measured relative
-/// drag errors 1.76e-2, 9.2e-3, 7.3e-3, 4.2e-3, 2.0e-3). Beyond h/ℓ = 2.5 it is an extrapolation.
+/// α = a/ℓ = 10 at h/ℓ = 2.5…0.625, which holds it within a factor 1.5; the errors are in `bench/RECORDS.md`).
+/// Beyond h/ℓ = 2.5 it is an extrapolation.
 pub const DRAG_ERROR_MODEL: (f64, f64) = (5e-3, 1.5);
 const ERROR_COEFFICIENT: f64 = DRAG_ERROR_MODEL.0;
 const ERROR_EXPONENT: f64 = DRAG_ERROR_MODEL.1;

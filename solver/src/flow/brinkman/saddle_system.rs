@@ -181,8 +181,17 @@ impl SaddleSystem {
         for &(i, b) in rhs.entries.iter().filter(|(i, _)| *i >= self.offsets[3]) {
             r[i - self.offsets[3]] -= b;
         }
+        self.pressure_rows_peak(&r)
+    }
+
+    /// [`Self::continuity_peak`] from a residual `r = b − K x` of the coupled system.
+    pub fn residual_continuity_peak(&self, r: &[f64]) -> f64 {
+        self.pressure_rows_peak(&r[self.offsets[3]..])
+    }
+
+    fn pressure_rows_peak(&self, rows: &[f64]) -> f64 {
         let volume = self.scale * self.coupling.grid.cell_volume();
-        r.par_iter()
+        rows.par_iter()
             .zip(self.coupling.pressure_active.par_iter())
             .map(|(&r, &a)| if a { r.abs() / volume } else { 0.0 })
             .reduce(|| 0.0, f64::max)

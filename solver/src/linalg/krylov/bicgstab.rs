@@ -103,11 +103,27 @@ impl ShadowVector {
 /// needed). `precondition(r, z)` sets `z ≈ A⁻¹ r` (one multigrid cycle here).
 pub fn bicgstab(
     a: &impl LinearOperator,
+    precondition: impl FnMut(&[f64], &mut [f64]),
+    b: RightHandSide<'_>,
+    x: &mut [f64],
+    params: &BicgstabParams,
+    work: &mut BicgstabWork,
+) -> Result<SolveInfo, SolveError> {
+    bicgstab_until(a, precondition, b, x, params, work, |_, _| 0.0)
+}
+
+/// [`bicgstab`] with a further stopping criterion: once the relative residual meets the tolerance,
+/// `unmet(x, r)` (r = b − A x, the true residual) says how far that criterion is from being met; a value ≤ 1
+/// stops, a value q > 1 lowers the residual target to `relative/(2q)` and the iteration goes on (its directions
+/// kept after a full step). Running out of iterations is `NoConvergence` as usual, with the residual reached.
+pub fn bicgstab_until(
+    a: &impl LinearOperator,
     mut precondition: impl FnMut(&[f64], &mut [f64]),
     b: RightHandSide<'_>,
     x: &mut [f64],
     params: &BicgstabParams,
     work: &mut BicgstabWork,
+    mut unmet: impl FnMut(&[f64], &[f64]) -> f64,
 ) -> Result<SolveInfo, SolveError> {
     let n = b.len();
     assert_eq!(x.len(), n, "bicgstab: x and b differ in length");
@@ -119,7 +135,7 @@ pub fn bicgstab(
         x.iter_mut().for_each(|v| *v = 0.0);
         return Ok(SolveInfo::zero_right_hand_side());
     }
-    let tol = params.krylov.relative_tolerance;
+    let mut tol = params.krylov.relative_tolerance;
     let mut shadow = match params.shadow {
         Shadow::InitialResidual => ShadowVector::Stored,
         Shadow::Unstored if x.iter().all(|&v| v == 0.0) => ShadowVector::RightHandSide,
@@ -139,7 +155,11 @@ pub fn bicgstab(
     }
     let mut history = vec![relative];
     if relative <= tol {
-        return Ok(SolveInfo { iterations: 0, relative_residual: relative, residual_history: history });
+        let q = unmet(x, r);
+        if q <= 1.0 {
+            return Ok(SolveInfo { iterations: 0, relative_residual: relative, residual_history: history });
+        }
+        tol = relative / (2.0 * q);
     }
     // A fresh start from the current residual r: new shadow, zero directions.
     let restart = |shadow: &mut ShadowVector, r0: &mut [f64], r: &[f64], p: &mut [f64], v: &mut [f64]| {
@@ -203,7 +223,8 @@ pub fn bicgstab(
         if !s_norm.is_finite() {
             return Err(SolveError::NonFinite { iteration });
         }
-        let converged = if s_norm <= tol {
+        let half_step = s_norm <= tol;
+        let converged = if half_step {
             true
         } else {
             precondition(r, y);
@@ -237,11 +258,19 @@ pub fn bicgstab(
                 return Err(SolveError::NonFinite { iteration });
             }
             if relative <= tol {
-                return Ok(SolveInfo {
-                    iterations: iteration,
-                    relative_residual: relative,
-                    residual_history: history,
-                });
+                let q = unmet(x, r);
+                if q <= 1.0 {
+                    return Ok(SolveInfo {
+                        iterations: iteration,
+                        relative_residual: relative,
+                        residual_history: history,
+                    });
+                }
+                tol = relative / (2.0 * q);
+                if !half_step {
+                    // r is the true residual of a full step: the directions still fit it.
+                    continue;
+                }
             }
             restart(&mut shadow, r0, r, p, v);
             (rho, alpha, omega) = (1.0, 1.0, 1.0);
@@ -402,6 +431,59 @@ mod tests {
             &mut work,
         );
         assert!(matches!(err, Err(SolveError::NonFinite { .. })), "{err:?}");
+    }
+
+    /// A further criterion (largest |r_i| below 1e-12 ‖b‖, far tighter than the 1e-6 tolerance) keeps the
+    /// iteration going until it holds, for both shadow choices; without it the solve stops at the tolerance.
+    #[test]
+    fn further_criterion_keeps_iterating_until_met() {
+        let n = 300;
+        let a = tridiagonal(n);
+        let b: Vec<f64> = (0..n).map(|i| ((i * 7) % 11) as f64 - 5.0).collect();
+        let bound = 1e-12 * norm(&b);
+        let params = |shadow| BicgstabParams {
+            krylov: KrylovParams { relative_tolerance: 1e-6, max_iterations: 500 },
+            shadow,
+        };
+        let largest = |r: &[f64]| r.iter().fold(0.0f64, |m, v| m.max(v.abs()));
+        for shadow in [Shadow::InitialResidual, Shadow::Unstored] {
+            let mut x = vec![0.0; n];
+            let plain = bicgstab(
+                &a,
+                jacobi,
+                RightHandSide::Dense(&b),
+                &mut x,
+                &params(shadow),
+                &mut BicgstabWork::default(),
+            )
+            .expect("converges");
+            let mut r = vec![0.0; n];
+            a.apply(&x, &mut r);
+            assert!(
+                r.iter().zip(&b).any(|(ax, bi)| (bi - ax).abs() > bound),
+                "the criterion is not trivially met"
+            );
+            let mut x = vec![0.0; n];
+            let mut asked = 0;
+            let info = bicgstab_until(
+                &a,
+                jacobi,
+                RightHandSide::Dense(&b),
+                &mut x,
+                &params(shadow),
+                &mut BicgstabWork::default(),
+                |_, r| {
+                    asked += 1;
+                    largest(r) / bound
+                },
+            )
+            .expect("converges");
+            a.apply(&x, &mut r);
+            let worst = r.iter().zip(&b).fold(0.0f64, |m, (ax, bi)| m.max((bi - ax).abs()));
+            assert!(worst <= bound, "{shadow:?}: largest residual {worst:e} above {bound:e}");
+            assert!(asked >= 2 && info.iterations > plain.iterations, "{shadow:?}: {asked} checks, {info:?}");
+            assert!((info.relative_residual - true_relative_residual(&a, &b, &x)).abs() < 1e-14);
+        }
     }
 
     #[test]

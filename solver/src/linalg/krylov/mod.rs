@@ -13,7 +13,7 @@ pub mod bicgstab;
 pub mod gmres;
 pub mod right_hand_side;
 
-pub use bicgstab::{bicgstab, BicgstabParams, BicgstabWork, Shadow};
+pub use bicgstab::{bicgstab, bicgstab_until, BicgstabParams, BicgstabWork, Shadow};
 pub use gmres::{gmres, GmresParams};
 pub use right_hand_side::{RightHandSide, SparseVector};
 
