@@ -122,6 +122,8 @@ fn validated(text: &str) -> Result<String, String> {
     let mut case = Case::parse(text, Path::new("case.toml")).map_err(|e| e.to_string())?;
     case.source_text.clear();
     case.sha256.clear();
+    // A key given where it has no effect may be warned about; what counts is the case itself.
+    case.warnings.clear();
     Ok(format!("{case:?}"))
 }
 
