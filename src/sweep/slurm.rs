@@ -536,8 +536,9 @@ mod tests {
         let text = std::fs::read_to_string(&s.array_scripts[0]).unwrap();
         assert!(text.contains("#SBATCH --array=0-1,4%3\n"), "{text}");
         assert!(text.contains("#SBATCH --cpus-per-task=2\n"));
-        // 1.5 × (574 + 87) MB + 200 MB on 2 threads; 3 × 5.93 s / 1.7 + 300 s → 6 min.
-        assert!(text.contains("#SBATCH --mem=1192M\n"), "{text}");
+        // 1.5 × the forecast on 2 threads + 200 MB, in whole MB; 3 × the forecast time / 1.7 + 300 s → 6 min.
+        let mem_mb = (1.5 * forecast.memory_bytes_on(2) / 1e6 + 200.0).ceil();
+        assert!(text.contains(&format!("#SBATCH --mem={mem_mb}M\n")), "{text}");
         assert!(text.contains("#SBATCH --time=00:06:00\n"), "{text}");
         assert!(text.contains("task-%A_%a.log"));
         assert!(text.contains("--task \"$SLURM_ARRAY_TASK_ID\" -o . "), "{text}");
