@@ -11,8 +11,8 @@ use super::crossing_table::CrossingRow;
 use super::sweep_curves::key_in_words;
 use crate::figures::style::legend::along;
 use crate::figures::style::{
-    axis_label, chart, choose_scale, colour_maps, drawing, place_legend, register_fonts, significant, titled,
-    write_png, Axis, DisplayUnit, FigureRecord, Legend, Swatch,
+    axis_label, chart, choose_scale, colour_maps, draw_interval, drawing, place_legend, register_fonts,
+    significant, titled, write_png, Axis, DisplayUnit, FigureRecord, Legend, Swatch,
 };
 
 const SIZE: (u32, u32) = (900, 600);
@@ -125,14 +125,7 @@ pub fn draw_crossing(
             for (xv, r) in &points {
                 if r.low.is_finite() && r.high.is_finite() {
                     let (top, bottom) = (at(*xv, r.high), at(*xv, r.low));
-                    occupied.extend(along(&[top, bottom]));
-                    drawing(root.draw(&PathElement::new(vec![top, bottom], colour.stroke_width(2))))?;
-                    for end in [top, bottom] {
-                        drawing(root.draw(&PathElement::new(
-                            vec![(end.0 - 4, end.1), (end.0 + 4, end.1)],
-                            colour.stroke_width(2),
-                        )))?;
-                    }
+                    draw_interval(root, top, bottom, &colour, &mut occupied)?;
                     record.points.push((*xv, r.high * y_unit.factor));
                     record.points.push((*xv, r.low * y_unit.factor));
                 }

@@ -17,8 +17,8 @@ use super::collect::{ColumnData, ColumnRole, SweepTable};
 use super::plan_record::PlanRecord;
 use crate::figures::style::legend::along;
 use crate::figures::style::{
-    axis_label, chart, choose_scale, colour_maps, drawing, place_legend, register_fonts, significant, titled,
-    write_png, Axis, DisplayUnit, FigureRecord, Legend, Scale, Swatch, LEVEL,
+    axis_label, chart, choose_scale, colour_maps, draw_interval, drawing, place_legend, register_fonts,
+    significant, titled, write_png, Axis, DisplayUnit, FigureRecord, Legend, Scale, Swatch, LEVEL,
 };
 
 /// Summary metrics worth a figure (the others, such as iteration counts, are diagnostics).
@@ -319,14 +319,7 @@ fn draw_one(
                         g.mean - g.half
                     };
                     let (top, bottom) = (at(g, g.mean + g.half), at(g, lo));
-                    occupied.extend(along(&[top, bottom]));
-                    drawing(root.draw(&PathElement::new(vec![top, bottom], colour.stroke_width(2))))?;
-                    for end in [top, bottom] {
-                        drawing(root.draw(&PathElement::new(
-                            vec![(end.0 - 4, end.1), (end.0 + 4, end.1)],
-                            colour.stroke_width(2),
-                        )))?;
-                    }
+                    draw_interval(root, top, bottom, &colour, &mut occupied)?;
                     record.points.push((g.x_shown, g.mean + g.half));
                     if lo > 0.0 || y.scale != Scale::Log {
                         record.points.push((g.x_shown, lo));

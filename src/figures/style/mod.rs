@@ -21,7 +21,7 @@ use anyhow::{anyhow, Context};
 use plotters::chart::{ChartBuilder, ChartContext};
 use plotters::coord::cartesian::Cartesian2d;
 use plotters::coord::Shift;
-use plotters::prelude::{BitMapBackend, DrawingArea, IntoDrawingArea, Rectangle};
+use plotters::prelude::{BitMapBackend, DrawingArea, IntoDrawingArea, PathElement, Rectangle};
 use plotters::style::text_anchor::{HPos, Pos, VPos};
 use plotters::style::{Color, FontStyle, IntoFont, RGBColor, TextStyle};
 
@@ -62,6 +62,24 @@ pub fn register_fonts() {
 /// Converts a drawing error (plotters' errors carry the backend type) into an `anyhow` error.
 pub fn drawing<T, E: std::fmt::Display>(result: Result<T, E>) -> anyhow::Result<T> {
     result.map_err(|e| anyhow!("cannot draw the figure: {e}"))
+}
+
+/// A vertical interval from pixel `top` to `bottom` with short end ticks, its pixels added to `occupied` (so the
+/// legend keeps clear of it).
+pub fn draw_interval(
+    root: &Figure,
+    top: (i32, i32),
+    bottom: (i32, i32),
+    colour: &RGBColor,
+    occupied: &mut Vec<(i32, i32)>,
+) -> anyhow::Result<()> {
+    occupied.extend(legend::along(&[top, bottom]));
+    let bar = |points: Vec<(i32, i32)>| drawing(root.draw(&PathElement::new(points, colour.stroke_width(2))));
+    bar(vec![top, bottom])?;
+    for end in [top, bottom] {
+        bar(vec![(end.0 - 4, end.1), (end.0 + 4, end.1)])?;
+    }
+    Ok(())
 }
 
 /// A figure being drawn: plotters' bitmap backend over an in-memory RGB buffer.
