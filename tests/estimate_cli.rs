@@ -44,6 +44,24 @@ fn demo_estimates_in_table_and_json() {
     let saturation = 2000.0 / 3600.0 / (4.0 * std::f64::consts::PI * 64e-12 * 1e-6);
     assert!(*values.last().unwrap() < saturation);
     assert!(json["forecast"]["memory_bytes"].as_f64().unwrap() > 1e8);
+
+    // The critical density along x: one per profile point, the last one (x = L) the outlet's.
+    let xs: Vec<f64> = json["profile"]["x"].as_array().unwrap().iter().map(|v| v.as_f64().unwrap()).collect();
+    let by_position = json["critical_density_by_position"].as_array().unwrap();
+    assert_eq!(by_position.len(), xs.len());
+    for (p, x) in by_position.iter().zip(&xs) {
+        assert_eq!(p["x"].as_f64().unwrap(), *x);
+    }
+    let last = &by_position.last().unwrap()["critical_density"]["density"];
+    assert_eq!(last, &json["critical_density"]["density"]);
+    // The demo's chamber Péclet number is 4 (< 6): the regime check says the estimate is not expected to hold,
+    // and the outlet layer is 3 D/U = 3 L / Pe_chamber.
+    let regime = &json["mean_field_regime"];
+    assert_eq!(regime["holds"], false);
+    assert!(regime["breaches"][0].as_str().unwrap().contains("chamber Peclet"), "{regime}");
+    let length = *xs.last().unwrap();
+    let layer = regime["outlet_layer"].as_f64().unwrap();
+    assert!((layer - 3.0 * length / 4.0).abs() < 1e-12 * length, "{layer}");
 }
 
 #[test]

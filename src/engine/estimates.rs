@@ -10,7 +10,7 @@ use numkit::quantile_sorted;
 use solver::flow::brinkman::resolution::check_resolution;
 use solver::flow::brinkman::{BrinkmanMedium, ScreeningLengthWarning};
 use solver::linalg::{KrylovParams, MultigridParams};
-use solver::post::chamber_estimates::{Background, ChamberEstimates, ChamberInputs};
+use solver::post::chamber_estimates::{Background, ChamberEstimates, ChamberInputs, CriticalDensity};
 use solver::post::decompose::{decompose, DecomposeInputs, SplitMode};
 use solver::post::estimates::{CellEstimateInputs, IsolatedFlow, SensingEstimate};
 use solver::post::{CellSensing, SensingModel};
@@ -22,9 +22,9 @@ use crate::case::Case;
 use crate::io::table::{CellTable, Column, ColumnValues};
 use crate::outputs::columns::{split_columns, SPLIT_COLUMNS};
 use crate::outputs::summary::{
-    BackgroundSummary, BoundaryLayerSummary, CaseEstimatesSummary, ColumnQuantiles, CriticalDensitySummary,
-    DenseProfileSummary, FlowResolutionSummary, ForecastSummary, ProfileSummary, SplitCost, SplitSummary,
-    Unbounded,
+    BackgroundSummary, BoundaryLayerSummary, CaseEstimatesSummary, ColumnQuantiles, CriticalDensityAt,
+    CriticalDensitySummary, DenseProfileSummary, FlowResolutionSummary, ForecastSummary,
+    MeanFieldRegimeSummary, ProfileSummary, SplitCost, SplitSummary, Unbounded,
 };
 
 /// Forecast for `run` at the case's grid, on `threads` threads (the shared model of `crate::forecast`).
@@ -123,6 +123,9 @@ impl CaseEstimates {
             ("profile.background", "molecules/m^3"),
             ("profile.mean_surface_concentration", "molecules/m^3"),
             ("critical_density.density", "1/m^3"),
+            ("critical_density_by_position.x", "m"),
+            ("critical_density_by_position.critical_density.density", "1/m^3"),
+            ("mean_field_regime.outlet_layer", "m"),
             ("forecast.memory_bytes", "B"),
             ("forecast.seconds", "s"),
             ("flow_resolution.screening_length", "m"),
@@ -171,13 +174,19 @@ impl CaseEstimates {
             },
             profile_dense: DenseProfileSummary { x: dense_x, anisotropy_along_flow: dense_anisotropy },
             integration_time: self.typical_cell.integration_time,
-            critical_density: self.critical_density.map(|c| CriticalDensitySummary {
-                density: c.density,
-                rising: c.rising,
-                range: c.range,
-                position: "outlet".to_string(),
-                isolated_direction_error: Unbounded(c.isolated_error),
-                case_direction_error: Unbounded(c.case_error),
+            critical_density: self.critical_density.map(|c| critical_density_summary(c, "outlet")),
+            critical_density_by_position: self
+                .critical_density_by_position
+                .iter()
+                .map(|(x, c)| CriticalDensityAt {
+                    x: *x,
+                    critical_density: c.map(|c| critical_density_summary(c, "x")),
+                })
+                .collect(),
+            mean_field_regime: Some(MeanFieldRegimeSummary {
+                holds: self.regime_breaches.is_empty(),
+                breaches: self.regime_breaches.clone(),
+                outlet_layer: self.outlet_layer,
             }),
             forecast: ForecastSummary {
                 grid_cells: self.forecast.grid_cells,
@@ -187,6 +196,18 @@ impl CaseEstimates {
             },
             units: units.iter().map(|(k, u)| (k.to_string(), u.to_string())).collect(),
         }
+    }
+}
+
+/// A critical density as written in `estimates.case`; `position` says where its direction error is taken.
+fn critical_density_summary(c: CriticalDensity, position: &str) -> CriticalDensitySummary {
+    CriticalDensitySummary {
+        density: c.density,
+        rising: c.rising,
+        range: c.range,
+        position: position.to_string(),
+        isolated_direction_error: Unbounded(c.isolated_error),
+        case_direction_error: Unbounded(c.case_error),
     }
 }
 

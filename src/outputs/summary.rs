@@ -322,8 +322,31 @@ pub struct CaseEstimatesSummary {
     pub profile_dense: DenseProfileSummary,
     pub integration_time: f64,
     pub critical_density: Option<CriticalDensitySummary>,
+    /// The critical density taken at each point of `profile` (x in m); absent in summaries written before.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub critical_density_by_position: Vec<CriticalDensityAt>,
+    /// Whether the mean-field estimate is expected to hold; absent in summaries written before.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub mean_field_regime: Option<MeanFieldRegimeSummary>,
     pub forecast: ForecastSummary,
     pub units: BTreeMap<String, String>,
+}
+
+/// The critical density with the direction error taken at downstream position `x` (m).
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct CriticalDensityAt {
+    pub x: f64,
+    pub critical_density: Option<CriticalDensitySummary>,
+}
+
+/// The criteria of the mean-field estimate (volume fraction, cell and chamber Péclet numbers) the case breaks.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct MeanFieldRegimeSummary {
+    pub holds: bool,
+    pub breaches: Vec<String>,
+    /// Width of the outlet layer where the background gradient is forced to zero, 3·D/U (m); `null` without a
+    /// through-flow column.
+    pub outlet_layer: Option<f64>,
 }
 
 /// The Brinkman screening length is under-resolved.
