@@ -536,8 +536,8 @@ mod tests {
         let text = std::fs::read_to_string(&s.array_scripts[0]).unwrap();
         assert!(text.contains("#SBATCH --array=0-1,4%3\n"), "{text}");
         assert!(text.contains("#SBATCH --cpus-per-task=2\n"));
-        // 1.5 × (574 + 87) MB + 200 MB on 2 threads; 3 × 5.93 s / 1.7 + 300 s → 6 min.
-        assert!(text.contains("#SBATCH --mem=1192M\n"), "{text}");
+        // 1.5 × (647 + 87) MB + 200 MB on 2 threads; three forecasts / 1.7 + 300 s → 6 min.
+        assert!(text.contains("#SBATCH --mem=1301M\n"), "{text}");
         assert!(text.contains("#SBATCH --time=00:06:00\n"), "{text}");
         assert!(text.contains("task-%A_%a.log"));
         assert!(text.contains("--task \"$SLURM_ARRAY_TASK_ID\" -o . "), "{text}");
