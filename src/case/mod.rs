@@ -17,6 +17,8 @@ pub mod units;
 mod validate;
 
 #[cfg(test)]
+mod readme_defaults;
+#[cfg(test)]
 mod tests;
 
 use std::path::{Path, PathBuf};

@@ -144,6 +144,32 @@ impl CaseEstimates {
         if let Some(c) = self.critical_density {
             row(&mut t, "direction error at the outlet, this density", format!("{:.4e}", c.case_error));
         }
+        if !self.critical_density_by_position.is_empty() {
+            let _ = writeln!(t, "\ndensity where the direction error reaches 1, by position:");
+            let _ = writeln!(t, "{:>10} {:>16} {:>16}", "x (um)", "density (1/m^3)", "volume fraction");
+            let cell_volume = 4.0 / 3.0 * std::f64::consts::PI * self.radius.powi(3);
+            for (x, c) in &self.critical_density_by_position {
+                let (rho, phi) = match c.and_then(|c| c.density) {
+                    Some(rho) => (format!("{rho:.4e}"), format!("{:.4e}", rho * cell_volume)),
+                    None => ("none".to_string(), "-".to_string()),
+                };
+                let _ = writeln!(t, "{:>10.1} {rho:>16} {phi:>16}", x * 1e6);
+            }
+            if let Some(layer) = self.outlet_layer {
+                let _ = writeln!(
+                    t,
+                    "(within {:.1} um of the outlet the column forces the background gradient to zero)",
+                    layer * 1e6
+                );
+            }
+            let _ = writeln!(t);
+        }
+        let regime = if self.regime_breaches.is_empty() {
+            "expected to hold (volume fraction, cell and chamber Peclet numbers within its range)".to_string()
+        } else {
+            format!("not expected to hold: {}", self.regime_breaches.join("; "))
+        };
+        row(&mut t, "mean-field estimate", regime);
         let f = &self.forecast;
         row(
             &mut t,

@@ -145,3 +145,42 @@ pub fn draw_crossing(
     })?;
     Ok(Some(record.with_axes(x, y)))
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn crossing_against_the_other_axis_keeps_the_house_rules() {
+        let row = |u: f64, x: f64, status: &'static str| CrossingRow {
+            values: vec![(Some(u), String::new()), (Some(0.1), String::new())],
+            crossing: x,
+            low: 0.95 * x,
+            high: 1.05 * x,
+            cases: 8,
+            status,
+            seeds_needed: None,
+        };
+        let rows = [row(5e-7, 0.04, "found"), row(2e-6, 0.1, "found"), row(8e-6, f64::NAN, "not_bracketed")];
+        let figure = CrossingFigure {
+            others: vec![("flow.mean_velocity", Some("m s^-1")), ("cells.radius", Some("m"))],
+            searched: "cells.layout.volume_fraction",
+            searched_unit: Some("1"),
+            log: true,
+            metric: "direction_error_median",
+            level: 1.0,
+        };
+        let dir = tempfile::tempdir().unwrap();
+        let file = dir.path().join("crossing.png");
+        let record = draw_crossing(&file, &figure, &rows).unwrap().expect("a numeric other axis");
+        assert_eq!(record.check(), Ok(()));
+        assert_eq!(record.not_drawn, 1);
+        // Each drawn crossing with both ends of its interval, in display units (µm/s on x).
+        let near =
+            |x: f64, y: f64| record.points.iter().any(|p| (p.0 - x).abs() < 1e-9 && (p.1 - y).abs() < 1e-12);
+        assert!(near(0.5, 0.04) && near(2.0, 0.1) && near(2.0, 0.105), "{:?}", record.points);
+        assert!(file.exists());
+        let text_only = CrossingFigure { others: vec![("medium.model", None)], ..figure };
+        assert!(draw_crossing(&file, &text_only, &rows).unwrap().is_none());
+    }
+}

@@ -95,6 +95,12 @@ pub struct ChamberEstimates {
     pub background: Background,
     pub profile: Vec<ProfilePoint>,
     pub critical_density: Option<CriticalDensity>,
+    /// The critical density at each point of `profile` (the outlet one is `critical_density`).
+    pub critical_density_by_position: Vec<(f64, Option<CriticalDensity>)>,
+    /// The criteria of [`super::estimates::mean_field_regime_breaches`] the chamber breaks (empty: it holds).
+    pub regime_breaches: Vec<String>,
+    /// Width of the outlet layer, `OUTLET_LAYERS · D/U` (m); `None` without a through-flow column.
+    pub outlet_layer: Option<f64>,
     /// The typical cell, for per-cell estimates with each cell's own radius and secretion.
     pub typical_cell: CellEstimateInputs,
     inputs: ChamberInputs,
@@ -128,6 +134,9 @@ impl ChamberEstimates {
             background: Background::Unavailable(String::new()),
             profile: Vec::new(),
             critical_density: None,
+            critical_density_by_position: Vec::new(),
+            regime_breaches: Vec::new(),
+            outlet_layer: None,
             typical_cell: cell,
             inputs: *inputs,
         };
@@ -139,7 +148,16 @@ impl ChamberEstimates {
                 Some(ProfilePoint { x, sensing: estimate_cell_sensing(&cell, c, g)? })
             })
             .collect();
-        estimates.critical_density = estimates.find_critical_density();
+        estimates.critical_density = estimates.find_critical_density(length);
+        estimates.critical_density_by_position =
+            estimates.profile.iter().map(|p| (p.x, estimates.find_critical_density(p.x))).collect();
+        let column = matches!(estimates.background, Background::Column(_));
+        estimates.regime_breaches = super::estimates::mean_field_regime_breaches(
+            estimates.volume_fraction,
+            peclet_cell,
+            column.then_some(estimates.peclet_chamber),
+        );
+        estimates.outlet_layer = column.then(|| super::estimates::OUTLET_LAYERS * d / u);
         estimates
     }
 
@@ -199,16 +217,16 @@ impl ChamberEstimates {
         estimate_cell_sensing(&inputs, c, g)
     }
 
-    /// Direction error of the typical cell at the outlet end for a layout of `density` cells per m³.
-    fn outlet_direction_error(&self, density: f64) -> Option<f64> {
+    /// Direction error of the typical cell at `x` for a layout of `density` cells per m³.
+    fn direction_error_at(&self, density: f64, x: f64) -> Option<f64> {
         let background = self.background_at_density(density);
-        let (c, g) = background.at(self.inputs.size[0])?;
+        let (c, g) = background.at(x)?;
         Some(estimate_cell_sensing(&self.typical_cell, c, g)?.direction_error)
     }
 
-    /// Scans the number density on a log grid for the first crossing of direction error 1 and refines it by
-    /// bisection in log density.
-    fn find_critical_density(&self) -> Option<CriticalDensity> {
+    /// Scans the number density on a log grid for the first crossing of direction error 1 by a cell at `x`
+    /// and refines it by bisection in log density.
+    fn find_critical_density(&self, x: f64) -> Option<CriticalDensity> {
         let lo = 0.1 / self.chamber_volume();
         let hi = 0.5 / (4.0 / 3.0 * PI * self.radius.powi(3));
         if hi <= lo {
@@ -217,18 +235,18 @@ impl ChamberEstimates {
         let range = [lo, hi];
         let samples = 200;
         let at = |i: usize| lo * (hi / lo).powf(i as f64 / samples as f64);
-        let isolated_error = self.outlet_direction_error(lo)?;
-        let case_error = self.outlet_direction_error(self.number_density)?;
+        let isolated_error = self.direction_error_at(lo, x)?;
+        let case_error = self.direction_error_at(self.number_density, x)?;
         let mut previous = isolated_error;
         for i in 1..=samples {
             let rho = at(i);
-            let err = self.outlet_direction_error(rho)?;
+            let err = self.direction_error_at(rho, x)?;
             if (previous - 1.0).signum() != (err - 1.0).signum() {
                 let rising = err > previous;
                 let (mut a, mut b) = (at(i - 1).ln(), rho.ln());
                 for _ in 0..60 {
                     let mid = 0.5 * (a + b);
-                    let e = self.outlet_direction_error(mid.exp())?;
+                    let e = self.direction_error_at(mid.exp(), x)?;
                     if (e > 1.0) == rising {
                         b = mid;
                     } else {
