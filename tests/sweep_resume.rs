@@ -10,7 +10,8 @@ use std::time::{Duration, Instant};
 
 use common::sweep::*;
 
-const CASES: usize = 8;
+// Enough cases that the sweep cannot finish between the poll that sees `wait_for` done and the signal.
+const CASES: usize = 16;
 
 fn done_count(out_dir: &Path) -> usize {
     (0..CASES).filter(|i| out_dir.join(format!("cases/case-{i:04}/done.json")).exists()).count()
@@ -49,7 +50,7 @@ fn killed_and_interrupted_sweeps_resume_without_repeating_work() {
     let dir = tempfile::tempdir().unwrap();
     let sweep = write_sweep(
         dir.path(),
-        "seeds = 2\n[[axis]]\nkey = \"flow.mean_velocity\"\nvalues = [0.5, 1, 2, 4]\nunit = \"um/s\"\n",
+        "seeds = 2\n[[axis]]\nkey = \"flow.mean_velocity\"\nvalues = [0.5, 0.75, 1, 1.5, 2, 3, 4, 6]\nunit = \"um/s\"\n",
     );
     let out_dir = dir.path().join("resumed");
 
