@@ -180,7 +180,7 @@ impl CaseEstimates {
                 .iter()
                 .map(|(x, c)| CriticalDensityAt {
                     x: *x,
-                    critical_density: c.map(|c| critical_density_summary(c, "x")),
+                    critical_density: c.map(|c| critical_density_summary(c, "at x")),
                 })
                 .collect(),
             mean_field_regime: Some(MeanFieldRegimeSummary {

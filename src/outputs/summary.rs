@@ -401,7 +401,7 @@ pub struct CriticalDensitySummary {
     pub density: Option<f64>,
     pub rising: bool,
     pub range: [f64; 2],
-    /// Where the direction error is taken: `"outlet"`.
+    /// Where the direction error is taken: `"outlet"`, or `"at x"` inside `critical_density_by_position`.
     pub position: String,
     pub isolated_direction_error: Unbounded,
     pub case_direction_error: Unbounded,
