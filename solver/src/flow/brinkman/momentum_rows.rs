@@ -12,6 +12,7 @@
 //! per unknown instead of the 57 of the face arrays, and one pass reads each neighbour once.
 
 use super::assemble_momentum::MomentumBlock;
+use crate::linalg::real::Real;
 use rayon::prelude::*;
 
 const ACTIVE: u8 = 1 << 6;
@@ -116,14 +117,15 @@ impl MomentumRows {
 
     /// `y = A_c u + s G_c p` on the unknowns of component `c`; identity rows (`y = u`) where inactive.
     /// `pressure` is the scaled pressure p̃ on the grid cells; `sign = −1` gives `y = r − s G_c p` instead when
-    /// `u` is None and `y` holds r on entry (the preconditioner's right-hand side).
-    pub fn apply(
+    /// `u` is None and `y` holds r on entry (the preconditioner's right-hand side). Vectors of f64 or f32 (the
+    /// inner solve of the refinement); the sums run in f64 either way.
+    pub fn apply<T: Real>(
         &self,
         c: usize,
-        u: Option<&[f64]>,
-        pressure: &[f64],
+        u: Option<&[T]>,
+        pressure: &[T],
         stencil: PressureStencil,
-        y: &mut [f64],
+        y: &mut [T],
     ) {
         let [sx, sy, sz] = self.shape;
         let [nx, ny, nz] = stencil.grid_shape;
@@ -162,7 +164,8 @@ impl MomentumRows {
                 let Some(u) = u else {
                     // Right-hand-side form: y = r − s G p on active rows, r kept elsewhere.
                     if byte & ACTIVE != 0 {
-                        yl[i] -= g * self.pressure_difference(c, [i, j, k], [nx, ny, nz], n_c, pressure);
+                        let difference = self.pressure_difference(c, [i, j, k], [nx, ny, nz], n_c, pressure);
+                        yl[i] = T::from_f64(yl[i].to_f64() - g * difference);
                     }
                     continue;
                 };
@@ -170,13 +173,13 @@ impl MomentumRows {
                     yl[i] = u[p];
                     continue;
                 }
-                let up = u[p];
+                let up = u[p].to_f64();
                 let mut acc = self.sink[p] * up;
                 // x links.
                 let gx = self.upper(byte, 0);
                 if gx != 0.0 {
                     let q = if i + 1 < sx { p + 1 } else { base };
-                    acc += gx * (up - u[q]);
+                    acc += gx * (up - u[q].to_f64());
                 }
                 let lower_x = if i > 0 {
                     Some(p - 1)
@@ -188,7 +191,7 @@ impl MomentumRows {
                 if let Some(q) = lower_x {
                     let gq = self.upper(self.links[q], 0);
                     if gq != 0.0 {
-                        acc += gq * (up - u[q]);
+                        acc += gq * (up - u[q].to_f64());
                     }
                 }
                 // y and z links.
@@ -196,43 +199,45 @@ impl MomentumRows {
                     let ga = self.upper(byte, a);
                     if ga != 0.0 {
                         if let Some(b) = hi {
-                            acc += ga * (up - u[b + i]);
+                            acc += ga * (up - u[b + i].to_f64());
                         }
                     }
                     if let Some(b) = lo {
                         let q = b + i;
                         let gq = self.upper(self.links[q], a);
                         if gq != 0.0 {
-                            acc += gq * (up - u[q]);
+                            acc += gq * (up - u[q].to_f64());
                         }
                     }
                 }
-                yl[i] = acc + g * self.pressure_difference(c, [i, j, k], [nx, ny, nz], n_c, pressure);
+                yl[i] = T::from_f64(
+                    acc + g * self.pressure_difference(c, [i, j, k], [nx, ny, nz], n_c, pressure),
+                );
             }
         });
     }
 
     /// `p_high − p_low` across unknown `ijk` of component c (0 beyond a chamber face).
     #[inline]
-    fn pressure_difference(
+    fn pressure_difference<T: Real>(
         &self,
         c: usize,
         ijk: [usize; 3],
         grid_shape: [usize; 3],
         n_c: usize,
-        pressure: &[f64],
+        pressure: &[T],
     ) -> f64 {
         let index = |q: [usize; 3]| q[0] + grid_shape[0] * (q[1] + grid_shape[1] * q[2]);
         let i = ijk[c];
-        let high = if i < n_c { pressure[index(ijk)] } else { 0.0 };
+        let high = if i < n_c { pressure[index(ijk)].to_f64() } else { 0.0 };
         let low = if i >= 1 {
             let mut q = ijk;
             q[c] = i - 1;
-            pressure[index(q)]
+            pressure[index(q)].to_f64()
         } else if self.periodic[c] {
             let mut q = ijk;
             q[c] = n_c - 1;
-            pressure[index(q)]
+            pressure[index(q)].to_f64()
         } else {
             0.0
         };
