@@ -84,7 +84,7 @@ impl SaddleSystem {
                 blocks
                     .par_iter_mut()
                     .map(|block| {
-                        let rows = MomentumRows::new(block, effective_viscosity, h);
+                        let rows = MomentumRows::new(block, effective_viscosity, resistivity, h);
                         let mg = Multigrid::new(&block.operator, AdvectionScheme::Central, params.clone());
                         let op = &mut block.operator;
                         op.conductance = Default::default();
