@@ -10,7 +10,8 @@ use std::time::{Duration, Instant};
 mod common;
 
 /// Small chamber, fixed steps, a flow change and a late sensing window, so that the resumed part crosses an
-/// event and output times. About 240 steps on a 40×20×10 grid: a second or two.
+/// event and output times; two cells get the self/neighbour split, whose own fields the checkpoint carries.
+/// About 240 steps on a 40×20×10 grid: a few seconds.
 fn case_text(end_time: &str) -> String {
     let end_time = format!("\"{end_time}\"");
     common::small_chamber(&[
@@ -29,6 +30,7 @@ fn case_text(end_time: &str) -> String {
         ("solve.output_every", r#""1 min""#),
         ("sensing.integration_time", r#""10 min""#),
         ("sensing.window_start", r#""2 min""#),
+        ("sensing.decompose", "[0, 3]"),
         ("output.fields", r#"["concentration", "velocity", "pressure"]"#),
     ])
 }
@@ -151,6 +153,8 @@ fn killed_run_resumes_to_the_uninterrupted_result() {
     assert!(!resumed.join("transient_parts").exists());
     assert!(!staging(&resumed).exists(), "the staging folder of a finished run is left behind");
 
+    let header = std::fs::read_to_string(reference.join("cells_timeseries.csv")).unwrap_or_default();
+    assert!(header.lines().next().unwrap_or_default().ends_with("neighbour_bound_rate"), "no split columns");
     let cells = compare_csv(&reference.join("cells.csv"), &resumed.join("cells.csv"));
     let series = compare_csv(&reference.join("cells_timeseries.csv"), &resumed.join("cells_timeseries.csv"));
     println!("max relative difference: cells.csv {cells:.3e}, cells_timeseries.csv {series:.3e}");
