@@ -10,6 +10,7 @@
 
 use mesh::{random_sequential_addition, ChamberBox, EmbeddedGeometry, Grid, RandomLayout, RandomTarget};
 use numkit::meter;
+use plumefield_bench::process_cpu_seconds;
 use solver::embedded::FacetStencils;
 use solver::flow::brinkman::{solve_brinkman, BrinkmanMedium, BrinkmanParams};
 use solver::problem::{ChamberBoundaries, ChamberFace, LigandParameters, SurfaceUptake};
@@ -45,8 +46,10 @@ fn stages(size: usize) {
     let params = BrinkmanParams::default();
     meter::reset_peak_resident();
     let t = Instant::now();
+    let cpu = process_cpu_seconds();
     let flow = solve_brinkman(&geometry, &layout, &boundaries, &medium, 1e-6, &params).expect("flow solves");
     let t_flow = t.elapsed().as_secs_f64();
+    let cpu_flow = process_cpu_seconds() - cpu;
     let flow_peak = peak_rss();
     let ligand = LigandParameters {
         diffusivity: 1e-10,
@@ -65,8 +68,10 @@ fn stages(size: usize) {
     };
     meter::reset_peak_resident();
     let t = Instant::now();
+    let cpu = process_cpu_seconds();
     let transport = solve_steady(&problem, &TransportParams::default()).expect("transport solves");
     let t_transport = t.elapsed().as_secs_f64();
+    let cpu_transport = process_cpu_seconds() - cpu;
     let transport_peak = peak_rss();
     let cells = grid.len() as f64;
     println!("grid {size}^3, {} cells", layout.cells.len());
@@ -80,7 +85,11 @@ fn stages(size: usize) {
     let s = flow.stage_seconds;
     println!("flow stages (assembly, iterations, post) {:.2?} s", [s.assembly, s.iterations, s.post]);
     println!("transport {t_transport:.2} s, {} iterations", transport.iterations);
-    println!("flow/transport {:.1}", t_flow / t_transport);
+    println!("flow/transport {:.1} wall", t_flow / t_transport);
+    println!(
+        "CPU s (user + sys of the process): flow {cpu_flow:.2}, transport {cpu_transport:.2}, flow/transport {:.2}",
+        cpu_flow / cpu_transport
+    );
     println!(
         "peak RSS B/cell: before geometry {:.0}, after geometry {:.0}, flow stage {:.0}, transport stage {:.0}",
         base as f64 / cells,

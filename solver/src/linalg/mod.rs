@@ -6,8 +6,9 @@
 //!   a packed form that stores only the conductances and sinks of irregular cells ([`PackedOperator`]).
 //! - [`coarsen`], [`transfer`], [`smooth`], [`dense_lu`], [`multigrid`]: the cell-centred multigrid
 //!   preconditioner (f32 levels, stored per red–black colour by `coloured_stencil`).
-//! - [`krylov`]: the Krylov methods (BiCGSTAB, flexible GMRES) behind the [`LinearOperator`] trait, on the
-//!   fixed-order vector kernels of `vector` (the same bits at any thread count).
+//! - [`krylov`]: the Krylov methods (BiCGSTAB in f64 or f32, flexible GMRES, mixed-precision refinement) behind
+//!   the [`LinearOperator`] trait, on the fixed-order vector kernels of `vector` (the same bits at any thread
+//!   count).
 //! - [`sparse_correction`]: the cut-cell correction rows added to the face-coupled product.
 //! - [`steady_solver`]: BiCGSTAB on the operator plus correction, preconditioned by one multigrid cycle.
 
@@ -30,7 +31,8 @@ mod vector;
 
 pub use apply_operator::{apply_face_coupled, PackedOperator};
 pub use krylov::{
-    bicgstab, bicgstab_until, gmres, BicgstabParams, BicgstabWork, GmresParams, KrylovParams, LinearOperator,
+    bicgstab, bicgstab_until, gmres, refine_until, store_scaled_residual, BicgstabParams, BicgstabWork,
+    GmresParams, KrylovParams, LinearOperator, OuterResidual, RefinementParams, RefinementWork,
     RightHandSide, Shadow, SolveError, SolveInfo, SparseVector,
 };
 pub use multigrid::{Cycle, MultigridParams};

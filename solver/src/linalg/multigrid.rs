@@ -10,6 +10,7 @@ use super::coarsen::coarsen_operator;
 use super::coloured_stencil::{ColouredStencil, Split};
 use super::dense_lu::DenseLu;
 use super::operator::{AdvectionScheme, FaceCoupledOperator};
+use super::real::Real;
 use super::smooth::{colours_to_correct, colours_with_residual, post_smooth, pre_smooth};
 use super::stencil::{min_lines, Stencil7};
 use super::transfer::{prolongate_add, restrict_residual, Prolongation};
@@ -157,8 +158,9 @@ impl Multigrid {
     }
 
     /// `z ≈ A⁻¹ r` by one cycle from a zero initial guess. Inactive cells (identity rows of A) get `z = r`
-    /// exactly and a zero right-hand side inside the cycle, so no level needs an activity mask.
-    pub fn precondition(&self, r: &[f64], z: &mut [f64], work: &mut MultigridWork) {
+    /// exactly and a zero right-hand side inside the cycle, so no level needs an activity mask. `r` and `z` are
+    /// f64 or f32 vectors.
+    pub fn precondition<T: Real>(&self, r: &[T], z: &mut [T], work: &mut MultigridWork) {
         // Scale the input to O(1) for f32: solve (scale·A) x = r/ρ, then z = scale·ρ·x.
         let mut rho = work.rho;
         let mut max = if rho > 0.0 { self.load_input(r, 1.0 / rho, work) } else { f64::NAN };
@@ -171,7 +173,7 @@ impl Multigrid {
                     .zip(r.par_iter())
                     .enumerate()
                     .with_min_len(8192)
-                    .for_each(|(p, (zi, &ri))| *zi = if active[p] && max == 0.0 { 0.0 } else { ri });
+                    .for_each(|(p, (zi, &ri))| *zi = if active[p] && max == 0.0 { T::ZERO } else { ri });
                 return;
             }
             // A power of two: scaling by it is exact, so a reused ρ gives the same f32 values as a fresh one.
@@ -192,7 +194,7 @@ impl Multigrid {
                 let active = &level.active[line * nx..(line + 1) * nx];
                 for i in 0..nx {
                     let x = if (i + parity) % 2 == 0 { seg0[i / 2] } else { seg1[i / 2] };
-                    zl[i] = if active[i] { back * x as f64 } else { rl[i] };
+                    zl[i] = if active[i] { T::from_f64(back * x as f64) } else { rl[i] };
                 }
             },
         );
@@ -200,7 +202,7 @@ impl Multigrid {
 
     /// Writes `r·inv` (f32, split layout, zero on inactive cells) into the finest right-hand side and returns
     /// `max|r|` over active cells (NaN if any is not finite).
-    fn load_input(&self, r: &[f64], inv: f64, work: &mut MultigridWork) -> f64 {
+    fn load_input<T: Real>(&self, r: &[T], inv: f64, work: &mut MultigridWork) -> f64 {
         let level = &self.levels[0];
         let [nx, ny, _] = level.stencil.shape();
         let h = level.stencil.half();
@@ -215,7 +217,7 @@ impl Multigrid {
                 let active = &level.active[line * nx..(line + 1) * nx];
                 let mut max = 0.0f64;
                 for i in 0..nx {
-                    let v = if active[i] { rl[i] } else { 0.0 };
+                    let v = if active[i] { rl[i].to_f64() } else { 0.0 };
                     max = if v.abs() > max || v.is_nan() { v.abs() } else { max };
                     let value = (v * inv) as f32;
                     if (i + parity) % 2 == 0 {

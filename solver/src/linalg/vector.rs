@@ -1,18 +1,21 @@
-//! Parallel vector kernels of the Krylov methods. Reductions sum fixed-size chunks in a fixed order, so results
-//! are bit-identical for any number of threads (rayon's own `sum` splits by the thread count).
+//! Parallel vector kernels of the Krylov methods, for f64 or f32 vectors ([`Real`]). Reductions sum fixed-size
+//! chunks in a fixed order, so results are bit-identical for any number of threads (rayon's own `sum` splits by
+//! the thread count). Every kernel computes in f64 and rounds the stored result to the vector's type: for f64
+//! vectors that is the plain arithmetic, for f32 vectors the sums keep f64 accuracy.
 
+use super::real::Real;
 use rayon::prelude::*;
 
 /// Cells per reduction chunk and minimum per rayon task.
 pub(crate) const CHUNK: usize = 8192;
 
 /// `Σ a_i b_i`.
-pub(crate) fn dot(a: &[f64], b: &[f64]) -> f64 {
+pub(crate) fn dot<T: Real>(a: &[T], b: &[T]) -> f64 {
     assert_eq!(a.len(), b.len());
     let partial: Vec<f64> = a
         .par_chunks(CHUNK)
         .zip(b.par_chunks(CHUNK))
-        .map(|(x, y)| x.iter().zip(y).map(|(u, v)| u * v).sum::<f64>())
+        .map(|(x, y)| x.iter().zip(y).map(|(u, v)| u.to_f64() * v.to_f64()).sum::<f64>())
         .collect();
     partial.iter().sum()
 }
@@ -25,13 +28,16 @@ pub(crate) fn chunked_sum(n: usize, term: impl Fn(std::ops::Range<usize>) -> f64
 }
 
 /// Euclidean norm.
-pub(crate) fn norm(a: &[f64]) -> f64 {
+pub(crate) fn norm<T: Real>(a: &[T]) -> f64 {
     dot(a, a).sqrt()
 }
 
 /// `y ← y + α x`.
-pub(crate) fn axpy(alpha: f64, x: &[f64], y: &mut [f64]) {
-    y.par_iter_mut().zip(x.par_iter()).with_min_len(CHUNK).for_each(|(yi, &xi)| *yi += alpha * xi);
+pub(crate) fn axpy<T: Real>(alpha: f64, x: &[T], y: &mut [T]) {
+    y.par_iter_mut()
+        .zip(x.par_iter())
+        .with_min_len(CHUNK)
+        .for_each(|(yi, &xi)| *yi = T::from_f64(yi.to_f64() + alpha * xi.to_f64()));
 }
 
 /// `v ← v / d`.
@@ -40,25 +46,29 @@ pub(crate) fn divide(v: &mut [f64], d: f64) {
 }
 
 /// `v ← 0`.
-pub(crate) fn zero(v: &mut [f64]) {
-    v.par_iter_mut().with_min_len(CHUNK).for_each(|vi| *vi = 0.0);
+pub(crate) fn zero<T: Real>(v: &mut [T]) {
+    v.par_iter_mut().with_min_len(CHUNK).for_each(|vi| *vi = T::ZERO);
 }
 
 /// `r ← b − r` (turns `r = A x` into the residual).
-pub(crate) fn residual_from_product(b: &[f64], r: &mut [f64]) {
-    r.par_iter_mut().zip(b.par_iter()).with_min_len(CHUNK).for_each(|(ri, &bi)| *ri = bi - *ri);
+pub(crate) fn residual_from_product<T: Real>(b: &[T], r: &mut [T]) {
+    r.par_iter_mut()
+        .zip(b.par_iter())
+        .with_min_len(CHUNK)
+        .for_each(|(ri, &bi)| *ri = T::from_f64(bi.to_f64() - ri.to_f64()));
 }
 
 /// `r ← r − α v`, returning `‖r‖²` of the result (fused: one pass).
-pub(crate) fn axpy_norm2(alpha: f64, v: &[f64], r: &mut [f64]) -> f64 {
+pub(crate) fn axpy_norm2<T: Real>(alpha: f64, v: &[T], r: &mut [T]) -> f64 {
     let partial: Vec<f64> = r
         .par_chunks_mut(CHUNK)
         .zip(v.par_chunks(CHUNK))
         .map(|(rc, vc)| {
             let mut s = 0.0;
             for (ri, &vi) in rc.iter_mut().zip(vc) {
-                *ri -= alpha * vi;
-                s += *ri * *ri;
+                *ri = T::from_f64(ri.to_f64() - alpha * vi.to_f64());
+                let stored = ri.to_f64();
+                s += stored * stored;
             }
             s
         })
@@ -67,7 +77,7 @@ pub(crate) fn axpy_norm2(alpha: f64, v: &[f64], r: &mut [f64]) -> f64 {
 }
 
 /// `r ← r − α v`, returning `(‖r‖², r0·r)` of the result in one pass (BiCGSTAB's next ρ on the way).
-pub(crate) fn axpy_norm2_dot(alpha: f64, v: &[f64], r: &mut [f64], r0: &[f64]) -> (f64, f64) {
+pub(crate) fn axpy_norm2_dot<T: Real>(alpha: f64, v: &[T], r: &mut [T], r0: &[T]) -> (f64, f64) {
     let partial: Vec<(f64, f64)> = r
         .par_chunks_mut(CHUNK)
         .zip(v.par_chunks(CHUNK))
@@ -75,9 +85,10 @@ pub(crate) fn axpy_norm2_dot(alpha: f64, v: &[f64], r: &mut [f64], r0: &[f64]) -
         .map(|((rc, vc), r0c)| {
             let (mut rr, mut r0r) = (0.0, 0.0);
             for ((ri, &vi), &r0i) in rc.iter_mut().zip(vc).zip(r0c) {
-                *ri -= alpha * vi;
-                rr += *ri * *ri;
-                r0r += r0i * *ri;
+                *ri = T::from_f64(ri.to_f64() - alpha * vi.to_f64());
+                let stored = ri.to_f64();
+                rr += stored * stored;
+                r0r += r0i.to_f64() * stored;
             }
             (rr, r0r)
         })
@@ -86,22 +97,25 @@ pub(crate) fn axpy_norm2_dot(alpha: f64, v: &[f64], r: &mut [f64], r0: &[f64]) -
 }
 
 /// `(t·s, t·t)` in one pass.
-pub(crate) fn dot2(t: &[f64], s: &[f64]) -> (f64, f64) {
+pub(crate) fn dot2<T: Real>(t: &[T], s: &[T]) -> (f64, f64) {
     let partial: Vec<(f64, f64)> = t
         .par_chunks(CHUNK)
         .zip(s.par_chunks(CHUNK))
         .map(|(tc, sc)| {
-            tc.iter().zip(sc).fold((0.0, 0.0), |(ts, tt), (&ti, &si)| (ts + ti * si, tt + ti * ti))
+            tc.iter().zip(sc).fold((0.0, 0.0), |(ts, tt), (&ti, &si)| {
+                let (ti, si) = (ti.to_f64(), si.to_f64());
+                (ts + ti * si, tt + ti * ti)
+            })
         })
         .collect();
     partial.iter().fold((0.0, 0.0), |(a, b), &(c, d)| (a + c, b + d))
 }
 
 /// `p ← r + β (p − ω v)`.
-pub(crate) fn update_direction(beta: f64, omega: f64, r: &[f64], v: &[f64], p: &mut [f64]) {
+pub(crate) fn update_direction<T: Real>(beta: f64, omega: f64, r: &[T], v: &[T], p: &mut [T]) {
     p.par_chunks_mut(CHUNK).zip(r.par_chunks(CHUNK)).zip(v.par_chunks(CHUNK)).for_each(|((pc, rc), vc)| {
         for ((pi, &ri), &vi) in pc.iter_mut().zip(rc).zip(vc) {
-            *pi = ri + beta * (*pi - omega * vi);
+            *pi = T::from_f64(ri.to_f64() + beta * (pi.to_f64() - omega * vi.to_f64()));
         }
     });
 }

@@ -7,21 +7,32 @@
 //! ```
 //!
 //! Every link conductance is `μ_e A/h` with A = h² or, between the half volumes of an outlet plane, h²/2, so a
-//! row needs only its diagonal sink (f64) and one byte: bit a (a < 3) says the link to the upper neighbour
-//! along a is coupled, bit 3 + a that it has the half area, bit 6 that the row is an unknown. That is 9 bytes
-//! per unknown instead of the 57 of the face arrays, and one pass reads each neighbour once.
+//! row needs only one byte: bit a (a < 3) says the link to the upper neighbour along a is coupled, bit 3 + a
+//! that it has the half area, bit 6 that the row is an unknown, bit 7 that its diagonal sink is not the bulk
+//! value `σ h³` (cut links, half volumes) and is stored (f64, in row order, found from each grid line's first).
+//! That is about one byte per unknown instead of the 57 of the face arrays, and one pass reads each neighbour
+//! once.
 
 use super::assemble_momentum::MomentumBlock;
+use crate::linalg::real::Real;
 use rayon::prelude::*;
 
 const ACTIVE: u8 = 1 << 6;
+/// The row's sink is stored in `irregular_sink`.
+const IRREGULAR: u8 = 1 << 7;
 
-/// One component's rows: shape, periodicity, sinks, link bytes and the two conductance values.
+/// One component's rows: shape, periodicity, link bytes, the sinks that are not the bulk value and the two
+/// conductance values.
 pub struct MomentumRows {
     pub shape: [usize; 3],
     periodic: [bool; 3],
-    sink: Vec<f64>,
     links: Vec<u8>,
+    /// Sink of an active row in the bulk: `σ h³` as the assembly computes it.
+    regular_sink: f64,
+    /// Sinks of the rows marked [`IRREGULAR`], in row order.
+    irregular_sink: Vec<f64>,
+    /// Index in `irregular_sink` of the first irregular row of each grid line along x.
+    line_start: Vec<usize>,
     /// Conductances `[μ_e h²/h, μ_e (h²/2)/h]` computed as the assembly does.
     values: [f64; 2],
 }
@@ -37,18 +48,23 @@ pub struct PressureStencil {
 }
 
 impl MomentumRows {
-    /// The compact rows of `block`; `effective_viscosity` and `h` reproduce its conductances bit for bit.
-    /// Returns None if a conductance is not one of the two values (the assembly changed without this file).
-    pub fn new(block: &MomentumBlock, effective_viscosity: f64, h: f64) -> Option<Self> {
+    /// The compact rows of `block`; `effective_viscosity`, `resistivity` and `h` reproduce its conductances and
+    /// bulk sink bit for bit. Returns None if a conductance is not one of the two values (the assembly changed
+    /// without this file).
+    pub fn new(block: &MomentumBlock, effective_viscosity: f64, resistivity: f64, h: f64) -> Option<Self> {
         let op = &block.operator;
         let shape = op.shape;
         let full = effective_viscosity * (h * h) / h;
         let half = effective_viscosity * (0.5 * h * h) / h;
+        let regular_sink = resistivity * h.powi(3);
         let mut links = vec![0u8; op.sink.len()];
         let encoded = links.par_iter_mut().enumerate().all(|(p, byte)| {
             let ijk = [p % shape[0], (p / shape[0]) % shape[1], p / (shape[0] * shape[1])];
             if op.active[p] {
                 *byte |= ACTIVE;
+                if op.sink[p].to_bits() != regular_sink.to_bits() {
+                    *byte |= IRREGULAR;
+                }
             }
             for a in 0..3 {
                 let upper = if ijk[a] + 1 < shape[a] {
@@ -79,11 +95,21 @@ impl MomentumRows {
         if !encoded {
             return None;
         }
+        let irregular_sink: Vec<f64> =
+            links.iter().zip(&op.sink).filter(|(&byte, _)| byte & IRREGULAR != 0).map(|(_, &s)| s).collect();
+        let mut line_start = Vec::with_capacity(shape[1] * shape[2]);
+        let mut count = 0;
+        for line in links.chunks(shape[0].max(1)) {
+            line_start.push(count);
+            count += line.iter().filter(|&&byte| byte & IRREGULAR != 0).count();
+        }
         Some(MomentumRows {
             shape,
             periodic: op.periodic,
-            sink: op.sink.clone(),
             links,
+            regular_sink,
+            irregular_sink,
+            line_start,
             values: [full, half],
         })
     }
@@ -101,7 +127,7 @@ impl MomentumRows {
     }
 
     pub fn memory_bytes(&self) -> usize {
-        9 * self.links.len()
+        self.links.len() + 8 * (self.irregular_sink.len() + self.line_start.len())
     }
 
     /// Conductance of the upper link along `a` from a row's byte (0 if not coupled).
@@ -116,14 +142,15 @@ impl MomentumRows {
 
     /// `y = A_c u + s G_c p` on the unknowns of component `c`; identity rows (`y = u`) where inactive.
     /// `pressure` is the scaled pressure p̃ on the grid cells; `sign = −1` gives `y = r − s G_c p` instead when
-    /// `u` is None and `y` holds r on entry (the preconditioner's right-hand side).
-    pub fn apply(
+    /// `u` is None and `y` holds r on entry (the preconditioner's right-hand side). Vectors of f64 or f32 (the
+    /// inner solve of the refinement); the sums run in f64 either way.
+    pub fn apply<T: Real>(
         &self,
         c: usize,
-        u: Option<&[f64]>,
-        pressure: &[f64],
+        u: Option<&[T]>,
+        pressure: &[T],
         stencil: PressureStencil,
-        y: &mut [f64],
+        y: &mut [T],
     ) {
         let [sx, sy, sz] = self.shape;
         let [nx, ny, nz] = stencil.grid_shape;
@@ -156,13 +183,15 @@ impl MomentumRows {
             let y_hi = step(j, sy, true, periodic[1]).map(|jj| line_base(jj, k));
             let z_lo = step(k, sz, false, periodic[2]).map(|kk| line_base(j, kk));
             let z_hi = step(k, sz, true, periodic[2]).map(|kk| line_base(j, kk));
+            let mut irregular = self.irregular_sink[self.line_start[line]..].iter();
             for i in 0..sx {
                 let p = base + i;
                 let byte = self.links[p];
                 let Some(u) = u else {
                     // Right-hand-side form: y = r − s G p on active rows, r kept elsewhere.
                     if byte & ACTIVE != 0 {
-                        yl[i] -= g * self.pressure_difference(c, [i, j, k], [nx, ny, nz], n_c, pressure);
+                        let difference = self.pressure_difference(c, [i, j, k], [nx, ny, nz], n_c, pressure);
+                        yl[i] = T::from_f64(yl[i].to_f64() - g * difference);
                     }
                     continue;
                 };
@@ -170,13 +199,18 @@ impl MomentumRows {
                     yl[i] = u[p];
                     continue;
                 }
-                let up = u[p];
-                let mut acc = self.sink[p] * up;
+                let up = u[p].to_f64();
+                let sink = if byte & IRREGULAR != 0 {
+                    irregular.next().copied().unwrap_or(self.regular_sink)
+                } else {
+                    self.regular_sink
+                };
+                let mut acc = sink * up;
                 // x links.
                 let gx = self.upper(byte, 0);
                 if gx != 0.0 {
                     let q = if i + 1 < sx { p + 1 } else { base };
-                    acc += gx * (up - u[q]);
+                    acc += gx * (up - u[q].to_f64());
                 }
                 let lower_x = if i > 0 {
                     Some(p - 1)
@@ -188,7 +222,7 @@ impl MomentumRows {
                 if let Some(q) = lower_x {
                     let gq = self.upper(self.links[q], 0);
                     if gq != 0.0 {
-                        acc += gq * (up - u[q]);
+                        acc += gq * (up - u[q].to_f64());
                     }
                 }
                 // y and z links.
@@ -196,43 +230,45 @@ impl MomentumRows {
                     let ga = self.upper(byte, a);
                     if ga != 0.0 {
                         if let Some(b) = hi {
-                            acc += ga * (up - u[b + i]);
+                            acc += ga * (up - u[b + i].to_f64());
                         }
                     }
                     if let Some(b) = lo {
                         let q = b + i;
                         let gq = self.upper(self.links[q], a);
                         if gq != 0.0 {
-                            acc += gq * (up - u[q]);
+                            acc += gq * (up - u[q].to_f64());
                         }
                     }
                 }
-                yl[i] = acc + g * self.pressure_difference(c, [i, j, k], [nx, ny, nz], n_c, pressure);
+                yl[i] = T::from_f64(
+                    acc + g * self.pressure_difference(c, [i, j, k], [nx, ny, nz], n_c, pressure),
+                );
             }
         });
     }
 
     /// `p_high − p_low` across unknown `ijk` of component c (0 beyond a chamber face).
     #[inline]
-    fn pressure_difference(
+    fn pressure_difference<T: Real>(
         &self,
         c: usize,
         ijk: [usize; 3],
         grid_shape: [usize; 3],
         n_c: usize,
-        pressure: &[f64],
+        pressure: &[T],
     ) -> f64 {
         let index = |q: [usize; 3]| q[0] + grid_shape[0] * (q[1] + grid_shape[1] * q[2]);
         let i = ijk[c];
-        let high = if i < n_c { pressure[index(ijk)] } else { 0.0 };
+        let high = if i < n_c { pressure[index(ijk)].to_f64() } else { 0.0 };
         let low = if i >= 1 {
             let mut q = ijk;
             q[c] = i - 1;
-            pressure[index(q)]
+            pressure[index(q)].to_f64()
         } else if self.periodic[c] {
             let mut q = ijk;
             q[c] = n_c - 1;
-            pressure[index(q)]
+            pressure[index(q)].to_f64()
         } else {
             0.0
         };
@@ -287,7 +323,7 @@ mod tests {
         let pressure: Vec<f64> = (0..grid.len()).map(|n| ((n * 37) % 11) as f64 - 5.0).collect();
         let scale = 2.5;
         for (c, block) in blocks.iter().enumerate() {
-            let rows = MomentumRows::new(block, 1.7, 0.1).expect("two conductance values");
+            let rows = MomentumRows::new(block, 1.7, 3.0, 0.1).expect("two conductance values");
             let n = rows.len();
             let u: Vec<f64> = (0..n).map(|p| ((p * 13) % 7) as f64 * 0.3 - 1.0).collect();
             let mut expected = vec![0.0; n];

@@ -7,6 +7,7 @@
 //! A grid cell is a pressure unknown when at least one of its faces carries a velocity unknown.
 
 use super::staggered_grid::ComponentGrid;
+use crate::linalg::real::Real;
 use mesh::Grid;
 use rayon::prelude::*;
 
@@ -55,8 +56,8 @@ impl PressureCoupling {
 
     /// `out = scale · Gᵀ u` on active cells (0 elsewhere); `u` holds the three components. One pass over the
     /// grid lines: the low and high unknowns of cell (i, j, k) along c are unknowns (i, j, k) and (i, j, k) + ê_c
-    /// of component c (wrapped along a periodic axis).
-    pub fn divergence_transpose(&self, u: [&[f64]; 3], scale: f64, out: &mut [f64]) {
+    /// of component c (wrapped along a periodic axis). Vectors of f64 or f32; the sum runs in f64.
+    pub fn divergence_transpose<T: Real>(&self, u: [&[T]; 3], scale: f64, out: &mut [T]) {
         let h2 = self.grid.face_area() * scale;
         let [nx, ny, _] = self.grid.shape;
         out.par_chunks_mut(nx).enumerate().with_min_len(16).for_each(|(line, ol)| {
@@ -70,7 +71,7 @@ impl PressureCoupling {
             });
             for (i, o) in ol.iter_mut().enumerate() {
                 if !self.pressure_active[base + i] {
-                    *o = 0.0;
+                    *o = T::ZERO;
                     continue;
                 }
                 let mut s = 0.0;
@@ -84,13 +85,13 @@ impl PressureCoupling {
                         (lo0 + i, hi0 + i)
                     };
                     if active[lo] {
-                        s += u[c][lo];
+                        s += u[c][lo].to_f64();
                     }
                     if active[hi] {
-                        s -= u[c][hi];
+                        s -= u[c][hi].to_f64();
                     }
                 }
-                *o = h2 * s;
+                *o = T::from_f64(h2 * s);
             }
         });
     }

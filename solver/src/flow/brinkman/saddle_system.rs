@@ -30,7 +30,10 @@ use super::assemble_momentum::MomentumBlock;
 use super::momentum_rows::{MomentumRows, PressureStencil};
 use super::pressure_gradient::PressureCoupling;
 use crate::linalg::multigrid::{Multigrid, MultigridWork};
-use crate::linalg::{AdvectionScheme, FaceCoupledOperator, MultigridParams, SparseVector};
+use crate::linalg::real::Real;
+use crate::linalg::{
+    store_scaled_residual, AdvectionScheme, FaceCoupledOperator, MultigridParams, SparseVector,
+};
 use rayon::prelude::*;
 
 /// The assembled system with its preconditioner hierarchies. The face arrays of the momentum blocks are
@@ -51,13 +54,13 @@ pub struct SaddleSystem {
     viscous_inverse: Vec<f64>,
 }
 
-/// Work vectors of one preconditioner application.
-pub struct PreconditionerWork {
+/// Work vectors of one preconditioner application on vectors of type T (f64 or f32).
+pub struct PreconditionerWork<T = f64> {
     velocity: [MultigridWork; 3],
     pressure: MultigridWork,
     /// `r_u − s G z_p` of one component at a time.
-    gradient: Vec<f64>,
-    schur: Vec<f64>,
+    gradient: Vec<T>,
+    schur: Vec<T>,
 }
 
 impl SaddleSystem {
@@ -81,7 +84,7 @@ impl SaddleSystem {
                 blocks
                     .par_iter_mut()
                     .map(|block| {
-                        let rows = MomentumRows::new(block, effective_viscosity, h);
+                        let rows = MomentumRows::new(block, effective_viscosity, resistivity, h);
                         let mg = Multigrid::new(&block.operator, AdvectionScheme::Central, params.clone());
                         let op = &mut block.operator;
                         op.conductance = Default::default();
@@ -133,14 +136,14 @@ impl SaddleSystem {
         ]
     }
 
-    fn split<'a>(&self, x: &'a [f64]) -> [&'a [f64]; 4] {
+    fn split<'a, T>(&self, x: &'a [T]) -> [&'a [T]; 4] {
         let (u, rest) = x.split_at(self.offsets[1]);
         let (v, rest) = rest.split_at(self.offsets[2] - self.offsets[1]);
         let (w, p) = rest.split_at(self.offsets[3] - self.offsets[2]);
         [u, v, w, p]
     }
 
-    fn split_mut<'a>(&self, x: &'a mut [f64]) -> [&'a mut [f64]; 4] {
+    fn split_mut<'a, T>(&self, x: &'a mut [T]) -> [&'a mut [T]; 4] {
         let (u, rest) = x.split_at_mut(self.offsets[1]);
         let (v, rest) = rest.split_at_mut(self.offsets[2] - self.offsets[1]);
         let (w, p) = rest.split_at_mut(self.offsets[3] - self.offsets[2]);
@@ -154,14 +157,20 @@ impl SaddleSystem {
         }
     }
 
-    /// `y = K x`; inactive rows are the identity.
-    pub fn apply(&self, x: &[f64], y: &mut [f64]) {
+    /// `y = K x`; inactive rows are the identity. f64 vectors for the exact residual, f32 for the inner solve of
+    /// the refinement (sums in f64 either way).
+    pub fn apply<T: Real>(&self, x: &[T], y: &mut [T]) {
         let xs = self.split(x);
         let [yu, yv, yw, yp] = self.split_mut(y);
         let stencil = self.pressure_stencil();
         for (c, yc) in [yu, yv, yw].into_iter().enumerate() {
             self.rows[c].apply(c, Some(xs[c]), xs[3], stencil, yc);
         }
+        self.apply_continuity(xs, yp);
+    }
+
+    /// The continuity rows of `y = K x`: `s Gᵀ u` on pressure unknowns, the identity elsewhere.
+    fn apply_continuity<T: Real>(&self, xs: [&[T]; 4], yp: &mut [T]) {
         self.coupling.divergence_transpose([xs[0], xs[1], xs[2]], self.scale, yp);
         yp.par_iter_mut().zip(xs[3].par_iter()).zip(self.coupling.pressure_active.par_iter()).for_each(
             |((y, &p), &a)| {
@@ -197,17 +206,46 @@ impl SaddleSystem {
             .reduce(|| 0.0, f64::max)
     }
 
-    pub fn work(&self) -> PreconditionerWork {
+    pub fn work<T: Real>(&self) -> PreconditionerWork<T> {
         PreconditionerWork {
             velocity: [0, 1, 2].map(|c| self.velocity_mg[c].work()),
             pressure: self.pressure_mg.work(),
-            gradient: vec![0.0; self.rows.iter().map(|r| r.len()).max().unwrap_or(0)],
-            schur: vec![0.0; self.coupling.grid.len()],
+            gradient: vec![T::ZERO; self.rows.iter().map(|r| r.len()).max().unwrap_or(0)],
+            schur: vec![T::ZERO; self.coupling.grid.len()],
         }
     }
 
-    /// `z = P⁻¹ r` with the block upper-triangular preconditioner.
-    pub fn precondition(&self, r: &[f64], z: &mut [f64], work: &mut PreconditionerWork) {
+    /// `r = b − K x` in f64, one block at a time through an f64 scratch of one block's length: stores `scale · r`
+    /// in `out` (f32) and returns `‖r‖₂` and [`Self::continuity_peak`] of `x`.
+    pub fn scaled_residual(&self, x: &[f64], rhs: &SparseVector, scale: f64, out: &mut [f32]) -> (f64, f64) {
+        let xs = self.split(x);
+        let outs = self.split_mut(out);
+        let largest = self.rows.iter().map(|r| r.len()).max().unwrap_or(0).max(self.coupling.grid.len());
+        let mut scratch = vec![0.0; largest];
+        let stencil = self.pressure_stencil();
+        let mut squares = 0.0;
+        let mut continuity = 0.0;
+        for (block, out) in outs.into_iter().enumerate() {
+            let r = &mut scratch[..out.len()];
+            match block {
+                3 => self.apply_continuity(xs, r),
+                c => self.rows[c].apply(c, Some(xs[c]), xs[3], stencil, r),
+            }
+            r.par_iter_mut().for_each(|v| *v = -*v);
+            let start = self.offsets[block];
+            for &(i, b) in rhs.entries.iter().filter(|(i, _)| (start..start + out.len()).contains(i)) {
+                r[i - start] += b;
+            }
+            if block == 3 {
+                continuity = self.pressure_rows_peak(r);
+            }
+            squares += store_scaled_residual(r, scale, out);
+        }
+        (squares.sqrt(), continuity)
+    }
+
+    /// `z = P⁻¹ r` with the block upper-triangular preconditioner (vectors of f64 or f32).
+    pub fn precondition<T: Real>(&self, r: &[T], z: &mut [T], work: &mut PreconditionerWork<T>) {
         let rs = self.split(r);
         let h = self.coupling.grid.spacing;
         let [zu, zv, zw, zp] = self.split_mut(z);
@@ -216,7 +254,7 @@ impl SaddleSystem {
         if self.resistivity > 0.0 {
             self.pressure_mg.precondition(rs[3], &mut work.schur, &mut work.pressure);
         } else {
-            work.schur.iter_mut().for_each(|v| *v = 0.0);
+            work.schur.iter_mut().for_each(|v| *v = T::ZERO);
         }
         let sigma_part = self.resistivity / h / s2;
         zp.par_iter_mut()
@@ -224,7 +262,9 @@ impl SaddleSystem {
             .zip(work.schur.par_iter())
             .zip(self.coupling.pressure_active.par_iter())
             .zip(self.viscous_inverse.par_iter())
-            .for_each(|((((z, &r), &l), &a), &w)| *z = if a { -(sigma_part * l + w * r) } else { r });
+            .for_each(|((((z, &r), &l), &a), &w)| {
+                *z = if a { T::from_f64(-(sigma_part * l.to_f64() + w * r.to_f64())) } else { r }
+            });
         // z_u = A⁻¹ (r_u − s G z_p), one V-cycle per component.
         let stencil = self.pressure_stencil();
         for (c, zc) in [zu, zv, zw].into_iter().enumerate() {
@@ -235,7 +275,7 @@ impl SaddleSystem {
         }
     }
 
-    /// Bytes held by the compact rows, masks, hierarchies and one preconditioner work set.
+    /// Bytes held by the compact rows, masks, hierarchies and one preconditioner work set (f32 vectors).
     pub fn memory_bytes(&self) -> usize {
         let rows: usize = self.rows.iter().map(|r| r.memory_bytes()).sum();
         let blocks: usize = self
@@ -251,7 +291,7 @@ impl SaddleSystem {
                 + self.pressure_mg.work_bytes();
         let coupling = self.coupling.velocity_active.iter().map(|v| v.len()).sum::<usize>()
             + self.coupling.pressure_active.len();
-        let work = 8 * (self.rows.iter().map(|r| r.len()).max().unwrap_or(0) + self.coupling.grid.len());
+        let work = 4 * (self.rows.iter().map(|r| r.len()).max().unwrap_or(0) + self.coupling.grid.len());
         rows + blocks + hierarchies + coupling + work + 8 * self.viscous_inverse.len()
     }
 }

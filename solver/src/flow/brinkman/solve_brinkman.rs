@@ -11,8 +11,8 @@ use super::surface_force::{surface_forces, SurfaceForces};
 use super::{BrinkmanError, BrinkmanMedium};
 use crate::flow::FlowField;
 use crate::linalg::{
-    bicgstab_until, gmres, BicgstabParams, BicgstabWork, GmresParams, KrylovParams, MultigridParams,
-    RightHandSide, Shadow, SolveError, SolveInfo, SparseVector,
+    gmres, refine_until, GmresParams, KrylovParams, MultigridParams, OuterResidual, RefinementParams,
+    RefinementWork, RightHandSide, SolveError, SolveInfo, SparseVector,
 };
 use crate::problem::{ChamberBoundaries, ChamberFace};
 use mesh::{Axis, EmbeddedGeometry, Layout};
@@ -23,9 +23,10 @@ use std::sync::Arc;
 /// The Krylov method around the block preconditioner.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub enum FlowKrylov {
-    /// Right-preconditioned BiCGSTAB: eight vectors of the coupled system, two preconditioner applications per
-    /// iteration (default: on the bench chamber it needs about as many applications as flexible GMRES(30),
-    /// which keeps 2 × 30 vectors; bench/RECORDS.md).
+    /// Mixed-precision iterative refinement: f64 residuals of the coupled system around right-preconditioned
+    /// BiCGSTAB corrections in f32 (seven f32 vectors beside the f64 solution; two preconditioner applications
+    /// per iteration). Default: on the bench chamber BiCGSTAB needs about as many applications as flexible
+    /// GMRES(30), which keeps 2 × 30 vectors (bench/RECORDS.md).
     Bicgstab,
     /// Flexible GMRES restarted after `restart` (default setting 30) iterations.
     Gmres,
@@ -36,6 +37,8 @@ pub enum FlowKrylov {
 pub struct BrinkmanParams {
     /// Relative residual of the coupled system and the iteration cap (default 1e-8, 400).
     pub krylov: KrylovParams,
+    /// Relative residual asked of each f32 correction solve of [`FlowKrylov::Bicgstab`] (default 1e-4).
+    pub inner_tolerance: f64,
     /// Default [`FlowKrylov::Bicgstab`].
     pub method: FlowKrylov,
     /// GMRES basis size per restart cycle (default 30; used by [`FlowKrylov::Gmres`] only).
@@ -51,6 +54,7 @@ impl Default for BrinkmanParams {
     fn default() -> Self {
         BrinkmanParams {
             krylov: KrylovParams { relative_tolerance: 1e-8, max_iterations: 400 },
+            inner_tolerance: RefinementParams::default().inner_tolerance,
             method: FlowKrylov::Bicgstab,
             restart: 30,
             multigrid: MultigridParams::default(),
@@ -122,75 +126,51 @@ pub fn solve_brinkman(
     let t_assembly = clock.elapsed().as_secs_f64();
     let clock = std::time::Instant::now();
     let mut x = vec![0.0; system.len()];
-    let mut work = system.work();
-    let operator = |v: &[f64], y: &mut [f64]| system.apply(v, y);
     // The relative residual bounds continuity only on average: solve on with a tighter residual until every
-    // grid cell keeps its volume to `tolerance × U/h` (the check of every run); BiCGSTAB within its iteration,
-    // GMRES by solving on from the solution reached.
+    // grid cell keeps its volume to `tolerance × U/h` (the check of every run).
     let tolerance = params.krylov.relative_tolerance;
     let limit = |x: &[f64]| {
         let speed =
             if driven { through_flow_mean(&system, &x[ranges[0].clone()]) } else { mean_velocity.abs() };
         tolerance * speed / h
     };
-    let mut krylov = params.krylov.clone();
-    let mut iterations = 0;
-    let mut residual_history = Vec::new();
-    let info = loop {
-        let remaining = params.krylov.max_iterations.saturating_sub(iterations).max(1);
-        let round = KrylovParams { max_iterations: remaining, ..krylov.clone() };
-        let precondition = |r: &[f64], z: &mut [f64]| system.precondition(r, z, &mut work);
-        let info = match params.method {
-            // No stored shadow: every vector of the coupled system costs 32 bytes per grid cell.
-            FlowKrylov::Bicgstab => bicgstab_until(
-                &operator,
-                precondition,
-                RightHandSide::Sparse(&rhs),
+    let (result, krylov_bytes) = match params.method {
+        FlowKrylov::Bicgstab => {
+            let mut work = system.work::<f32>();
+            let mut refinement = RefinementWork::default();
+            let result = refine_until(
+                &|v: &[f32], y: &mut [f32]| system.apply(v, y),
+                |r: &[f32], z: &mut [f32]| system.precondition(r, z, &mut work),
+                |x: &[f64], scale: f64, out: &mut [f32]| {
+                    let (norm, peak) = system.scaled_residual(x, &rhs, scale, out);
+                    OuterResidual { norm, unmet: peak / limit(x) }
+                },
+                RightHandSide::<f64>::Sparse(&rhs).norm(),
                 &mut x,
-                &BicgstabParams { krylov: round, shadow: Shadow::Unstored },
-                &mut BicgstabWork::default(),
-                |x, r| system.residual_continuity_peak(r) / limit(x),
-            ),
-            FlowKrylov::Gmres => gmres(
-                &operator,
-                precondition,
-                &rhs.to_dense(),
-                &mut x,
-                &GmresParams { krylov: round, restart: params.restart },
-            ),
-        };
-        let info = match info {
-            Ok(info) => info,
-            // Stopped short of the tighter target with the user's tolerance met: keep the solution (the
-            // divergence check of the run then says where continuity is looser).
-            Err(SolveError::NoConvergence {
-                iterations: more,
-                relative_residual,
-                residual_history: history,
-            }) if relative_residual <= tolerance => {
-                SolveInfo { iterations: more, relative_residual, residual_history: history }
-            }
-            Err(e) => return Err(BrinkmanError::from_solve(e)),
-        };
-        let round_converged = info.relative_residual <= krylov.relative_tolerance;
-        iterations += info.iterations;
-        residual_history.extend(info.residual_history.iter().skip(usize::from(!residual_history.is_empty())));
-        let limit = limit(&x);
-        let peak = system.continuity_peak(&x, &rhs);
-        if peak <= limit || !round_converged || iterations >= params.krylov.max_iterations {
-            break SolveInfo { iterations, relative_residual: info.relative_residual, residual_history };
+                &RefinementParams { krylov: params.krylov.clone(), inner_tolerance: params.inner_tolerance },
+                &mut refinement,
+            );
+            (result, refinement.memory_bytes())
         }
-        krylov.relative_tolerance = 0.5 * info.relative_residual * limit / peak;
+        FlowKrylov::Gmres => {
+            (gmres_until(&system, &rhs, &mut x, params, limit), 8 * system.len() * (2 * params.restart + 4))
+        }
+    };
+    let info = match result {
+        Ok(info) => info,
+        // Stopped short of the tighter target with the user's tolerance met: keep the solution (the
+        // divergence check of the run then says where continuity is looser).
+        Err(SolveError::NoConvergence { iterations, relative_residual, residual_history })
+            if relative_residual <= tolerance =>
+        {
+            SolveInfo { iterations, relative_residual, residual_history }
+        }
+        Err(e) => return Err(BrinkmanError::from_solve(e)),
     };
     if x.iter().any(|v| !v.is_finite()) {
         return Err(BrinkmanError::NonFinite { iteration: info.iterations });
     }
-    let krylov_vectors = match params.method {
-        FlowKrylov::Bicgstab => 6,
-        FlowKrylov::Gmres => 2 * params.restart + 5,
-    };
-    let memory_bytes = system.memory_bytes() + 8 * system.len() * krylov_vectors;
-    drop(work);
+    let memory_bytes = system.memory_bytes() + 8 * system.len() + krylov_bytes;
     let t_solve = clock.elapsed().as_secs_f64();
     let clock = std::time::Instant::now();
 
@@ -402,6 +382,66 @@ fn close_dead_end_faces(coupling: &PressureCoupling, blocks: &mut [MomentumBlock
                 *value = 0.0;
             }
         }
+    }
+}
+
+/// Flexible GMRES on the f64 system, solving on from the solution reached with a tighter residual until the
+/// continuity peak is within `limit(x)`.
+fn gmres_until(
+    system: &SaddleSystem,
+    rhs: &SparseVector,
+    x: &mut [f64],
+    params: &BrinkmanParams,
+    limit: impl Fn(&[f64]) -> f64,
+) -> Result<SolveInfo, SolveError> {
+    let mut work = system.work::<f64>();
+    let operator = |v: &[f64], y: &mut [f64]| system.apply(v, y);
+    let dense = rhs.to_dense();
+    let mut krylov = params.krylov.clone();
+    let mut iterations = 0;
+    let mut residual_history = Vec::new();
+    loop {
+        let remaining = params.krylov.max_iterations.saturating_sub(iterations).max(1);
+        let round = KrylovParams { max_iterations: remaining, ..krylov.clone() };
+        let precondition = |r: &[f64], z: &mut [f64]| system.precondition(r, z, &mut work);
+        let info = match gmres(
+            &operator,
+            precondition,
+            &dense,
+            x,
+            &GmresParams { krylov: round, restart: params.restart },
+        ) {
+            Ok(info) => info,
+            Err(SolveError::NoConvergence {
+                iterations: more,
+                relative_residual,
+                residual_history: history,
+            }) if relative_residual <= params.krylov.relative_tolerance => {
+                SolveInfo { iterations: more, relative_residual, residual_history: history }
+            }
+            Err(SolveError::NoConvergence {
+                iterations: more,
+                relative_residual,
+                residual_history: history,
+            }) => {
+                residual_history.extend(history.iter().skip(usize::from(!residual_history.is_empty())));
+                return Err(SolveError::NoConvergence {
+                    iterations: iterations + more,
+                    relative_residual,
+                    residual_history,
+                });
+            }
+            Err(e) => return Err(e),
+        };
+        let round_converged = info.relative_residual <= krylov.relative_tolerance;
+        iterations += info.iterations;
+        residual_history.extend(info.residual_history.iter().skip(usize::from(!residual_history.is_empty())));
+        let limit = limit(x);
+        let peak = system.continuity_peak(x, rhs);
+        if peak <= limit || !round_converged || iterations >= params.krylov.max_iterations {
+            return Ok(SolveInfo { iterations, relative_residual: info.relative_residual, residual_history });
+        }
+        krylov.relative_tolerance = 0.5 * info.relative_residual * limit / peak;
     }
 }
 

@@ -13,6 +13,7 @@
 //! The shadow vector r̂ is the caller's choice ([`Shadow`]): the stored initial residual (the usual choice), or
 //! no stored vector at all, for systems where every vector is expensive (the coupled flow system).
 
+use super::super::real::Real;
 use super::super::vector::{
     axpy, axpy_norm2, axpy_norm2_dot, chunked_sum, dot, dot2, norm, update_direction, zero,
 };
@@ -39,18 +40,30 @@ pub struct BicgstabParams {
 
 /// The work vectors of BiCGSTAB (five, six with a stored shadow), kept by callers that solve many systems of one
 /// size (time steps): allocating them afresh costs a page fault per 4 KiB on first touch. The result does not
-/// depend on what they held before.
-#[derive(Default)]
-pub struct BicgstabWork {
-    r: Vec<f64>,
-    r0: Vec<f64>,
-    p: Vec<f64>,
-    v: Vec<f64>,
-    y: Vec<f64>,
-    t: Vec<f64>,
+/// depend on what they held before. f64 by default; f32 for an inner solve of [`super::refine_until`].
+pub struct BicgstabWork<T = f64> {
+    r: Vec<T>,
+    r0: Vec<T>,
+    p: Vec<T>,
+    v: Vec<T>,
+    y: Vec<T>,
+    t: Vec<T>,
 }
 
-impl BicgstabWork {
+impl<T> Default for BicgstabWork<T> {
+    fn default() -> Self {
+        BicgstabWork {
+            r: Vec::new(),
+            r0: Vec::new(),
+            p: Vec::new(),
+            v: Vec::new(),
+            y: Vec::new(),
+            t: Vec::new(),
+        }
+    }
+}
+
+impl<T: Real> BicgstabWork<T> {
     /// Work vectors for systems of `n` unknowns with a stored shadow.
     pub fn new(n: usize) -> Self {
         let mut work = BicgstabWork::default();
@@ -58,12 +71,18 @@ impl BicgstabWork {
         work
     }
 
+    /// Bytes held.
+    pub fn memory_bytes(&self) -> usize {
+        let vectors = [&self.r, &self.r0, &self.p, &self.v, &self.y, &self.t];
+        vectors.iter().map(|v| v.capacity()).sum::<usize>() * std::mem::size_of::<T>()
+    }
+
     fn resize(&mut self, n: usize, shadow: Shadow) {
         for v in [&mut self.r, &mut self.p, &mut self.v, &mut self.y, &mut self.t] {
-            v.resize(n, 0.0);
+            v.resize(n, T::ZERO);
         }
         match shadow {
-            Shadow::InitialResidual => self.r0.resize(n, 0.0),
+            Shadow::InitialResidual => self.r0.resize(n, T::ZERO),
             Shadow::Unstored => self.r0 = Vec::new(),
         }
     }
@@ -90,24 +109,27 @@ fn hashed(i: usize) -> f64 {
 }
 
 impl ShadowVector {
-    fn dot(&self, r0: &[f64], b: &RightHandSide<'_>, v: &[f64]) -> f64 {
+    fn dot<T: Real>(&self, r0: &[T], b: &RightHandSide<'_, T>, v: &[T]) -> f64 {
         match self {
             ShadowVector::Stored => dot(r0, v),
             ShadowVector::RightHandSide => b.dot(v),
-            ShadowVector::Hashed => chunked_sum(v.len(), |range| range.map(|i| hashed(i) * v[i]).sum()),
+            ShadowVector::Hashed => {
+                chunked_sum(v.len(), |range| range.map(|i| hashed(i) * v[i].to_f64()).sum())
+            }
         }
     }
 }
 
 /// Solves `A x = b` from the initial guess in `x` on the caller's work vectors (resized to `b.len()` if
-/// needed). `precondition(r, z)` sets `z ≈ A⁻¹ r` (one multigrid cycle here).
-pub fn bicgstab(
-    a: &impl LinearOperator,
-    precondition: impl FnMut(&[f64], &mut [f64]),
-    b: RightHandSide<'_>,
-    x: &mut [f64],
+/// needed). `precondition(r, z)` sets `z ≈ A⁻¹ r` (one multigrid cycle here). The vectors are f64 or f32; the
+/// scalars and every sum are f64.
+pub fn bicgstab<T: Real>(
+    a: &impl LinearOperator<T>,
+    precondition: impl FnMut(&[T], &mut [T]),
+    b: RightHandSide<'_, T>,
+    x: &mut [T],
     params: &BicgstabParams,
-    work: &mut BicgstabWork,
+    work: &mut BicgstabWork<T>,
 ) -> Result<SolveInfo, SolveError> {
     bicgstab_until(a, precondition, b, x, params, work, |_, _| 0.0)
 }
@@ -116,14 +138,14 @@ pub fn bicgstab(
 /// `unmet(x, r)` (r = b − A x, the true residual) says how far that criterion is from being met; a value ≤ 1
 /// stops, a value q > 1 lowers the residual target to `relative/(2q)` and the iteration goes on (its directions
 /// kept after a full step). Running out of iterations is `NoConvergence` as usual, with the residual reached.
-pub fn bicgstab_until(
-    a: &impl LinearOperator,
-    mut precondition: impl FnMut(&[f64], &mut [f64]),
-    b: RightHandSide<'_>,
-    x: &mut [f64],
+pub fn bicgstab_until<T: Real>(
+    a: &impl LinearOperator<T>,
+    mut precondition: impl FnMut(&[T], &mut [T]),
+    b: RightHandSide<'_, T>,
+    x: &mut [T],
     params: &BicgstabParams,
-    work: &mut BicgstabWork,
-    mut unmet: impl FnMut(&[f64], &[f64]) -> f64,
+    work: &mut BicgstabWork<T>,
+    mut unmet: impl FnMut(&[T], &[T]) -> f64,
 ) -> Result<SolveInfo, SolveError> {
     let n = b.len();
     assert_eq!(x.len(), n, "bicgstab: x and b differ in length");
@@ -132,19 +154,19 @@ pub fn bicgstab_until(
         return Err(SolveError::NonFinite { iteration: 0 });
     }
     if b_norm == 0.0 {
-        x.iter_mut().for_each(|v| *v = 0.0);
+        x.iter_mut().for_each(|v| *v = T::ZERO);
         return Ok(SolveInfo::zero_right_hand_side());
     }
     let mut tol = params.krylov.relative_tolerance;
     let mut shadow = match params.shadow {
         Shadow::InitialResidual => ShadowVector::Stored,
-        Shadow::Unstored if x.iter().all(|&v| v == 0.0) => ShadowVector::RightHandSide,
+        Shadow::Unstored if x.iter().all(|&v| v == T::ZERO) => ShadowVector::RightHandSide,
         Shadow::Unstored => ShadowVector::Hashed,
     };
     work.resize(n, params.shadow);
     let BicgstabWork { r, r0, p, v, y, t } = work;
     let (r, r0, p, v, y, t) = (&mut r[..], &mut r0[..], &mut p[..], &mut v[..], &mut y[..], &mut t[..]);
-    let true_residual = |x: &[f64], r: &mut [f64]| -> f64 {
+    let true_residual = |x: &[T], r: &mut [T]| -> f64 {
         a.apply(x, r);
         b.residual_from_product(r);
         norm(r) / b_norm
@@ -162,7 +184,7 @@ pub fn bicgstab_until(
         tol = relative / (2.0 * q);
     }
     // A fresh start from the current residual r: new shadow, zero directions.
-    let restart = |shadow: &mut ShadowVector, r0: &mut [f64], r: &[f64], p: &mut [f64], v: &mut [f64]| {
+    let restart = |shadow: &mut ShadowVector, r0: &mut [T], r: &[T], p: &mut [T], v: &mut [T]| {
         match shadow {
             ShadowVector::Stored => r0.copy_from_slice(r),
             _ => *shadow = ShadowVector::Hashed,

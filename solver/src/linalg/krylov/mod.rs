@@ -1,31 +1,35 @@
 //! Krylov methods for nonsymmetric `A x = b`, preconditioned on the right, on the shared vector kernels
-//! (`super::vector`: fixed-order reductions, so every method gives the same bits at any thread count).
+//! (`super::vector`: fixed-order reductions, so every method gives the same bits at any thread count). BiCGSTAB
+//! runs on f64 or f32 vectors (f64 scalars and sums either way).
 //!
 //! - [`LinearOperator`]: what a method needs of `A` (`apply`); closures `Fn(&[f64], &mut [f64])` are operators.
 //! - [`bicgstab`]: BiCGSTAB, its shadow vector and kept work vectors chosen by the caller.
 //! - [`gmres`]: restarted flexible GMRES.
 //! - [`RightHandSide`]: a dense or sparse `b` (the flow system's is nonzero only near driven faces).
+//! - [`refine_until`]: mixed-precision iterative refinement, f64 residuals around f32 BiCGSTAB corrections.
 //!
 //! Every method takes a `Params` with `Default`, returns [`SolveInfo`] (iterations, residual history) or a
 //! [`SolveError`] that carries the residual it stopped at.
 
 pub mod bicgstab;
 pub mod gmres;
+pub mod refinement;
 pub mod right_hand_side;
 
 pub use bicgstab::{bicgstab, bicgstab_until, BicgstabParams, BicgstabWork, Shadow};
 pub use gmres::{gmres, GmresParams};
+pub use refinement::{refine_until, store_scaled_residual, OuterResidual, RefinementParams, RefinementWork};
 pub use right_hand_side::{RightHandSide, SparseVector};
 
 use thiserror::Error;
 
-/// `y = A x`.
-pub trait LinearOperator {
-    fn apply(&self, x: &[f64], y: &mut [f64]);
+/// `y = A x` on vectors of f64 (default) or f32.
+pub trait LinearOperator<T = f64> {
+    fn apply(&self, x: &[T], y: &mut [T]);
 }
 
-impl<F: Fn(&[f64], &mut [f64])> LinearOperator for F {
-    fn apply(&self, x: &[f64], y: &mut [f64]) {
+impl<T, F: Fn(&[T], &mut [T])> LinearOperator<T> for F {
+    fn apply(&self, x: &[T], y: &mut [T]) {
         self(x, y)
     }
 }

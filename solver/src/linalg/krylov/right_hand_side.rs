@@ -1,5 +1,6 @@
 //! The right-hand side `b` of a Krylov solve, dense or stored as its nonzero entries.
 
+use super::super::real::Real;
 use super::super::vector::{dot, norm, residual_from_product, CHUNK};
 use rayon::prelude::*;
 
@@ -24,14 +25,14 @@ impl SparseVector {
     }
 }
 
-/// `b` of `A x = b`.
+/// `b` of `A x = b`, for vectors of f64 (default) or f32.
 #[derive(Clone, Copy, Debug)]
-pub enum RightHandSide<'a> {
-    Dense(&'a [f64]),
+pub enum RightHandSide<'a, T = f64> {
+    Dense(&'a [T]),
     Sparse(&'a SparseVector),
 }
 
-impl RightHandSide<'_> {
+impl<T: Real> RightHandSide<'_, T> {
     pub fn len(&self) -> usize {
         match self {
             RightHandSide::Dense(b) => b.len(),
@@ -52,21 +53,21 @@ impl RightHandSide<'_> {
     }
 
     /// `b · v`.
-    pub fn dot(&self, v: &[f64]) -> f64 {
+    pub fn dot(&self, v: &[T]) -> f64 {
         match self {
             RightHandSide::Dense(b) => dot(b, v),
-            RightHandSide::Sparse(b) => b.entries.iter().map(|&(i, bi)| bi * v[i]).sum(),
+            RightHandSide::Sparse(b) => b.entries.iter().map(|&(i, bi)| bi * v[i].to_f64()).sum(),
         }
     }
 
     /// `r ← b − r` (turns `r = A x` into the residual).
-    pub fn residual_from_product(&self, r: &mut [f64]) {
+    pub fn residual_from_product(&self, r: &mut [T]) {
         match self {
             RightHandSide::Dense(b) => residual_from_product(b, r),
             RightHandSide::Sparse(b) => {
                 // −r + b is b − r exactly.
                 r.par_iter_mut().with_min_len(CHUNK).for_each(|v| *v = -*v);
-                b.entries.iter().for_each(|&(i, v)| r[i] += v);
+                b.entries.iter().for_each(|&(i, v)| r[i] = T::from_f64(r[i].to_f64() + v));
             }
         }
     }
