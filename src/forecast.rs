@@ -40,6 +40,9 @@ const ADAPTIVE_STEPS: f64 = 100.0;
 /// hierarchy and the sensing window of a transient run, bytes per grid cell (transient minus steady peak of
 /// cases/bench128.toml).
 const TRANSIENT_BYTES_PER_GRID_CELL: f64 = 120.0;
+/// The own field of one split cell in a transient run: the field and its history, bytes per grid cell (their
+/// copies in a checkpoint are transient).
+const OWN_FIELD_BYTES_PER_GRID_CELL: f64 = 16.0;
 /// Parallel efficiency assumed for the threads of one case (common practice for memory-bound stencils).
 const THREAD_EFFICIENCY: f64 = 0.7;
 
@@ -71,17 +74,19 @@ impl Forecast {
             forecast.seconds_one_thread += VISCOUS_FLOW_SECONDS_PER_GRID_CELL * n * phases as f64;
         }
         if let Some(t) = transient {
-            // A transient run has no self/neighbour split; it keeps a few history fields.
+            // A transient run keeps a few history fields; its split (only when asked) integrates each chosen
+            // cell's own field with the same steps, one more solve per step, two more fields per cell.
             forecast.seconds_one_thread -= forecast.decompose_seconds_one_thread;
-            forecast.decompose_seconds_one_thread = 0.0;
-            forecast.decomposed_cells = 0;
             let steps = if t.adaptive.is_some() {
                 ADAPTIVE_STEPS
             } else {
                 (t.end_time / t.time_step).ceil().max(1.0)
             };
-            forecast.seconds_one_thread += STEP_SECONDS_PER_GRID_CELL * n * steps;
-            forecast.memory_bytes += TRANSIENT_BYTES_PER_GRID_CELL * n;
+            let split = (STEP_SECONDS_PER_GRID_CELL * n * steps) * decomposed as f64;
+            forecast.decompose_seconds_one_thread = split;
+            forecast.seconds_one_thread += STEP_SECONDS_PER_GRID_CELL * n * steps + split;
+            forecast.memory_bytes +=
+                (TRANSIENT_BYTES_PER_GRID_CELL + OWN_FIELD_BYTES_PER_GRID_CELL * decomposed as f64) * n;
         }
         forecast
     }
@@ -172,6 +177,12 @@ mod tests {
             stepped.seconds_one_thread
         );
         assert!(stepped.memory_bytes > steady.memory_bytes);
+        // Asked for explicitly, the split of two cells costs two more integrations.
+        let split = Forecast::of(&parse(&transient.replace("[sensing]", "[sensing]\ndecompose = [0, 1]")));
+        let more = split.seconds_one_thread - stepped.seconds_one_thread;
+        assert!((more - 2.0 * 120.0 * STEP_SECONDS_PER_GRID_CELL * 1e6).abs() < 1e-9, "{more}");
+        assert_eq!((split.decomposed_cells, stepped.decomposed_cells), (2, 0));
+        assert!(split.memory_bytes > stepped.memory_bytes);
     }
 
     #[test]

@@ -665,18 +665,21 @@ fn sensing_statistics_keys_default_and_refuse_bad_values() {
 }
 
 #[test]
-fn an_explicit_split_in_a_transient_run_is_said_to_be_not_carried_out() {
+fn a_transient_run_splits_only_the_cells_asked_for() {
+    use solver::post::decompose::DecomposeSelection;
     let transient =
         edit("mode = \"steady\"", "mode = \"transient\"\nend_time = \"2 h\"\ntime_step = \"60 s\"");
     let quiet = parse(&transient).expect("transient case");
+    assert_eq!(
+        quiet.sensing.decompose,
+        DecomposeSelection::None,
+        "a transient case splits nothing by default"
+    );
     assert!(!quiet.warnings.iter().any(|w| w.contains("sensing.decompose")), "{:?}", quiet.warnings);
     let asked = parse(
         &transient.replace("integration_time = \"1 h\"", "integration_time = \"1 h\"\ndecompose = \"all\""),
     )
     .expect("transient case with decompose");
-    assert!(
-        asked.warnings.iter().any(|w| w.contains("sensing.decompose is not carried out in transient runs")),
-        "{:?}",
-        asked.warnings
-    );
+    assert_eq!(asked.sensing.decompose, DecomposeSelection::All);
+    assert!(!asked.warnings.iter().any(|w| w.contains("sensing.decompose")), "{:?}", asked.warnings);
 }

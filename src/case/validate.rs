@@ -240,15 +240,11 @@ pub(super) fn validate(raw: RawCase, text: &str, path: &Path) -> Result<Case, Ca
     let (raw_solve, solve_span) = section(raw.solve);
     let mut solve = validate_solve(&src, &raw_solve)?;
     let (raw_sensing, _) = section(raw.sensing);
-    let sensing = validate_sensing(&src, &raw_sensing, fitted.size[0], placed.layout.cells.len())?;
+    let mut sensing = validate_sensing(&src, &raw_sensing, fitted.size[0], placed.layout.cells.len())?;
     if solve.mode == SolveMode::Transient {
-        if let Some(v) = &raw_sensing.decompose {
-            // Said once rather than ignored: a transient run writes no split columns.
-            warnings.push(format!(
-                "{} line {}: sensing.decompose is not carried out in transient runs (no self/neighbour columns are written); run the case with solve.mode = \"steady\" for the split",
-                path.display(),
-                src.line(&v.span())
-            ));
+        if raw_sensing.decompose.is_none() {
+            // Each split cell costs a whole time integration more: a transient run splits only when asked.
+            sensing.decompose = solver::post::decompose::DecomposeSelection::None;
         }
         let case_dir = path.parent().unwrap_or(Path::new("."));
         solve.transient = Some(super::transient::validate_transient(

@@ -87,6 +87,8 @@ pub struct StageMeter {
     scope: PeakScope,
     current: Option<(MeteredStage, Instant)>,
     done: Vec<(MeteredStage, StageCost)>,
+    /// Seconds measured inside a stage that belong to a stage of their own: (inside, own stage, seconds).
+    carved: Vec<(MeteredStage, MeteredStage, f64)>,
 }
 
 impl Default for StageMeter {
@@ -105,12 +107,18 @@ impl StageMeter {
         } else {
             PeakScope::SinceStart
         };
-        StageMeter { started: Instant::now(), scope, current: None, done: Vec::new() }
+        StageMeter { started: Instant::now(), scope, current: None, done: Vec::new(), carved: Vec::new() }
     }
 
     /// Wall times only, and no reset of the process's high-water mark (for cases that share the process).
     pub fn times_only() -> Self {
-        StageMeter { started: Instant::now(), scope: PeakScope::Unavailable, current: None, done: Vec::new() }
+        StageMeter {
+            started: Instant::now(),
+            scope: PeakScope::Unavailable,
+            current: None,
+            done: Vec::new(),
+            carved: Vec::new(),
+        }
     }
 
     /// Ends the current stage (if any) and starts `stage`.
@@ -120,6 +128,13 @@ impl StageMeter {
             self.scope = PeakScope::SinceStart;
         }
         self.current = Some((stage, Instant::now()));
+    }
+
+    /// Records `seconds` of `inside` (a stage run or running) as a stage of their own, `stage`: work
+    /// interleaved with another stage's, such as the own fields of a transient split inside the time loop. The
+    /// seconds leave `inside`'s wall time; `stage`'s peak memory is `inside`'s (they ran together).
+    pub fn carve(&mut self, inside: MeteredStage, stage: MeteredStage, seconds: f64) {
+        self.carved.push((inside, stage, seconds));
     }
 
     /// Ends the current stage.
@@ -149,7 +164,14 @@ impl StageMeter {
             ..Resources::default()
         };
         let current = self.current.map(|(stage, _)| (stage, self.current_cost()));
-        for (stage, cost) in self.done.iter().copied().chain(current) {
+        let mut stages: Vec<(MeteredStage, StageCost)> = self.done.iter().copied().chain(current).collect();
+        for &(inside, stage, seconds) in &self.carved {
+            let Some(from) = stages.iter_mut().find(|(s, _)| *s == inside) else { continue };
+            from.1.wall_s -= seconds;
+            let cost = StageCost { wall_s: seconds, peak_resident_bytes: from.1.peak_resident_bytes };
+            stages.push((stage, cost));
+        }
+        for (stage, cost) in stages {
             let slot = match stage {
                 MeteredStage::Geometry => &mut r.geometry,
                 MeteredStage::Flow => &mut r.flow,

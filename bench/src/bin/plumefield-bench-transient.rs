@@ -305,6 +305,7 @@ fn run(cli: &Cli) -> Result<()> {
         steady: Some(reference),
         stop_at_steady: Some(STEADY_DISTANCE),
         switched_on_far_field: true,
+        split_cells: Vec::new(),
     };
     let state = initial_state(&problem, &run_params, vec![0.0; n]);
     let mut clock = StepClock {
@@ -442,6 +443,7 @@ fn demo(cli: &Cli) -> Result<()> {
         steady: None,
         stop_at_steady: Some(STEADY_DISTANCE),
         switched_on_far_field: true,
+        split_cells: Vec::new(),
     };
     let transient = TransientCase {
         steady: steady_case(&case),

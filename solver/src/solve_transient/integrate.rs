@@ -1,11 +1,13 @@
 //! The time loop: variable-step BDF2 on the assembled steady operator, cut at every event and output time,
 //! optionally adaptive, with the per-step mass balance, the sensing window and the approach to steady state.
 
-use super::state::{Crossings, TransientState};
+use super::own_fields::{OwnFieldSteps, OwnStep};
+use super::state::{Crossings, OwnField, TransientState};
 use super::{
     FlowPhase, StepReport, TimeStepping, TransientError, TransientObserver, TransientOutput, TransientParams,
     TransientProblem,
 };
+use crate::post::decompose::CellSplit;
 use crate::post::sensing_window::{becomes_readable_by, cell_rates, ReadableSince, WindowCounts};
 use crate::post::{cell_sensing_in_local_flow, local_flow_per_cell, CellSensing};
 use crate::problem::{ChamberFace, SurfaceUptake};
@@ -153,6 +155,11 @@ pub fn initial_state(
         outputs_done: 0,
         worst_balance_error: 0.0,
         stopped_at_steady: false,
+        own_fields: params
+            .split_cells
+            .iter()
+            .map(|&c| OwnField::zero(c, problem.geometry.grid.len()))
+            .collect(),
     }
 }
 
@@ -247,6 +254,7 @@ struct Stepper<'a, 'p> {
     spare: Vec<Vec<f64>>,
     base_products: BaseProducts,
     stored: StoredAmounts,
+    own: OwnFieldSteps,
 }
 
 /// Integrates from `state` to `params.end_time` (or to steady state), telling `observer` about every
@@ -260,6 +268,11 @@ pub fn integrate(
     let n = problem.geometry.grid.len();
     if state.concentration.len() != n {
         return Err(TransientError::InitialLength { found: state.concentration.len(), expected: n });
+    }
+    let cells = problem.layout.cells.len();
+    let own_cells: Vec<usize> = state.own_fields.iter().map(|o| o.cell).collect();
+    if own_cells != params.split_cells || own_cells.iter().any(|&c| c >= cells) {
+        return Err(TransientError::SplitCells { found: own_cells, expected: params.split_cells.clone() });
     }
     let marks = Marks::plan(problem, params);
     let mut stepper = Stepper::start(problem, params, &mut state);
@@ -319,6 +332,7 @@ impl<'a, 'p> Stepper<'a, 'p> {
             spare: Vec::new(),
             base_products: BaseProducts::default(),
             stored: StoredAmounts::default(),
+            own: OwnFieldSteps::new(geometry, cells),
         };
         // Rates at the start (or resume) time.
         if state.last_rates.is_empty() {
@@ -480,6 +494,19 @@ impl<'a, 'p> Stepper<'a, 'p> {
             distance = Some(relative_change(&steady.concentration, &c_new));
         }
 
+        let restart = marks.restarts_at(t_new);
+        let own_step = OwnStep {
+            facets: &self.facets_now,
+            t,
+            t_new,
+            alpha,
+            t_previous: with_history.then(|| state.previous[0].0),
+            restart,
+            krylov: &params.krylov,
+        };
+        let mut split_seconds =
+            self.own.advance(problem.geometry, &mut self.system.solver, &own_step, &mut state.own_fields);
+
         let order = if with_history { 2 } else { 1 };
         // Shift the history.
         let old = std::mem::replace(&mut state.concentration, c_new);
@@ -498,7 +525,7 @@ impl<'a, 'p> Stepper<'a, 'p> {
             TimeStepping::Adaptive { .. } => h * factor,
         };
         // Events restart the history (the next step is first order).
-        if marks.restarts_at(t_new) {
+        if restart {
             self.spare.extend(state.previous.drain(..).map(|(_, c)| c));
         }
         let at_output = params.output_times.iter().any(|&o| (o - t_new).abs() <= eps);
@@ -509,7 +536,24 @@ impl<'a, 'p> Stepper<'a, 'p> {
                 state.stopped_at_steady = held_for_readable == 0;
             }
         }
+        let emits = at_output || state.stopped_at_steady || state.time >= params.end_time - eps;
+        let splits = if emits && !state.own_fields.is_empty() {
+            let started = std::time::Instant::now();
+            let splits = self.own.splits(
+                problem.geometry,
+                &self.facets_now,
+                problem.ligand.uptake,
+                &sensing,
+                &state.own_fields,
+                &state.concentration,
+            );
+            split_seconds += started.elapsed().as_secs_f64();
+            splits
+        } else {
+            Vec::new()
+        };
         let report = StepReport {
+            split_seconds,
             time: t_new,
             step_size: h,
             order,
@@ -519,8 +563,8 @@ impl<'a, 'p> Stepper<'a, 'p> {
             held_for_readable,
         };
         observer.step(state, &report).map_err(TransientError::Observer)?;
-        if at_output || state.stopped_at_steady || state.time >= params.end_time - eps {
-            emit(problem, state, observer, &sensing, balance, outlet, at_output)?;
+        if emits {
+            emit(state, observer, &sensing, &splits, balance, outlet, at_output)?;
         }
         Ok(())
     }
@@ -584,10 +628,10 @@ fn control_step(params: &TransientParams, state: &mut TransientState, step: &Sol
 /// Tells the observer about an output time. A final state that is not a regular output time (early stop, end
 /// time off the output grid) is emitted as well, once.
 fn emit(
-    _problem: &TransientProblem,
     state: &mut TransientState,
     observer: &mut dyn TransientObserver,
     sensing: &[CellSensing],
+    splits: &[CellSplit],
     balance: StepBalance,
     outlet: Option<f64>,
     regular: bool,
@@ -598,6 +642,7 @@ fn emit(
         regular,
         concentration: &state.concentration,
         sensing,
+        splits,
         counts: &state.counts,
         balance,
         outlet_concentration: outlet,

@@ -15,13 +15,14 @@
 
 pub mod case;
 pub mod integrate;
+mod own_fields;
 pub mod state;
 
 pub use crate::post::sensing_window::WindowCounts;
 pub use crate::transport::transient::StepBalance;
 pub use case::{solve_transient_case, TransientCase, TransientSolution, TransientTiming};
 pub use integrate::{initial_state, integrate};
-pub use state::{Crossings, TransientState, FRACTIONS};
+pub use state::{Crossings, OwnField, TransientState, FRACTIONS};
 
 use crate::embedded::FacetStencils;
 use crate::linalg::{KrylovParams, MultigridParams};
@@ -101,6 +102,9 @@ pub struct TransientParams {
     pub stop_at_steady: Option<f64>,
     /// Far-field faces use the switched-on solution (zero initial field) rather than the steady condition.
     pub switched_on_far_field: bool,
+    /// Cells (layout indices, ascending) whose own field is integrated beside the total for the self/neighbour
+    /// split (one more solve per accepted step each; see `own_fields`); empty for none.
+    pub split_cells: Vec<usize>,
 }
 
 /// One accepted step, for progress display and checkpoints.
@@ -116,6 +120,8 @@ pub struct StepReport {
     /// At steady state with `stop_at_steady`: cells whose window error, not yet readable, will reach the
     /// readable level before the end time at the present rates (the run goes on for them); 0 otherwise.
     pub held_for_readable: usize,
+    /// Wall seconds of the step spent on the own fields of the self/neighbour split (0 without it).
+    pub split_seconds: f64,
 }
 
 /// The fields at an output time.
@@ -126,6 +132,9 @@ pub struct TransientOutput<'a> {
     pub regular: bool,
     pub concentration: &'a [f64],
     pub sensing: &'a [CellSensing],
+    /// The self/neighbour split of every chosen cell whose own field is intact (`TransientState::own_fields`
+    /// holds the failed ones); empty without a split.
+    pub splits: &'a [crate::post::decompose::CellSplit],
     pub counts: &'a WindowCounts,
     pub balance: StepBalance,
     pub outlet_concentration: Option<f64>,
@@ -159,6 +168,8 @@ pub enum TransientError {
     StepTooSmall { time: f64, step: f64 },
     #[error("the initial field has {found} values but the grid has {expected} cells")]
     InitialLength { found: usize, expected: usize },
+    #[error("the saved state splits cells {found:?} but the case asks for {expected:?}")]
+    SplitCells { found: Vec<usize>, expected: Vec<usize> },
     #[error("{0}")]
     Observer(String),
     #[error(transparent)]

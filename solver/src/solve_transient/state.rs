@@ -85,6 +85,33 @@ pub struct TransientState {
     /// Largest relative mass-balance error of any step so far.
     pub worst_balance_error: f64,
     pub stopped_at_steady: bool,
+    /// The own fields of the cells chosen for the self/neighbour split, in the order of
+    /// `TransientParams::split_cells` (empty without a split).
+    pub own_fields: Vec<OwnField>,
+}
+
+/// The field of one cell's own secretion alone, integrated with the same steps and operator as the total (see
+/// `own_fields`). It starts from zero: an initial field read from a file belongs to the rest.
+#[derive(Clone, Debug, PartialEq)]
+pub struct OwnField {
+    /// Index of the cell in the layout.
+    pub cell: usize,
+    /// The own field at the state's time; empty once its integration failed.
+    pub concentration: Vec<f64>,
+    /// The own field at the time of `TransientState::previous[0]` (the BDF2 history); empty when that history is.
+    pub previous: Vec<f64>,
+    /// Krylov iterations of its steps so far.
+    pub iterations: usize,
+    /// The time of the step whose solve failed (its split is NaN from then on), and the relative residual
+    /// reached (NaN for a non-finite field).
+    pub failed: Option<(f64, f64)>,
+}
+
+impl OwnField {
+    /// A zero own field of `cell` on a grid of `n` cells.
+    pub fn zero(cell: usize, n: usize) -> Self {
+        OwnField { cell, concentration: vec![0.0; n], previous: Vec::new(), iterations: 0, failed: None }
+    }
 }
 
 /// Why a flattened state cannot be read back.
@@ -129,6 +156,15 @@ impl TransientState {
         push_vec(&mut out, &cells);
         let readable: Vec<f64> = self.readable.since.iter().map(|&t| opt(t)).collect();
         push_vec(&mut out, &readable);
+        out.push(self.own_fields.len() as f64);
+        for own in &self.own_fields {
+            out.push(own.cell as f64);
+            out.push(own.iterations as f64);
+            let (at, residual) = own.failed.map_or((NONE, NONE), |(t, r)| (t, r));
+            out.extend([if own.failed.is_some() { 1.0 } else { 0.0 }, at, residual]);
+            push_vec(&mut out, &own.concentration);
+            push_vec(&mut out, &own.previous);
+        }
         out.push(MAGIC);
         out
     }
@@ -161,6 +197,19 @@ impl TransientState {
         let flat = r.vec()?;
         let cells = flat.chunks_exact(2).map(|c| [as_opt(c[0]), as_opt(c[1])]).collect();
         let readable = ReadableSince { since: r.vec()?.into_iter().map(as_opt).collect() };
+        let mut own_fields = Vec::new();
+        for _ in 0..r.count()? {
+            let cell = r.count()?;
+            let iterations = r.count()?;
+            let (failed, at, residual) = (r.next()? == 1.0, r.next()?, r.next()?);
+            own_fields.push(OwnField {
+                cell,
+                iterations,
+                failed: failed.then_some((at, residual)),
+                concentration: r.vec()?,
+                previous: r.vec()?,
+            });
+        }
         if r.next()? != MAGIC || r.at != data.len() {
             return Err(DecodeError("wrong trailer"));
         }
@@ -179,6 +228,7 @@ impl TransientState {
             outputs_done,
             worst_balance_error,
             stopped_at_steady,
+            own_fields,
         })
     }
 }
@@ -240,6 +290,22 @@ mod tests {
             outputs_done: 3,
             worst_balance_error: 1e-10,
             stopped_at_steady: false,
+            own_fields: vec![
+                OwnField {
+                    cell: 1,
+                    concentration: vec![0.1, 0.2, 0.0],
+                    previous: vec![0.05, 0.1, 0.0],
+                    iterations: 9,
+                    failed: None,
+                },
+                OwnField {
+                    cell: 0,
+                    concentration: Vec::new(),
+                    previous: Vec::new(),
+                    iterations: 3,
+                    failed: Some((7.5, 2.0e-3)),
+                },
+            ],
         };
         let decoded = TransientState::decode(&state.encode()).unwrap();
         assert_eq!(decoded, state);

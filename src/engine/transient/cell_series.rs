@@ -9,6 +9,7 @@
 use crate::case::Case;
 use crate::io::table::Column;
 use crate::outputs::columns::{cell_columns, CellState, RunKind};
+use solver::post::decompose::CellSplit;
 use solver::post::CellSensing;
 use solver::solve_transient::TransientOutput;
 
@@ -105,6 +106,52 @@ pub fn time_columns(case: &Case, sensed: &[f64], drag: &[[f64; 3]], secretion_st
     columns
 }
 
+/// Values of one cell's self/neighbour split in a restart record, in the order [`split_values`] writes them.
+pub const SPLIT_VALUES: usize = 16;
+
+/// The restart values of the splits of one output time (`SPLIT_VALUES` per split cell): cell, own and
+/// neighbour parts, share, own-field anisotropy, local flow direction, own and neighbour bound rates, own mean
+/// surface concentration, iterations.
+pub fn split_values(splits: &[CellSplit]) -> Vec<f64> {
+    let mut values = Vec::with_capacity(SPLIT_VALUES * splits.len());
+    for s in splits {
+        values.push(s.cell as f64);
+        values.extend(s.anisotropy_from_self);
+        values.extend(s.anisotropy_from_neighbours);
+        values.extend([s.self_signal_share, s.own_field_anisotropy_along_flow]);
+        values.extend(s.local_flow_direction);
+        values.extend([s.self_bound_rate, s.neighbour_bound_rate, s.self_mean_surface_concentration]);
+        values.push(s.iterations as f64);
+    }
+    values
+}
+
+/// The splits [`split_values`] wrote; `None` when the values do not fit `cells` cells.
+pub fn splits_of(values: &[f64], cells: usize) -> Option<Vec<CellSplit>> {
+    if values.len() % SPLIT_VALUES != 0 {
+        return None;
+    }
+    let whole =
+        |v: f64, below: usize| (v >= 0.0 && v.fract() == 0.0 && v < below as f64).then_some(v as usize);
+    values
+        .chunks_exact(SPLIT_VALUES)
+        .map(|v| {
+            Some(CellSplit {
+                cell: whole(v[0], cells)?,
+                anisotropy_from_self: [v[1], v[2], v[3]],
+                anisotropy_from_neighbours: [v[4], v[5], v[6]],
+                self_signal_share: v[7],
+                own_field_anisotropy_along_flow: v[8],
+                local_flow_direction: [v[9], v[10], v[11]],
+                self_bound_rate: v[12],
+                neighbour_bound_rate: v[13],
+                self_mean_surface_concentration: v[14],
+                iterations: whole(v[15], usize::MAX)?,
+            })
+        })
+        .collect()
+}
+
 /// Number of leading columns of [`time_columns`] that are the registered columns (`id … local_speed`).
 pub const CONTRACT_COLUMNS: usize = crate::outputs::columns::CELL_COLUMNS.len();
 
@@ -119,5 +166,26 @@ mod tests {
         assert_eq!(s[1].mean_surface_concentration, 1.0);
         assert_eq!(s[0].anisotropy, [4.0, 6.0, 8.0]);
         assert_eq!(s[1].local_speed, 17.0);
+    }
+
+    #[test]
+    fn split_values_read_back_into_the_splits() {
+        let split = CellSplit {
+            cell: 3,
+            anisotropy_from_self: [0.1, -0.2, 0.3],
+            anisotropy_from_neighbours: [0.01, 0.02, -0.03],
+            self_signal_share: 0.9,
+            own_field_anisotropy_along_flow: 0.4,
+            local_flow_direction: [1.0, 0.0, 0.0],
+            self_bound_rate: 12.5,
+            neighbour_bound_rate: 1.5,
+            self_mean_surface_concentration: 3e15,
+            iterations: 417,
+        };
+        let values = split_values(std::slice::from_ref(&split));
+        assert_eq!(values.len(), SPLIT_VALUES);
+        assert_eq!(splits_of(&values, 4), Some(vec![split]));
+        assert_eq!(splits_of(&values, 3), None, "cell 3 is outside a layout of 3 cells");
+        assert_eq!(splits_of(&values[1..], 4), None);
     }
 }

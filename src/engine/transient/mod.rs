@@ -34,10 +34,10 @@ use crate::io::initial_field::read_initial_concentration;
 use crate::io::table::{CellTable, Column, ColumnValues};
 use crate::io::transient_h5::{output_dataset_name, write_transient_fields_h5, OutputTime, TransientFile};
 use crate::io::xdmf_temporal::{write_temporal_xmf, TemporalGrid};
-use crate::outputs::columns::{cell_pressure_drop_column, TRANSIENT_TIME_COLUMNS};
+use crate::outputs::columns::{cell_pressure_drop_column, split_columns, TRANSIENT_TIME_COLUMNS};
 use crate::outputs::summary::{
-    FlowChange, FlowMode, FlowSummary, OutputSeries, RunSummary, Stepping, TransientSummary, TransportMode,
-    TransportSummary,
+    FlowChange, FlowMode, FlowSummary, OutputSeries, RunSummary, SplitCost, SplitSummary, Stepping,
+    TransientSummary, TransportMode, TransportSummary,
 };
 
 use super::summary::{mass_balance, RunMeasures, RunSections};
@@ -68,6 +68,8 @@ pub fn transient_case<'a>(case: &'a Case, t: &TransientSolve) -> TransientCase<'
         steady: None,
         stop_at_steady: t.stop_at_steady,
         switched_on_far_field: true,
+        // Ids were checked against the layout when the case was read; the default of a transient case is none.
+        split_cells: case.sensing.decompose.choose(case.layout.cells.len()),
     };
     TransientCase {
         steady,
@@ -175,9 +177,14 @@ pub fn execute(case: &Case, out_dir: &Path, destination: &Path, options: &Transi
         meter.begin(MeteredStage::of(stage, false));
     })
     .map_err(solve_error)?;
-    for warning in flow_divergence_warnings(case, t, &solution) {
+    for warning in flow_divergence_warnings(case, t, &solution).iter().chain(&split_warnings(&solution)) {
         progress.println(&format!("warning: {warning}"));
     }
+    // The own fields ran inside the time loop, step by step: their time is the split's stage.
+    if !tcase.params.split_cells.is_empty() {
+        meter.carve(MeteredStage::TimeLoop, MeteredStage::SelfNeighbourSplit, observer.split_seconds);
+    }
+    let split_seconds = observer.split_seconds;
     let checkpoints = observer.checkpoints_written;
     let final_part = observer.last_output.take();
     drop(observer);
@@ -188,7 +195,14 @@ pub fn execute(case: &Case, out_dir: &Path, destination: &Path, options: &Transi
     let Some(final_part) = final_part else {
         return Err(anyhow::anyhow!("the run ended without an output at its final time"));
     };
-    write_outputs(case, t, &solution, &final_part, out_dir, &meter, checkpoints)?;
+    let run = FinishedRun {
+        solution: &solution,
+        final_part: &final_part,
+        meter: &meter,
+        checkpoints,
+        split_seconds,
+    };
+    write_outputs(case, t, &run, out_dir)?;
     // The run is complete: its restart data are no longer needed.
     std::fs::remove_dir_all(&parts).with_context(|| format!("cannot remove {}", parts.display()))?;
     let checkpoint = restart_files::checkpoint_path(out_dir);
@@ -214,6 +228,34 @@ pub fn execute(case: &Case, out_dir: &Path, destination: &Path, options: &Transi
         destination.display()
     ));
     Ok(())
+}
+
+/// One warning per split cell whose own field failed (its columns are NaN from then on; the run stands).
+fn split_warnings(solution: &TransientSolution) -> Vec<String> {
+    let failed = solution.state.own_fields.iter().filter_map(|o| Some((o.cell, o.failed?)));
+    failed
+        .map(|(cell, (time, residual))| {
+            let why = if residual.is_nan() {
+                "non-finite values".to_string()
+            } else {
+                format!("no convergence, relative residual {residual:.3e}")
+            };
+            format!(
+                "the self/neighbour split of cell {cell} failed at t = {} ({why}); its split columns are NaN from then on",
+                human_time(time)
+            )
+        })
+        .collect()
+}
+
+/// The split summary of a run that split cells (`None` without a split).
+fn split_summary(case: &Case, solution: &TransientSolution) -> Option<SplitSummary> {
+    let own = &solution.state.own_fields;
+    (!own.is_empty()).then(|| SplitSummary {
+        selection: format!("{:?}", case.sensing.decompose),
+        cells: own.len(),
+        iterations: Some(own.iter().map(|o| o.iterations).collect()),
+    })
 }
 
 /// Whether the run writes the concentration (final, steady and one snapshot per output time): only when
@@ -281,6 +323,24 @@ fn timeseries_table(
     }
     let mut all = vec![Column::real("time", "s", "simulated time of the output", time)];
     all.extend(columns);
+    if !solution.params.split_cells.is_empty() {
+        // Last, one block per output time as the rows.
+        let n = case.layout.cells.len();
+        let mut split: Vec<Column> = split_columns(n, &[]);
+        for c in &mut split {
+            if let ColumnValues::Real(v) = &mut c.values {
+                v.clear();
+            }
+        }
+        for part in parts {
+            for (all, now) in split.iter_mut().zip(split_columns(n, &part.splits)) {
+                if let (ColumnValues::Real(a), ColumnValues::Real(b)) = (&mut all.values, now.values) {
+                    a.extend(b);
+                }
+            }
+        }
+        all.extend(split);
+    }
     CellTable { columns: all }
 }
 
@@ -310,6 +370,10 @@ fn final_table(
         case,
         &sensing_of(&part.sensed, case.layout.cells.len()),
     ));
+    if !solution.params.split_cells.is_empty() {
+        // As in a steady run: after the estimate columns.
+        columns.extend(split_columns(case.layout.cells.len(), &part.splits));
+    }
     columns.extend(tail);
     let crossing = |k: usize| -> Vec<f64> {
         solution.state.crossings.cells.iter().map(|c| c[k].unwrap_or(f64::NAN)).collect()
@@ -331,16 +395,18 @@ fn final_table(
     CellTable { columns }
 }
 
-#[allow(clippy::too_many_arguments)]
-fn write_outputs(
-    case: &Case,
-    t: &TransientSolve,
-    solution: &TransientSolution,
-    final_part: &OutputPart,
-    out_dir: &Path,
-    meter: &StageMeter,
+/// A finished time loop and what this process measured of it.
+struct FinishedRun<'a> {
+    solution: &'a TransientSolution,
+    final_part: &'a OutputPart,
+    meter: &'a StageMeter,
     checkpoints: usize,
-) -> Result<()> {
+    /// Wall seconds of the split's own fields in this process.
+    split_seconds: f64,
+}
+
+fn write_outputs(case: &Case, t: &TransientSolve, run: &FinishedRun, out_dir: &Path) -> Result<()> {
+    let (solution, final_part) = (run.solution, run.final_part);
     let state = &solution.state;
     let cells = case.layout.cells.len();
     let snapshots = writes_snapshots(case);
@@ -457,7 +523,7 @@ fn write_outputs(
         case.output.storage.precision,
     )?;
 
-    let summary = run_summary(case, t, solution, final_part, &parts, &table, meter, checkpoints);
+    let summary = run_summary(case, t, run, &parts, &table);
     crate::engine::sensing_outputs::write_sensing_by_position_of(&summary, &table, out_dir)?;
     summary.write(&out_dir.join("summary.json"))?;
     if case.output.figures {
@@ -471,17 +537,21 @@ fn last_flow_speed(case: &Case, t: &TransientSolve) -> f64 {
     t.flow_change.map_or(case.flow.mean_velocity, |(_, after)| after)
 }
 
-#[allow(clippy::too_many_arguments)]
 fn run_summary(
     case: &Case,
     t: &TransientSolve,
-    solution: &TransientSolution,
-    final_part: &OutputPart,
+    run: &FinishedRun,
     parts: &[OutputPart],
     table: &CellTable,
-    meter: &StageMeter,
-    checkpoints: usize,
 ) -> RunSummary {
+    let (solution, final_part, checkpoints) = (run.solution, run.final_part, run.checkpoints);
+    let split = split_summary(case, solution);
+    let split_cost = split.as_ref().map(|s| SplitCost {
+        setup_s: 0.0,
+        solve_s: run.split_seconds,
+        seconds_per_right_hand_side: run.split_seconds / s.cells.max(1) as f64,
+        transport_s: solution.timing.time_loop - run.split_seconds,
+    });
     let state = &solution.state;
     let last_flow = &solution.flows[solution.flows.len() - 1];
     let b = &final_part.balance;
@@ -492,10 +562,15 @@ fn run_summary(
         table,
         final_mean_velocity: last_flow_speed(case, t),
         measured_outlet_concentration: final_part.outlet_concentration,
-        warnings: &[transient_warnings(case), flow_divergence_warnings(case, t, solution)].concat(),
+        warnings: &[
+            transient_warnings(case),
+            flow_divergence_warnings(case, t, solution),
+            split_warnings(solution),
+        ]
+        .concat(),
     };
     let sections = RunSections {
-        resources: meter.resources(None),
+        resources: run.meter.resources(split_cost),
         flow: FlowSummary {
             model: case.flow.medium.name().to_string(),
             mean_velocity: case.flow.mean_velocity,
@@ -548,7 +623,7 @@ fn run_summary(
                 balance_relative_error: parts.iter().map(|p| p.balance.relative_error).collect(),
             },
         }),
-        self_neighbour: None,
+        self_neighbour: split,
     };
     RunSummary::build(&measures, sections)
 }

@@ -36,6 +36,8 @@ pub struct RunObserver<'a> {
     pub last_output: Option<OutputPart>,
     /// Time at which the field first came within `steady_distance` of the steady field.
     pub steady_at: Option<f64>,
+    /// Wall seconds this process spent on the own fields of the self/neighbour split.
+    pub split_seconds: f64,
 }
 
 impl<'a> RunObserver<'a> {
@@ -67,6 +69,7 @@ impl<'a> RunObserver<'a> {
             steady_announced: false,
             last_output: None,
             steady_at: None,
+            split_seconds: 0.0,
         }
     }
 }
@@ -74,6 +77,7 @@ impl<'a> RunObserver<'a> {
 impl TransientObserver for RunObserver<'_> {
     fn step(&mut self, state: &TransientState, report: &StepReport) -> Result<(), String> {
         self.progress.step(state.steps, report);
+        self.split_seconds += report.split_seconds;
         if let Some(d) = report.distance_to_steady {
             if d <= self.steady_distance && !self.steady_announced {
                 self.steady_announced = true;

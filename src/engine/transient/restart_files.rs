@@ -12,9 +12,10 @@
 use std::path::{Path, PathBuf};
 
 use anyhow::Context;
+use solver::post::decompose::CellSplit;
 use solver::solve_transient::{StepBalance, TransientOutput, TransientState};
 
-use super::cell_series::{sensed_values, RECORD_VALUES};
+use super::cell_series::{sensed_values, split_values, splits_of, RECORD_VALUES};
 use crate::exit::InputError;
 use crate::io::binary_record::{read_record, write_record};
 
@@ -75,6 +76,8 @@ pub struct OutputPart {
     pub balance: StepBalance,
     /// The record values (`cell_series::sensed_values`), value after value.
     pub sensed: Vec<f64>,
+    /// The self/neighbour split of the split cells whose own field is intact at this time.
+    pub splits: Vec<CellSplit>,
     pub concentration: Vec<f64>,
 }
 
@@ -89,6 +92,7 @@ impl OutputPart {
             outlet_concentration: output.outlet_concentration,
             balance: output.balance,
             sensed: sensed_values(output),
+            splits: output.splits.to_vec(),
             concentration: if keep_field { output.concentration.to_vec() } else { Vec::new() },
         }
     }
@@ -112,6 +116,9 @@ impl OutputPart {
         v.extend_from_slice(&self.sensed);
         v.push(self.concentration.len() as f64);
         v.extend_from_slice(&self.concentration);
+        let splits = split_values(&self.splits);
+        v.push(splits.len() as f64);
+        v.extend(splits);
         v
     }
 
@@ -123,7 +130,12 @@ impl OutputPart {
         }
         let sensed = v.get(12..12 + n_sensed)?.to_vec();
         let n_grid = *v.get(12 + n_sensed)? as usize;
-        if n_grid != field_len || v.len() != 13 + n_sensed + n_grid {
+        if n_grid != field_len {
+            return None;
+        }
+        let at_splits = 13 + n_sensed + n_grid;
+        let n_splits = *v.get(at_splits)? as usize;
+        if v.len() - at_splits - 1 != n_splits {
             return None;
         }
         Some(OutputPart {
@@ -141,7 +153,8 @@ impl OutputPart {
                 relative_error: head[10],
             },
             sensed,
-            concentration: v[13 + n_sensed..].to_vec(),
+            splits: splits_of(&v[at_splits + 1..], cells)?,
+            concentration: v[13 + n_sensed..at_splits].to_vec(),
         })
     }
 }
@@ -196,6 +209,7 @@ mod tests {
             outlet_concentration: None,
             balance: StepBalance { secreted: 1.0, relative_error: 1e-12, ..Default::default() },
             sensed: (0..RECORD_VALUES * 2).map(|i| i as f64 / 7.0).collect(),
+            splits: splits_of(&[1.0; super::super::cell_series::SPLIT_VALUES], 2).unwrap(),
             concentration: vec![0.5; 5],
         };
         write_part(dir.path(), "abc", &part).unwrap();

@@ -5,6 +5,7 @@ pub mod brinkman_darcy_limit;
 pub mod brinkman_sphere;
 pub mod darcy_sphere;
 pub mod decompose_split;
+pub mod decompose_split_transient;
 pub mod isolated_sphere;
 pub mod low_peclet_brinkman;
 pub mod low_peclet_darcy;

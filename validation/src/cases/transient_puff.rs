@@ -95,6 +95,7 @@ pub fn puff_errors(n: usize, step: f64) -> Result<(f64, f64), VerifyError> {
         steady: None,
         stop_at_steady: None,
         switched_on_far_field: false,
+        split_cells: Vec::new(),
     };
     let initial = field_at(AGE);
     let volume = grid.cell_volume();

@@ -90,6 +90,7 @@ pub fn run_transient(
             steady: None,
             stop_at_steady: None,
             switched_on_far_field: true,
+            split_cells: Vec::new(),
         },
     };
     let mut recorder = Recorder { keep_fields, recorded: Recorded::default() };

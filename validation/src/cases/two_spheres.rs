@@ -248,6 +248,7 @@ mod tests {
                 steady: None,
                 stop_at_steady: None,
                 switched_on_far_field: true,
+                split_cells: Vec::new(),
             },
         };
         let mut recorder = Recorder { keep_fields: false, recorded: Default::default() };
