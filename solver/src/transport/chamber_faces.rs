@@ -17,7 +17,7 @@
 //! [`open_chamber_faces`] is the one walk over the boundary grid faces that both the steady assembly and the
 //! switched-on far field (`transient/far_field_switch_on.rs`) use.
 
-use super::far_field_sources::{FarFieldMedium, PointSources};
+use super::far_field_sources::{FarFieldMedium, FarFieldPoint, FarFieldSumParams, PointSources};
 use crate::problem::{ChamberBoundaries, ChamberFace, LigandParameters};
 use mesh::{Axis, EmbeddedGeometry, Layout};
 use rayon::prelude::*;
@@ -107,9 +107,25 @@ pub fn boundary_exchanges(
     let far_field = faces.iter().any(|f| f.kind == ChamberFace::FarField);
     let sources = far_field.then(|| PointSources::new(geometry, layout, boundaries.far_field_sources, None));
     let medium = FarFieldMedium::new(far_field_speed, d, ligand.decay_rate, h);
+    let far_points: Vec<FarFieldPoint> = faces
+        .iter()
+        .filter(|f| f.kind == ChamberFace::FarField)
+        .map(|f| FarFieldPoint { centre: f.centre, axis: f.axis, outward: f.outward })
+        .collect();
+    let mut far_betas = sources
+        .as_ref()
+        .map_or_else(Vec::new, |s| {
+            s.steady_log_gradients(&medium, &far_points, &FarFieldSumParams::default())
+        })
+        .into_iter();
+    let beta_of_face: Vec<f64> = faces
+        .iter()
+        .map(|f| if f.kind == ChamberFace::FarField { far_betas.next().unwrap_or(0.0) } else { 0.0 })
+        .collect();
     faces
         .par_iter()
-        .map(|face| {
+        .zip(&beta_of_face)
+        .map(|(face, &beta)| {
             let grid_cell = face.grid_cell;
             match face.kind {
                 ChamberFace::Inlet => {
@@ -123,16 +139,11 @@ pub fn boundary_exchanges(
                 ChamberFace::Outlet => {
                     BoundaryExchange { grid_cell, coefficient: face.q_out, inflow_constant: 0.0 }
                 }
-                ChamberFace::FarField => {
-                    let beta = sources.as_ref().map_or(0.0, |s| {
-                        s.steady_log_gradient(&medium, face.centre, face.axis, face.outward)
-                    });
-                    BoundaryExchange {
-                        grid_cell,
-                        coefficient: far_field_coefficient(face, d, beta, h),
-                        inflow_constant: 0.0,
-                    }
-                }
+                ChamberFace::FarField => BoundaryExchange {
+                    grid_cell,
+                    coefficient: far_field_coefficient(face, d, beta, h),
+                    inflow_constant: 0.0,
+                },
                 // Never yielded by `open_chamber_faces`: nothing crosses.
                 ChamberFace::Wall | ChamberFace::Symmetry | ChamberFace::Periodic => {
                     BoundaryExchange { grid_cell, coefficient: 0.0, inflow_constant: 0.0 }

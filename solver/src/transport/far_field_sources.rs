@@ -14,14 +14,44 @@
 //! evaluated with the largest exponent factored out (a running maximum), so neither `e^{Ux/2D}` nor `e^{−γr}`
 //! can overflow or underflow to a 0/0.
 //!
-//! Cost: one square root and one exponential per (face, source) pair, parallel over faces (about 13 ns of CPU
-//! per pair, bench/RECORDS.md), so 10⁴ cells × 10⁶ far-field faces cost minutes of CPU once per steady
-//! assembly — and per time step in switched-on transient runs until every source has settled (never without
-//! flow and decay). For such layouts
-//! `[boundaries] far_field_sources = "centroid"` costs one pair per face.
+//! Cost: the direct sum takes one square root and one exponential per (face, source) pair (about 13 ns of CPU
+//! per pair, bench/RECORDS.md). Steady coefficients of many pairs (`FarFieldSumParams::direct_below_pairs`)
+//! are summed side by side by `far_field_patches.rs` instead, at a cost growing as (faces + sources) × log and
+//! with a relative error of β − (U/2D) ê_x·n at most `2 ε/(1 − ε)`, ε = `PatchSumParams::tolerance` (the bound
+//! is derived there); below that count, and on a side the patch sums cannot take (a source beyond the side,
+//! exponents beyond ±300), the direct sum gives exactly its old numbers. The switched-on form of transient runs
+//! stays a direct sum, one pass over faces × switched-on sources per time step until every source has settled
+//! (never without flow and decay). `[boundaries] far_field_sources = "centroid"` costs one pair per face.
 
+use super::far_field_patches::{side_sums, PatchSumParams, Side, SideSources};
 use crate::problem::FarFieldSources;
 use mesh::{EmbeddedGeometry, Layout};
+use rayon::prelude::*;
+
+/// When the steady far-field sums are taken by patches instead of directly.
+#[derive(Clone, Copy, Debug)]
+pub struct FarFieldSumParams {
+    /// Below this many (face, source) pairs the direct sum is used (so small cases keep their numbers).
+    pub direct_below_pairs: f64,
+    pub patches: PatchSumParams,
+}
+
+impl Default for FarFieldSumParams {
+    fn default() -> Self {
+        FarFieldSumParams { direct_below_pairs: 5e7, patches: PatchSumParams::default() }
+    }
+}
+
+/// A far-field face as the sums see it: centre (m) and outward normal `outward ê_axis`.
+#[derive(Clone, Copy, Debug)]
+pub struct FarFieldPoint {
+    pub centre: [f64; 3],
+    pub axis: usize,
+    pub outward: f64,
+}
+
+/// Largest exponent magnitude the patch sums accept in their unscaled weights and kernels.
+const PATCH_EXPONENT_LIMIT: f64 = 300.0;
 
 /// The far-field sources of a chamber: centres, relative strengths and switch-on times.
 #[derive(Clone, Debug)]
@@ -184,11 +214,94 @@ impl PointSources {
     ) -> f64 {
         self.log_gradient(medium, x, axis, outward, |_, r| Some(medium.steady_profile(r))).unwrap_or(f64::NAN)
     }
+
+    /// Steady β at every point of `points` (far-field faces of a grid of spacing `medium.min_distance`):
+    /// directly below `params.direct_below_pairs` pairs, else side by side by patches where a side allows.
+    pub fn steady_log_gradients(
+        &self,
+        medium: &FarFieldMedium,
+        points: &[FarFieldPoint],
+        params: &FarFieldSumParams,
+    ) -> Vec<f64> {
+        let direct = |p: &FarFieldPoint| self.steady_log_gradient(medium, p.centre, p.axis, p.outward);
+        if self.len() < 2 || (self.len() as f64) * (points.len() as f64) < params.direct_below_pairs {
+            return points.par_iter().map(direct).collect();
+        }
+        let mut betas = vec![f64::NAN; points.len()];
+        for axis in 0..3 {
+            for outward in [-1.0, 1.0] {
+                let on_side: Vec<usize> = (0..points.len())
+                    .filter(|&i| points[i].axis == axis && points[i].outward == outward)
+                    .collect();
+                if on_side.is_empty() {
+                    continue;
+                }
+                let side_points: Vec<[f64; 3]> = on_side.iter().map(|&i| points[i].centre).collect();
+                let side_betas = self
+                    .side_log_gradients(medium, axis, outward, &side_points, &params.patches)
+                    .unwrap_or_else(|| on_side.par_iter().map(|&i| direct(&points[i])).collect());
+                for (&i, beta) in on_side.iter().zip(side_betas) {
+                    betas[i] = beta;
+                }
+            }
+        }
+        betas
+    }
+
+    /// β on one side by `far_field_patches.rs`; `None` where that side needs the direct sum.
+    fn side_log_gradients(
+        &self,
+        medium: &FarFieldMedium,
+        axis: usize,
+        outward: f64,
+        points: &[[f64; 3]],
+        params: &PatchSumParams,
+    ) -> Option<Vec<f64>> {
+        let position = points.first()?[axis];
+        let depths: Vec<f64> = self.centres.iter().map(|c| outward * (position - c[axis])).collect();
+        if depths.iter().any(|&d| d < 0.0) {
+            return None;
+        }
+        let drift = medium.speed / (2.0 * medium.diffusivity);
+        let extent = |a: usize| {
+            let all = self.centres.iter().map(|c| c[a]).chain(points.iter().map(|x| x[a]));
+            let (lo, hi) = all.fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), v| (lo.min(v), hi.max(v)));
+            hi - lo
+        };
+        let diagonal = (extent(0).powi(2) + extent(1).powi(2) + extent(2).powi(2)).sqrt();
+        let x_ref = self.centres.iter().map(|c| c[0]).fold(f64::NEG_INFINITY, f64::max);
+        if drift.abs() * extent(0) > PATCH_EXPONENT_LIMIT || medium.gamma * diagonal > PATCH_EXPONENT_LIMIT {
+            return None;
+        }
+        // q̃_i = q_i e^{(U/2D)(x_ref − x_i)}: the target's e^{U(x − x_ref)/2D} cancels in β.
+        let weights: Vec<f64> = self
+            .centres
+            .iter()
+            .zip(&self.strengths)
+            .map(|(c, q)| q * (drift * (x_ref - c[0])).exp())
+            .collect();
+        let depth_weights: Vec<f64> = weights.iter().zip(&depths).map(|(w, d)| w * d).collect();
+        let sources =
+            SideSources { centres: &self.centres, weights: &weights, depth_weights: &depth_weights };
+        let sums = side_sums(
+            &sources,
+            Side { axis, position },
+            points,
+            medium.min_distance,
+            medium.gamma,
+            medium.min_distance,
+            params,
+        )?;
+        let along = if axis == 0 { drift * outward } else { 0.0 };
+        let betas: Vec<f64> = sums.iter().map(|&[phi, psi]| along - psi / phi).collect();
+        betas.iter().all(|b| b.is_finite()).then_some(betas)
+    }
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::transport::far_field_patches::PatchSumParams;
     use mesh::{Cell, Grid};
 
     fn medium(speed: f64, decay: f64) -> FarFieldMedium {
@@ -292,5 +405,64 @@ mod tests {
         assert_eq!(s.centres(), &[[3e-6, 1e-6, 1e-6]]);
         let s = sources(&[([1e-6, 1e-6, 1e-6], 0.0)], FarFieldSources::Cells);
         assert_eq!(s.centres(), &[[2e-6, 2e-6, 2e-6]]);
+    }
+
+    /// Random layouts in a box with far-field faces on every side: the patch sums give β within the stated
+    /// bound of the direct sum on every face (relative error of β − (U/2D) ê_x·n ≤ 2ε/(1 − ε)).
+    #[test]
+    fn patch_sums_match_the_direct_sum_within_the_bound() {
+        let mut state = 7u64;
+        let mut next = move || {
+            state = state.wrapping_mul(6364136223846793005).wrapping_add(1442695040888963407);
+            (state >> 11) as f64 / (1u64 << 53) as f64
+        };
+        let (h, n) = (1e-6, 48usize);
+        let side = n as f64 * h;
+        let mut points = Vec::new();
+        for axis in 0..3 {
+            for (outward, position) in [(-1.0, 0.0), (1.0, side)] {
+                for i in 0..n {
+                    for j in 0..n {
+                        let mut centre = [0.0; 3];
+                        centre[axis] = position;
+                        centre[(axis + 1) % 3] = (i as f64 + 0.5) * h;
+                        centre[(axis + 2) % 3] = (j as f64 + 0.5) * h;
+                        points.push(FarFieldPoint { centre, axis, outward });
+                    }
+                }
+            }
+        }
+        for (count, speed, decay, tolerance, degree) in
+            [(200, 0.0, 0.0, 1e-9, 12), (300, 3e-5, 1e-2, 1e-9, 12), (300, 1e-5, 0.0, 1e-5, 6)]
+        {
+            let cells: Vec<([f64; 3], f64)> =
+                (0..count).map(|_| ([next() * side, next() * side, next() * side], 0.2 + next())).collect();
+            let s = sources(&cells, FarFieldSources::Cells);
+            let m = FarFieldMedium::new(speed, 1e-10, decay, h);
+            let params = FarFieldSumParams {
+                direct_below_pairs: 0.0,
+                patches: PatchSumParams { tolerance, degree, leaf_faces: 8 },
+            };
+            for axis in 0..3 {
+                for outward in [-1.0, 1.0] {
+                    let side_points: Vec<[f64; 3]> = points
+                        .iter()
+                        .filter(|p| p.axis == axis && p.outward == outward)
+                        .map(|p| p.centre)
+                        .collect();
+                    assert!(s.side_log_gradients(&m, axis, outward, &side_points, &params.patches).is_some());
+                }
+            }
+            let fast = s.steady_log_gradients(&m, &points, &params);
+            let bound = 2.0 * tolerance / (1.0 - tolerance);
+            let mut worst: f64 = 0.0;
+            for (p, b) in points.iter().zip(&fast) {
+                let direct = s.steady_log_gradient(&m, p.centre, p.axis, p.outward);
+                let along = if p.axis == 0 { speed / 2e-10 * p.outward } else { 0.0 };
+                worst = worst.max((b - direct).abs() / (direct - along).abs());
+            }
+            assert!(worst <= bound, "{count} cells, U {speed}: worst {worst:e} > bound {bound:e}");
+            assert!(worst > 0.0, "the patch sums were not used");
+        }
     }
 }

@@ -14,6 +14,7 @@ pub mod boundary_layer;
 pub mod chamber_faces;
 pub mod decay;
 pub mod diffusion;
+pub mod far_field_patches;
 pub mod far_field_sources;
 pub mod solve_steady;
 pub mod surface_exchange;

@@ -23,7 +23,9 @@
 
 use crate::problem::{ChamberBoundaries, ChamberFace, LigandParameters};
 use crate::transport::chamber_faces::{far_field_coefficient, open_chamber_faces, OpenChamberFace};
-use crate::transport::far_field_sources::{FarFieldMedium, PointSources, RadialProfile};
+use crate::transport::far_field_sources::{
+    FarFieldMedium, FarFieldPoint, FarFieldSumParams, PointSources, RadialProfile,
+};
 use mesh::{EmbeddedGeometry, Layout};
 use numkit::{erfc, erfcx};
 use rayon::prelude::*;
@@ -59,12 +61,15 @@ impl SwitchedOnFarField {
         let sources =
             PointSources::new(geometry, layout, boundaries.far_field_sources, Some(secretion_start));
         let medium = FarFieldMedium::new(speed, ligand.diffusivity, ligand.decay_rate, h);
-        let steady = faces
-            .par_iter()
-            .map(|f| {
-                let beta = sources.steady_log_gradient(&medium, f.centre, f.axis, f.outward);
-                far_field_coefficient(f, medium.diffusivity, beta, h)
-            })
+        let points: Vec<FarFieldPoint> = faces
+            .iter()
+            .map(|f| FarFieldPoint { centre: f.centre, axis: f.axis, outward: f.outward })
+            .collect();
+        let steady = sources
+            .steady_log_gradients(&medium, &points, &FarFieldSumParams::default())
+            .into_iter()
+            .zip(&faces)
+            .map(|(beta, f)| far_field_coefficient(f, medium.diffusivity, beta, h))
             .collect();
         let settled_from = settled_from(&faces, &sources, &medium);
         SwitchedOnFarField { faces, sources, medium, steady, settled_from }
