@@ -132,14 +132,66 @@ fn clusters_hold_their_cells_and_must_fit() {
     let out = layout(dir.path(), &dense_chamber(&too_big));
     assert_eq!(out.code, Some(2), "{}", out.stderr);
     assert!(out.stderr.contains("cells.layout") && out.stderr.contains("does not fit"), "{}", out.stderr);
-    let stray = cluster.replace("seed = 1", "seed = 1, inlet_margin = \"5 um\"");
-    let out = layout(dir.path(), &dense_chamber(&stray));
+    // The cluster with its cells spans x = 15 … 85 um: a 15 um inlet margin is clear, a 16 um one is not.
+    let clear = cluster.replace("seed = 1", "seed = 1, inlet_margin = \"15 um\"");
+    let out = layout(dir.path(), &dense_chamber(&clear));
+    assert_eq!(out.code, Some(0), "{}", out.stderr);
+    let into = cluster.replace("seed = 1", "seed = 1, outlet_margin = \"16 um\"");
+    let out = layout(dir.path(), &dense_chamber(&into));
     assert_eq!(out.code, Some(2), "{}", out.stderr);
     assert!(
-        out.stderr.contains("cells.layout.inlet_margin is not used by kind = \"cluster\""),
+        out.stderr.contains("cells.layout.outlet_margin") && out.stderr.contains("inside the outlet margin"),
         "{}",
         out.stderr
     );
+    assert_eq!(out.stderr.lines().count(), 1, "{}", out.stderr);
+}
+
+#[test]
+fn margins_drop_lattice_cells_and_refuse_file_cells() {
+    let dir = tempfile::tempdir().unwrap();
+    // Centres at x = 10, 30, 50, 70, 90 um (radius 5 um): a 6 um inlet margin drops the first plane.
+    let lattice = r#"{ kind = "lattice", spacing = ["20 um", "20 um", "20 um"], inlet_margin = "6 um" }"#;
+    let out = layout(dir.path(), &dense_chamber(lattice));
+    assert_eq!(out.code, Some(0), "{}", out.stderr);
+    let cells = centres(dir.path());
+    assert_eq!(cells.len(), 4 * 3 * 3);
+    assert!(cells.iter().all(|c| c[0] > 20e-6), "{cells:?}");
+    let none_left = lattice.replace("6 um", "95 um");
+    let out = layout(dir.path(), &dense_chamber(&none_left));
+    assert_eq!(out.code, Some(2), "{}", out.stderr);
+    assert!(out.stderr.contains("cells.layout.inlet_margin"), "{}", out.stderr);
+
+    std::fs::write(dir.path().join("cells_in.csv"), "x,y,z\n50e-6,30e-6,30e-6\n92e-6,30e-6,30e-6\n").unwrap();
+    let file = r#"{ kind = "file", path = "cells_in.csv", outlet_margin = "4 um" }"#;
+    let out = layout(dir.path(), &dense_chamber(file));
+    assert_eq!(out.code, Some(2), "{}", out.stderr);
+    assert!(
+        out.stderr.contains("cells.layout.outlet_margin") && out.stderr.contains("(the first: cell 1)"),
+        "{}",
+        out.stderr
+    );
+    let out = layout(dir.path(), &dense_chamber(&file.replace("4 um", "3 um")));
+    assert_eq!(out.code, Some(0), "{}", out.stderr);
+}
+
+#[test]
+fn monte_carlo_sweeps_move_cells_and_stay_seeded() {
+    let dir = tempfile::tempdir().unwrap();
+    let base = r#"{ kind = "random", volume_fraction = 0.3, min_gap = "0.2 um", seed = 3 }"#;
+    assert_eq!(layout(dir.path(), &dense_chamber(base)).code, Some(0));
+    let placed = centres(dir.path());
+    let relaxed_text = base.replace("seed = 3", "seed = 3, monte_carlo_sweeps = 50");
+    assert_eq!(layout(dir.path(), &dense_chamber(&relaxed_text)).code, Some(0));
+    let relaxed = centres(dir.path());
+    assert_eq!(relaxed.len(), placed.len());
+    assert!(relaxed.iter().zip(&placed).filter(|(p, q)| p != q).count() > placed.len() / 2);
+    assert_eq!(layout(dir.path(), &dense_chamber(&relaxed_text)).code, Some(0));
+    assert_eq!(centres(dir.path()), relaxed, "same seed, same cells");
+    let out =
+        layout(dir.path(), &dense_chamber(&base.replace("seed = 3", "seed = 3, monte_carlo_sweeps = 1e6")));
+    assert_eq!(out.code, Some(2), "{}", out.stderr);
+    assert!(out.stderr.contains("cells.layout.monte_carlo_sweeps"), "{}", out.stderr);
 }
 
 #[test]

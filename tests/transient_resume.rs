@@ -13,8 +13,13 @@ mod common;
 /// event and output times; two cells get the self/neighbour split, whose own fields the checkpoint carries.
 /// About 240 steps on a 40×20×10 grid: a few seconds.
 fn case_text(end_time: &str) -> String {
+    case_with(end_time, "[0, 3]")
+}
+
+/// [`case_text`] with `sensing.decompose` set to `decompose` (left out when empty).
+fn case_with(end_time: &str, decompose: &str) -> String {
     let end_time = format!("\"{end_time}\"");
-    common::small_chamber(&[
+    let mut changes = vec![
         ("chamber.size", r#"["160 um", "80 um", "40 um"]"#),
         ("grid.spacing", r#""4 um""#),
         ("flow.mean_velocity", r#""1 um/s""#),
@@ -30,9 +35,12 @@ fn case_text(end_time: &str) -> String {
         ("solve.output_every", r#""1 min""#),
         ("sensing.integration_time", r#""10 min""#),
         ("sensing.window_start", r#""2 min""#),
-        ("sensing.decompose", "[0, 3]"),
         ("output.fields", r#"["concentration", "velocity", "pressure"]"#),
-    ])
+    ];
+    if !decompose.is_empty() {
+        changes.push(("sensing.decompose", decompose));
+    }
+    common::small_chamber(&changes)
 }
 
 fn folder(name: &str) -> PathBuf {
@@ -159,6 +167,20 @@ fn killed_run_resumes_to_the_uninterrupted_result() {
     let series = compare_csv(&reference.join("cells_timeseries.csv"), &resumed.join("cells_timeseries.csv"));
     println!("max relative difference: cells.csv {cells:.3e}, cells_timeseries.csv {series:.3e}");
     assert!(cells <= 1e-12 && series <= 1e-12, "cells.csv {cells:e}, cells_timeseries.csv {series:e}");
+    // The split's own fields continue from the checkpoint bit for bit: its columns are the same text.
+    for file in ["cells.csv", "cells_timeseries.csv"] {
+        let split_part = |dir: &Path| -> Vec<String> {
+            let text = std::fs::read_to_string(dir.join(file)).expect("read");
+            let header: Vec<&str> = text.lines().next().unwrap_or_default().split(',').collect();
+            let first = header.iter().position(|n| *n == "anisotropy_from_self_x").expect("split columns");
+            text.lines().map(|l| l.split(',').skip(first).take(12).collect::<Vec<_>>().join(",")).collect()
+        };
+        assert_eq!(
+            split_part(&reference),
+            split_part(&resumed),
+            "{file}: the split differs after the resume"
+        );
+    }
 
     let a = ligand_datasets(&reference.join("fields.h5"));
     let b = ligand_datasets(&resumed.join("fields.h5"));
@@ -212,4 +234,47 @@ fn resume_refuses_another_case_and_a_missing_checkpoint() {
     let out = plumefield(&["run", s(&case), "-o", s(&out_dir), "--checkpoint-every", "3 um"]);
     assert_eq!(out.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&out.stderr).contains("--checkpoint-every"));
+}
+
+/// The own fields of the split run beside the total on the same step solver: the total and everything computed
+/// from it must be the same bits with and without the split.
+#[test]
+fn the_split_leaves_the_main_results_unchanged() {
+    let dir = folder("split");
+    let with = dir.join("with.toml");
+    std::fs::write(&with, case_text("6 min")).expect("write case");
+    let without = dir.join("without.toml");
+    std::fs::write(&without, case_with("6 min", "")).expect("write case");
+    for (case, out) in [(&with, "with"), (&without, "without")] {
+        let out = plumefield(&["run", s(case), "-o", s(&dir.join(out))]);
+        assert_eq!(out.status.code(), Some(0), "{}", String::from_utf8_lossy(&out.stderr));
+    }
+    for file in ["cells.csv", "cells_timeseries.csv"] {
+        let read = |folder: &str| {
+            let text = std::fs::read_to_string(dir.join(folder).join(file)).expect("read");
+            let rows: Vec<Vec<String>> =
+                text.lines().map(|l| l.split(',').map(str::to_string).collect()).collect();
+            rows
+        };
+        let (a, b) = (read("with"), read("without"));
+        assert_eq!(a.len(), b.len());
+        assert!(a[0].len() > b[0].len(), "{file}: no split columns");
+        assert!(
+            !b[0].iter().any(|c| c.starts_with("anisotropy_from_")),
+            "{file}: split columns without a split"
+        );
+        for (k, name) in b[0].iter().enumerate() {
+            let j = a[0].iter().position(|n| n == name).unwrap_or_else(|| panic!("{file}: {name} missing"));
+            for (ra, rb) in a.iter().zip(&b).skip(1) {
+                assert_eq!(ra[j], rb[k], "{file}: {name} differs with the split");
+            }
+        }
+        // The split cells have finite parts, the others NaN.
+        let share = a[0].iter().position(|n| n == "self_signal_share").expect("self_signal_share");
+        let id = a[0].iter().position(|n| n == "id").expect("id");
+        for row in a.iter().skip(1) {
+            let split = row[id] == "0" || row[id] == "3";
+            assert_eq!(row[share].parse::<f64>().expect("number").is_finite(), split, "{file}: {row:?}");
+        }
+    }
 }

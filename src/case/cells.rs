@@ -5,8 +5,8 @@ use std::ops::Range;
 
 use mesh::layout::csv_import::max_file_bytes;
 use mesh::layout::{
-    lattice, random_layout, read_csv, ChamberBox, LayoutError, PackingMethod, PlacementRegion, RandomLayout,
-    RandomTarget,
+    lattice, random_layout, read_csv, relax_hard_spheres, ChamberBox, LayoutError, PackingMethod,
+    PlacementRegion, RandomLayout, RandomTarget,
 };
 use mesh::{Cell, Layout};
 use solver::problem::{ChamberFace, SurfaceUptake};
@@ -142,7 +142,7 @@ pub(super) fn validate_cell_defaults(
 
 /// Refuse keys that a layout kind does not use: a key that is silently ignored is a mistake waiting to happen.
 fn refuse_unused(src: &Source, layout: &RawLayout, kind: &str, allowed: &[&str]) -> Result<(), CaseError> {
-    let present: [(&str, Option<Range<usize>>); 10] = [
+    let present: [(&str, Option<Range<usize>>); 11] = [
         ("count", layout.count.as_ref().map(Spanned::span)),
         ("volume_fraction", layout.volume_fraction.as_ref().map(Spanned::span)),
         ("min_gap", layout.min_gap.as_ref().map(Spanned::span)),
@@ -153,6 +153,7 @@ fn refuse_unused(src: &Source, layout: &RawLayout, kind: &str, allowed: &[&str])
         ("outlet_margin", layout.outlet_margin.as_ref().map(Spanned::span)),
         ("centre", layout.centre.as_ref().map(Spanned::span)),
         ("semi_axes", layout.semi_axes.as_ref().map(Spanned::span)),
+        ("monte_carlo_sweeps", layout.monte_carlo_sweeps.as_ref().map(Spanned::span)),
     ];
     for (name, span) in present {
         if let Some(span) = span {
@@ -239,36 +240,33 @@ fn generated_layout(
     let fail = |e| layout_error(src, "cells.layout", Some(span), e);
     match kind.get_ref().as_str() {
         "random" => {
-            let keys = ["count", "volume_fraction", "min_gap", "seed", "inlet_margin", "outlet_margin"];
+            let keys = [
+                "count",
+                "volume_fraction",
+                "min_gap",
+                "seed",
+                "inlet_margin",
+                "outlet_margin",
+                "monte_carlo_sweeps",
+            ];
             refuse_unused(src, raw, "random", &keys)?;
             let spec = random_spec(src, raw, span, defaults)?;
-            let mut margins = [[0.0; 2]; 3];
-            for (side, name, face) in
-                [(0, "inlet_margin", ChamberFace::Inlet), (1, "outlet_margin", ChamberFace::Outlet)]
-            {
-                let value = if side == 0 { &raw.inlet_margin } else { &raw.outlet_margin };
-                let Some(value) = value else { continue };
-                let key = format!("cells.layout.{name}");
-                let face_name = ["x_min", "x_max"][side];
-                if setting.faces[0][side] != face {
-                    return Err(src.error(
-                        &key,
-                        Some(&value.span()),
-                        format!(
-                            "{key} keeps cells away from the {face_name} face, which is not an {}",
-                            &name[..name.len() - 7]
-                        ),
-                    ));
-                }
-                margins[0][side] = src.quantity(&key, value, Dimension::LENGTH, Range0::NonNegative)?;
-            }
-            let region = PlacementRegion::Chamber { margins };
-            let placement =
-                random_layout(&spec, chamber, &region).map_err(|e| random_error(src, raw, span, e))?;
-            Ok((LayoutKind::Random(placement.method), placement.layout))
+            let region = PlacementRegion::Chamber { margins: margins(src, raw, setting)? };
+            let (method, layout) = place_randomly(src, raw, span, &spec, chamber, &region)?;
+            Ok((LayoutKind::Random(method), layout))
         }
         "cluster" => {
-            let keys = ["centre", "semi_axes", "count", "volume_fraction", "min_gap", "seed"];
+            let keys = [
+                "centre",
+                "semi_axes",
+                "count",
+                "volume_fraction",
+                "min_gap",
+                "seed",
+                "inlet_margin",
+                "outlet_margin",
+                "monte_carlo_sweeps",
+            ];
             refuse_unused(src, raw, "cluster", &keys)?;
             let mut axes = [[0.0; 3]; 2];
             for (n, (name, value)) in
@@ -286,13 +284,14 @@ fn generated_layout(
                     three_lengths(src, &key, list, if n == 0 { Range0::Any } else { Range0::Positive })?;
             }
             let spec = random_spec(src, raw, span, defaults)?;
+            let margins = margins(src, raw, setting)?;
+            cluster_clear_of_margins(src, raw, chamber, &margins, axes, spec.radius)?;
             let region = PlacementRegion::Ellipsoid { centre: axes[0], semi_axes: axes[1] };
-            let placement =
-                random_layout(&spec, chamber, &region).map_err(|e| random_error(src, raw, span, e))?;
-            Ok((LayoutKind::Cluster(placement.method), placement.layout))
+            let (method, layout) = place_randomly(src, raw, span, &spec, chamber, &region)?;
+            Ok((LayoutKind::Cluster(method), layout))
         }
         "lattice" => {
-            refuse_unused(src, raw, "lattice", &["spacing"])?;
+            refuse_unused(src, raw, "lattice", &["spacing", "inlet_margin", "outlet_margin"])?;
             let Some(list) = &raw.spacing else {
                 return Err(src.missing(
                     "cells.layout.spacing",
@@ -302,10 +301,24 @@ fn generated_layout(
             };
             let spacing = three_lengths(src, "cells.layout.spacing", list, Range0::Positive)?;
             let layout = lattice(spacing, chamber, defaults.radius, defaults.secretion_rate).map_err(fail)?;
+            // Lattice sites stay where the spacing puts them; the cells that would reach into a margin go.
+            let margins = margins(src, raw, setting)?;
+            let (layout, dropped) = layout.without_cells_in_margins(chamber, &margins);
+            if layout.cells.is_empty() && dropped > 0 {
+                let (key, at) = margin_key(raw, span);
+                return Err(src.error(
+                    key,
+                    Some(&at),
+                    format!(
+                        "{key} (with the other margin, if given) leaves no room for any of the {dropped} cells of \
+                         the lattice"
+                    ),
+                ));
+            }
             Ok((LayoutKind::Lattice, layout))
         }
         "file" => {
-            refuse_unused(src, raw, "file", &["path"])?;
+            refuse_unused(src, raw, "file", &["path", "inlet_margin", "outlet_margin"])?;
             let Some(path) = &raw.path else {
                 return Err(src.missing(
                     "cells.layout.path",
@@ -324,6 +337,7 @@ fn generated_layout(
             let limit = max_file_bytes(most_cells.ceil().min(u64::MAX as f64) as u64);
             let layout = read_csv(&file, defaults.radius, defaults.secretion_rate, limit)
                 .map_err(|e| layout_error(src, "cells.layout.path", Some(&path.span()), e))?;
+            file_clear_of_margins(src, raw, &layout, chamber, &margins(src, raw, setting)?)?;
             Ok((LayoutKind::File, layout))
         }
         other => Err(src.error(
@@ -333,6 +347,145 @@ fn generated_layout(
         )),
     }
 }
+
+/// `inlet_margin` and `outlet_margin` as margins along x (zero when absent); each needs its face to be an
+/// inlet or an outlet.
+fn margins(src: &Source, raw: &RawLayout, setting: &LayoutSetting) -> Result<[[f64; 2]; 3], CaseError> {
+    let mut margins = [[0.0; 2]; 3];
+    for (side, name, face) in
+        [(0, "inlet_margin", ChamberFace::Inlet), (1, "outlet_margin", ChamberFace::Outlet)]
+    {
+        let value = if side == 0 { &raw.inlet_margin } else { &raw.outlet_margin };
+        let Some(value) = value else { continue };
+        let key = format!("cells.layout.{name}");
+        let face_name = ["x_min", "x_max"][side];
+        if setting.faces[0][side] != face {
+            return Err(src.error(
+                &key,
+                Some(&value.span()),
+                format!(
+                    "{key} keeps cells away from the {face_name} face, which is not an {}",
+                    &name[..name.len() - 7]
+                ),
+            ));
+        }
+        margins[0][side] = src.quantity(&key, value, Dimension::LENGTH, Range0::NonNegative)?;
+    }
+    Ok(margins)
+}
+
+/// The margin key to blame when both could be (the inlet's when given), and where it is written.
+fn margin_key(raw: &RawLayout, span: &Range<usize>) -> (&'static str, Range<usize>) {
+    match (&raw.inlet_margin, &raw.outlet_margin) {
+        (Some(m), _) => ("cells.layout.inlet_margin", m.span()),
+        (None, Some(m)) => ("cells.layout.outlet_margin", m.span()),
+        (None, None) => ("cells.layout", span.clone()),
+    }
+}
+
+/// A cluster is where its centre and semi-axes put it: one whose ellipsoid, grown by a cell radius, reaches
+/// into a margin is refused rather than moved or cut.
+fn cluster_clear_of_margins(
+    src: &Source,
+    raw: &RawLayout,
+    chamber: &ChamberBox,
+    margins: &[[f64; 2]; 3],
+    [centre, semi_axes]: [[f64; 3]; 2],
+    radius: f64,
+) -> Result<(), CaseError> {
+    let reach = [centre[0] - semi_axes[0] - radius, centre[0] + semi_axes[0] + radius];
+    let limit = [chamber.lower[0] + margins[0][0], chamber.upper[0] - margins[0][1]];
+    for (side, value, name) in [(0, &raw.inlet_margin, "inlet"), (1, &raw.outlet_margin, "outlet")] {
+        let Some(value) = value else { continue };
+        let into = if side == 0 { reach[0] < limit[0] } else { reach[1] > limit[1] };
+        let distance = if side == 0 { reach[0] - chamber.lower[0] } else { chamber.upper[0] - reach[1] };
+        // A cluster out of the chamber altogether is refused by the placement, which says so.
+        if into && distance >= 0.0 {
+            let key = format!("cells.layout.{name}_margin");
+            return Err(src.error(
+                &key,
+                Some(&value.span()),
+                format!(
+                    "the cluster with its cells reaches to {:.2} um from the {name} face, inside the {name} margin \
+                     of {:.2} um; move or shrink the cluster, or lower {key}",
+                    distance * 1e6,
+                    margins[0][side] * 1e6
+                ),
+            ));
+        }
+    }
+    Ok(())
+}
+
+/// A layout file is used as written: a cell in a margin is refused, naming the margin and the cell.
+fn file_clear_of_margins(
+    src: &Source,
+    raw: &RawLayout,
+    layout: &Layout,
+    chamber: &ChamberBox,
+    margins: &[[f64; 2]; 3],
+) -> Result<(), CaseError> {
+    for (side, value, name) in [(0, &raw.inlet_margin, "inlet"), (1, &raw.outlet_margin, "outlet")] {
+        let Some(value) = value else { continue };
+        let mut one_side = [[0.0; 2]; 3];
+        one_side[0][side] = margins[0][side];
+        let inside = layout.cells_in_margins(chamber, &one_side);
+        if let Some(first) = inside.first() {
+            let key = format!("cells.layout.{name}_margin");
+            return Err(src.error(
+                &key,
+                Some(&value.span()),
+                format!(
+                    "{} cell{} of the layout file reach{} into the {name} margin of {:.2} um (the first: cell {first}); \
+                     move them or lower {key}",
+                    inside.len(),
+                    if inside.len() == 1 { "" } else { "s" },
+                    if inside.len() == 1 { "es" } else { "" },
+                    margins[0][side] * 1e6
+                ),
+            ));
+        }
+    }
+    Ok(())
+}
+
+/// A random or cluster layout placed in `region`, then moved by `monte_carlo_sweeps` hard-sphere Monte Carlo
+/// sweeps when asked.
+fn place_randomly(
+    src: &Source,
+    raw: &RawLayout,
+    span: &Range<usize>,
+    spec: &RandomLayout,
+    chamber: &ChamberBox,
+    region: &PlacementRegion,
+) -> Result<(PackingMethod, Layout), CaseError> {
+    let sweeps = match &raw.monte_carlo_sweeps {
+        Some(v) => {
+            let sweeps = src.whole_number("cells.layout.monte_carlo_sweeps", v, 0)?;
+            if sweeps > MAX_SWEEPS {
+                return Err(src.error(
+                    "cells.layout.monte_carlo_sweeps",
+                    Some(&v.span()),
+                    format!(
+                        "cells.layout.monte_carlo_sweeps = {sweeps} is more than {MAX_SWEEPS}; a few hundred sweeps \
+                         relax a layout fully"
+                    ),
+                ));
+            }
+            sweeps
+        }
+        None => 0,
+    };
+    let mut placement = random_layout(spec, chamber, region).map_err(|e| random_error(src, raw, span, e))?;
+    if sweeps > 0 {
+        relax_hard_spheres(&mut placement.layout, spec, chamber, region, sweeps)
+            .map_err(|e| layout_error(src, "cells.layout.monte_carlo_sweeps", Some(span), e))?;
+    }
+    Ok((placement.method, placement.layout))
+}
+
+/// Most Monte Carlo sweeps a layout may ask for (each is one pass over the cells).
+const MAX_SWEEPS: usize = 100_000;
 
 /// A refused random layout, blamed on the key that sets how many cells there are.
 fn random_error(src: &Source, raw: &RawLayout, span: &Range<usize>, error: LayoutError) -> CaseError {

@@ -151,9 +151,11 @@ pub struct RawLayout {
     pub seed: Value<u64>,
     pub spacing: Value<Vec<Spanned<RawNumber>>>,
     pub path: Value<String>,
-    /// Random layouts: cell-free lengths next to the inlet (x_min) and the outlet (x_max).
+    /// Cell-free lengths next to the inlet (x_min) and the outlet (x_max).
     pub inlet_margin: Value<RawNumber>,
     pub outlet_margin: Value<RawNumber>,
+    /// Random and cluster layouts: hard-sphere Monte Carlo sweeps after placement.
+    pub monte_carlo_sweeps: Value<RawNumber>,
     /// Cluster layouts: centre and semi-axes of the ellipsoid that holds the cell centres.
     pub centre: Value<Vec<Spanned<RawNumber>>>,
     pub semi_axes: Value<Vec<Spanned<RawNumber>>>,

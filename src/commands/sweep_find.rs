@@ -14,9 +14,8 @@ use anyhow::{Context, Result};
 
 use super::sweep::{lock, validate, write_plan_record, CasesFailed, SweepOptions};
 use crate::io::write_atomic;
-use crate::sweep::crossing_figure::{draw_crossing, CrossingFigure};
 use crate::sweep::crossing_rounds::{advance, Progress};
-use crate::sweep::crossing_table::{crossing_csv, crossing_rows, CROSSING_FILE};
+use crate::sweep::crossing_table::{CrossingRow, CROSSING_FILE};
 use crate::sweep::done_marker::CaseState;
 use crate::sweep::memory_reuse;
 use crate::sweep::plan_record::PlanRecord;
@@ -53,9 +52,8 @@ fn find_locally(plan: &Plan, dir: &Path, options: &SweepOptions) -> Result<()> {
         })?;
         write_plan_record(&progress.plan, dir)?;
         if progress.finished() {
-            super::collect::execute(dir)?;
-            write_crossing(&progress, dir)?;
-            report(&progress, dir);
+            let crossing = super::collect::execute_with_crossing(dir)?;
+            report(&progress, dir, crossing);
             return if failed == 0 {
                 Ok(())
             } else {
@@ -72,37 +70,9 @@ fn find_locally(plan: &Plan, dir: &Path, options: &SweepOptions) -> Result<()> {
     }
 }
 
-/// Write `crossing.csv` and (when there is an axis to draw against) `crossing.png` into `dir`.
-pub fn write_crossing(progress: &Progress, dir: &Path) -> Result<()> {
-    let path = dir.join(CROSSING_FILE);
-    write_atomic(&path, &crossing_csv(progress)?)
-        .with_context(|| format!("cannot write {}", path.display()))?;
-    let Some(find) = progress.plan.sweep.find.as_ref() else { return Ok(()) };
-    let record = PlanRecord::of(&progress.plan);
-    let (_, rows) = crossing_rows(progress);
-    let others = progress
-        .combinations
-        .first()
-        .map(|c| {
-            c.iter().map(|(a, _)| (record.axes[*a].key.as_str(), record.axes[*a].unit.as_deref())).collect()
-        })
-        .unwrap_or_default();
-    let figure = CrossingFigure {
-        others,
-        searched: &find.axis,
-        searched_unit: record.axes[find.axis_index].unit.as_deref(),
-        log: progress.params.log,
-        metric: &find.metric,
-        level: find.level,
-    };
-    let file = dir.join("crossing.png");
-    draw_crossing(&file, &figure, &rows).with_context(|| format!("cannot draw {}", file.display()))?;
-    Ok(())
-}
-
 /// One line per combination: its result.
-fn report(progress: &Progress, dir: &Path) {
-    let (header, rows) = crossing_rows(progress);
+fn report(progress: &Progress, dir: &Path, crossing: Option<(Vec<String>, Vec<CrossingRow>)>) {
+    let (header, rows) = crossing.unwrap_or_default();
     for row in &rows {
         let others: Vec<String> = header
             .iter()
@@ -191,9 +161,8 @@ fn write_slurm(plan: &Plan, dir: &Path, options: &SweepOptions) -> Result<()> {
     write_plan_record(&progress.plan, &dir)?;
     if progress.finished() {
         println!("the search is over after {} rounds; nothing to submit. Collecting.", progress.rounds);
-        super::collect::execute(&dir)?;
-        write_crossing(&progress, &dir)?;
-        report(&progress, &dir);
+        let crossing = super::collect::execute_with_crossing(&dir)?;
+        report(&progress, &dir, crossing);
         return Ok(());
     }
     let ids: Vec<String> = progress.to_run.iter().map(|&i| progress.plan.cases[i].id.clone()).collect();

@@ -249,8 +249,8 @@ fn along(v: [f64; 3], s: &CellSplit) -> f64 {
     (0..3).map(|a| v[a] * s.local_flow_direction[a]).sum()
 }
 
-/// The self/neighbour split columns, in file order (after the estimate columns of a steady run, after the
-/// registered columns of a transient run).
+/// The self/neighbour split columns, in file order (after the estimate columns of `cells.csv`, steady or
+/// transient; last in a transient run's `cells_timeseries.csv`).
 pub const SPLIT_COLUMNS: [SplitColumn; 12] = [
     split("anisotropy_from_self_x", "1", "x of the part of the anisotropy vector due to the cell's own secretion, over the cell's total sensed flux (from_self + from_neighbours = anisotropy); NaN if not decomposed", |s| s.anisotropy_from_self[0]),
     split("anisotropy_from_self_y", "1", "y of the anisotropy part due to the cell's own secretion", |s| s.anisotropy_from_self[1]),

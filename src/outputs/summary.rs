@@ -79,7 +79,7 @@ pub struct Resources {
     pub write: Option<StageCost>,
     pub total_s: f64,
     pub peak_memory_scope: PeakScope,
-    /// Steady runs that split some cells' fields into own and neighbour parts.
+    /// Runs that split some cells' fields into own and neighbour parts (a transient run: only when asked).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub self_neighbour: Option<SplitCost>,
 }
@@ -124,7 +124,9 @@ impl Resources {
     }
 }
 
-/// Wall time of the self/neighbour split (s).
+/// Wall time of the self/neighbour split (s). In a transient run the own fields are integrated step by step
+/// inside the time loop: `setup_s` is 0, `solve_s` their time in this process, `seconds_per_right_hand_side`
+/// that per chosen cell (one time integration each) and `transport_s` the time loop without them.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct SplitCost {
     pub setup_s: f64,
@@ -284,7 +286,7 @@ pub struct EstimatesSummary {
     pub peclet_chamber: f64,
     /// Median, p10, p90 of the estimate, ratio and split columns by column name.
     pub per_cell: BTreeMap<String, ColumnQuantiles>,
-    /// Steady runs: which cells were split into own and neighbour parts.
+    /// Which cells were split into own and neighbour parts (steady runs; transient runs that asked for it).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub self_neighbour: Option<SplitSummary>,
     /// The `estimate` command's JSON for the case.
@@ -461,7 +463,7 @@ pub struct SplitSummary {
     /// The `sensing.decompose` selection as written by the case validation.
     pub selection: String,
     pub cells: usize,
-    /// Krylov iterations of each cell's own solve.
+    /// Krylov iterations of each cell's own solve (summed over the time steps in a transient run).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub iterations: Option<Vec<usize>>,
 }

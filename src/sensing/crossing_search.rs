@@ -84,6 +84,9 @@ pub enum Step {
 /// crossing is not exact.
 const SEEDS_MARGIN: f64 = 1.2;
 
+/// Degrees of freedom the pooled spread gathers at least (where there are enough values): t₀.₉₇₅(4) = 2.78.
+const MIN_POOLED_DOF: usize = 4;
+
 /// Seeds asked for at most in `seeds_needed`.
 const MAX_SEEDS_NEEDED: usize = 1_000_000;
 
@@ -142,8 +145,8 @@ struct Spread {
 impl Spread {
     /// Pooled over `points`, leaving out values whose seeds all agree (a saturated metric, e.g. no cell
     /// failed, says nothing of the spread near the crossing).
-    fn pooled(points: &[Point]) -> Spread {
-        let spread: Vec<&Point> = points.iter().filter(|pt| pt.squares > 0.0).collect();
+    fn pooled<'a>(points: impl Iterator<Item = &'a Point>) -> Spread {
+        let spread: Vec<&Point> = points.filter(|pt| pt.squares > 0.0).collect();
         let dof: usize = spread.iter().map(|pt| pt.n - 1).sum();
         let squares: f64 = spread.iter().map(|pt| pt.squares).sum();
         Spread { sd: if dof > 0 { (squares / dof as f64).sqrt() } else { 0.0 }, dof, values: spread.len() }
@@ -219,7 +222,18 @@ pub fn next_step(p: &SearchParams, observations: &[Observation]) -> Step {
     let Some(k) = points.iter().position(|pt| pt.mean_side(level) != start) else {
         return done(f64::NAN, p.from, p.to, Status::NotBracketed);
     };
-    let spread = Spread::pooled(&points);
+    // The spread is pooled over the values nearest the change of sign (it changes along the axis: more cells,
+    // steadier medians), as many as give MIN_POOLED_DOF degrees of freedom.
+    let middle = 0.5 * (points[k - 1].u + points[k].u);
+    let mut nearest: Vec<&Point> = points.iter().filter(|pt| pt.squares > 0.0).collect();
+    nearest.sort_by(|a, b| (a.u - middle).abs().total_cmp(&(b.u - middle).abs()));
+    let mut dof = 0;
+    let count = nearest.iter().take_while(|pt| {
+        let more = dof < MIN_POOLED_DOF;
+        dof += pt.n - 1;
+        more
+    });
+    let spread = Spread::pooled(count.copied());
     let (lo, hi) = bracket(&points, k, start, level, &spread);
     let (u_lo, u_hi) = (points[lo].u, points[hi].u);
     let inside = &points[lo..=hi];
@@ -267,8 +281,19 @@ pub fn next_step(p: &SearchParams, observations: &[Observation]) -> Step {
     let d = if band <= delta { delta } else { 1.5 * band };
     let near = |u: f64, within: f64| points.iter().any(|pt| (pt.u - u).abs() < 0.5 * within);
     let (u_min, u_max) = (u_lo.min(u_hi), u_lo.max(u_hi));
-    let mut next: Vec<f64> =
-        [u_star - d, u_star + d].into_iter().filter(|&u| u > u_min && u < u_max && !near(u, d)).collect();
+    // On each side: past any undecided values there (a value in the band says the band reaches it).
+    let outward = |sign: f64| {
+        let mut u = u_star + sign * d;
+        for _ in 0..points.len() {
+            match points.iter().find(|pt| (pt.u - u).abs() < 0.5 * d) {
+                Some(pt) if pt.side(level, &spread) == 0 => u = pt.u + sign * d,
+                Some(_) => return None,
+                None => break,
+            }
+        }
+        Some(u).filter(|&u| u > u_min && u < u_max && !near(u, d))
+    };
+    let mut next: Vec<f64> = [-1.0, 1.0].into_iter().filter_map(outward).collect();
     // Regula falsi creeps from one side when the metric is curved: while the estimate sits far nearer one end
     // of the bracket, the middle between it and the far end is run too (the far end then moves at least halfway).
     let (near_end, far_end) = if u_star - u_min < u_max - u_star { (u_min, u_max) } else { (u_max, u_min) };

@@ -1,13 +1,21 @@
-//! `DIR/crossing.csv`: one row per combination of the other axes of a crossing search — their values (SI,
-//! units in the header as `key [unit]`), the crossing of the searched axis with its interval (SI), the cases
-//! run for it, the status (`found`, `seed_limited`, `not_bracketed`, `budget_spent`, or `searching` while
-//! rounds remain) and, for `seed_limited`, the seeds that would shrink the interval to the precision asked.
+//! `DIR/crossing.csv` and `DIR/crossing.png` of a crossing search, from the plan record and the collected
+//! cases alone (so that `collect DIR` rewrites them): one row per combination of the other axes — their
+//! values (SI, units in the header as `key [unit]`), the crossing of the searched axis with its interval (SI),
+//! the cases run for it, the status (`found`, `seed_limited`, `not_bracketed`, `budget_spent`, or `searching`
+//! while rounds remain) and, for `seed_limited`, the seeds that would shrink the interval to the precision
+//! asked. The search decides from its observations only, so its last step over every finished case of a
+//! combination is the result the search ended with.
 
-use super::axis::AxisValue;
-use super::crossing_rounds::Progress;
+use std::path::Path;
+
+use anyhow::{Context, Result};
+
+use super::collect::{ColumnData, SweepTable};
+use super::crossing_figure::{draw_crossing, CrossingFigure};
 use super::plan_record::PlanRecord;
 use crate::io::number_text::format_real;
-use crate::sensing::crossing_search::Status;
+use crate::io::write_atomic;
+use crate::sensing::crossing_search::{next_step, Observation, Status, Step};
 
 /// File name in the sweep folder.
 pub const CROSSING_FILE: &str = "crossing.csv";
@@ -25,40 +33,66 @@ pub struct CrossingRow {
     pub seeds_needed: Option<usize>,
 }
 
-/// The header (other axes, then the result columns) and rows of a search.
-pub fn crossing_rows(progress: &Progress) -> (Vec<String>, Vec<CrossingRow>) {
-    let record = PlanRecord::of(&progress.plan);
-    let find = progress.plan.sweep.find.as_ref();
-    let searched = find.map_or(0, |f| f.axis_index);
+/// The header (other axes, then the result columns) and rows of a search; `None` for a plain sweep.
+pub fn crossing_rows(record: &PlanRecord, table: &SweepTable) -> Option<(Vec<String>, Vec<CrossingRow>)> {
+    let find = record.find.as_ref()?;
+    let others: Vec<usize> =
+        (0..record.axes.len()).filter(|&a| a != find.axis_index && !record.axes[a].replicate).collect();
     let with_unit = |name: &str, unit: &Option<String>| match unit {
         Some(u) => format!("{name} [{u}]"),
         None => name.to_string(),
     };
-    let mut header: Vec<String> = progress
-        .combinations
-        .first()
-        .map(|c| c.iter().map(|(a, _)| with_unit(&record.axes[*a].key, &record.axes[*a].unit)).collect())
-        .unwrap_or_default();
-    let unit = &record.axes[searched].unit;
+    let mut header: Vec<String> =
+        others.iter().map(|&a| with_unit(&record.axes[a].key, &record.axes[a].unit)).collect();
     for name in ["crossing", "crossing_low", "crossing_high"] {
-        header.push(with_unit(name, unit));
+        header.push(with_unit(name, &record.axes[find.axis_index].unit));
     }
     header.extend(["cases", "status", "seeds_needed"].map(String::from));
-    let rows = progress
-        .combinations
+    let metric = match table.column(&find.metric).map(|c| &c.data) {
+        Some(ColumnData::Real(v)) => v.clone(),
+        _ => vec![f64::NAN; record.cases.len()],
+    };
+    let unfinished: Vec<bool> = match table.column("status").map(|c| &c.data) {
+        Some(ColumnData::Text(s)) => s.iter().map(|s| s == "not_done").collect(),
+        _ => vec![true; record.cases.len()],
+    };
+    // Combinations in the order of their first case (every round asks for them in the same order): the
+    // other axes' values as written, that first case, and the observations.
+    let mut groups: Vec<(Vec<&str>, usize, Vec<Observation>)> = Vec::new();
+    let mut searching: Vec<bool> = Vec::new();
+    for (i, (case, value)) in record.cases.iter().zip(metric).enumerate() {
+        let key: Vec<&str> = others.iter().map(|&a| case.values[a].text.as_str()).collect();
+        let index = match groups.iter().position(|(k, ..)| *k == key) {
+            Some(g) => g,
+            None => {
+                groups.push((key, i, Vec::new()));
+                searching.push(false);
+                groups.len() - 1
+            }
+        };
+        searching[index] |= unfinished[i];
+        let x = case.values[find.axis_index].si.unwrap_or(f64::NAN);
+        let observations = &mut groups[index].2;
+        match observations.iter_mut().find(|o| o.x == x) {
+            Some(o) => o.values.push(value),
+            None => observations.push(Observation { x, values: vec![value] }),
+        }
+    }
+    let params = find.params();
+    let rows = groups
         .iter()
-        .zip(&progress.results)
-        .zip(&progress.cases)
-        .map(|((combination, result), &cases)| {
-            let values = combination
+        .zip(searching)
+        .map(|((_, first, observations), searching)| {
+            let values = others
                 .iter()
-                .map(|(a, v): &(usize, AxisValue)| {
-                    let numeric = record.axes[*a].unit.is_some();
-                    (v.si.filter(|_| numeric), v.text.trim_matches('"').to_string())
+                .map(|&a| {
+                    let v = &record.cases[*first].values[a];
+                    (v.si.filter(|_| record.axes[a].unit.is_some()), v.text.trim_matches('"').to_string())
                 })
                 .collect();
-            match result {
-                Some(c) => CrossingRow {
+            let cases = observations.iter().map(|o| o.values.len()).sum();
+            match next_step(&params, observations) {
+                Step::Done(c) if !searching => CrossingRow {
                     values,
                     crossing: c.crossing,
                     low: c.low,
@@ -70,7 +104,7 @@ pub fn crossing_rows(progress: &Progress) -> (Vec<String>, Vec<CrossingRow>) {
                         _ => None,
                     },
                 },
-                None => CrossingRow {
+                _ => CrossingRow {
                     values,
                     crossing: f64::NAN,
                     low: f64::NAN,
@@ -82,15 +116,14 @@ pub fn crossing_rows(progress: &Progress) -> (Vec<String>, Vec<CrossingRow>) {
             }
         })
         .collect();
-    (header, rows)
+    Some((header, rows))
 }
 
 /// The text of `crossing.csv`.
-pub fn crossing_csv(progress: &Progress) -> anyhow::Result<Vec<u8>> {
-    let (header, rows) = crossing_rows(progress);
+pub fn crossing_csv(header: &[String], rows: &[CrossingRow]) -> Result<Vec<u8>> {
     let mut writer =
         csv::WriterBuilder::new().terminator(csv::Terminator::Any(b'\n')).from_writer(Vec::new());
-    writer.write_record(&header)?;
+    writer.write_record(header)?;
     for row in rows {
         let mut fields: Vec<String> =
             row.values.iter().map(|(si, text)| si.map(format_real).unwrap_or_else(|| text.clone())).collect();
@@ -101,4 +134,34 @@ pub fn crossing_csv(progress: &Progress) -> anyhow::Result<Vec<u8>> {
         writer.write_record(&fields)?;
     }
     writer.into_inner().map_err(|e| anyhow::anyhow!("cannot assemble crossing.csv: {e}"))
+}
+
+/// Write `crossing.csv` and (when there is a numeric other axis to draw against) `crossing.png` into `dir`
+/// for a crossing search; its header and rows, or `None` for a plain sweep.
+pub fn write_crossing(
+    dir: &Path,
+    record: &PlanRecord,
+    table: &SweepTable,
+) -> Result<Option<(Vec<String>, Vec<CrossingRow>)>> {
+    let (Some(find), Some((header, rows))) = (record.find.as_ref(), crossing_rows(record, table)) else {
+        return Ok(None);
+    };
+    let path = dir.join(CROSSING_FILE);
+    write_atomic(&path, &crossing_csv(&header, &rows)?)
+        .with_context(|| format!("cannot write {}", path.display()))?;
+    let others = (0..record.axes.len())
+        .filter(|&a| a != find.axis_index && !record.axes[a].replicate)
+        .map(|a| (record.axes[a].key.as_str(), record.axes[a].unit.as_deref()))
+        .collect();
+    let figure = CrossingFigure {
+        others,
+        searched: &find.axis,
+        searched_unit: record.axes[find.axis_index].unit.as_deref(),
+        log: find.log,
+        metric: &find.metric,
+        level: find.level,
+    };
+    let file = dir.join("crossing.png");
+    draw_crossing(&file, &figure, &rows).with_context(|| format!("cannot draw {}", file.display()))?;
+    Ok(Some((header, rows)))
 }

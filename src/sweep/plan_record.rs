@@ -1,5 +1,6 @@
 //! `DIR/sweep_plan.json`: what `collect` needs to know about a sweep without the sweep file — the axes
-//! (key, scale, SI unit) and every case's id, hash and axis values. Written by `sweep` (all modes) before any
+//! (key, scale, SI unit), every case's id, hash and axis values, and for a crossing search its `[find]`
+//! settings (absent for a plain sweep, and in plan files written before they were kept). Written by `sweep` (all modes) before any
 //! case runs, atomically, and only when its content changes.
 
 use std::path::{Path, PathBuf};
@@ -7,9 +8,11 @@ use std::path::{Path, PathBuf};
 use serde::{Deserialize, Serialize};
 
 use super::axis::{si_unit_label, Scale};
+use super::crossing_rounds::search_params;
 use super::expand::Plan;
 use super::sweep_file::Combine;
 use crate::io::write_atomic;
+use crate::sensing::crossing_search::SearchParams;
 
 /// File name of the plan record in the sweep folder.
 pub const PLAN_FILE: &str = "sweep_plan.json";
@@ -39,6 +42,38 @@ pub struct CaseRecord {
     pub values: Vec<ValueRecord>,
 }
 
+/// The `[find]` table of a crossing search, resolved: what `collect` needs to replay its decisions.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct FindRecord {
+    pub metric: String,
+    pub level: f64,
+    /// The searched axis: its key and position among `axes`.
+    pub axis: String,
+    pub axis_index: usize,
+    /// The ends of the search (SI) and whether it runs in log space.
+    pub from: f64,
+    pub to: f64,
+    pub log: bool,
+    pub relative_precision: f64,
+    /// Cases per combination of the other axes, seeds included.
+    pub max_cases: usize,
+    pub seeds: usize,
+}
+
+impl FindRecord {
+    pub fn params(&self) -> SearchParams {
+        SearchParams {
+            level: self.level,
+            from: self.from,
+            to: self.to,
+            log: self.log,
+            relative_precision: self.relative_precision,
+            max_cases: self.max_cases,
+            seeds: self.seeds,
+        }
+    }
+}
+
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct PlanRecord {
     pub sweep_file: PathBuf,
@@ -46,6 +81,8 @@ pub struct PlanRecord {
     pub combine: Combine,
     pub axes: Vec<AxisRecord>,
     pub cases: Vec<CaseRecord>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub find: Option<FindRecord>,
 }
 
 impl PlanRecord {
@@ -73,12 +110,28 @@ impl PlanRecord {
                 values: c.values.iter().map(|v| ValueRecord { text: v.text.clone(), si: v.si }).collect(),
             })
             .collect();
+        let find = plan.sweep.find.as_ref().map(|f| {
+            let p = search_params(plan, f);
+            FindRecord {
+                metric: f.metric.clone(),
+                level: f.level,
+                axis: f.axis.clone(),
+                axis_index: f.axis_index,
+                from: p.from,
+                to: p.to,
+                log: p.log,
+                relative_precision: p.relative_precision,
+                max_cases: p.max_cases,
+                seeds: p.seeds,
+            }
+        });
         PlanRecord {
             sweep_file: absolute(&plan.sweep.path),
             base_case: absolute(&plan.sweep.base_path),
             combine: plan.sweep.combine,
             axes,
             cases,
+            find,
         }
     }
 

@@ -8,6 +8,7 @@ pub mod chamber;
 pub mod csv_import;
 pub mod dense_packing;
 pub mod error;
+pub mod hard_sphere_monte_carlo;
 pub mod lattice;
 pub mod neighbours;
 pub mod random;
@@ -19,6 +20,7 @@ pub mod validate;
 pub use chamber::ChamberBox;
 pub use csv_import::read_csv;
 pub use error::LayoutError;
+pub use hard_sphere_monte_carlo::{relax_hard_spheres, MonteCarloInfo};
 pub use lattice::lattice;
 pub use random::{
     random_layout, random_sequential_addition, PackingMethod, RandomLayout, RandomPlacement, RandomTarget,
@@ -26,7 +28,7 @@ pub use random::{
 };
 pub use region::PlacementRegion;
 pub use resolution::CellResolutionWarning;
-pub use statistics::{ClosePairs, LayoutStatistics};
+pub use statistics::{ClosePairs, LayoutStatistics, PairDistribution};
 
 /// One biological cell: an impermeable sphere that secretes ligand uniformly from its surface.
 #[derive(Clone, Debug, PartialEq)]

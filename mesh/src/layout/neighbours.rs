@@ -72,6 +72,18 @@ impl BucketGrid {
         self.buckets[b].push(id);
     }
 
+    /// Move `id` from the bucket of `from` to the bucket of `to`.
+    pub fn relocate(&mut self, id: usize, from: [f64; 3], to: [f64; 3]) {
+        let (old, new) = (self.flat(self.bucket_of(from)), self.flat(self.bucket_of(to)));
+        if old != new {
+            let bucket = &mut self.buckets[old];
+            if let Some(k) = bucket.iter().position(|&m| m == id) {
+                bucket.swap_remove(k);
+            }
+            self.buckets[new].push(id);
+        }
+    }
+
     /// Visit the ids in all buckets at Chebyshev offset exactly `ring` from bucket `b` (wrapping on periodic
     /// axes, where a bucket may be visited more than once once the ring exceeds half the bucket count).
     pub fn visit_ring(&self, b: [usize; 3], ring: usize, mut f: impl FnMut(usize)) {

@@ -3,7 +3,7 @@
 
 use super::chamber::ChamberBox;
 use super::error::LayoutError;
-use super::micrometres;
+use super::{micrometres, Layout};
 use numkit::Xoshiro256StarStar;
 
 /// The part of the chamber a random layout fills.
@@ -177,6 +177,24 @@ impl CentreRegion {
         }
     }
 
+    /// Whether a moved centre lies in the region (after wrapping it on periodic axes): inside the centre
+    /// bounds on the other axes and inside a cluster's ellipsoid. A Monte Carlo move outside is refused,
+    /// not pulled back, so that every allowed position stays equally likely.
+    pub fn admits(&self, p: &mut [f64; 3]) -> bool {
+        for (a, x) in p.iter_mut().enumerate() {
+            if self.chamber.periodic[a] {
+                let (lo, len) = (self.chamber.lower[a], self.width[a]);
+                *x = lo + (*x - lo).rem_euclid(len);
+                if *x >= self.chamber.upper[a] {
+                    *x = lo;
+                }
+            } else if !(self.clamp[a][0]..=self.clamp[a][1]).contains(x) {
+                return false;
+            }
+        }
+        self.contains(*p)
+    }
+
     /// Bring a moved centre back into the region: wrap periodic axes, clamp to the centre box, and pull a
     /// point outside a cluster's ellipsoid back onto it along the ray from the ellipsoid's centre.
     pub fn restore(&self, p: &mut [f64; 3]) {
@@ -204,6 +222,33 @@ impl CentreRegion {
     }
 }
 
+impl Layout {
+    /// Ids of the cells whose sphere reaches into a margin: closer than `margins[a][side]` (m) to face `side`
+    /// (0 = min, 1 = max) of axis `a`. Periodic axes have no faces and are not checked.
+    pub fn cells_in_margins(&self, chamber: &ChamberBox, margins: &[[f64; 2]; 3]) -> Vec<usize> {
+        let inside = |c: &super::Cell| {
+            (0..3).any(|a| {
+                !chamber.periodic[a]
+                    && (c.centre[a] - c.radius < chamber.lower[a] + margins[a][0]
+                        || c.centre[a] + c.radius > chamber.upper[a] - margins[a][1])
+            })
+        };
+        self.cells.iter().filter(|c| inside(c)).map(|c| c.id).collect()
+    }
+
+    /// The layout without the cells that reach into a margin, ids renumbered in order; and how many went.
+    pub fn without_cells_in_margins(self, chamber: &ChamberBox, margins: &[[f64; 2]; 3]) -> (Layout, usize) {
+        let mut dropped = self.cells_in_margins(chamber, margins);
+        dropped.sort_unstable();
+        let mut cells: Vec<super::Cell> =
+            self.cells.into_iter().filter(|c| dropped.binary_search(&c.id).is_err()).collect();
+        for (n, c) in cells.iter_mut().enumerate() {
+            c.id = n;
+        }
+        (Layout { cells }, dropped.len())
+    }
+}
+
 const AXES: [&str; 3] = ["x", "y", "z"];
 
 #[cfg(test)]
@@ -227,6 +272,25 @@ mod tests {
             0.0
         )
         .is_err());
+    }
+
+    #[test]
+    fn cells_reaching_into_a_margin_are_found_and_dropped() {
+        let chamber =
+            ChamberBox { lower: [0.0; 3], upper: [100e-6, 40e-6, 40e-6], periodic: [false, true, true] };
+        let layout = super::super::lattice([20e-6; 3], &chamber, 5e-6, 1.0).unwrap();
+        // Centres at x = 10, 30, 50, 70, 90 um; a 6 um inlet margin catches x = 10 (reaching 5 um), an 11 um
+        // outlet margin catches x = 90 (reaching 95) but not x = 70 (reaching 75 ≤ 89).
+        let margins = [[6e-6, 11e-6], [0.0; 2], [0.0; 2]];
+        let caught = layout.cells_in_margins(&chamber, &margins);
+        assert_eq!(caught.len(), 2 * 4);
+        let (kept, dropped) = layout.without_cells_in_margins(&chamber, &margins);
+        assert_eq!((kept.cells.len(), dropped), (3 * 4, 8));
+        assert!(kept
+            .cells
+            .iter()
+            .enumerate()
+            .all(|(n, c)| c.id == n && c.centre[0] > 20e-6 && c.centre[0] < 80e-6));
     }
 
     #[test]

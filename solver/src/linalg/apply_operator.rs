@@ -18,6 +18,7 @@
 
 use super::operator::{AdvectionScheme, FaceCoupledOperator};
 use super::real::wide_vectors;
+use super::sparse_correction::SparseCorrection;
 use super::stencil::{face_index, min_lines};
 use rayon::prelude::*;
 
@@ -139,7 +140,8 @@ impl<'a> LineCoefficients<'a> {
 
 /// `y = A x` on one x-line (`yl` is the line's part of y; `qx` a scratch of `nx + 1`). Each row adds its face
 /// terms in one fixed order — x below, x above, y below, y above, z below, z above — so both forms of the
-/// product give the same bits.
+/// product give the same bits, and so do the two loops below (one pass where all four neighbour lines exist,
+/// one pass per face direction along chamber walls).
 #[inline(always)]
 fn apply_line<const UPWIND: bool>(
     flux: &[Vec<f64>; 3],
@@ -151,44 +153,73 @@ fn apply_line<const UPWIND: bool>(
 ) {
     let nx = yl.len();
     let xl = &x[faces.base..faces.base + nx];
-    let sink = &c.sink[..nx];
-    for i in 0..nx {
-        yl[i] = sink[i] * xl[i];
-    }
     // x: face i lies between cells i − 1 and i; face 0 wraps between cell nx − 1 (lower) and cell 0 (upper).
     let (g, f) = (&c.x[..nx + 1], &flux[0][faces.x_face..faces.x_face + nx + 1]);
     let qx = &mut qx[..nx + 1];
     for i in 1..nx {
         qx[i] = face_flux::<UPWIND>(g[i], f[i], xl[i - 1], xl[i]);
     }
-    if nx > 1 {
-        yl[0] += qx[1];
-        for i in 1..nx - 1 {
-            yl[i] = yl[i] - qx[i] + qx[i + 1];
-        }
-        yl[nx - 1] -= qx[nx - 1];
-    }
-    if faces.wrap_x {
-        let q = face_flux::<UPWIND>(g[0], f[0], xl[nx - 1], xl[0]);
-        yl[nx - 1] += q;
-        yl[0] -= q;
-    }
-    // y and z: the faces below and above the line, each against a whole neighbour line.
-    for (s, side) in faces.sides.iter().enumerate() {
-        if !side.exists {
-            continue;
-        }
-        let xn = &x[side.neighbour..side.neighbour + nx];
-        let g = &c.sides[s][..nx];
-        let f = &flux[side.axis][side.face..side.face + nx];
-        if s % 2 == 0 {
-            // Face below: the neighbour is the lower cell.
-            for i in 0..nx {
-                yl[i] -= face_flux::<UPWIND>(g[i], f[i], xn[i], xl[i]);
+    let q_wrap = faces.wrap_x.then(|| face_flux::<UPWIND>(g[0], f[0], xl[nx - 1], xl[0]));
+    if nx > 2 && faces.sides.iter().all(|s| s.exists) {
+        apply_interior_line::<UPWIND>(flux, faces, c, x, yl, qx);
+        // The two end cells, term by term in the same order.
+        for i in [0, nx - 1] {
+            let mut acc = c.sink[i] * xl[i];
+            if i == 0 {
+                acc += qx[1];
+            } else {
+                acc -= qx[nx - 1];
             }
-        } else {
-            for i in 0..nx {
-                yl[i] += face_flux::<UPWIND>(g[i], f[i], xl[i], xn[i]);
+            if let Some(q) = q_wrap {
+                if i == 0 {
+                    acc -= q;
+                } else {
+                    acc += q;
+                }
+            }
+            for (s, side) in faces.sides.iter().enumerate() {
+                let (g, f, xn) = (c.sides[s][i], flux[side.axis][side.face + i], x[side.neighbour + i]);
+                if s % 2 == 0 {
+                    acc -= face_flux::<UPWIND>(g, f, xn, xl[i]);
+                } else {
+                    acc += face_flux::<UPWIND>(g, f, xl[i], xn);
+                }
+            }
+            yl[i] = acc;
+        }
+    } else {
+        let sink = &c.sink[..nx];
+        for i in 0..nx {
+            yl[i] = sink[i] * xl[i];
+        }
+        if nx > 1 {
+            yl[0] += qx[1];
+            for i in 1..nx - 1 {
+                yl[i] = yl[i] - qx[i] + qx[i + 1];
+            }
+            yl[nx - 1] -= qx[nx - 1];
+        }
+        if let Some(q) = q_wrap {
+            yl[nx - 1] += q;
+            yl[0] -= q;
+        }
+        // y and z: the faces below and above the line, each against a whole neighbour line.
+        for (s, side) in faces.sides.iter().enumerate() {
+            if !side.exists {
+                continue;
+            }
+            let xn = &x[side.neighbour..side.neighbour + nx];
+            let g = &c.sides[s][..nx];
+            let f = &flux[side.axis][side.face..side.face + nx];
+            if s % 2 == 0 {
+                // Face below: the neighbour is the lower cell.
+                for i in 0..nx {
+                    yl[i] -= face_flux::<UPWIND>(g[i], f[i], xn[i], xl[i]);
+                }
+            } else {
+                for i in 0..nx {
+                    yl[i] += face_flux::<UPWIND>(g[i], f[i], xl[i], xn[i]);
+                }
             }
         }
     }
@@ -198,6 +229,36 @@ fn apply_line<const UPWIND: bool>(
                 yl[i] = xl[i];
             }
         }
+    }
+}
+
+/// The rows `1..nx − 1` of a line whose four neighbour lines exist, in one pass (`qx` holds the x-face fluxes).
+#[inline(always)]
+fn apply_interior_line<const UPWIND: bool>(
+    flux: &[Vec<f64>; 3],
+    faces: &LineFaces,
+    c: &LineCoefficients,
+    x: &[f64],
+    yl: &mut [f64],
+    qx: &[f64],
+) {
+    let nx = yl.len();
+    let m = nx - 2;
+    let at = |start: usize| &x[start + 1..start + 1 + m];
+    let xl = &x[faces.base..faces.base + nx];
+    let (xc, n) = (&xl[1..1 + m], faces.sides.map(|s| at(s.neighbour)));
+    let f = faces.sides.map(|s| &flux[s.axis][s.face + 1..s.face + 1 + m]);
+    let g = [0, 1, 2, 3].map(|s| &c.sides[s][1..1 + m]);
+    let (sink, q_lo, q_hi) = (&c.sink[1..1 + m], &qx[1..1 + m], &qx[2..2 + m]);
+    let out = &mut yl[1..1 + m];
+    for i in 0..m {
+        let mut acc = sink[i] * xc[i];
+        acc = acc - q_lo[i] + q_hi[i];
+        acc -= face_flux::<UPWIND>(g[0][i], f[0][i], n[0][i], xc[i]);
+        acc += face_flux::<UPWIND>(g[1][i], f[1][i], xc[i], n[1][i]);
+        acc -= face_flux::<UPWIND>(g[2][i], f[2][i], n[2][i], xc[i]);
+        acc += face_flux::<UPWIND>(g[3][i], f[3][i], xc[i], n[3][i]);
+        out[i] = acc;
     }
 }
 
@@ -282,6 +343,10 @@ pub struct PackedOperator {
     /// Irregular cells of x-line l: `cells[line_start[l]..line_start[l + 1]]`, ascending along the line.
     line_start: Vec<usize>,
     cells: Vec<IrregularCell>,
+    /// The cut-cell correction, added line by line while the line's x and y are in cache.
+    correction: SparseCorrection,
+    /// Packed correction rows of x-line l: `correction_start[l]..correction_start[l + 1]`.
+    correction_start: Vec<u32>,
 }
 
 /// The value most entries hold, if one holds more than half of them (Boyer–Moore majority vote, exact bits);
@@ -304,6 +369,12 @@ fn majority(values: impl Iterator<Item = f64>) -> f64 {
 impl PackedOperator {
     /// Packs `op`. Faces touching an inactive cell must carry no coupling (the operator's contract).
     pub fn pack(op: &FaceCoupledOperator) -> Self {
+        Self::pack_corrected(op, SparseCorrection::default())
+    }
+
+    /// Packs `op` plus the cut-cell correction `correction`: [`Self::apply`] then gives `(A + C) x`, the same bits
+    /// as the face-coupled product followed by [`SparseCorrection::add_product`].
+    pub fn pack_corrected(op: &FaceCoupledOperator, correction: SparseCorrection) -> Self {
         let [nx, ny, nz] = op.shape;
         let g0 = majority(op.conductance.iter().flat_map(|g| g.iter().copied()));
         let s0 = majority(op.sink.iter().copied());
@@ -353,6 +424,7 @@ impl PackedOperator {
             cells.extend_from_slice(&l);
             line_start.push(cells.len());
         }
+        let correction_start = correction.block_starts(nx, op.sink.len());
         PackedOperator {
             shape: op.shape,
             periodic: op.periodic,
@@ -360,6 +432,8 @@ impl PackedOperator {
             regular_sink: vec![s0; nx],
             line_start,
             cells,
+            correction,
+            correction_start,
         }
     }
 
@@ -368,14 +442,26 @@ impl PackedOperator {
         self.cells.len()
     }
 
-    /// Bytes held (the flux arrays belong to the operator).
+    /// Number of x-lines holding an irregular cell.
+    pub fn irregular_lines(&self) -> usize {
+        self.line_start.windows(2).filter(|w| w[0] < w[1]).count()
+    }
+
+    /// Bytes held, correction included (the flux arrays belong to the operator).
     pub fn memory_bytes(&self) -> usize {
         8 * (self.regular_conductance.len() + self.regular_sink.len() + self.line_start.len())
             + std::mem::size_of::<IrregularCell>() * self.cells.len()
+            + self.correction.memory_bytes()
+            + 4 * self.correction_start.len()
     }
 
-    /// `y = A x` under `scheme`, with the flux arrays of the operator this was packed from: the same bits as
-    /// [`apply_face_coupled`] on that operator.
+    /// The cut-cell correction packed with the operator.
+    pub fn correction(&self) -> &SparseCorrection {
+        &self.correction
+    }
+
+    /// `y = (A + C) x` under `scheme`, with the flux arrays of the operator this was packed from: the same bits
+    /// as [`apply_face_coupled`] on that operator followed by the correction's [`SparseCorrection::add_product`].
     pub fn apply(&self, op: &FaceCoupledOperator, scheme: AdvectionScheme, x: &[f64], y: &mut [f64]) {
         assert_eq!(op.shape, self.shape, "packed operator applied with another operator's fluxes");
         match scheme {
@@ -414,6 +500,8 @@ impl PackedOperator {
                     apply_line_dispatch::<UPWIND>(wide, flux, &faces, &coefficients, x, yl, qx);
                     scratch.unload(self, &faces, irregular);
                 }
+                let rows = self.correction_start[line] as usize..self.correction_start[line + 1] as usize;
+                self.correction.add_rows(rows, faces.base, x, yl);
             },
         );
     }
@@ -585,6 +673,128 @@ mod tests {
                 for p in 0..x.len() {
                     assert_eq!(full[p].to_bits(), lean[p].to_bits(), "{shape:?} {scheme:?} row {p}");
                 }
+            }
+        }
+    }
+
+    /// Row p of `A x` term by term in the documented order (x below, x above, the wrap face, y below, y above,
+    /// z below, z above), one row at a time: the reference for the bits of both line loops.
+    fn row_by_definition(op: &FaceCoupledOperator, upwind: bool, x: &[f64], p: usize) -> f64 {
+        let [nx, ny, nz] = op.shape;
+        let (i, j, k) = (p % nx, (p / nx) % ny, p / (nx * ny));
+        if !op.active[p] {
+            return x[p];
+        }
+        let flux = |g: f64, f: f64, cl: f64, cu: f64| {
+            if upwind {
+                face_flux::<true>(g, f, cl, cu)
+            } else {
+                face_flux::<false>(g, f, cl, cu)
+            }
+        };
+        let cell = |i: usize, j: usize, k: usize| x[i + nx * (j + ny * k)];
+        let mut y = op.sink[p] * x[p];
+        let fx = |i: usize| {
+            (
+                op.conductance[0][face_index(op.shape, 0, i, j, k)],
+                op.flux[0][face_index(op.shape, 0, i, j, k)],
+            )
+        };
+        if nx > 1 {
+            if i > 0 {
+                let (g, f) = fx(i);
+                y -= flux(g, f, cell(i - 1, j, k), x[p]);
+            }
+            if i + 1 < nx {
+                let (g, f) = fx(i + 1);
+                y += flux(g, f, x[p], cell(i + 1, j, k));
+            }
+        }
+        if op.periodic[0] && nx > 1 {
+            let (g, f) = fx(0);
+            let q = flux(g, f, cell(nx - 1, j, k), cell(0, j, k));
+            if i == nx - 1 {
+                y += q;
+            }
+            if i == 0 {
+                y -= q;
+            }
+        }
+        for axis in [1, 2] {
+            let (n, c) = ([nx, ny, nz][axis], [i, j, k][axis]);
+            let wraps = op.periodic[axis] && n > 1;
+            let at = |c: usize| {
+                if axis == 1 {
+                    (cell(i, c, k), face_index(op.shape, 1, i, c, k))
+                } else {
+                    (cell(i, j, c), face_index(op.shape, 2, i, j, c))
+                }
+            };
+            if c > 0 || wraps {
+                let (xn, _) = at(if c > 0 { c - 1 } else { n - 1 });
+                let (_, face) = at(c);
+                y -= flux(op.conductance[axis][face], op.flux[axis][face], xn, x[p]);
+            }
+            if c + 1 < n || wraps {
+                let (xn, _) = at(if c + 1 < n { c + 1 } else { 0 });
+                let (_, face) = at(if c + 1 < n { c + 1 } else { 0 });
+                y += flux(op.conductance[axis][face], op.flux[axis][face], x[p], xn);
+            }
+        }
+        y
+    }
+
+    /// Both line loops (one pass inside, one pass per face direction along walls) give the bits of the rows
+    /// summed term by term, for every periodicity, with inactive cells.
+    #[test]
+    fn line_loops_sum_each_row_in_the_documented_order() {
+        for (shape, periodic) in [
+            ([9, 6, 5], [false, false, false]),
+            ([8, 6, 4], [true, true, true]),
+            ([7, 5, 3], [true, false, true]),
+            ([2, 7, 3], [true, true, false]),
+            ([3, 4, 4], [false, true, true]),
+        ] {
+            let mut op = random_operator(shape, periodic, 27);
+            op.active[4] = false;
+            decouple_inactive_cells(&mut op);
+            let x = random_vector(op.sink.len(), 12);
+            for (scheme, upwind) in [(AdvectionScheme::Central, false), (AdvectionScheme::Upwind, true)] {
+                let mut y = vec![0.0; x.len()];
+                apply_face_coupled(&op, scheme, &x, &mut y);
+                for (p, got) in y.iter().enumerate() {
+                    let want = row_by_definition(&op, upwind, &x, p);
+                    assert_eq!(got.to_bits(), want.to_bits(), "{shape:?} {periodic:?} {scheme:?} row {p}");
+                }
+            }
+        }
+    }
+
+    /// The correction fused line by line into the packed product gives the same bits as the face-coupled product
+    /// followed by the correction's own product (rows on several lines, some lines without any).
+    #[test]
+    fn fused_correction_is_bit_identical_to_a_separate_pass() {
+        let (shape, periodic) = ([9, 6, 5], [false, true, false]);
+        let op = random_operator(shape, periodic, 29);
+        let n = op.sink.len();
+        let mut triplets = sprs::TriMat::new((n, n));
+        for k in 0..60usize {
+            let row = (k * 37) % n;
+            for j in 0..(1 + k % 5) {
+                triplets.add_triplet(row, (row + 11 * j + k) % n, ((k + 3 * j) as f64).cos());
+            }
+        }
+        let correction = SparseCorrection::pack(&triplets.to_csr());
+        let packed = PackedOperator::pack_corrected(&op, correction.clone());
+        let x = random_vector(n, 4);
+        for scheme in [AdvectionScheme::Central, AdvectionScheme::Upwind] {
+            let mut separate = vec![0.0; n];
+            apply_face_coupled(&op, scheme, &x, &mut separate);
+            correction.add_product(&x, &mut separate);
+            let mut fused = vec![0.0; n];
+            packed.apply(&op, scheme, &x, &mut fused);
+            for p in 0..n {
+                assert_eq!(separate[p].to_bits(), fused[p].to_bits(), "{scheme:?} row {p}");
             }
         }
     }

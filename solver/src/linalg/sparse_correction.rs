@@ -88,16 +88,34 @@ impl SparseCorrection {
             let last = first + y_block.len();
             let k0 = self.rows.partition_point(|&r| (r as usize) < first);
             let k1 = self.rows.partition_point(|&r| (r as usize) < last);
-            for k in k0..k1 {
-                let (a, b) = (self.start[k], self.start[k + 1]);
-                let sum: f64 = self.columns[a..b]
-                    .iter()
-                    .zip(&self.values[a..b])
-                    .map(|(&col, &v)| v * x[col as usize])
-                    .sum();
-                y_block[self.rows[k] as usize - first] += sum;
-            }
+            self.add_rows(k0..k1, first, x, y_block);
         });
+    }
+
+    /// The packed rows of each block of `width` consecutive grid cells out of `cells`: block b owns rows
+    /// `starts[b]..starts[b + 1]` (for a product fused into a block-by-block kernel).
+    pub(crate) fn block_starts(&self, width: usize, cells: usize) -> Vec<u32> {
+        let blocks = cells.div_ceil(width.max(1));
+        let index = |k: usize| u32::try_from(k).expect("sparse correction: more than 2^32 rows");
+        (0..=blocks).map(|b| index(self.rows.partition_point(|&r| (r as usize) < b * width))).collect()
+    }
+
+    /// `y_block += C x` on the packed rows `rows`, whose grid cells lie in the block starting at grid cell
+    /// `first`; each row's entries are summed in storage order.
+    #[inline]
+    pub(crate) fn add_rows(
+        &self,
+        rows: std::ops::Range<usize>,
+        first: usize,
+        x: &[f64],
+        y_block: &mut [f64],
+    ) {
+        for k in rows {
+            let (a, b) = (self.start[k], self.start[k + 1]);
+            let sum: f64 =
+                self.columns[a..b].iter().zip(&self.values[a..b]).map(|(&col, &v)| v * x[col as usize]).sum();
+            y_block[self.rows[k] as usize - first] += sum;
+        }
     }
 }
 

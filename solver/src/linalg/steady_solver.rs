@@ -29,10 +29,9 @@ pub struct LinearSystem {
 /// Built once per operator; reusable for many right-hand sides.
 pub struct SteadySolver {
     system: LinearSystem,
-    /// The operator's conductances and sinks, packed for the product (which reads the operator's fluxes).
+    /// The operator's conductances and sinks and the correction's nonzero rows, packed for the product (which
+    /// reads the operator's fluxes).
     packed: PackedOperator,
-    /// The correction's nonzero rows, packed for the product.
-    correction: SparseCorrection,
     multigrid: Multigrid,
     /// Multigrid work vectors kept between solves (taken by one solve at a time; a concurrent solve allocates).
     work: Mutex<Option<super::multigrid::MultigridWork>>,
@@ -49,15 +48,14 @@ impl SteadySolver {
             system.correction = Some(if c.is_csr() { c } else { c.to_csr() });
         }
         let correction = system.correction.as_ref().map(SparseCorrection::pack).unwrap_or_default();
-        let packed = PackedOperator::pack(&system.operator);
+        let packed = PackedOperator::pack_corrected(&system.operator, correction);
         let multigrid = Multigrid::new(&system.operator, system.scheme, params);
-        SteadySolver { system, packed, correction, multigrid, work: Mutex::new(None) }
+        SteadySolver { system, packed, multigrid, work: Mutex::new(None) }
     }
 
     /// `y = A x` with the full system (face-coupled operator plus correction).
     pub fn apply(&self, x: &[f64], y: &mut [f64]) {
         self.packed.apply(&self.system.operator, self.system.scheme, x, y);
-        self.correction.add_product(x, y);
     }
 
     /// `‖b − A x‖₂`.
@@ -117,11 +115,7 @@ impl SteadySolver {
     /// vectors of a solve.
     pub fn memory_bytes(&self) -> usize {
         let n = self.system.operator.sink.len();
-        self.multigrid.memory_bytes()
-            + self.multigrid.work_bytes()
-            + 6 * 8 * n
-            + self.correction.memory_bytes()
-            + self.packed.memory_bytes()
+        self.multigrid.memory_bytes() + self.multigrid.work_bytes() + 6 * 8 * n + self.packed.memory_bytes()
     }
 }
 

@@ -59,6 +59,9 @@ impl OwnFieldSteps {
         step: &OwnStep,
         own_fields: &mut [OwnField],
     ) -> f64 {
+        if own_fields.is_empty() {
+            return 0.0;
+        }
         let started = Instant::now();
         let n = solver.len();
         let h = step.t_new - step.t;

@@ -181,7 +181,9 @@ pub fn execute(case: &Case, out_dir: &Path, destination: &Path, options: &Transi
         progress.println(&format!("warning: {warning}"));
     }
     // The own fields ran inside the time loop, step by step: their time is the split's stage.
-    meter.carve(MeteredStage::TimeLoop, MeteredStage::SelfNeighbourSplit, observer.split_seconds);
+    if !tcase.params.split_cells.is_empty() {
+        meter.carve(MeteredStage::TimeLoop, MeteredStage::SelfNeighbourSplit, observer.split_seconds);
+    }
     let split_seconds = observer.split_seconds;
     let checkpoints = observer.checkpoints_written;
     let final_part = observer.last_output.take();

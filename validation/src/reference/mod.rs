@@ -15,6 +15,7 @@ pub mod darcy_sphere;
 pub mod hasimoto;
 pub mod low_peclet;
 pub mod mean_field;
+pub mod percus_yevick;
 pub mod point_source_stream;
 pub mod quadrature;
 pub mod special;
