@@ -2,7 +2,8 @@
 //! it per case, and the Slurm scripts size `--mem` and `--time` from it (with headroom, see `slurm.rs`).
 //!
 //! Memory and time grow linearly with the number of grid cells (multigrid-preconditioned solves, DESIGN.md
-//! §3); the self/neighbour split adds one transport solve per decomposed cell (`[sensing] decompose`).
+//! §3); the self/neighbour split adds one transport solve per decomposed cell (`[sensing] decompose`; in a
+//! transient run one more time integration per cell, counted as the run's steps).
 //! The constants are calibrated on cases/demo.toml and on its half (200 × 200 × 100 µm) in Darcy and Brinkman
 //! flow, with the default split, one thread, CPU time and the largest stage peak of `summary.json`
 //! (bench/RECORDS.md, "Run-time and memory forecast"). The straight line through the origin plus a fixed

@@ -1,8 +1,9 @@
 //! Timing studies of the Brinkman flow solve in-process (the whole-process figure is `scripts/bench_brinkman`):
 //!
 //! - `brinkman-stages stages [SIZE]`: the `scripts/bench_brinkman` chamber of SIZE³ grid cells (default 64):
-//!   flow and transport times, flow iterations, and the peak resident memory of each stage (Linux `VmHWM`,
-//!   reset between stages).
+//!   flow and transport times (wall and CPU), flow iterations, and the peak resident memory of each stage
+//!   (Linux `VmHWM`, reset between stages); `PF_INNER=1e-3` sets the inner tolerance of the refinement,
+//!   `PF_SMOOTH=N` the multigrid sweeps.
 //! - `brinkman-stages iterations SIZE,SIZE,…`: outer iterations of a sphere (a = 0.2) in a periodic unit box per
 //!   grid size and α = a/√K; `PF_PROLONG=tri`, `PF_CYCLE=W`, `PF_SMOOTH=N` change the multigrid parameters.
 //!
@@ -43,7 +44,14 @@ fn stages(size: usize) {
     let geometry = EmbeddedGeometry::build(&grid, &layout, [false; 3]);
     let stencils = FacetStencils::build(&geometry);
     let after_geometry = peak_rss();
-    let params = BrinkmanParams::default();
+    let mut params = BrinkmanParams::default();
+    if let Ok(inner) = std::env::var("PF_INNER").unwrap_or_default().parse::<f64>() {
+        params.inner_tolerance = inner;
+    }
+    if let Ok(sweeps) = std::env::var("PF_SMOOTH").unwrap_or_default().parse::<usize>() {
+        params.multigrid.pre_smoothing = sweeps;
+        params.multigrid.post_smoothing = sweeps;
+    }
     meter::reset_peak_resident();
     let t = Instant::now();
     let cpu = process_cpu_seconds();

@@ -1,5 +1,6 @@
 //! The floating-point types a multigrid level may store: f64 for the exact operator, f32 for the hierarchy
-//! (half the memory traffic; the preconditioner only needs a few digits, the Krylov method keeps f64) — and
+//! (half the memory traffic; the preconditioner only needs a few digits; a Krylov method keeps f64, or f32 inside
+//! an f64 iterative refinement) — and
 //! whether the line kernels may run in 256-bit vectors.
 //!
 //! The line kernel of the operator product is compiled twice: for the baseline x86-64 (SSE2, two f64 lanes)

@@ -9,11 +9,12 @@
 //! surface end on it ([`assemble_momentum`], cut positions from the exact spheres via [`sphere_index`]).
 //! Continuity uses the fluxes `h² u_f` of the faces whose centres are in the fluid ([`pressure_gradient`]); those
 //! fluxes are what the transport advects, divergence-free to the solver tolerance.
-//! The coupled system is solved by right-preconditioned BiCGSTAB without a stored shadow vector (six vectors;
-//! flexible GMRES on request, both from `crate::linalg::krylov`) with a block-triangular preconditioner: multigrid on each velocity
-//! component and a Cahouet–Chabard Schur approximation with a cut-cell-weighted viscous part
-//! ([`saddle_system`]); products run on compact rows ([`momentum_rows`]). Cell drag comes from the discrete
-//! momentum balance ([`surface_force`]).
+//! The coupled system is solved by mixed-precision iterative refinement: f64 residuals around corrections by
+//! right-preconditioned BiCGSTAB in f32 without a stored shadow vector (flexible GMRES in f64 on request, both
+//! from `crate::linalg::krylov`), with a block-triangular preconditioner: multigrid on each velocity component
+//! and a Cahouet–Chabard Schur approximation with a cut-cell-weighted viscous part ([`saddle_system`]);
+//! products run on compact rows ([`momentum_rows`]). Cell drag comes from the discrete momentum balance
+//! ([`surface_force`]).
 
 pub mod assemble_momentum;
 pub mod chamber_velocity;

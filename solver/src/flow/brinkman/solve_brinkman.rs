@@ -11,8 +11,9 @@ use super::surface_force::{surface_forces, SurfaceForces};
 use super::{BrinkmanError, BrinkmanMedium};
 use crate::flow::FlowField;
 use crate::linalg::{
-    gmres, refine_until, GmresParams, KrylovParams, MultigridParams, OuterResidual, RefinementParams,
-    RefinementWork, RightHandSide, SolveError, SolveInfo, SparseVector,
+    bicgstab_until, gmres, refine_until, BicgstabParams, BicgstabWork, GmresParams, KrylovParams,
+    MultigridParams, OuterResidual, RefinementParams, RefinementWork, RightHandSide, Shadow, SolveError,
+    SolveInfo, SparseVector,
 };
 use crate::problem::{ChamberBoundaries, ChamberFace};
 use mesh::{Axis, EmbeddedGeometry, Layout};
@@ -73,7 +74,8 @@ pub struct BrinkmanSolution {
     pub forces: SurfaceForces,
     /// Set when the screening length √K is under-resolved.
     pub resolution: Option<ScreeningLengthWarning>,
-    /// Relative residual before the first and after every GMRES iteration.
+    /// Relative residual before the first and after every iteration (within a refinement round, the inner
+    /// solve's estimate; the f64 residual at the end of each round).
     pub residual_history: Vec<f64>,
     /// Bytes held by the solver (operators, hierarchies, Krylov basis).
     pub memory_bytes: usize,
@@ -147,10 +149,64 @@ pub fn solve_brinkman(
                 },
                 RightHandSide::<f64>::Sparse(&rhs).norm(),
                 &mut x,
-                &RefinementParams { krylov: params.krylov.clone(), inner_tolerance: params.inner_tolerance },
+                &RefinementParams {
+                    krylov: params.krylov.clone(),
+                    inner_tolerance: params.inner_tolerance,
+                    ..RefinementParams::default()
+                },
                 &mut refinement,
             );
-            (result, refinement.memory_bytes())
+            let bytes = refinement.memory_bytes();
+            drop(refinement);
+            match result {
+                // The f32 corrections stalled short of the target (a nearly singular system, e.g. Stokes flow
+                // in a periodic box): go on from the solution reached with BiCGSTAB in f64.
+                Err(SolveError::NoConvergence { iterations, residual_history, .. })
+                    if iterations < params.krylov.max_iterations =>
+                {
+                    let mut f64_work = system.work::<f64>();
+                    let round = KrylovParams {
+                        max_iterations: params.krylov.max_iterations - iterations,
+                        ..params.krylov.clone()
+                    };
+                    let result = bicgstab_until(
+                        &|v: &[f64], y: &mut [f64]| system.apply(v, y),
+                        |r: &[f64], z: &mut [f64]| system.precondition(r, z, &mut f64_work),
+                        RightHandSide::Sparse(&rhs),
+                        &mut x,
+                        &BicgstabParams { krylov: round, shadow: Shadow::Unstored },
+                        &mut BicgstabWork::default(),
+                        |x, r| system.residual_continuity_peak(r) / limit(x),
+                    );
+                    let joined = |more: usize, mut history: Vec<f64>| {
+                        let mut all = residual_history.clone();
+                        all.extend(history.drain(..).skip(1));
+                        (iterations + more, all)
+                    };
+                    let result = match result {
+                        Ok(info) => {
+                            let (iterations, residual_history) =
+                                joined(info.iterations, info.residual_history);
+                            Ok(SolveInfo {
+                                iterations,
+                                relative_residual: info.relative_residual,
+                                residual_history,
+                            })
+                        }
+                        Err(SolveError::NoConvergence {
+                            iterations: more,
+                            relative_residual,
+                            residual_history: history,
+                        }) => {
+                            let (iterations, residual_history) = joined(more, history);
+                            Err(SolveError::NoConvergence { iterations, relative_residual, residual_history })
+                        }
+                        Err(e) => Err(e),
+                    };
+                    (result, bytes.max(8 * 5 * system.len()))
+                }
+                result => (result, bytes),
+            }
         }
         FlowKrylov::Gmres => {
             (gmres_until(&system, &rhs, &mut x, params, limit), 8 * system.len() * (2 * params.restart + 4))

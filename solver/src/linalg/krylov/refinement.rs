@@ -26,11 +26,14 @@ pub struct RefinementParams {
     /// Relative residual each inner f32 solve is asked for (default 1e-4: f32 carries about 7 digits, and the
     /// recursively updated inner residual drifts from the true one well before that).
     pub inner_tolerance: f64,
+    /// Iterations of one inner solve at most (default 20): an f32 solve that cannot reach its tolerance ends
+    /// the round instead of the whole iteration budget.
+    pub inner_max_iterations: usize,
 }
 
 impl Default for RefinementParams {
     fn default() -> Self {
-        RefinementParams { krylov: KrylovParams::default(), inner_tolerance: 1e-4 }
+        RefinementParams { krylov: KrylovParams::default(), inner_tolerance: 1e-4, inner_max_iterations: 20 }
     }
 }
 
@@ -83,7 +86,9 @@ pub fn store_scaled_residual(r: &[f64], scale: f64, out: &mut [f32]) -> f64 {
 /// [`OuterResidual`]; `inner` and `precondition` are the f32 operator and preconditioner of the correction
 /// solves. Stops when the relative residual meets the tolerance and `unmet ≤ 1`; as in
 /// [`super::bicgstab_until`], an unmet criterion lowers the residual target to `relative/(2·unmet)`.
-/// Reports inner iterations summed over the rounds.
+/// Reports inner iterations summed over the rounds. A round that does not halve the f64 residual ends the
+/// solve with `NoConvergence` (the f32 correction cannot resolve what is left, e.g. a nearly singular system
+/// whose iterates grow large): the caller may go on in f64 from the `x` reached.
 pub fn refine_until(
     inner: &impl LinearOperator<f32>,
     mut precondition: impl FnMut(&[f32], &mut [f32]),
@@ -109,6 +114,7 @@ pub fn refine_until(
     let mut scale = 1.0 / b_norm;
     let mut iterations = 0;
     let mut history: Vec<f64> = Vec::new();
+    let mut previous = f64::INFINITY;
     loop {
         let outer = residual(x, scale, &mut work.rhs);
         let relative = outer.norm / b_norm;
@@ -122,7 +128,7 @@ pub fn refine_until(
             }
             target = relative / (2.0 * outer.unmet);
         }
-        if iterations >= params.krylov.max_iterations {
+        if iterations >= params.krylov.max_iterations || relative > 0.5 * previous {
             return Err(SolveError::NoConvergence {
                 iterations,
                 relative_residual: relative,
@@ -134,7 +140,7 @@ pub fn refine_until(
         let inner_params = BicgstabParams {
             krylov: KrylovParams {
                 relative_tolerance: inner_tolerance,
-                max_iterations: params.krylov.max_iterations - iterations,
+                max_iterations: (params.krylov.max_iterations - iterations).min(params.inner_max_iterations),
             },
             shadow: Shadow::Unstored,
         };
@@ -174,6 +180,7 @@ pub fn refine_until(
             .with_min_len(CHUNK)
             .for_each(|(xi, &d)| *xi += step * d.to_f64());
         scale = 1.0 / outer.norm;
+        previous = relative;
     }
 }
 
