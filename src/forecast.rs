@@ -19,8 +19,10 @@ use solver::transport::far_field_sources::FarFieldSumParams;
 /// Resident memory that does not scale with the grid (program, HDF5 library, small buffers), bytes.
 const BASE_BYTES: f64 = 15.0e6;
 /// Resident memory per grid cell, bytes (geometry, flow, transport, multigrid hierarchy, Krylov vectors; the
-/// peak is the self/neighbour split's stage, Brinkman flow stays below it).
-const BYTES_PER_GRID_CELL: f64 = 632.0;
+/// peak is the self/neighbour split's stage, Brinkman flow stays below it). Chosen between the half-demo cases
+/// (634 B in Darcy, 864 B in Brinkman flow on one thread) and the 256³ Brinkman case of `scripts/bench_scale`
+/// (541 B on two threads): larger grids hold fewer bytes per grid cell, which a straight line cannot follow.
+const BYTES_PER_GRID_CELL: f64 = 605.0;
 /// Extra resident memory per grid cell for each thread beyond the first (per-thread work buffers), bytes; a
 /// rough slope from one pair of runs.
 const BYTES_PER_GRID_CELL_PER_EXTRA_THREAD: f64 = 87.0;
