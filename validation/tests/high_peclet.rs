@@ -14,7 +14,8 @@ fn absorbing_sphere_at_peclet_1000_conserves_molecules() {
     assert!(s.sherwood.is_finite() && s.sherwood > 0.0, "{s:?}");
 }
 
-/// Grid refinement at Pe = 100, 300, 1000 against the thin-boundary-layer result (minutes: `--ignored`).
+/// Grid refinement at Pe = 100, 300, 1000 against the thin-boundary-layer result (minutes: `--ignored`;
+/// `PLUMEFIELD_SHERWOOD_GRIDS` lists the radii in spacings, `PLUMEFIELD_SHERWOOD_BOX` the box half-width in radii).
 #[test]
 #[ignore]
 fn sherwood_number_with_grid_refinement() {
@@ -22,9 +23,12 @@ fn sherwood_number_with_grid_refinement() {
         .ok()
         .map(|v| v.split(',').filter_map(|x| x.trim().parse().ok()).collect())
         .unwrap_or_else(|| vec![4.0, 6.0, 8.0]);
+    // Half-width of the box in radii: the confinement study varies it.
+    let half_width: f64 =
+        std::env::var("PLUMEFIELD_SHERWOOD_BOX").ok().and_then(|v| v.trim().parse().ok()).unwrap_or(6.0);
     println!("a/h  Pe      Sh        box-corrected ref  rel.diff  max cell Pe  surface Pe  drag/6pi mu a U  balance   iterations");
     for &resolution in &grids {
-        let stream = SphereInStream::solve(resolution, 6.0).expect("flow");
+        let stream = SphereInStream::solve(resolution, half_width).expect("flow");
         for pe in [100.0, 300.0, 1000.0] {
             let s = stream.sherwood(pe).expect("transport");
             let reference = thin_boundary_layer::sherwood_two_term(pe, s.drag_ratio).unwrap();

@@ -17,12 +17,15 @@
 //! a/h = 8 puts about 1.3 spacings across it; faces beside the sphere above cell Péclet 2 carry the fitted flux
 //! (first order across the stream); the absorbing closure is first order (`transport::surface_exchange`).
 //!
-//! The study on a/h = 4, 6, 8 at Pe = 100, 300, 1000 is in `bench/RECORDS.md`.
+//! The study on a/h = 4, 6, 8, 10, 12 at Pe = 100, 300, 1000 is in `bench/RECORDS.md`.
 //!
-//! Resolved grids (surface cell Péclet ≤ 2) agree within 1 %; at Pe = 1000 no grid that fits here resolves
-//! the layer (it needs a/h ≈ 50 for surface Péclet 2) and Sh is still rising with refinement. The earlier
-//! limited upwind-biased scheme (where its outer iterations settled, a/h = 6) gave 5.979, 8.006, 10.66: −2.7,
-//! −5.3, −12.4 % on the same references, with 118–530 Krylov iterations against 12–15 here.
+//! The grids converge: from a/h = 10 to 12, Sh moves by 0.1–0.9 % at every Péclet number (Pe = 1000: 13.85,
+//! 13.83). At Pe = 100 the converged value matches the box-corrected reference within 0.2 %; at Pe = 1000 it
+//! lies 13.6 % above it, a gap that refinement no longer closes: it measures the reference's box model (the
+//! drag ratio^(1/3) as the shear factor), which is too simple for a sphere confined at ±6a, not the grid. The
+//! full tier checks a/h = 8 against that model with the tolerances below. The earlier limited upwind-biased
+//! scheme (where its outer iterations settled, a/h = 6) gave 5.979, 8.006, 10.66: −2.7, −5.3, −12.4 % on the
+//! same references, with 118–530 Krylov iterations against 12–15 here.
 
 use super::setup::isolated_sphere;
 use super::{Check, Tier, VerifyError};
