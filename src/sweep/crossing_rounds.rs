@@ -30,14 +30,6 @@ pub struct Progress {
     pub rounds: usize,
     /// Cases of the last round that are not finished (empty when the search is over).
     pub to_run: Vec<usize>,
-    /// The values of the other axes of each combination, as (axis index, value).
-    pub combinations: Vec<Vec<(usize, AxisValue)>>,
-    /// The result of each combination; `None` while it is still searching.
-    pub results: Vec<Option<Crossing>>,
-    /// Cases asked for each combination so far (all seeds).
-    pub cases: Vec<usize>,
-    /// The parameters every combination is searched with.
-    pub params: SearchParams,
 }
 
 impl Progress {
@@ -84,7 +76,6 @@ pub fn advance(template: &Plan, dir: &Path, finished: &dyn Fn(&str, &CaseState) 
     let mut observations: Vec<Vec<Observation>> = vec![Vec::new(); combinations.len()];
     let mut results: Vec<Option<Crossing>> = vec![None; combinations.len()];
     let mut rounds = 0;
-    let mut counts = vec![0; combinations.len()];
     loop {
         // (combination, x, the case of each seed)
         let mut asked: Vec<(usize, f64, Vec<usize>)> = Vec::new();
@@ -127,22 +118,13 @@ pub fn advance(template: &Plan, dir: &Path, finished: &dyn Fn(&str, &CaseState) 
                                 .collect();
                             cases.push(plan.push_case(values).map_err(input)?);
                         }
-                        counts[c] += cases.len();
                         asked.push((c, x, cases));
                     }
                 }
             }
         }
         if asked.is_empty() {
-            return Ok(Progress {
-                plan,
-                rounds,
-                to_run: Vec::new(),
-                combinations,
-                results,
-                cases: counts,
-                params,
-            });
+            return Ok(Progress { plan, rounds, to_run: Vec::new() });
         }
         rounds += 1;
         let mut to_run: Vec<usize> = asked
@@ -155,7 +137,7 @@ pub fn advance(template: &Plan, dir: &Path, finished: &dyn Fn(&str, &CaseState) 
         to_run.sort_unstable();
         to_run.dedup();
         if !to_run.is_empty() {
-            return Ok(Progress { plan, rounds, to_run, combinations, results, cases: counts, params });
+            return Ok(Progress { plan, rounds, to_run });
         }
         let indices: Vec<usize> = asked.iter().flat_map(|(_, _, cases)| cases.iter().copied()).collect();
         let metric = read_metric(&plan, dir, &indices, &find)?;
