@@ -2,16 +2,19 @@
 //! it per case, and the Slurm scripts size `--mem` and `--time` from it (with headroom, see `slurm.rs`).
 //!
 //! Memory and time grow linearly with the number of grid cells (multigrid-preconditioned solves, DESIGN.md
-//! §3); the self/neighbour split adds one transport solve per decomposed cell (`[sensing] decompose`).
+//! §3); the self/neighbour split adds one transport solve per decomposed cell (`[sensing] decompose`; in a
+//! transient run one more time integration per cell, counted as the run's steps).
 //! The constants are calibrated on cases/demo.toml and on its half (200 × 200 × 100 µm) in Darcy and Brinkman
 //! flow, with the default split, one thread, CPU time and the largest stage peak of `summary.json`
 //! (bench/RECORDS.md, "Run-time and memory forecast"). The straight line through the origin plus a fixed
 //! start-up cost over-forecasts tiny grids that fit in the caches. The Brinkman/Stokes
 //! flow solve and the time steps of transient runs are added from their benchmarks (constants below; an adaptive
-//! run is assumed to take a fixed number of steps). A forecast, not a bound.
+//! run is assumed to take a fixed number of steps), and so is the far-field condition of many cells (direct sum
+//! or patch sums, from `bench --bin far-field-pair-cost`). A forecast, not a bound.
 
 use crate::case::Case;
-use solver::problem::MediumModel;
+use solver::problem::{ChamberFace, FarFieldSources, MediumModel};
+use solver::transport::far_field_sources::FarFieldSumParams;
 
 /// Resident memory that does not scale with the grid (program, HDF5 library, small buffers), bytes.
 const BASE_BYTES: f64 = 15.0e6;
@@ -43,6 +46,13 @@ const TRANSIENT_BYTES_PER_GRID_CELL: f64 = 120.0;
 /// The own field of one split cell in a transient run: the field and its history, bytes per grid cell (their
 /// copies in a checkpoint are transient).
 const OWN_FIELD_BYTES_PER_GRID_CELL: f64 = 16.0;
+/// The direct far-field sum per (far-field face, secreting cell) pair on one thread, seconds (bench/RECORDS.md,
+/// "Far-field superposition cost").
+const FAR_FIELD_SECONDS_PER_PAIR: f64 = 11e-9;
+/// The far-field patch sums (above `FarFieldSumParams::direct_below_pairs`) on one thread: per far-field face and
+/// per (secreting cell, far-field chamber side), seconds (a fit to the 256³ and 384³ rows of the same record).
+const FAR_FIELD_PATCH_SECONDS_PER_FACE: f64 = 1.1e-6;
+const FAR_FIELD_PATCH_SECONDS_PER_CELL_SIDE: f64 = 70e-6;
 /// Parallel efficiency assumed for the threads of one case (common practice for memory-bound stencils).
 const THREAD_EFFICIENCY: f64 = 0.7;
 
@@ -73,6 +83,7 @@ impl Forecast {
         if !matches!(case.flow.medium, MediumModel::Darcy { .. }) {
             forecast.seconds_one_thread += VISCOUS_FLOW_SECONDS_PER_GRID_CELL * n * phases as f64;
         }
+        forecast.seconds_one_thread += far_field_seconds(case);
         if let Some(t) = transient {
             // A transient run keeps a few history fields; its split (only when asked) integrates each chosen
             // cell's own field with the same steps, one more solve per step, two more fields per cell.
@@ -118,6 +129,30 @@ impl Forecast {
     /// The split's part of the wall time on `threads` threads, seconds.
     pub fn decompose_seconds(&self, threads: usize) -> f64 {
         self.decompose_seconds_one_thread / speedup(threads)
+    }
+}
+
+/// The steady far-field coefficients of one assembly on one thread, seconds: the direct sum over (face, cell)
+/// pairs, or the patch sums above the solver's pair threshold.
+fn far_field_seconds(case: &Case) -> f64 {
+    let shape = case.grid.shape;
+    let mut faces = 0.0;
+    let mut sides = 0.0;
+    for axis in 0..3 {
+        for side in 0..2 {
+            if case.boundaries.faces[axis][side] == ChamberFace::FarField {
+                faces += (shape[(axis + 1) % 3] * shape[(axis + 2) % 3]) as f64;
+                sides += 1.0;
+            }
+        }
+    }
+    let secreting = case.layout.cells.iter().filter(|c| c.secretion_rate > 0.0).count().max(1) as f64;
+    let sources = if case.boundaries.far_field_sources == FarFieldSources::Cells { secreting } else { 1.0 };
+    let pairs = faces * sources;
+    if sources < 2.0 || pairs < FarFieldSumParams::default().direct_below_pairs {
+        FAR_FIELD_SECONDS_PER_PAIR * pairs
+    } else {
+        FAR_FIELD_PATCH_SECONDS_PER_FACE * faces + FAR_FIELD_PATCH_SECONDS_PER_CELL_SIDE * sources * sides
     }
 }
 
@@ -205,6 +240,28 @@ mod tests {
             "{}",
             tiny.seconds_one_thread
         );
+    }
+
+    #[test]
+    fn far_field_of_many_cells_adds_the_patch_sums() {
+        let base = include_str!("../cases/stream_cell.toml")
+            .replace("cells_per_radius = 4", "spacing = \"0.5 um\"")
+            .replace("list = [{ x = \"80 um\", y = \"80 um\", z = \"80 um\" }]", "")
+            .replace(
+                "radius = \"8 um\"",
+                "radius = \"2 um\"\nlayout = { kind = \"random\", count = 2000, seed = 1 }",
+            );
+        let parse = |text: &str| Case::parse(text, std::path::Path::new("case.toml")).expect("case parses");
+        let cells = Forecast::of(&parse(&base));
+        let centroid = Forecast::of(&parse(
+            &base.replace("z_max = \"far_field\"", "z_max = \"far_field\"\nfar_field_sources = \"centroid\""),
+        ));
+        // Four far-field sides of 320² faces: 2000 cells × 409,600 faces is above the direct sum's pair count.
+        let faces = 4.0 * 320.0 * 320.0;
+        let patch =
+            FAR_FIELD_PATCH_SECONDS_PER_FACE * faces + FAR_FIELD_PATCH_SECONDS_PER_CELL_SIDE * 2000.0 * 4.0;
+        let added = cells.seconds_one_thread - centroid.seconds_one_thread;
+        assert!((added - (patch - FAR_FIELD_SECONDS_PER_PAIR * faces)).abs() < 1e-9, "{added} vs {patch}");
     }
 
     #[test]

@@ -164,6 +164,100 @@ fn the_dense_grid_crossing_lies_in_the_finders_interval_with_a_third_of_the_case
     assert!(3 * cases <= 18, "finder {cases} cases, grid 18");
 }
 
+/// A small inlet/outlet chamber with a random layout of 5 µm cells whose volume fraction is swept: the seeds
+/// (layouts) disagree by a few per cent in the median direction error.
+const CROWD: &str = r#"title = "crowded chamber, random layouts"
+[chamber]
+size = ["120 um", "60 um", "60 um"]
+[grid]
+spacing = "2 um"
+[medium]
+model = "darcy"
+viscosity = "1e-3 Pa s"
+permeability = "1e-13 m^2"
+[flow]
+mean_velocity = "2 um/s"
+[boundaries]
+x_min = "inlet"
+x_max = "outlet"
+y_min = "wall"
+y_max = "wall"
+z_min = "symmetry"
+z_max = "symmetry"
+[ligand]
+diffusivity = "1e-10 m^2/s"
+[cells]
+radius = "5 um"
+secretion_rate = "2000 /h"
+uptake = { model = "first_order", rate_constant = "1e-6 m/s" }
+layout = { kind = "random", volume_fraction = 0.1, min_gap = "1 um", seed = 1 }
+[sensing]
+integration_time = "1 h"
+[output]
+fields = []
+figures = false
+"#;
+
+#[test]
+fn with_seeds_the_dense_grid_crossing_of_the_seed_mean_lies_in_the_finders_interval_with_a_third_of_the_cases(
+) {
+    let dir = tempfile::tempdir().unwrap();
+    let axis = "seeds = 2\n[[axis]]\nkey = \"cells.layout.volume_fraction\"\nfrom = 0.1\nto = 0.3\nscale = \"log\"\n";
+    // The dense grid: 18 log-spaced values (neighbours 6.7 % apart), two layouts each.
+    let grid = write(dir.path(), CROWD, &format!("{axis}count = 18\n"));
+    let dense = dir.path().join("dense");
+    let run = pf(&["sweep", grid.to_str().unwrap(), "-o", dense.to_str().unwrap(), "--jobs", "2"]);
+    assert_eq!(run.status.code(), Some(0), "{}", show(&run));
+    let groups = dense.join("sweep_groups.csv");
+    let fractions = real(&groups, "cells.layout.volume_fraction");
+    let means = real(&groups, "direction_error_median.mean");
+    let level: f64 = 1.3;
+    let rising: Vec<usize> =
+        (0..fractions.len() - 1).filter(|&i| means[i] < level && means[i + 1] >= level).collect();
+    assert_eq!(rising.len(), 1, "the seed mean crosses {level} once on the grid: {means:?}");
+    let k = rising[0];
+    let (a, b) = (fractions[k].ln(), fractions[k + 1].ln());
+    let (ma, mb) = (means[k].ln(), means[k + 1].ln());
+    let from_grid = (a + (level.ln() - ma) * (b - a) / (mb - ma)).exp();
+
+    let find = write(
+        dir.path(),
+        CROWD,
+        &format!(
+            "{axis}[find]\nmetric = \"direction_error_median\"\nlevel = {level}\naxis = \"cells.layout.volume_fraction\"\n\
+             relative_precision = 0.1\n"
+        ),
+    );
+    let out = dir.path().join("find");
+    let run = pf(&["sweep", find.to_str().unwrap(), "-o", out.to_str().unwrap(), "--jobs", "2"]);
+    assert_eq!(run.status.code(), Some(0), "{}", show(&run));
+    let csv = out.join("crossing.csv");
+    let status = column(&csv, "status");
+    assert!(status == ["found"] || status == ["seed_limited"], "{}", show(&run));
+    let (low, high) = (real(&csv, "crossing_low [1]")[0], real(&csv, "crossing_high [1]")[0]);
+    assert!(low <= from_grid && from_grid <= high, "grid crossing {from_grid} outside [{low}, {high}]");
+    let cases: usize = column(&csv, "cases")[0].parse().unwrap();
+    assert!(3 * cases <= 36, "finder {cases} cases, grid 36");
+
+    // collect alone rewrites crossing.csv from the plan record (no crossing.png: no other axis to draw against).
+    let before = std::fs::read(&csv).unwrap();
+    std::fs::remove_file(&csv).unwrap();
+    let run = pf(&["collect", out.to_str().unwrap()]);
+    assert_eq!(run.status.code(), Some(0), "{}", show(&run));
+    assert_eq!(std::fs::read(&csv).unwrap(), before);
+    assert!(!out.join("crossing.png").exists());
+    // A plan file written before the [find] settings were kept collects as a plain sweep.
+    let plan = out.join("sweep_plan.json");
+    let mut record: serde_json::Value = serde_json::from_slice(&std::fs::read(&plan).unwrap()).unwrap();
+    assert!(record["find"].is_object(), "{record}");
+    record.as_object_mut().unwrap().remove("find");
+    std::fs::write(&plan, serde_json::to_vec_pretty(&record).unwrap()).unwrap();
+    std::fs::remove_file(&csv).unwrap();
+    let run = pf(&["collect", out.to_str().unwrap()]);
+    assert_eq!(run.status.code(), Some(0), "{}", show(&run));
+    assert!(out.join("sweep.csv").exists() && !csv.exists());
+}
+
 #[test]
 fn bad_find_tables_exit_2_naming_the_key() {
     let dir = tempfile::tempdir().unwrap();

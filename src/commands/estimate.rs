@@ -123,37 +123,45 @@ impl CaseEstimates {
             }
             let _ = writeln!(t);
         }
+        let cell_volume = 4.0 / 3.0 * std::f64::consts::PI * self.radius.powi(3);
+        let level = self.critical_density.map_or(1.0, |c| c.level);
+        let outlet = format!("density where the error rises through {level} (outlet)");
         match self.critical_density {
-            Some(CriticalDensity { density: Some(rho), rising, .. }) => row(
+            Some(CriticalDensity { density: Some(rho), .. }) => {
+                row(&mut t, &outlet, format!("{rho:.4e} per m^3 (volume fraction {:.3e})", rho * cell_volume))
+            }
+            Some(CriticalDensity { density: None, range, none_because, isolated_error, .. }) => row(
                 &mut t,
-                "density where direction error = 1 (outlet)",
-                format!("{rho:.4e} per m^3 (volume fraction {:.3e}); the error {} with density there", rho * 4.0 / 3.0 * std::f64::consts::PI * self.radius.powi(3), if rising { "rises" } else { "falls" }),
-            ),
-            Some(CriticalDensity { density: None, range, isolated_error, .. }) => row(
-                &mut t,
-                "density where direction error = 1 (outlet)",
+                &outlet,
                 format!(
-                    "none between {:.2e} and {:.2e} per m^3 (error {} 1 already for a nearly isolated cell: {isolated_error:.3e})",
+                    "none between {:.2e} and {:.2e} per m^3: {} (nearly isolated cell: {isolated_error:.3e})",
                     range[0],
                     range[1],
-                    if isolated_error > 1.0 { "above" } else { "below" }
+                    none_because.map_or("", |n| n.reason())
                 ),
             ),
-            None => row(&mut t, "density where direction error = 1 (outlet)", "not estimated (no mean-field background)".to_string()),
+            None => row(&mut t, &outlet, "not estimated (no mean-field background)".to_string()),
         }
         if let Some(c) = self.critical_density {
             row(&mut t, "direction error at the outlet, this density", format!("{:.4e}", c.case_error));
         }
         if !self.critical_density_by_position.is_empty() {
-            let _ = writeln!(t, "\ndensity where the direction error reaches 1, by position:");
+            let _ = writeln!(
+                t,
+                "\ndensity where crowding raises the direction error through {level}, by position:"
+            );
             let _ = writeln!(t, "{:>10} {:>16} {:>16}", "x (um)", "density (1/m^3)", "volume fraction");
-            let cell_volume = 4.0 / 3.0 * std::f64::consts::PI * self.radius.powi(3);
             for (x, c) in &self.critical_density_by_position {
-                let (rho, phi) = match c.and_then(|c| c.density) {
-                    Some(rho) => (format!("{rho:.4e}"), format!("{:.4e}", rho * cell_volume)),
-                    None => ("none".to_string(), "-".to_string()),
+                let line = match c {
+                    Some(CriticalDensity { density: Some(rho), .. }) => {
+                        format!("{rho:>16.4e} {:>16.4e}", rho * cell_volume)
+                    }
+                    Some(CriticalDensity { none_because: Some(why), .. }) => {
+                        format!("{:>16} {:>16}  {}", "none", "-", why.reason())
+                    }
+                    _ => format!("{:>16} {:>16}", "none", "-"),
                 };
-                let _ = writeln!(t, "{:>10.1} {rho:>16} {phi:>16}", x * 1e6);
+                let _ = writeln!(t, "{:>10.1} {line}", x * 1e6);
             }
             if let Some(layer) = self.outlet_layer {
                 let _ = writeln!(

@@ -82,6 +82,7 @@ impl CaseEstimates {
                 flow: IsolatedFlow::of_medium(&case.flow.medium, a),
                 integration_time: case.sensing.integration_time,
             },
+            readable_error: case.sensing.readable_error,
         };
         CaseEstimates {
             chamber: ChamberEstimates::new(&inputs),
@@ -203,7 +204,8 @@ impl CaseEstimates {
 fn critical_density_summary(c: CriticalDensity, position: &str) -> CriticalDensitySummary {
     CriticalDensitySummary {
         density: c.density,
-        rising: c.rising,
+        readable_error: c.level,
+        none_because: c.none_because.map(|n| n.reason().to_string()),
         range: c.range,
         position: position.to_string(),
         isolated_direction_error: Unbounded(c.isolated_error),

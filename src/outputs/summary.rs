@@ -400,8 +400,10 @@ pub struct DenseProfileSummary {
 
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct CriticalDensitySummary {
+    /// Where crowding raises the direction error through `readable_error` (null: `none_because` says why).
     pub density: Option<f64>,
-    pub rising: bool,
+    pub readable_error: f64,
+    pub none_because: Option<String>,
     pub range: [f64; 2],
     /// Where the direction error is taken: `"outlet"`, or `"at x"` inside `critical_density_by_position`.
     pub position: String,

@@ -1,6 +1,6 @@
 //! Performance figures of the steady transport solve (the `scripts/bench` driver).
 //!
-//! `plumefield-bench solve [CASE] [--threads 1,2] [--reps 3] [--export DIR] [--json FILE]` builds the geometry
+//! `plumefield-bench solve [CASE] [--threads 1,2] [--reps 3] [--export DIR] [--json FILE] [--coarsest N]` builds the geometry
 //! and Darcy flow of CASE (default `cases/bench128.toml`), assembles the transport system once, then times
 //! `SteadySolver::new` + `solve` in rayon pools of each thread count (best of `--reps`), one operator
 //! application beside one application of a plain 7-point constant-coefficient f64 stencil on the same grid (the
@@ -55,6 +55,9 @@ enum Command {
         /// File to write the figures into (JSON), for `compare`.
         #[arg(long)]
         json: Option<PathBuf>,
+        /// Multigrid levels of at most this many grid cells are solved directly (default: the solver's).
+        #[arg(long)]
+        coarsest: Option<usize>,
     },
     /// Print our figures beside the peer solvers' with time ratios.
     Compare { ours: PathBuf, peers: PathBuf },
@@ -109,8 +112,12 @@ struct Figures {
 fn main() {
     let cli = Cli::parse();
     let result = match cli.command {
-        Command::Solve { case, threads, reps, export, json } => {
-            solve(&case, &threads, reps.max(1), export.as_deref(), json.as_deref())
+        Command::Solve { case, threads, reps, export, json, coarsest } => {
+            let mut params = MultigridParams::default();
+            if let Some(size) = coarsest {
+                params.coarsest_size = size;
+            }
+            solve(&case, &threads, reps.max(1), export.as_deref(), json.as_deref(), params)
         }
         Command::Compare { ours, peers } => compare(&ours, &peers),
     };
@@ -199,6 +206,7 @@ fn solve(
     reps: usize,
     export: Option<&Path>,
     json: Option<&Path>,
+    params: MultigridParams,
 ) -> Result<()> {
     if threads.is_empty() || threads.contains(&0) {
         bail!("--threads needs positive pool sizes");
@@ -242,16 +250,29 @@ fn solve(
             peclet.upwinded_faces
         );
     }
-    let params = MultigridParams::default();
     let system_bytes = system_memory_bytes(&system);
     let active_cells = system.operator.active.iter().filter(|&&a| a).count();
     let first_pool = pool(threads[0])?;
+    // Resident and peak bytes above the stage's start per grid cell, at the steps of the stage.
+    let mut steps = Vec::new();
+    let mut mark = |step: &str| {
+        if let (Some(base), Some(now), Some(hwm)) =
+            (baseline, meter::resident_bytes(), meter::peak_resident_bytes())
+        {
+            let per_cell = |b: u64| b.saturating_sub(base) as f64 / n as f64;
+            steps.push(format!("{step} {:.0}/{:.0}", per_cell(now), per_cell(hwm)));
+        }
+    };
+    mark("assembled");
     let (solver, first_info) = first_pool.install(|| {
         let solver = SteadySolver::new(system, params.clone());
+        mark("set up");
         let mut x = vec![0.0; n];
         let info = solver.solve(&rhs, &mut x, &krylov);
+        mark("solved");
         (solver, info)
     });
+    println!("memory by step (resident/peak B per grid cell above the stage's start): {}", steps.join(", "));
     let first_info = first_info.context("the benchmark solve failed")?;
     let peak = match (baseline, meter::peak_resident_bytes(), peak_reset) {
         (Some(base), Some(hwm), true) => Some(hwm.saturating_sub(base)),
@@ -273,7 +294,7 @@ fn solve(
         // A and b in SI units hold entries near 1e-16 m^3/s, below the absolute zero-pivot threshold of some
         // factorisations (PETSc's is 2.2e-14): export s·A and s·b with s = 1/max|a_PP| over the fluid rows, the
         // same solution. Rows of grid cells without fluid stay the identity (their right-hand side is zero).
-        let active = &solver.system().operator.active;
+        let active = solver.active();
         let max_diag =
             matrix.diag().iter().filter(|&(p, _)| active[p]).fold(0.0f64, |m, (_, &v)| m.max(v.abs()));
         let scale = if max_diag > 0.0 && max_diag.is_finite() { 1.0 / max_diag } else { 1.0 };
@@ -288,8 +309,7 @@ fn solve(
             t.elapsed().as_secs_f64()
         );
     }
-    let system: LinearSystem = solver.system().clone();
-    drop(solver);
+    let system: LinearSystem = solver.into_system();
     product_parts(&system, threads[0])?;
 
     let mut runs = Vec::new();

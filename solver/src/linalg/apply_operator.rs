@@ -343,6 +343,9 @@ pub struct PackedOperator {
     /// Irregular cells of x-line l: `cells[line_start[l]..line_start[l + 1]]`, ascending along the line.
     line_start: Vec<usize>,
     cells: Vec<IrregularCell>,
+    /// The conductances of the faces on the two chamber planes of each axis (faces 0 and n), in the order of
+    /// [`plane_faces`]: the product never reads them, [`Self::unpack_coefficients`] gives them back.
+    plane_conductance: [Vec<f64>; 3],
     /// The cut-cell correction, added line by line while the line's x and y are in cache.
     correction: SparseCorrection,
     /// Packed correction rows of x-line l: `correction_start[l]..correction_start[l + 1]`.
@@ -425,6 +428,8 @@ impl PackedOperator {
             line_start.push(cells.len());
         }
         let correction_start = correction.block_starts(nx, op.sink.len());
+        let plane_conductance =
+            [0, 1, 2].map(|a| plane_faces(op.shape, a).map(|f| op.conductance[a][f]).collect());
         PackedOperator {
             shape: op.shape,
             periodic: op.periodic,
@@ -432,6 +437,7 @@ impl PackedOperator {
             regular_sink: vec![s0; nx],
             line_start,
             cells,
+            plane_conductance,
             correction,
             correction_start,
         }
@@ -453,6 +459,47 @@ impl PackedOperator {
             + std::mem::size_of::<IrregularCell>() * self.cells.len()
             + self.correction.memory_bytes()
             + 4 * self.correction_start.len()
+            + 8 * self.plane_conductance.iter().map(Vec::len).sum::<usize>()
+    }
+
+    /// The conductance and sink arrays of the operator this was packed from, bit for bit (a holder of the
+    /// packed form may drop them while it solves).
+    pub fn unpack_coefficients(&self) -> ([Vec<f64>; 3], Vec<f64>) {
+        let [nx, ny, nz] = self.shape;
+        let (g0, s0) = (self.regular_conductance[0], self.regular_sink[0]);
+        let mut conductance = [0, 1, 2].map(|a| {
+            let mut faces = self.shape;
+            faces[a] += 1;
+            vec![g0; faces[0] * faces[1] * faces[2]]
+        });
+        let mut sink = vec![s0; nx * ny * nz];
+        for line in 0..ny * nz {
+            let faces = LineFaces::new(self.shape, self.periodic, line);
+            for cell in &self.cells[self.line_start[line]..self.line_start[line + 1]] {
+                let i = cell.i as usize;
+                sink[faces.base + i] = cell.sink;
+                let [below, above, sides @ ..] = cell.conductance;
+                if i > 0 || faces.wrap_x {
+                    conductance[0][faces.x_face + i] = below;
+                }
+                if i + 1 < nx {
+                    conductance[0][faces.x_face + i + 1] = above;
+                } else if faces.wrap_x {
+                    conductance[0][faces.x_face] = above;
+                }
+                for (side, g) in faces.sides.iter().zip(sides) {
+                    if side.exists {
+                        conductance[side.axis][side.face + i] = g;
+                    }
+                }
+            }
+        }
+        for (a, saved) in self.plane_conductance.iter().enumerate() {
+            for (f, &g) in plane_faces(self.shape, a).zip(saved) {
+                conductance[a][f] = g;
+            }
+        }
+        (conductance, sink)
     }
 
     /// The cut-cell correction packed with the operator.
@@ -505,6 +552,20 @@ impl PackedOperator {
             },
         );
     }
+}
+
+/// The faces normal to `axis` on the chamber planes 0 and n of that axis (a fixed order).
+fn plane_faces(shape: [usize; 3], axis: usize) -> impl Iterator<Item = usize> {
+    let (b, c) = ((axis + 1) % 3, (axis + 2) % 3);
+    [0, shape[axis]].into_iter().flat_map(move |at| {
+        (0..shape[c]).flat_map(move |ic| {
+            (0..shape[b]).map(move |ib| {
+                let mut index = [0; 3];
+                (index[axis], index[b], index[c]) = (at, ib, ic);
+                face_index(shape, axis, index[0], index[1], index[2])
+            })
+        })
+    })
 }
 
 /// The coefficients of one line with irregular cells, spread out for the line kernel.
@@ -796,6 +857,36 @@ mod tests {
             for p in 0..n {
                 assert_eq!(separate[p].to_bits(), fused[p].to_bits(), "{scheme:?} row {p}");
             }
+        }
+    }
+
+    /// Unpacking gives back the conductance and sink arrays bit for bit (chamber planes, periodic wrap faces and
+    /// faces of inactive cells included).
+    #[test]
+    fn unpacked_coefficients_are_the_packed_ones() {
+        for (shape, periodic) in [
+            ([9, 6, 5], [false, false, false]),
+            ([8, 6, 4], [true, true, true]),
+            ([7, 5, 3], [true, false, true]),
+            ([1, 4, 4], [false, true, true]),
+        ] {
+            let mut op = random_operator(shape, periodic, 33);
+            for g in op.conductance.iter_mut() {
+                for (f, g) in g.iter_mut().enumerate() {
+                    if f % 5 != 0 {
+                        *g = 0.5;
+                    }
+                }
+            }
+            op.sink.iter_mut().step_by(2).for_each(|s| *s = 0.25);
+            op.active[7] = false;
+            decouple_inactive_cells(&mut op);
+            let (conductance, sink) = PackedOperator::pack(&op).unpack_coefficients();
+            let bits = |v: &[f64]| v.iter().map(|g| g.to_bits()).collect::<Vec<_>>();
+            for (a, (unpacked, given)) in conductance.iter().zip(&op.conductance).enumerate() {
+                assert_eq!(bits(unpacked), bits(given), "{shape:?} axis {a}");
+            }
+            assert_eq!(bits(&sink), bits(&op.sink), "{shape:?}");
         }
     }
 

@@ -68,6 +68,19 @@ impl SparseCorrection {
         packed
     }
 
+    /// The correction as the CSR matrix of `n` rows it was packed from (entries in the same order).
+    pub fn to_csr(&self, n: usize) -> CsMat<f64> {
+        let mut indptr = Vec::with_capacity(n + 1);
+        indptr.push(0);
+        for (k, &row) in self.rows.iter().enumerate() {
+            indptr.resize(row as usize + 1, self.start[k]);
+            indptr.push(self.start[k + 1]);
+        }
+        indptr.resize(n + 1, self.columns.len());
+        let indices = self.columns.iter().map(|&c| c as usize).collect();
+        CsMat::new((n, n), indptr, indices, self.values.clone())
+    }
+
     /// Rows that hold entries.
     pub fn row_count(&self) -> usize {
         self.rows.len()
@@ -145,6 +158,7 @@ mod tests {
         for matrix in [csc.to_csr(), csc] {
             let packed = SparseCorrection::pack(&matrix);
             assert!(packed.rows.windows(2).all(|w| w[0] < w[1]));
+            assert_eq!(packed.to_csr(n), matrix.to_csr(), "unpacked");
             let mut y = vec![1.0; n];
             packed.add_product(&x, &mut y);
             for (p, (got, want)) in y.iter().zip(&expected).enumerate() {

@@ -26,15 +26,22 @@ pub struct LinearSystem {
     pub correction: Option<CsMat<f64>>,
 }
 
-/// Built once per operator; reusable for many right-hand sides.
+/// Built once per operator; reusable for many right-hand sides. While it lives it holds the system's flux
+/// arrays and activity, and the conductances, sinks and correction only in packed form (the arrays come back
+/// with [`SteadySolver::into_system`]).
 pub struct SteadySolver {
+    /// The system with empty conductance and sink arrays and no correction.
     system: LinearSystem,
+    /// Whether the system came with a correction (given back as a CSR matrix).
+    has_correction: bool,
     /// The operator's conductances and sinks and the correction's nonzero rows, packed for the product (which
     /// reads the operator's fluxes).
     packed: PackedOperator,
     multigrid: Multigrid,
     /// Multigrid work vectors kept between solves (taken by one solve at a time; a concurrent solve allocates).
     work: Mutex<Option<super::multigrid::MultigridWork>>,
+    /// Krylov work vectors kept between solves, first in the memory of the dropped conductance and sink arrays.
+    krylov: Mutex<Option<BicgstabWork>>,
 }
 
 impl SteadySolver {
@@ -43,14 +50,32 @@ impl SteadySolver {
     pub fn new(mut system: LinearSystem, params: MultigridParams) -> Self {
         let n = system.operator.sink.len();
         decouple_inactive_cells(&mut system.operator);
-        if let Some(c) = system.correction.take() {
-            assert_eq!(c.shape(), (n, n), "correction matrix must be square with one row per grid cell");
-            system.correction = Some(if c.is_csr() { c } else { c.to_csr() });
-        }
-        let correction = system.correction.as_ref().map(SparseCorrection::pack).unwrap_or_default();
+        let has_correction = system.correction.is_some();
+        let correction = match system.correction.take() {
+            Some(c) => {
+                assert_eq!(c.shape(), (n, n), "correction matrix must be square with one row per grid cell");
+                SparseCorrection::pack(&c)
+            }
+            None => SparseCorrection::default(),
+        };
         let packed = PackedOperator::pack_corrected(&system.operator, correction);
         let multigrid = Multigrid::new(&system.operator, system.scheme, params);
-        SteadySolver { system, packed, multigrid, work: Mutex::new(None) }
+        let [gx, gy, gz] = std::mem::take(&mut system.operator.conductance);
+        let sink = std::mem::take(&mut system.operator.sink);
+        let krylov = BicgstabWork::from_buffers([gx, gy, gz, sink]);
+        SteadySolver {
+            system,
+            has_correction,
+            packed,
+            multigrid,
+            work: Mutex::new(None),
+            krylov: Mutex::new(Some(krylov)),
+        }
+    }
+
+    /// Number of unknowns (grid cells).
+    fn len(&self) -> usize {
+        self.system.operator.active.len()
     }
 
     /// `y = A x` with the full system (face-coupled operator plus correction).
@@ -68,33 +93,43 @@ impl SteadySolver {
 
     /// Solves `A x = rhs`; `x` holds the initial guess on entry and the solution on success.
     pub fn solve(&self, rhs: &[f64], x: &mut [f64], params: &KrylovParams) -> Result<SolveInfo, SolveError> {
-        let n = self.system.operator.sink.len();
+        let n = self.len();
         assert_eq!(rhs.len(), n, "right-hand side has the wrong length");
         assert_eq!(x.len(), n, "solution vector has the wrong length");
         let cached = self.work.lock().ok().and_then(|mut w| w.take());
         let mut work = cached.unwrap_or_else(|| self.multigrid.work());
+        let mut krylov = self.krylov.lock().ok().and_then(|mut w| w.take()).unwrap_or_default();
         let result = bicgstab(
             self,
             |r, z| self.multigrid.precondition(r, z, &mut work),
             RightHandSide::Dense(rhs),
             x,
             &BicgstabParams { krylov: params.clone(), ..BicgstabParams::default() },
-            &mut BicgstabWork::default(),
+            &mut krylov,
         );
         if let Ok(mut slot) = self.work.lock() {
             *slot = Some(work);
         }
+        if let Ok(mut slot) = self.krylov.lock() {
+            *slot = Some(krylov);
+        }
         result
     }
 
-    pub fn system(&self) -> &LinearSystem {
-        &self.system
+    /// Whether each grid cell holds fluid (an unknown).
+    pub fn active(&self) -> &[bool] {
+        &self.system.operator.active
     }
 
-    /// The system back, as [`SteadySolver::new`] left it: faces touching inactive cells decoupled (which the
-    /// operator's contract already required) and the correction in CSR.
+    /// The system back, bit for bit as given except that faces touching inactive cells are decoupled (which the
+    /// operator's contract already required) and the correction is in CSR. The hierarchy is freed first.
     pub fn into_system(self) -> LinearSystem {
-        self.system
+        let SteadySolver { mut system, has_correction, packed, multigrid, work, krylov } = self;
+        drop((multigrid, work, krylov));
+        let n = system.operator.active.len();
+        (system.operator.conductance, system.operator.sink) = packed.unpack_coefficients();
+        system.correction = has_correction.then(|| packed.correction().to_csr(n));
+        system
     }
 
     /// Number of multigrid levels (1: the operator is solved directly).
@@ -104,18 +139,25 @@ impl SteadySolver {
 
     /// The full matrix A (stencil plus correction) in CSR form, e.g. for export.
     pub fn assembled_matrix(&self) -> CsMat<f64> {
-        let stencil = Stencil7::assemble(&self.system.operator, self.system.scheme).to_csr();
-        match &self.system.correction {
-            Some(c) => &stencil + c,
-            None => stencil,
+        let mut operator = self.system.operator.clone();
+        (operator.conductance, operator.sink) = self.packed.unpack_coefficients();
+        let stencil = Stencil7::assemble(&operator, self.system.scheme).to_csr();
+        match self.has_correction {
+            true => &stencil + &self.packed.correction().to_csr(self.len()),
+            false => stencil,
         }
     }
 
-    /// Bytes held by the solver beyond the system itself: hierarchy, multigrid work vectors and the six Krylov
-    /// vectors of a solve.
+    /// Bytes held by the solver while it solves: the system's flux arrays and activity, the packed operator,
+    /// hierarchy, multigrid work vectors and the six Krylov vectors of a solve.
     pub fn memory_bytes(&self) -> usize {
-        let n = self.system.operator.sink.len();
-        self.multigrid.memory_bytes() + self.multigrid.work_bytes() + 6 * 8 * n + self.packed.memory_bytes()
+        let n = self.len();
+        let flux: usize = self.system.operator.flux.iter().map(|f| 8 * f.len()).sum();
+        flux + n
+            + self.multigrid.memory_bytes()
+            + self.multigrid.work_bytes()
+            + 6 * 8 * n
+            + self.packed.memory_bytes()
     }
 }
 
@@ -255,6 +297,7 @@ mod tests {
             tri.add_triplet(p, p, 0.05 / 12.0);
         }
         let correction: CsMat<f64> = tri.to_csc();
+        let rhs = unit_source(&op);
         let solver = SteadySolver::new(
             LinearSystem { operator: op, scheme: AdvectionScheme::Central, correction: Some(correction) },
             MultigridParams::default(),
@@ -268,11 +311,47 @@ mod tests {
         for p in 0..n {
             assert!((y[p] - ya[p]).abs() < 1e-13, "row {p}");
         }
-        let rhs = unit_source(&solver.system().operator);
         let mut u = vec![0.0; n];
         let info = solver.solve(&rhs, &mut u, &KrylovParams::default()).expect("converges with correction");
         assert!(info.relative_residual <= 1e-8);
         assert_eq!(u[inactive], 0.0);
+    }
+
+    /// The solver holds the conductances, sinks and correction packed while it lives and gives the system back
+    /// bit for bit (faces of inactive cells decoupled, the correction in CSR).
+    #[test]
+    fn the_system_comes_back_bit_for_bit() {
+        let mut op = box_with_holes(12, &few_holes(), 0.5);
+        op.sink.iter_mut().enumerate().for_each(|(p, s)| *s += if p % 3 == 0 { 1e-4 } else { 0.0 });
+        let n = op.sink.len();
+        let mut tri = sprs::TriMat::new((n, n));
+        for p in (0..n).filter(|&p| op.active[p]).step_by(17) {
+            tri.add_triplet(p, (p + 5) % n, -0.01);
+            tri.add_triplet(p, p, 0.0);
+        }
+        let correction: CsMat<f64> = tri.to_csc();
+        let mut expected = op.clone();
+        decouple_inactive_cells(&mut expected);
+        let system = LinearSystem {
+            operator: op,
+            scheme: AdvectionScheme::Central,
+            correction: Some(correction.clone()),
+        };
+        let back = SteadySolver::new(system, MultigridParams::default()).into_system();
+        let bits = |v: &[f64]| v.iter().map(|g| g.to_bits()).collect::<Vec<_>>();
+        for a in 0..3 {
+            assert_eq!(
+                bits(&back.operator.conductance[a]),
+                bits(&expected.conductance[a]),
+                "conductance {a}"
+            );
+            assert_eq!(bits(&back.operator.flux[a]), bits(&expected.flux[a]), "flux {a}");
+        }
+        assert_eq!(bits(&back.operator.sink), bits(&expected.sink));
+        assert_eq!(back.operator.active, expected.active);
+        assert_eq!(back.correction, Some(correction.to_csr()));
+        let without = LinearSystem { operator: expected, scheme: AdvectionScheme::Upwind, correction: None };
+        assert!(SteadySolver::new(without, MultigridParams::default()).into_system().correction.is_none());
     }
 
     /// Periodic axes, ragged (odd) sizes at every level and a single-level (direct) hierarchy.

@@ -1,7 +1,7 @@
 //! The cheap estimates of a whole chamber, from plain numbers (no solve): Péclet numbers, the isolated-cell
 //! low-Péclet anisotropy, the mean-field background along the chamber, what a typical cell senses in it, and
-//! the number density at which its direction error reaches 1. The formulas are those of [`super::estimates`];
-//! this module chooses which background a chamber has and scans the density.
+//! the number density at which crowding raises its direction error through `readable_error`. The formulas are
+//! those of [`super::estimates`]; this module chooses which background a chamber has and scans the density.
 
 use std::f64::consts::PI;
 
@@ -25,6 +25,8 @@ pub struct ChamberInputs {
     pub cell_volume: f64,
     /// The typical cell (the case's defaults) in the undisturbed stream.
     pub typical_cell: CellEstimateInputs,
+    /// The direction error above which a cell cannot read the flow direction (`[sensing] readable_error`).
+    pub readable_error: f64,
 }
 
 /// The mean-field background of the chamber, or why there is none.
@@ -63,18 +65,48 @@ pub struct ProfilePoint {
     pub sensing: SensingEstimate,
 }
 
-/// Where the direction error of a typical cell at the outlet crosses 1 as the number density changes.
+/// Where crowding makes a typical cell fail: the number density at which its direction error rises through
+/// `readable_error` as cells are added.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct CriticalDensity {
     /// Number density (cells/m³) at the crossing, if the scanned range holds one.
     pub density: Option<f64>,
-    /// True when the error rises through 1 with density (crowding hides the signal), false when it falls.
-    pub rising: bool,
+    /// Why there is none.
+    pub none_because: Option<NoCrowdingFailure>,
+    /// The direction error the density is taken at (`readable_error`).
+    pub level: f64,
     /// Scanned range (cells/m³): from a tenth of one cell per chamber to a volume fraction of 0.5.
     pub range: [f64; 2],
     /// Direction error at the low end of the range (a nearly isolated cell) and at the case's density.
     pub isolated_error: f64,
     pub case_error: f64,
+}
+
+/// Why no density makes a cell fail by crowding.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum NoCrowdingFailure {
+    /// The error is above the level at every density of the range, a nearly isolated cell's included.
+    FailsAtEveryDensity,
+    /// The error falls through the level as cells are added (their background gradient is the cue there) and
+    /// never rises back through it.
+    GradientHelps,
+    /// The error stays below the level at every density of the range.
+    ReadableAtEveryDensity,
+}
+
+impl NoCrowdingFailure {
+    pub fn reason(self) -> &'static str {
+        match self {
+            NoCrowdingFailure::FailsAtEveryDensity => {
+                "the error is above readable_error at every density, a nearly isolated cell's included"
+            }
+            NoCrowdingFailure::GradientHelps => {
+                "the error falls below readable_error as cells are added (their background gradient is the cue) \
+                 and never rises back"
+            }
+            NoCrowdingFailure::ReadableAtEveryDensity => "the error stays below readable_error at every density",
+        }
+    }
 }
 
 /// Every estimate of one chamber.
@@ -154,6 +186,7 @@ impl ChamberEstimates {
         let column = matches!(estimates.background, Background::Column(_));
         estimates.regime_breaches = super::estimates::mean_field_regime_breaches(
             estimates.volume_fraction,
+            biot,
             peclet_cell,
             column.then_some(estimates.peclet_chamber),
         );
@@ -218,13 +251,14 @@ impl ChamberEstimates {
     }
 
     /// Direction error of the typical cell at `x` for a layout of `density` cells per m³.
-    fn direction_error_at(&self, density: f64, x: f64) -> Option<f64> {
+    pub fn direction_error_at(&self, density: f64, x: f64) -> Option<f64> {
         let background = self.background_at_density(density);
         let (c, g) = background.at(x)?;
         Some(estimate_cell_sensing(&self.typical_cell, c, g)?.direction_error)
     }
 
-    /// Scans the number density on a log grid for the first crossing of direction error 1 by a cell at `x`
+    /// Scans the number density on a log grid for the first crossing where the error of a cell at `x` rises
+    /// through `readable_error` (a crossing where it falls is the background gradient helping, not a failure)
     /// and refines it by bisection in log density.
     fn find_critical_density(&self, x: f64) -> Option<CriticalDensity> {
         let lo = 0.1 / self.chamber_volume();
@@ -232,33 +266,48 @@ impl ChamberEstimates {
         if hi <= lo {
             return None;
         }
+        let level = self.inputs.readable_error;
         let range = [lo, hi];
         let samples = 200;
         let at = |i: usize| lo * (hi / lo).powf(i as f64 / samples as f64);
         let isolated_error = self.direction_error_at(lo, x)?;
         let case_error = self.direction_error_at(self.number_density, x)?;
+        let result = |density: Option<f64>, none_because: Option<NoCrowdingFailure>| CriticalDensity {
+            density,
+            none_because,
+            level,
+            range,
+            isolated_error,
+            case_error,
+        };
         let mut previous = isolated_error;
+        let mut fell = false;
         for i in 1..=samples {
             let rho = at(i);
             let err = self.direction_error_at(rho, x)?;
-            if (previous - 1.0).signum() != (err - 1.0).signum() {
-                let rising = err > previous;
+            if previous <= level && err > level {
                 let (mut a, mut b) = (at(i - 1).ln(), rho.ln());
                 for _ in 0..60 {
                     let mid = 0.5 * (a + b);
-                    let e = self.direction_error_at(mid.exp(), x)?;
-                    if (e > 1.0) == rising {
+                    if self.direction_error_at(mid.exp(), x)? > level {
                         b = mid;
                     } else {
                         a = mid;
                     }
                 }
-                let density = Some((0.5 * (a + b)).exp());
-                return Some(CriticalDensity { density, rising, range, isolated_error, case_error });
+                return Some(result(Some((0.5 * (a + b)).exp()), None));
             }
+            fell |= previous > level && err <= level;
             previous = err;
         }
-        Some(CriticalDensity { density: None, rising: false, range, isolated_error, case_error })
+        let why = if fell {
+            NoCrowdingFailure::GradientHelps
+        } else if isolated_error > level {
+            NoCrowdingFailure::FailsAtEveryDensity
+        } else {
+            NoCrowdingFailure::ReadableAtEveryDensity
+        };
+        Some(result(None, Some(why)))
     }
 
     /// The estimated anisotropy along the flow of the typical cell at `points` positions from inlet to outlet:
@@ -301,6 +350,7 @@ mod tests {
                 flow: IsolatedFlow::Darcy,
                 integration_time: 60.0,
             },
+            readable_error: 1.0,
         }
     }
 

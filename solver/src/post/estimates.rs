@@ -378,10 +378,34 @@ pub fn estimate_cell_sensing(
     })
 }
 
-/// Volume fraction up to which the per-cell mean-field estimate is expected to hold: in our density series
-/// (README, "Outputs of run") its median direction error scattered within ±30 % of the solved one without a
-/// trend up to 10 % (few cells per run), and was 20–37 % low in every run from 20 % on.
-pub const MEAN_FIELD_MAX_VOLUME_FRACTION: f64 = 0.1;
+/// Relative size of the terms the mean field leaves out that [`mean_field_max_volume_fraction`] allows.
+pub const MEAN_FIELD_NEGLECTED_SHARE: f64 = 0.25;
+
+/// Volume fraction up to which the per-cell mean-field estimate is expected to hold: where the first-order
+/// (in φ) terms it leaves out reach [`MEAN_FIELD_NEGLECTED_SHARE`] of the kept ones. Two such terms:
+///
+/// - *Obstruction.* Neighbours are impermeable: the medium between the cells conducts diffusion as
+///   `D_eff/D = 2(1 − φ)/(2 + φ) = 1 − 3φ/2 + O(φ²)` (Maxwell 1873, dilute suspension of insulating spheres;
+///   from memory), while the estimate uses D for the own cloud and the background alike. 3φ/2 = ε gives φ = 2ε/3.
+/// - *Screening by the neighbours' uptake.* Each neighbour binds at `k_on = 4πDa·Bi/(1 + Bi)` (REFERENCES.md G),
+///   so n of them remove ligand like a bulk decay k = n·k_on, whose decay number is
+///   `β_n² = a²·n·k_on/D = 3φ·Bi/(1 + Bi)`; the own cloud's anisotropy then falls by the factor
+///   `(2 + Bi)/(2 + 2β + β² + Bi(1 + β))` ≈ 1 − β for small Bi (REFERENCES.md E.6) — a share β_n of it. β_n = ε
+///   gives φ = ε²(1 + Bi)/(3Bi); a perfect absorber (Bi → ∞) ε²/3.
+///
+/// With ε = 0.25: φ ≤ min(1/6, (1 + Bi)/(48 Bi)). `biot` `None` is a perfect absorber. Pair correlations beyond
+/// the excluded volume and the neighbours' random contributions to a cell's gradient are of higher order in φ
+/// or average out over the cells; they are not counted.
+pub fn mean_field_max_volume_fraction(biot: Option<f64>) -> f64 {
+    let eps = MEAN_FIELD_NEGLECTED_SHARE;
+    let obstruction = 2.0 * eps / 3.0;
+    let screening = match biot {
+        Some(bi) if bi > 0.0 => eps * eps * (1.0 + bi) / (3.0 * bi),
+        Some(_) => f64::INFINITY,
+        None => eps * eps / 3.0,
+    };
+    obstruction.min(screening)
+}
 /// Cell Péclet number up to which the first-order isolated-cell anisotropy holds (its O(Pe²) term is 4 % at
 /// Pe = 0.08, REFERENCES.md E).
 pub const MEAN_FIELD_MAX_CELL_PECLET: f64 = 0.1;
@@ -395,13 +419,15 @@ pub const OUTLET_LAYERS: f64 = 3.0;
 /// inside the regime).
 pub fn mean_field_regime_breaches(
     volume_fraction: f64,
+    biot: Option<f64>,
     peclet_cell: f64,
     peclet_chamber: Option<f64>,
 ) -> Vec<String> {
     let mut breaches = Vec::new();
-    if volume_fraction > MEAN_FIELD_MAX_VOLUME_FRACTION {
+    let max_fraction = mean_field_max_volume_fraction(biot);
+    if volume_fraction > max_fraction {
         breaches.push(format!(
-            "volume fraction {volume_fraction:.3} > {MEAN_FIELD_MAX_VOLUME_FRACTION} (neighbours shape each cell's field)"
+            "volume fraction {volume_fraction:.3} > {max_fraction:.3} (neighbours obstruct and screen each cell's field)"
         ));
     }
     if peclet_cell > MEAN_FIELD_MAX_CELL_PECLET {
@@ -424,13 +450,36 @@ pub fn mean_field_regime_breaches(
 mod tests {
     #[test]
     fn regime_names_each_broken_criterion() {
-        use super::mean_field_regime_breaches as breaches;
+        use super::mean_field_regime_breaches;
+        let breaches = |phi, pe, pe_chamber| mean_field_regime_breaches(phi, Some(0.05), pe, pe_chamber);
         assert!(breaches(0.05, 0.05, Some(10.0)).is_empty());
         assert_eq!(breaches(0.05, 0.05, Some(5.0)).len(), 1, "the outlet layer covers 60 % of the chamber");
         let all = breaches(0.2, 0.2, Some(2.0));
         assert_eq!(all.len(), 3, "{all:?}");
         assert!(all[0].contains("volume fraction") && all[2].contains("outlet layer"));
         assert!(breaches(0.05, 0.05, None).is_empty());
+        // Strong uptake screens first: at Bi = 1 the bound is (1 + 1)/48 ≈ 0.042, below the 0.05 of the layout.
+        assert_eq!(mean_field_regime_breaches(0.05, Some(1.0), 0.05, None).len(), 1);
+        assert!(mean_field_regime_breaches(0.05, None, 0.05, None)[0].contains("volume fraction"));
+    }
+
+    #[test]
+    fn volume_fraction_bound_from_the_neglected_terms() {
+        use super::mean_field_max_volume_fraction as bound;
+        // Obstruction alone (reflecting or weakly binding cells): 3φ/2 = 1/4 at φ = 1/6.
+        assert!((bound(Some(0.0)) - 1.0 / 6.0).abs() < 1e-15);
+        assert!((bound(Some(0.05)) - 1.0 / 6.0).abs() < 1e-15);
+        // Screening: β_n = √(3φ Bi/(1 + Bi)) = 1/4 at φ = (1 + Bi)/(48 Bi); at the bound, β_n is 1/4 exactly.
+        for bi in [0.5, 1.0, 10.0] {
+            let phi = bound(Some(bi));
+            assert!((phi - (1.0 + bi) / (48.0 * bi)).abs() < 1e-15, "{bi}");
+            assert!(((3.0 * phi * bi / (1.0 + bi)).sqrt() - 0.25).abs() < 1e-12);
+        }
+        // The crossover where the two are equal: (1 + Bi)/(48 Bi) = 1/6 at Bi = 1/7.
+        assert!((bound(Some(1.0 / 7.0)) - 1.0 / 6.0).abs() < 1e-12);
+        assert!(bound(Some(0.2)) < 1.0 / 6.0);
+        // A perfect absorber: 1/48.
+        assert!((bound(None) - 1.0 / 48.0).abs() < 1e-15);
     }
 
     use super::*;

@@ -10,6 +10,9 @@
 //! advances the per-cell sensing window (`crate::post::sensing_window`). This module sits above the steady case
 //! ([`case`] reuses `solve_case::solve_flow` and the steady transport for its reference) and above `post`.
 //!
+//! With `TransientParams::split_cells` the own field of each chosen cell is integrated beside the total
+//! (`own_fields`: the self/neighbour split in time, one more solve per accepted step and cell).
+//!
 //! Numerics only: an observer ([`TransientObserver`]) receives every accepted step and every output time, and
 //! decides what to write; the run's state ([`TransientState`]) can be flattened for checkpoints.
 

@@ -2,6 +2,7 @@
 //! `solver::solve_transient` with progress, restart records and checkpoints, then the outputs:
 //! `fields.h5` (steady layout for the final state + one dataset per output time), the temporal `fields.xmf`,
 //! `cells.csv` (final time), `cells_timeseries.csv` (every output time, long format), `summary.json`, figures.
+//! With `[sensing] decompose` given, both tables carry the self/neighbour split of the chosen cells.
 //!
 //! Restart (`--checkpoint-every`, `--resume`): see [`restart_files`]. A resumed run continues the saved solver
 //! state bit for bit and re-reads the output times written before the interruption, so its files equal those

@@ -71,6 +71,18 @@ impl<T: Real> BicgstabWork<T> {
         work
     }
 
+    /// Work vectors in the given buffers (up to six, taken in order; what they hold does not matter): a caller
+    /// that has just dropped arrays of about the system's size lends their memory instead of touching new pages.
+    pub fn from_buffers(buffers: impl IntoIterator<Item = Vec<T>>) -> Self {
+        let mut work = BicgstabWork::default();
+        let slots = [&mut work.r, &mut work.p, &mut work.v, &mut work.y, &mut work.t, &mut work.r0];
+        for (slot, mut buffer) in slots.into_iter().zip(buffers) {
+            buffer.clear();
+            *slot = buffer;
+        }
+        work
+    }
+
     /// Bytes held.
     pub fn memory_bytes(&self) -> usize {
         let vectors = [&self.r, &self.r0, &self.p, &self.v, &self.y, &self.t];

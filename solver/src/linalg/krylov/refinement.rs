@@ -26,14 +26,14 @@ pub struct RefinementParams {
     /// Relative residual each inner f32 solve is asked for (default 1e-4: f32 carries about 7 digits, and the
     /// recursively updated inner residual drifts from the true one well before that).
     pub inner_tolerance: f64,
-    /// Iterations of one inner solve at most (default 40): an f32 solve that cannot reach its tolerance ends
+    /// Iterations of one inner solve at most (default 20): an f32 solve that cannot reach its tolerance ends
     /// the round instead of the whole iteration budget.
     pub inner_max_iterations: usize,
 }
 
 impl Default for RefinementParams {
     fn default() -> Self {
-        RefinementParams { krylov: KrylovParams::default(), inner_tolerance: 1e-4, inner_max_iterations: 40 }
+        RefinementParams { krylov: KrylovParams::default(), inner_tolerance: 1e-4, inner_max_iterations: 20 }
     }
 }
 
