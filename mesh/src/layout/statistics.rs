@@ -2,7 +2,7 @@
 
 use super::chamber::ChamberBox;
 use super::neighbours::BucketGrid;
-use super::Layout;
+use super::{Cell, Layout};
 use numkit::quantile_sorted;
 
 /// Quantiles at which nearest-neighbour centre distances are reported.
@@ -62,31 +62,16 @@ impl Layout {
         if cells.len() < 2 {
             return close;
         }
-        let mut buckets = BucketGrid::new(chamber, 2.0 * max_radius + threshold.max(0.0));
-        for (n, c) in cells.iter().enumerate() {
-            buckets.insert(n, c.centre);
-        }
-        let mut partners = Vec::new();
-        for (n, c) in cells.iter().enumerate() {
-            partners.clear();
-            buckets.visit_near(c.centre, |m| {
-                if m > n {
-                    partners.push(m);
-                }
-            });
-            // Short periodic axes can show one bucket twice.
-            partners.sort_unstable();
-            partners.dedup();
-            for &m in &partners {
-                let gap = chamber.distance(c.centre, cells[m].centre) - c.radius - cells[m].radius;
-                if gap < threshold {
-                    close.count += 1;
-                    if close.closest.is_none_or(|(_, _, g)| gap < g) {
-                        close.closest = Some((c.id, cells[m].id, gap));
-                    }
+        for_each_pair_within(chamber, cells, 2.0 * max_radius + threshold.max(0.0), |n, m| {
+            let (c, d) = (&cells[n], &cells[m]);
+            let gap = chamber.distance(c.centre, d.centre) - c.radius - d.radius;
+            if gap < threshold {
+                close.count += 1;
+                if close.closest.is_none_or(|(_, _, g)| gap < g) {
+                    close.closest = Some((c.id, d.id, gap));
                 }
             }
-        }
+        });
         close
     }
 }
@@ -128,28 +113,12 @@ impl Layout {
         let end = start + bin_width * bins as f64;
         let mut pairs = vec![0usize; bins];
         if cells.len() >= 2 && bins > 0 && bin_width > 0.0 {
-            let mut buckets = BucketGrid::new(chamber, end);
-            for (n, c) in cells.iter().enumerate() {
-                buckets.insert(n, c.centre);
-            }
-            let mut partners = Vec::new();
-            for (n, c) in cells.iter().enumerate() {
-                partners.clear();
-                buckets.visit_near(c.centre, |m| {
-                    if m > n {
-                        partners.push(m);
-                    }
-                });
-                // Short periodic axes can show one bucket twice.
-                partners.sort_unstable();
-                partners.dedup();
-                for &m in &partners {
-                    let bin = ((chamber.distance(c.centre, cells[m].centre) - start) / bin_width).floor();
-                    if bin >= 0.0 && bin < bins as f64 {
-                        pairs[bin as usize] += 1;
-                    }
+            for_each_pair_within(chamber, cells, end, |n, m| {
+                let bin = ((chamber.distance(cells[n].centre, cells[m].centre) - start) / bin_width).floor();
+                if bin >= 0.0 && bin < bins as f64 {
+                    pairs[bin as usize] += 1;
                 }
-            }
+            });
         }
         let n = cells.len() as f64;
         let ideal_density = 0.5 * n * (n - 1.0) / chamber.volume();
@@ -208,6 +177,35 @@ fn nearest_neighbours(layout: &Layout, chamber: &ChamberBox) -> Vec<(f64, f64)> 
             (best, best_gap)
         })
         .collect()
+}
+
+/// Calls `visit(n, m)` once for every pair n < m of cells whose centres share or neighbour a bucket of at least
+/// `reach` (m): every pair closer than `reach`, periodic images included, and some farther ones.
+fn for_each_pair_within(
+    chamber: &ChamberBox,
+    cells: &[Cell],
+    reach: f64,
+    mut visit: impl FnMut(usize, usize),
+) {
+    let mut buckets = BucketGrid::new(chamber, reach);
+    for (n, c) in cells.iter().enumerate() {
+        buckets.insert(n, c.centre);
+    }
+    let mut partners = Vec::new();
+    for (n, c) in cells.iter().enumerate() {
+        partners.clear();
+        buckets.visit_near(c.centre, |m| {
+            if m > n {
+                partners.push(m);
+            }
+        });
+        // Short periodic axes can show one bucket twice.
+        partners.sort_unstable();
+        partners.dedup();
+        for &m in &partners {
+            visit(n, m);
+        }
+    }
 }
 
 #[cfg(test)]
