@@ -20,6 +20,8 @@ pub struct TransportAssembly {
     /// Decay sink per grid cell (m^3/s): decay rate · fluid volume.
     pub decay: Vec<f64>,
     pub peclet: PecletReport,
+    /// Wall time of the far-field faces' coefficients (s; 0 without such faces): measured, not a result.
+    pub far_field_seconds: f64,
 }
 
 pub fn assemble_transport(problem: &TransportProblem) -> TransportAssembly {
@@ -34,7 +36,7 @@ pub fn assemble_transport(problem: &TransportProblem) -> TransportAssembly {
     let mut sink = decay.clone();
     let mut rhs = vec![0.0; n];
 
-    let boundary = boundary_exchanges(
+    let (boundary, far_field_seconds) = boundary_exchanges(
         geometry,
         problem.layout,
         &problem.boundaries,
@@ -87,5 +89,6 @@ pub fn assemble_transport(problem: &TransportProblem) -> TransportAssembly {
         boundary,
         decay,
         peclet,
+        far_field_seconds,
     }
 }

@@ -46,12 +46,21 @@ pub fn solve_steady(
     problem: &TransportProblem,
     params: &TransportParams,
 ) -> Result<SteadyTransport, TransportError> {
-    let TransportAssembly { system, rhs, facets, boundary, decay, peclet } = assemble_transport(problem);
+    let TransportAssembly { system, rhs, facets, boundary, decay, peclet, far_field_seconds } =
+        assemble_transport(problem);
     // The solver holds the system while it solves and hands it back: no second copy of the operator arrays.
     let solver = SteadySolver::new(system, params.multigrid.clone());
     let mut c = vec![0.0; rhs.len()];
     let info = solver.solve(&rhs, &mut c, &params.krylov);
-    let assembly = TransportAssembly { system: solver.into_system(), rhs, facets, boundary, decay, peclet };
+    let assembly = TransportAssembly {
+        system: solver.into_system(),
+        rhs,
+        facets,
+        boundary,
+        decay,
+        peclet,
+        far_field_seconds,
+    };
     let info = info?;
     if c.iter().any(|v| !v.is_finite()) {
         return Err(TransportError::NonFinite { iteration: info.iterations });
