@@ -58,6 +58,8 @@ pub struct SteadyTiming {
     pub geometry: f64,
     pub flow: f64,
     pub transport: f64,
+    /// Part of `transport`: the far-field faces' coefficients.
+    pub far_field: f64,
     pub sensing: f64,
 }
 
@@ -147,6 +149,7 @@ pub fn solve_steady_case(
     drop(stencils);
     geometry.aperture = Default::default();
     let t_transport = t2.elapsed().as_secs_f64();
+    let t_far_field = transport.assembly.far_field_seconds;
 
     on_stage(Stage::Sensing);
     let t3 = Instant::now();
@@ -177,6 +180,7 @@ pub fn solve_steady_case(
             geometry: t_geometry,
             flow: t_flow,
             transport: t_transport,
+            far_field: t_far_field,
             sensing: t_sensing,
         },
     })
