@@ -8,8 +8,9 @@
 //! the run's steps). The peak is the flow stage's or the transport stage's, whichever is larger (the split is
 //! held under the transport stage's peak, the later stages are smaller).
 //! The constants are calibrated on cases/demo.toml, cases/bench128.toml and the half demo (200 × 200 × 100 µm) in
-//! Darcy and Brinkman flow, and on the 256³ block of `scripts/bench_scale`, with the default split, one thread,
-//! CPU time and the largest stage peak of `summary.json` (bench/RECORDS.md, "Run-time and memory forecast").
+//! Darcy and Brinkman flow, and on the 256³ and dense 160³ blocks of `scripts/bench_scale`, with the default
+//! split, CPU time and the largest stage peak of `summary.json` (bench/RECORDS.md, "Stage memory after the
+//! lean-stages changes, and the forecast refit").
 //! The straight line plus a fixed start-up cost over-forecasts tiny grids that fit in the caches. The
 //! Brinkman/Stokes flow solve (whose cost per grid cell grows slowly with the grid) and the time steps of
 //! transient runs are added from their benchmarks (constants below; an adaptive run is assumed to take a fixed
@@ -257,7 +258,7 @@ mod tests {
 
     #[test]
     fn forecast_reproduces_the_calibration_runs() {
-        // The one-thread runs of bench/RECORDS.md ("Run-time and memory forecast"), 4 split cells: CPU seconds and
+        // The one-thread runs of bench/RECORDS.md ("... the forecast refit"), 4 split cells: CPU seconds and
         // the largest stage peak, within 10 %.
         let parse = |text: &str| Case::parse(text, std::path::Path::new("case.toml")).expect("case parses");
         let demo = include_str!("../cases/demo.toml");
