@@ -30,6 +30,7 @@ pub mod transfer;
 mod vector;
 
 pub use apply_operator::{apply_face_coupled, PackedOperator};
+pub(crate) use coarsen::coarsen_operator;
 pub use krylov::{
     bicgstab, bicgstab_until, gmres, refine_until, store_scaled_residual, BicgstabParams, BicgstabWork,
     GmresParams, KrylovParams, LinearOperator, OuterResidual, RefinementParams, RefinementWork,
