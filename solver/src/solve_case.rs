@@ -58,6 +58,8 @@ pub struct SteadyTiming {
     pub geometry: f64,
     pub flow: f64,
     pub transport: f64,
+    /// Part of `transport`: the far-field faces' coefficients.
+    pub far_field: f64,
     pub sensing: f64,
 }
 
@@ -128,7 +130,7 @@ pub fn solve_steady_case(
     let t1 = Instant::now();
     let (flow, flow_resolution) = solve_flow(&geometry, &stencils, case, case.flow.mean_velocity)?;
     let pressure_drops =
-        cell_pressure_drop(&geometry, &stencils, case.layout, &flow.velocity, &flow.pressure);
+        cell_pressure_drop(&geometry, &stencils, case.layout, &flow.velocity(case.grid), &flow.pressure);
     let t_flow = t1.elapsed().as_secs_f64();
 
     on_stage(Stage::Transport);
@@ -145,6 +147,7 @@ pub fn solve_steady_case(
     let params = TransportParams { krylov: case.krylov.clone(), ..TransportParams::default() };
     let transport = solve_steady(&problem, &params)?;
     let t_transport = t2.elapsed().as_secs_f64();
+    let t_far_field = transport.assembly.far_field_seconds;
 
     on_stage(Stage::Sensing);
     let t3 = Instant::now();
@@ -158,7 +161,7 @@ pub fn solve_steady_case(
         case.layout,
         &transport.assembly.facets,
         &transport.concentration,
-        &flow.velocity,
+        &flow.velocity(case.grid),
         &model,
     );
     let balance = mass_balance(&transport.assembly, &transport.concentration);
@@ -176,6 +179,7 @@ pub fn solve_steady_case(
             geometry: t_geometry,
             flow: t_flow,
             transport: t_transport,
+            far_field: t_far_field,
             sensing: t_sensing,
         },
     })

@@ -65,6 +65,9 @@ pub struct Resources {
     pub flow: Option<StageCost>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub transport: Option<StageCost>,
+    /// Part of `transport.wall_s`: the far-field faces' coefficients (steady runs with far-field faces only).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub transport_far_field_s: Option<f64>,
     /// Per-cell sensing and the mass balance.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub post: Option<StageCost>,
