@@ -54,7 +54,7 @@ fn fingerprint(s: &SteadySolution) -> Vec<u64> {
     let mut push = |values: &[f64]| bits.extend(values.iter().map(|v| v.to_bits()));
     s.flow.face_flux.iter().for_each(|f| push(f));
     push(&s.flow.pressure);
-    s.flow.velocity.iter().for_each(|v| push(v));
+    s.flow.velocity(&s.geometry.grid).iter().for_each(|v| push(v));
     s.flow.drag.iter().for_each(|d| push(d));
     push(&[s.flow.relative_residual, s.flow.max_divergence, s.flow.pressure_drop]);
     push(&s.cell_pressure_drop);

@@ -9,7 +9,7 @@ use std::collections::BTreeMap;
 use numkit::quantile_sorted;
 use solver::flow::brinkman::resolution::check_resolution;
 use solver::flow::brinkman::{BrinkmanMedium, ScreeningLengthWarning};
-use solver::linalg::{KrylovParams, MultigridParams};
+use solver::linalg::KrylovParams;
 use solver::post::chamber_estimates::{Background, ChamberEstimates, ChamberInputs, CriticalDensity};
 use solver::post::decompose::{decompose, DecomposeInputs, SplitMode};
 use solver::post::estimates::{CellEstimateInputs, IsolatedFlow, SensingEstimate};
@@ -288,8 +288,13 @@ pub struct SelfNeighbourSplit {
 }
 
 /// Solves the own field of each cell chosen by `[sensing] decompose` (one extra right-hand side each, on the
-/// operator of the total solve) and turns the split into columns.
-pub fn split_self_and_neighbours(case: &Case, solved: &SteadySolution) -> anyhow::Result<SelfNeighbourSplit> {
+/// operator and hierarchy that the total solve kept), at most `parallel_solves` at once, and turns the split into
+/// columns.
+pub fn split_self_and_neighbours(
+    case: &Case,
+    solved: &SteadySolution,
+    parallel_solves: usize,
+) -> anyhow::Result<SelfNeighbourSplit> {
     let cells = case.layout.cells.len();
     // Listed ids were checked against the layout when the case was validated.
     let chosen = case.sensing.decompose.choose(cells);
@@ -301,11 +306,12 @@ pub fn split_self_and_neighbours(case: &Case, solved: &SteadySolution) -> anyhow
     };
     let mut cost = None;
     let mut warnings = Vec::new();
-    if !chosen.is_empty() {
+    if let (false, Some(solver)) = (chosen.is_empty(), solved.transport.solver.as_ref()) {
         let inputs = DecomposeInputs {
             geometry: &solved.geometry,
             layout: &case.layout,
             assembly: &solved.transport.assembly,
+            solver,
             total: &solved.transport.concentration,
             sensing: &solved.sensing,
             model: SensingModel {
@@ -317,7 +323,7 @@ pub fn split_self_and_neighbours(case: &Case, solved: &SteadySolution) -> anyhow
                 relative_tolerance: case.solve.tolerance,
                 max_iterations: case.solve.max_iterations,
             },
-            multigrid: MultigridParams::default(),
+            parallel_solves,
         };
         match decompose(&inputs, &chosen, SplitMode::CellsOnly) {
             Ok(split) => {
@@ -337,6 +343,8 @@ pub fn split_self_and_neighbours(case: &Case, solved: &SteadySolution) -> anyhow
             }
             Err(e) => warnings.push(format!("the self/neighbour split failed ({e}); its columns are NaN")),
         }
+    } else if !chosen.is_empty() {
+        warnings.push("the self/neighbour split was skipped (the total solve's operator was freed); its columns are NaN".into());
     }
     let columns = split_columns(cells, &splits);
     Ok(SelfNeighbourSplit { columns, summary, cost, warnings })

@@ -138,7 +138,7 @@ pub fn execute_with(
     let progress = stages::StageProgress::new(5);
     let started = Instant::now();
     let mut meter = StageMeter::new();
-    let solved = solve_steady_case(&steady_case(case), &mut |stage| {
+    let mut solved = solve_steady_case(&steady_case(case), &mut |stage| {
         progress.numerical_stage(stage);
         meter.begin(MeteredStage::of(stage, true));
     })
@@ -148,7 +148,7 @@ pub fn execute_with(
         progress.println(&format!("warning: {warning}"));
     }
     progress.stage("self/neighbour split and outputs");
-    report::write_outputs(case, &solved, &warnings, &staging, &mut meter)
+    report::write_outputs(case, &mut solved, &warnings, &staging, &mut meter)
         .with_context(|| format!("cannot write the outputs of {}", out_dir.display()))?;
     folder.commit().map_err(folder_error)?;
     progress.finish(&format!(

@@ -30,10 +30,15 @@ fn field_data<'a>(case: &Case, solved: &'a SolvedCase) -> Vec<FieldData<'a>> {
     for wanted in &case.output.fields {
         match wanted {
             OutputField::Velocity => {
-                let v = &solved.flow.velocity;
-                fields.push(f("flow", "u", "m/s", "superficial velocity x, cell-centred", &v[0]));
-                fields.push(f("flow", "v", "m/s", "superficial velocity y, cell-centred", &v[1]));
-                fields.push(f("flow", "w", "m/s", "superficial velocity z, cell-centred", &v[2]));
+                // Derived from the face fluxes for the write only (not kept by the solved case).
+                let [u, v, w] = solved.flow.velocity(&case.grid);
+                let owned = |name, description, values: Vec<f64>| FieldData {
+                    values: values.into(),
+                    ..f("flow", name, "m/s", description, &[])
+                };
+                fields.push(owned("u", "superficial velocity x, cell-centred", u));
+                fields.push(owned("v", "superficial velocity y, cell-centred", v));
+                fields.push(owned("w", "superficial velocity z, cell-centred", w));
             }
             OutputField::Pressure => fields.push(f(
                 "flow",
@@ -75,13 +80,20 @@ fn measured_outlet_concentration(case: &Case, solved: &SolvedCase) -> Option<f64
 /// The self/neighbour split (its own stage of `meter`), then the output files (the write stage).
 pub fn write_outputs(
     case: &Case,
-    solved: &SolvedCase,
+    solved: &mut SolvedCase,
     warnings: &[String],
     out_dir: &Path,
     meter: &mut StageMeter,
 ) -> Result<()> {
     meter.begin(MeteredStage::SelfNeighbourSplit);
-    let split = crate::engine::estimates::split_self_and_neighbours(case, solved)?;
+    // Each own-field solve at once holds its work vectors and two fields: no more of them than fit under the
+    // transport stage's peak, so the split never sets the run's peak.
+    let per_solve =
+        solved.transport.solver.as_ref().map_or(0, |s| s.solve_work_bytes() + 16 * case.grid.len());
+    let parallel_solves = meter.fitting_under_peak_of(MeteredStage::Transport, per_solve);
+    let split = crate::engine::estimates::split_self_and_neighbours(case, solved, parallel_solves)?;
+    // The operator and hierarchy served the split; nothing after it needs them.
+    solved.transport.solver = None;
     meter.begin(MeteredStage::Write);
     let mut table = cell_table(case, solved);
     for warning in &split.warnings {

@@ -137,6 +137,17 @@ impl StageMeter {
         self.carved.push((inside, stage, seconds));
     }
 
+    /// How many allocations of `bytes` fit at once between the resident memory now and the peak that the ended
+    /// `stage` reached (at least one), so that work sized by it stays under that peak; unbounded where memory is
+    /// not measured.
+    pub fn fitting_under_peak_of(&self, stage: MeteredStage, bytes: usize) -> usize {
+        let peak = self.done.iter().find(|(s, _)| *s == stage).and_then(|(_, cost)| cost.peak_resident_bytes);
+        match (self.scope, peak, meter::resident_bytes()) {
+            (PeakScope::Unavailable, _, _) | (_, None, _) | (_, _, None) => usize::MAX,
+            (_, Some(peak), Some(now)) => (peak.saturating_sub(now) as usize / bytes.max(1)).max(1),
+        }
+    }
+
     /// Ends the current stage.
     pub fn end(&mut self) {
         if let Some((stage, _)) = self.current {

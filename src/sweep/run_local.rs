@@ -248,7 +248,7 @@ pub fn run_case(
     } else {
         // Cases run side by side in this process: its memory peak is theirs together, so times only.
         let mut meter = StageMeter::times_only();
-        let solved = std::panic::catch_unwind(AssertUnwindSafe(|| {
+        let mut solved = std::panic::catch_unwind(AssertUnwindSafe(|| {
             solve_steady_case(&steady_case(&case), &mut |stage| meter.begin(MeteredStage::of(stage, true)))
         }))
         .map_err(caught)?
@@ -262,7 +262,7 @@ pub fn run_case(
         })?;
         let warnings = solution_warnings(&case, &solved);
         write(&mut || {
-            write_outputs(&case, &solved, &warnings, &case_dir, &mut meter)
+            write_outputs(&case, &mut solved, &warnings, &case_dir, &mut meter)
                 .map_err(|e| failure(plan, index, "io", one_line(&e)))
         })?;
     }

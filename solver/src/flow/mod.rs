@@ -12,15 +12,15 @@ mod near_face_tests;
 pub use darcy::{solve_darcy, DarcyError};
 pub use divergence::{check_divergence, divergence_peak, DivergencePeak, DivergenceWarning};
 
-/// A solved flow: face fluxes for the transport, cell-centred fields for output, per-cell loads.
+/// A solved flow: face fluxes for the transport, pressure for output, per-cell loads. The cell-centred velocity
+/// is not stored: [`FlowField::cell_velocity`] derives it from the face fluxes where it is needed (local flow,
+/// output), so it does not live through the later stages.
 #[derive(Clone, Debug)]
 pub struct FlowField {
     /// Signed volumetric flux through every face (m^3/s), positive towards increasing coordinate.
     pub face_flux: [Vec<f64>; 3],
     /// Pressure per grid cell (Pa), zero at the outlet (or at the far-field reference point).
     pub pressure: Vec<f64>,
-    /// Cell-centred superficial velocity components (m/s): mean of the two face velocities (flux / full face area).
-    pub velocity: [Vec<f64>; 3],
     /// Force of the fluid on each cell (N).
     pub drag: Vec<[f64; 3]>,
     pub iterations: usize,
@@ -40,7 +40,6 @@ impl FlowField {
         FlowField {
             face_flux: zero_faces,
             pressure: vec![0.0; grid.len()],
-            velocity: [vec![0.0; grid.len()], vec![0.0; grid.len()], vec![0.0; grid.len()]],
             drag: vec![[0.0; 3]; cells],
             iterations: 0,
             relative_residual: 0.0,
@@ -50,7 +49,8 @@ impl FlowField {
         }
     }
 
-    /// Cell-centred superficial velocity from face fluxes.
+    /// Cell-centred superficial velocity components (m/s) from face fluxes: mean of the two face velocities
+    /// (flux / full face area).
     pub fn cell_velocity(grid: &mesh::Grid, face_flux: &[Vec<f64>; 3]) -> [Vec<f64>; 3] {
         let area = grid.face_area();
         mesh::Axis::ALL.map(|axis| {
@@ -66,6 +66,11 @@ impl FlowField {
                 })
                 .collect()
         })
+    }
+
+    /// This flow's cell-centred superficial velocity components (m/s), see [`FlowField::cell_velocity`].
+    pub fn velocity(&self, grid: &mesh::Grid) -> [Vec<f64>; 3] {
+        Self::cell_velocity(grid, &self.face_flux)
     }
 
     /// Where the divergence peaks, as computed by the solver.

@@ -116,6 +116,23 @@ impl SteadySolver {
         result
     }
 
+    /// Frees the work vectors kept between solves (a later solve allocates them again): for a solver kept
+    /// alive, between solves, at the size of its operator and hierarchy only.
+    pub fn release_work(&self) {
+        if let Ok(mut work) = self.work.lock() {
+            *work = None;
+        }
+        if let Ok(mut krylov) = self.krylov.lock() {
+            *krylov = None;
+        }
+    }
+
+    /// Bytes that one solve allocates beside the solver (multigrid and Krylov work vectors), e.g. to size how
+    /// many solves may run at once.
+    pub fn solve_work_bytes(&self) -> usize {
+        self.multigrid.work_bytes() + 6 * 8 * self.len()
+    }
+
     /// Whether each grid cell holds fluid (an unknown).
     pub fn active(&self) -> &[bool] {
         &self.system.operator.active

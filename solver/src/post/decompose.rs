@@ -7,8 +7,9 @@
 //!
 //! with `b_i` the rows that cell i's secretion writes (`secretion − uptake constant` of its facets, see
 //! `transport::surface_exchange`) and `b_inlet` the inflow constants of the chamber faces. For each chosen cell
-//! the field of its secretion alone is solved in the full crowded geometry and flow, reusing one operator and one
-//! multigrid hierarchy for every right-hand side; the solves run in parallel batches of the thread count.
+//! the field of its secretion alone is solved in the full crowded geometry and flow, on the packed operator and
+//! multigrid hierarchy of the total solve (no copy, no new set-up); the solves run in parallel batches of at most
+//! [`DecomposeInputs::parallel_solves`], each with its own work vectors.
 //!
 //! What a cell senses splits the same way: its anisotropy vector `Σ j n A / Σ j A` is the own part (`j` of
 //! the own field) plus the rest (`j` of total − own), both over the total sensed flux, so they add up to the
@@ -20,13 +21,14 @@
 //! [`Decomposition::failed`]; the other cells are still split.
 //!
 //! Cost: one steady solve per chosen cell (about the cost of the total solve each, less the hierarchy set-up);
-//! memory grows with the batch size, not with the number of chosen cells.
+//! memory grows with the batch size (one set of work vectors and two fields per solve), not with the number of
+//! chosen cells.
 
 use super::integrate_surface::{CellSensing, SensingModel};
-use crate::linalg::{KrylovParams, MultigridParams, SolveError, SteadySolver};
+use crate::linalg::{KrylovParams, SolveError, SteadySolver};
 use crate::problem::SurfaceUptake;
 use crate::transport::surface_exchange::FacetExchange;
-use crate::transport::TransportAssembly;
+use crate::transport::TransportTerms;
 use mesh::{EmbeddedGeometry, Layout};
 use rayon::prelude::*;
 use std::time::Instant;
@@ -35,14 +37,18 @@ use std::time::Instant;
 pub struct DecomposeInputs<'a> {
     pub geometry: &'a EmbeddedGeometry,
     pub layout: &'a Layout,
-    pub assembly: &'a TransportAssembly,
+    pub assembly: &'a TransportTerms,
+    /// The solver of the total solve: its operator and hierarchy serve every right-hand side.
+    pub solver: &'a SteadySolver,
     /// The solved total concentration.
     pub total: &'a [f64],
     /// The measured sensing of every cell (for the local flow direction and the totals).
     pub sensing: &'a [CellSensing],
     pub model: SensingModel,
     pub krylov: KrylovParams,
-    pub multigrid: MultigridParams,
+    /// Own-field solves run at once (at least one); each holds [`SteadySolver::solve_work_bytes`] and two
+    /// fields, so this bounds the split's memory.
+    pub parallel_solves: usize,
 }
 
 /// Self/neighbour split of one cell. Units: molecules/s; the rest dimensionless.
@@ -79,7 +85,7 @@ pub struct CellSplit {
 #[derive(Clone, Debug)]
 pub struct Decomposition {
     pub cells: Vec<CellSplit>,
-    /// Seconds to build the operator's multigrid hierarchy (once).
+    /// Seconds to prepare the split (the facets of each cell; the operator and hierarchy are the total solve's).
     pub setup_seconds: f64,
     /// Wall seconds of all right-hand sides (after set-up).
     pub solve_seconds: f64,
@@ -102,11 +108,7 @@ pub enum DecomposeError {
 }
 
 /// Right-hand side of one source: a cell's secretion (`Some(i)`) or what the chamber faces carry in (`None`).
-pub fn source_rhs(
-    geometry: &EmbeddedGeometry,
-    assembly: &TransportAssembly,
-    source: Option<usize>,
-) -> Vec<f64> {
+pub fn source_rhs(geometry: &EmbeddedGeometry, assembly: &TransportTerms, source: Option<usize>) -> Vec<f64> {
     let mut rhs = vec![0.0; geometry.grid.len()];
     match source {
         Some(cell) => {
@@ -147,9 +149,8 @@ pub fn decompose(
         return Err(DecomposeError::UnknownCell { cell, cells });
     }
     let t0 = Instant::now();
-    let solver = SteadySolver::new(inputs.assembly.system.clone(), inputs.multigrid.clone());
-    let setup_seconds = t0.elapsed().as_secs_f64();
     let by_owner = facets_by_owner(inputs.geometry, cells);
+    let setup_seconds = t0.elapsed().as_secs_f64();
 
     let t1 = Instant::now();
     let mut sources: Vec<Option<usize>> = chosen.iter().map(|&c| Some(c)).collect();
@@ -157,7 +158,7 @@ pub fn decompose(
         sources.push(None);
     }
     let n = inputs.geometry.grid.len();
-    let batch = rayon::current_num_threads().max(1);
+    let batch = inputs.parallel_solves.clamp(1, rayon::current_num_threads().max(1));
     let mut splits = Vec::with_capacity(chosen.len());
     let mut sum = sum_parts.then(|| vec![0.0; n]);
     let mut failed = Vec::new();
@@ -165,7 +166,7 @@ pub fn decompose(
         let solved: Vec<Result<SolvedPart, DecomposeError>> = group
             .par_iter()
             .map(|&source| {
-                let (field, iterations) = solve_part(inputs, &solver, source)?;
+                let (field, iterations) = solve_part(inputs, source)?;
                 Ok((source, field, iterations))
             })
             .collect();
@@ -200,11 +201,7 @@ pub fn decompose(
 type SolvedPart = (Option<usize>, Vec<f64>, usize);
 
 /// Solves `A c_s = b_s` for one source.
-fn solve_part(
-    inputs: &DecomposeInputs,
-    solver: &SteadySolver,
-    source: Option<usize>,
-) -> Result<(Vec<f64>, usize), DecomposeError> {
+fn solve_part(inputs: &DecomposeInputs, source: Option<usize>) -> Result<(Vec<f64>, usize), DecomposeError> {
     let label = source.unwrap_or(usize::MAX);
     let rhs = source_rhs(inputs.geometry, inputs.assembly, source);
     let mut c = vec![0.0; rhs.len()];
@@ -214,11 +211,11 @@ fn solve_part(
         }
         SolveError::NonFinite { .. } => DecomposeError::NonFinite { cell: label },
     };
-    let iterations = solver.solve(&rhs, &mut c, &inputs.krylov).map_err(map)?.iterations;
+    let iterations = inputs.solver.solve(&rhs, &mut c, &inputs.krylov).map_err(map)?.iterations;
     if c.iter().any(|v| !v.is_finite()) {
         return Err(DecomposeError::NonFinite { cell: label });
     }
-    for (value, active) in c.iter_mut().zip(&inputs.assembly.system.operator.active) {
+    for (value, active) in c.iter_mut().zip(inputs.solver.active()) {
         if !active {
             *value = 0.0;
         }

@@ -2,7 +2,7 @@
 //! `secreted = outflow + uptake + decay (+ accumulation)`, evaluated with exactly the discrete fluxes of the
 //! assembled system, so it closes to the solver tolerance, not merely to truncation error.
 
-use crate::transport::TransportAssembly;
+use crate::transport::TransportTerms;
 
 /// Terms of the balance (molecules/s).
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -17,7 +17,7 @@ pub struct MassBalance {
     pub relative_error: f64,
 }
 
-pub fn mass_balance(assembly: &TransportAssembly, c: &[f64]) -> MassBalance {
+pub fn mass_balance(assembly: &TransportTerms, c: &[f64]) -> MassBalance {
     let secreted: f64 = assembly.facets.iter().map(|f| f.secretion).sum();
     let uptake: f64 = assembly.facets.iter().map(|f| f.uptake.evaluate(c)).sum();
     let decay: f64 = assembly.decay.iter().zip(c).map(|(k, c)| k * c).sum();

@@ -80,13 +80,15 @@ pub fn solve_transient_case(
         diffusivity: s.ligand.diffusivity,
         integration_time: s.integration_time,
     };
+    let velocities: Vec<[Vec<f64>; 3]> = flows.iter().map(|flow| flow.velocity(s.grid)).collect();
     let phases: Vec<FlowPhase> = speeds
         .iter()
         .zip(&flows)
-        .map(|(&(start, mean_velocity), flow)| FlowPhase {
+        .zip(&velocities)
+        .map(|((&(start, mean_velocity), flow), velocity)| FlowPhase {
             start,
             face_flux: &flow.face_flux,
-            velocity: &flow.velocity,
+            velocity,
             mean_velocity,
         })
         .collect();

@@ -20,7 +20,7 @@ pub mod solve_steady;
 pub mod surface_exchange;
 pub mod transient;
 
-pub use assemble_transport::{assemble_transport, TransportAssembly};
+pub use assemble_transport::{assemble_transport, TransportAssembly, TransportTerms};
 pub use solve_steady::{solve_steady, SteadyTransport, TransportError, TransportParams};
 
 use crate::problem::{ChamberBoundaries, LigandParameters};

@@ -1,7 +1,7 @@
 //! Steady solve: multigrid-preconditioned Krylov on the assembled system. The operator is linear at every
 //! Péclet number (`advection`), so one solve gives the answer.
 
-use super::{assemble_transport, TransportAssembly, TransportProblem};
+use super::{assemble_transport, TransportProblem, TransportTerms};
 use crate::linalg::{KrylovParams, MultigridParams, SolveError, SteadySolver};
 
 /// Parameters of the steady transport solve.
@@ -15,7 +15,12 @@ pub struct TransportParams {
 pub struct SteadyTransport {
     /// Concentration per grid cell (molecules/m^3); zero in grid cells without fluid.
     pub concentration: Vec<f64>,
-    pub assembly: TransportAssembly,
+    /// The assembly's per-term forms (the operator itself lives in `solver`).
+    pub assembly: TransportTerms,
+    /// The solver of this solve (packed operator and multigrid hierarchy, no work vectors), kept for more
+    /// right-hand sides on the same operator (the self/neighbour split); take it, or drop it, when no more
+    /// are needed, as it is the largest thing a solved case holds.
+    pub solver: Option<SteadySolver>,
     /// Krylov iterations.
     pub iterations: usize,
     pub residual_history: Vec<f64>,
@@ -46,27 +51,19 @@ pub fn solve_steady(
     problem: &TransportProblem,
     params: &TransportParams,
 ) -> Result<SteadyTransport, TransportError> {
-    let TransportAssembly { system, rhs, facets, boundary, decay, peclet, far_field_seconds } =
-        assemble_transport(problem);
-    // The solver holds the system while it solves and hands it back: no second copy of the operator arrays.
+    let (system, rhs, assembly) = assemble_transport(problem).into_parts();
+    // The solver takes the system (no second copy of the operator arrays) and is kept for further right-hand
+    // sides; the right-hand side of the total is not needed after the solve.
     let solver = SteadySolver::new(system, params.multigrid.clone());
     let mut c = vec![0.0; rhs.len()];
-    let info = solver.solve(&rhs, &mut c, &params.krylov);
-    let assembly = TransportAssembly {
-        system: solver.into_system(),
-        rhs,
-        facets,
-        boundary,
-        decay,
-        peclet,
-        far_field_seconds,
-    };
-    let info = info?;
+    let info = solver.solve(&rhs, &mut c, &params.krylov)?;
+    drop(rhs);
+    solver.release_work();
     if c.iter().any(|v| !v.is_finite()) {
         return Err(TransportError::NonFinite { iteration: info.iterations });
     }
     // Grid cells without fluid carry no concentration.
-    for (value, active) in c.iter_mut().zip(&assembly.system.operator.active) {
+    for (value, active) in c.iter_mut().zip(solver.active()) {
         if !active {
             *value = 0.0;
         }
@@ -74,6 +71,7 @@ pub fn solve_steady(
     Ok(SteadyTransport {
         concentration: c,
         assembly,
+        solver: Some(solver),
         iterations: info.iterations,
         residual_history: info.residual_history,
         relative_residual: info.relative_residual,

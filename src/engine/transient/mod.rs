@@ -363,7 +363,7 @@ fn final_table(
         &solution.geometry,
         &stencils,
         &case.layout,
-        &flow.velocity,
+        &flow.velocity(&case.grid),
         &flow.pressure,
     );
     columns.push(cell_pressure_drop_column(pressure_drops));
@@ -432,14 +432,20 @@ fn write_outputs(case: &Case, t: &TransientSolve, run: &FinishedRun, out_dir: &P
         for wanted in &case.output.fields {
             match wanted {
                 OutputField::Velocity => {
-                    for (axis, name) in ["u", "v", "w"].iter().enumerate() {
-                        fields.push(field(
-                            group,
-                            name,
-                            "m/s",
-                            &format!("superficial velocity {} {when}, cell-centred", ["x", "y", "z"][axis]),
-                            &flow.velocity[axis],
-                        ));
+                    for (axis, values) in flow.velocity(&case.grid).into_iter().enumerate() {
+                        fields.push(FieldData {
+                            values: values.into(),
+                            ..field(
+                                group,
+                                ["u", "v", "w"][axis],
+                                "m/s",
+                                &format!(
+                                    "superficial velocity {} {when}, cell-centred",
+                                    ["x", "y", "z"][axis]
+                                ),
+                                &[],
+                            )
+                        });
                     }
                 }
                 OutputField::Pressure => fields.push(field(

@@ -14,7 +14,7 @@ use super::setup::{darcy, far_field_box, isolated_sphere, solve};
 use super::{Check, Tier, VerifyError};
 use mesh::layout::{random_sequential_addition, ChamberBox, RandomLayout, RandomTarget};
 use mesh::Grid;
-use solver::linalg::{KrylovParams, MultigridParams};
+use solver::linalg::KrylovParams;
 use solver::post::decompose::{decompose, DecomposeInputs, SplitMode};
 use solver::post::SensingModel;
 use solver::problem::{ChamberBoundaries, ChamberFace, LigandParameters, SurfaceUptake};
@@ -32,6 +32,7 @@ fn inputs<'a>(
         geometry: &solution.geometry,
         layout,
         assembly: &solution.transport.assembly,
+        solver: solution.transport.solver.as_ref().expect("the solved case keeps its solver"),
         total: &solution.transport.concentration,
         sensing: &solution.sensing,
         model: SensingModel {
@@ -40,7 +41,7 @@ fn inputs<'a>(
             integration_time: 3600.0,
         },
         krylov: KrylovParams { relative_tolerance: TOLERANCE, max_iterations: 500 },
-        multigrid: MultigridParams::default(),
+        parallel_solves: usize::MAX,
     }
 }
 

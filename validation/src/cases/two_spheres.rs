@@ -126,7 +126,7 @@ mod tests {
     #[test]
     fn self_and_neighbour_parts_still_add_up() {
         use super::super::setup::darcy;
-        use solver::linalg::{KrylovParams, MultigridParams};
+        use solver::linalg::KrylovParams;
         use solver::post::decompose::{decompose, DecomposeInputs, SplitMode};
         use solver::post::SensingModel;
         use solver::solve_case::{solve_steady_case, SteadyCase};
@@ -165,6 +165,7 @@ mod tests {
             geometry: &solution.geometry,
             layout: &layout,
             assembly: &solution.transport.assembly,
+            solver: solution.transport.solver.as_ref().expect("the solved case keeps its solver"),
             total: &solution.transport.concentration,
             sensing: &solution.sensing,
             model: SensingModel {
@@ -173,7 +174,7 @@ mod tests {
                 integration_time: 3600.0,
             },
             krylov,
-            multigrid: MultigridParams::default(),
+            parallel_solves: usize::MAX,
         };
         let split = decompose(&inputs, &[0, 1], SplitMode::WithSumOfParts).unwrap();
         let sum = split.sum_of_parts.unwrap_or_default();

@@ -75,13 +75,19 @@ pub fn assemble_momentum(
     let mut half_volume = vec![false; n];
     let mut known_value: Vec<Option<f64>> = vec![None; n];
     let mut known = Vec::new();
+    // Unknowns farther than a spacing from every sphere: in no sphere, and none of their links is cut. Only the
+    // others are tested against the spheres.
+    let near = spheres.near_points(component.position(grid, [0; 3]), h, component.shape, h);
     // Which unknowns are rows, and the prescribed normal values on chamber faces (the sphere tests in parallel).
     let solid_at: Vec<bool> = (0..n)
         .into_par_iter()
-        .map(|p| spheres.owner_at(component.position(grid, component.ijk(p))).is_some())
+        .map(|p| near[p] && spheres.owner_at(component.position(grid, component.ijk(p))).is_some())
         .collect();
+    let mut ijk = [0; 3];
     for (p, act) in active.iter_mut().enumerate() {
-        let ijk = component.ijk(p);
+        if p > 0 {
+            component.advance(&mut ijk);
+        }
         let x = component.position(grid, ijk);
         let solid = solid_at[p];
         match component.chamber_side(ijk) {
@@ -144,6 +150,9 @@ pub fn assemble_momentum(
         let hits: Vec<(usize, SegmentHit)> = (0..n)
             .into_par_iter()
             .filter_map(|p| {
+                if !near[p] {
+                    return None;
+                }
                 let ijk = component.ijk(p);
                 let (q_ijk, _) = upper_of(ijk, a)?;
                 let q = component.index(q_ijk);
@@ -158,8 +167,11 @@ pub fn assemble_momentum(
             })
             .collect();
         let mut next_hit = hits.iter().peekable();
+        let mut ijk = [0; 3];
         for p in 0..n {
-            let ijk = component.ijk(p);
+            if p > 0 {
+                component.advance(&mut ijk);
+            }
             let x = component.position(grid, ijk);
             // Control-volume face area of links along a: halved across an outlet face's half volume.
             let area = if a != axis && half_volume[p] { 0.5 * h * h } else { h * h };
@@ -208,7 +220,8 @@ pub fn assemble_momentum(
                     let mut xb = x;
                     xb[a] += if side == 0 { -0.5 * h } else { 0.5 * h };
                     if let TangentialCondition::Value(value) = chamber.tangential(a, side, axis, xb) {
-                        match spheres.segment_hit(x, xb).from_start {
+                        let hit = if near[p] { spheres.segment_hit(x, xb).from_start } else { None };
+                        match hit {
                             Some((t, owner)) => cut(p, 0.5 * t, 0.0, area, Some(owner), &mut sink),
                             None => cut(p, 0.5, value, area, None, &mut sink),
                         }

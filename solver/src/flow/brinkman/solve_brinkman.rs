@@ -308,7 +308,6 @@ pub fn solve_brinkman(
         }
         q
     });
-    let velocity = FlowField::cell_velocity(grid, &face_flux);
     let fluid: Vec<bool> = geometry.volume_fraction.iter().map(|&phi| phi > 0.0).collect();
     let divergence = crate::flow::divergence_peak(grid, &face_flux, &fluid);
     let pressure_drop = if driven {
@@ -319,7 +318,6 @@ pub fn solve_brinkman(
     let field = FlowField {
         face_flux,
         pressure,
-        velocity,
         drag: forces.total(),
         iterations: info.iterations,
         relative_residual: info.relative_residual,

@@ -46,6 +46,20 @@ impl ComponentGrid {
         [n % sx, (n / sx) % sy, n / (sx * sy)]
     }
 
+    /// Steps `ijk` to the next unknown in index order (i fastest), as `ijk(index(ijk) + 1)` without divisions.
+    #[inline]
+    pub fn advance(&self, ijk: &mut [usize; 3]) {
+        ijk[0] += 1;
+        if ijk[0] == self.shape[0] {
+            ijk[0] = 0;
+            ijk[1] += 1;
+            if ijk[1] == self.shape[1] {
+                ijk[1] = 0;
+                ijk[2] += 1;
+            }
+        }
+    }
+
     /// Centre of the face that holds unknown `ijk` (m).
     pub fn position(&self, grid: &Grid, ijk: [usize; 3]) -> [f64; 3] {
         let h = grid.spacing;
@@ -125,5 +139,10 @@ mod tests {
         assert_eq!(y.adjacent_cells(&grid, [1, 0, 0]), (Some(grid.index(1, 2, 0)), Some(1)));
         assert_eq!(y.cell_faces([1, 2, 0]), (y.index([1, 2, 0]), y.index([1, 0, 0])));
         assert_eq!(y.chamber_side([0, 0, 0]), None);
+        let mut ijk = [0; 3];
+        for n in 1..y.len() {
+            y.advance(&mut ijk);
+            assert_eq!(ijk, y.ijk(n));
+        }
     }
 }

@@ -99,11 +99,9 @@ pub fn solve_darcy(
         inlet_outlet_pressure_difference(grid, &pressure, &active)
     };
     let drag = pressure_force(geometry, stencils, &pressure, cells);
-    let velocity = FlowField::cell_velocity(grid, &face_flux);
     Ok(FlowField {
         face_flux,
         pressure,
-        velocity,
         drag,
         iterations: info.iterations,
         relative_residual: info.relative_residual,
