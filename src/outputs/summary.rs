@@ -132,6 +132,7 @@ impl Resources {
 /// that per chosen cell (one time integration each) and `transport_s` the time loop without them.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct SplitCost {
+    /// The split's own preparation (the facets of each cell); the operator and hierarchy are the total solve's.
     pub setup_s: f64,
     pub solve_s: f64,
     pub seconds_per_right_hand_side: f64,

@@ -3,7 +3,7 @@
 //! - `brinkman-stages stages [SIZE]`: the `scripts/bench_brinkman` chamber of SIZE³ grid cells (default 64):
 //!   flow and transport times (wall and CPU), flow iterations, and the peak resident memory of each stage
 //!   (Linux `VmHWM`, reset between stages); `PF_INNER=1e-3` sets the inner tolerance of the refinement,
-//!   `PF_SMOOTH=N` the multigrid sweeps.
+//!   `PF_SMOOTH=N` the multigrid sweeps, `PF_FINEST=stored` stores the finest velocity multigrid levels.
 //! - `brinkman-stages iterations SIZE,SIZE,…`: outer iterations of a sphere (a = 0.2) in a periodic unit box per
 //!   grid size and α = a/√K; `PF_PROLONG=tri`, `PF_CYCLE=W`, `PF_SMOOTH=N` change the multigrid parameters.
 //!
@@ -51,6 +51,9 @@ fn stages(size: usize) {
     if let Ok(sweeps) = std::env::var("PF_SMOOTH").unwrap_or_default().parse::<usize>() {
         params.multigrid.pre_smoothing = sweeps;
         params.multigrid.post_smoothing = sweeps;
+    }
+    if std::env::var("PF_FINEST").is_ok_and(|v| v == "stored") {
+        params.finest_from_rows = false;
     }
     meter::reset_peak_resident();
     let t = Instant::now();

@@ -27,6 +27,7 @@ pub mod solve_brinkman;
 pub mod sphere_index;
 pub mod staggered_grid;
 pub mod surface_force;
+pub mod velocity_multigrid;
 
 #[cfg(test)]
 mod tests;

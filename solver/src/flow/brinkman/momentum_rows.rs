@@ -33,8 +33,18 @@ pub struct MomentumRows {
     irregular_sink: Vec<f64>,
     /// Index in `irregular_sink` of the first irregular row of each grid line along x.
     line_start: Vec<usize>,
-    /// Conductances `[μ_e h²/h, μ_e (h²/2)/h]` computed as the assembly does.
-    values: [f64; 2],
+    /// `[0, μ_e h²/h, 0, μ_e (h²/2)/h]` (conductances computed as the assembly does), indexed by a link bit and
+    /// its half-area bit.
+    table: [f64; 4],
+}
+
+/// Where the links of the rows of one x-line go: [`MomentumRows::links_of`].
+pub struct LineLinks {
+    line: usize,
+    /// Neighbour lines `[y above, y below, z above, z below]`, the line itself where there is none.
+    lines: [usize; 4],
+    /// 1 where the lower line along y (index 0) and z (index 1) exists, else 0.
+    lower: [f64; 2],
 }
 
 /// Where the grid-cell pressures of a component's unknowns are: the high cell of unknown `(i, j, k)` is grid
@@ -110,7 +120,7 @@ impl MomentumRows {
             regular_sink,
             irregular_sink,
             line_start,
-            values: [full, half],
+            table: [0.0, full, 0.0, half],
         })
     }
 
@@ -130,14 +140,11 @@ impl MomentumRows {
         self.links.len() + 8 * (self.irregular_sink.len() + self.line_start.len())
     }
 
-    /// Conductance of the upper link along `a` from a row's byte (0 if not coupled).
-    #[inline]
+    /// Conductance of the upper link along `a` from a row's byte (0 if not coupled), without a branch: the link
+    /// and half-area bits of axis a index `[0, full, 0, half]`.
+    #[inline(always)]
     fn upper(&self, byte: u8, a: usize) -> f64 {
-        if byte & (1 << a) == 0 {
-            0.0
-        } else {
-            self.values[((byte >> (3 + a)) & 1) as usize]
-        }
+        self.table[(((byte >> a) & 1) | ((byte >> (2 + a)) & 2)) as usize]
     }
 
     /// `y = A_c u + s G_c p` on the unknowns of component `c`; identity rows (`y = u`) where inactive.
@@ -152,100 +159,200 @@ impl MomentumRows {
         stencil: PressureStencil,
         y: &mut [T],
     ) {
-        let [sx, sy, sz] = self.shape;
+        let [sx, sy, _] = self.shape;
         let [nx, ny, nz] = stencil.grid_shape;
         let n_c = stencil.grid_shape[c];
-        let periodic = self.periodic;
         let g = stencil.coefficient;
         y.par_chunks_mut(sx).enumerate().with_min_len(16).for_each(|(line, yl)| {
             let (j, k) = (line % sy, line / sy);
             let base = line * sx;
-            // Neighbour lines along y and z (None across a non-periodic boundary).
-            let step = |idx: usize, size: usize, up: bool, per: bool| -> Option<usize> {
-                if up {
-                    if idx + 1 < size {
-                        Some(idx + 1)
-                    } else if per && size > 1 {
-                        Some(0)
-                    } else {
-                        None
-                    }
-                } else if idx > 0 {
-                    Some(idx - 1)
-                } else if per && size > 1 {
-                    Some(size - 1)
-                } else {
-                    None
-                }
-            };
-            let line_base = |jj: usize, kk: usize| (jj + sy * kk) * sx;
-            let y_lo = step(j, sy, false, periodic[1]).map(|jj| line_base(jj, k));
-            let y_hi = step(j, sy, true, periodic[1]).map(|jj| line_base(jj, k));
-            let z_lo = step(k, sz, false, periodic[2]).map(|kk| line_base(j, kk));
-            let z_hi = step(k, sz, true, periodic[2]).map(|kk| line_base(j, kk));
-            let mut irregular = self.irregular_sink[self.line_start[line]..].iter();
-            for i in 0..sx {
+            let lines = self.neighbour_lines(line);
+            let mut irregular = self.line_sinks(line);
+            for (i, yi) in yl.iter_mut().enumerate() {
                 let p = base + i;
                 let byte = self.links[p];
                 let Some(u) = u else {
                     // Right-hand-side form: y = r − s G p on active rows, r kept elsewhere.
                     if byte & ACTIVE != 0 {
                         let difference = self.pressure_difference(c, [i, j, k], [nx, ny, nz], n_c, pressure);
-                        yl[i] = T::from_f64(yl[i].to_f64() - g * difference);
+                        *yi = T::from_f64((*yi).to_f64() - g * difference);
                     }
                     continue;
                 };
                 if byte & ACTIVE == 0 {
-                    yl[i] = u[p];
+                    *yi = u[p];
                     continue;
                 }
                 let up = u[p].to_f64();
-                let sink = if byte & IRREGULAR != 0 {
-                    irregular.next().copied().unwrap_or(self.regular_sink)
-                } else {
-                    self.regular_sink
-                };
-                let mut acc = sink * up;
-                // x links.
-                let gx = self.upper(byte, 0);
-                if gx != 0.0 {
-                    let q = if i + 1 < sx { p + 1 } else { base };
-                    acc += gx * (up - u[q].to_f64());
-                }
-                let lower_x = if i > 0 {
-                    Some(p - 1)
-                } else if periodic[0] && sx > 1 {
-                    Some(base + sx - 1)
-                } else {
-                    None
-                };
-                if let Some(q) = lower_x {
-                    let gq = self.upper(self.links[q], 0);
-                    if gq != 0.0 {
-                        acc += gq * (up - u[q].to_f64());
-                    }
-                }
-                // y and z links.
-                for (a, hi, lo) in [(1, y_hi, y_lo), (2, z_hi, z_lo)] {
-                    let ga = self.upper(byte, a);
-                    if ga != 0.0 {
-                        if let Some(b) = hi {
-                            acc += ga * (up - u[b + i].to_f64());
-                        }
-                    }
-                    if let Some(b) = lo {
-                        let q = b + i;
-                        let gq = self.upper(self.links[q], a);
-                        if gq != 0.0 {
-                            acc += gq * (up - u[q].to_f64());
-                        }
-                    }
-                }
-                yl[i] = T::from_f64(
+                let mut acc = self.sink(byte, &mut irregular) * up;
+                self.for_each_link(line, i, byte, &lines, |lq, iq, gq| {
+                    acc += gq * (up - u[lq * sx + iq].to_f64())
+                });
+                *yi = T::from_f64(
                     acc + g * self.pressure_difference(c, [i, j, k], [nx, ny, nz], n_c, pressure),
                 );
             }
         });
+    }
+
+    /// Whether `byte` (a row's link byte) marks an unknown.
+    #[inline]
+    pub fn byte_is_active(byte: u8) -> bool {
+        byte & ACTIVE != 0
+    }
+
+    /// The link byte of row `p`.
+    #[inline]
+    pub fn byte(&self, p: usize) -> u8 {
+        self.links[p]
+    }
+
+    /// The stored sinks of x-line `line`, in row order, for [`Self::sink`].
+    #[inline]
+    pub fn line_sinks(&self, line: usize) -> std::slice::Iter<'_, f64> {
+        self.irregular_sink[self.line_start[line]..].iter()
+    }
+
+    /// Diagonal sink of an active row with link byte `byte`; `irregular` is the line's [`Self::line_sinks`],
+    /// advanced past the rows before this one (every row with an irregular sink must pass through here in order).
+    #[inline]
+    pub fn sink(&self, byte: u8, irregular: &mut std::slice::Iter<'_, f64>) -> f64 {
+        if byte & IRREGULAR != 0 {
+            irregular.next().copied().unwrap_or(self.regular_sink)
+        } else {
+            self.regular_sink
+        }
+    }
+
+    /// Whether the row's sink is stored (so [`Self::sink`] must see it to keep the line's sinks in step).
+    #[inline]
+    pub fn byte_has_stored_sink(byte: u8) -> bool {
+        byte & IRREGULAR != 0
+    }
+
+    /// The neighbour lines of x-line `line` for [`Self::links_of`].
+    pub fn line_links(&self, line: usize) -> LineLinks {
+        let [ylo, yhi, zlo, zhi] = self.neighbour_lines(line);
+        let or_own = |l: Option<usize>| l.unwrap_or(line);
+        LineLinks {
+            line,
+            lines: [or_own(yhi), or_own(ylo), or_own(zhi), or_own(zlo)],
+            lower: [f64::from(u8::from(ylo.is_some())), f64::from(u8::from(zlo.is_some()))],
+        }
+    }
+
+    /// The six links of active row `i` of the line of `ll` (link byte `byte`), without branches: conductances
+    /// (0 for an uncoupled link) and neighbour positions `(line, i)` (a valid position even where the
+    /// conductance is 0), in the order x above, x below, y above, y below, z above, z below.
+    #[inline(always)]
+    pub fn links_of(&self, ll: &LineLinks, i: usize, byte: u8) -> ([f64; 6], [(usize, usize); 6]) {
+        let sx = self.shape[0];
+        let line = ll.line;
+        let above_x = if i + 1 < sx { i + 1 } else { 0 };
+        let (below_x, has_below_x) = if i > 0 {
+            (i - 1, 1.0)
+        } else if self.periodic[0] && sx > 1 {
+            (sx - 1, 1.0)
+        } else {
+            (i, 0.0)
+        };
+        let [ya, yb, za, zb] = ll.lines;
+        let g = [
+            self.upper(byte, 0),
+            has_below_x * self.upper(self.links[line * sx + below_x], 0),
+            self.upper(byte, 1),
+            ll.lower[0] * self.upper(self.links[yb * sx + i], 1),
+            self.upper(byte, 2),
+            ll.lower[1] * self.upper(self.links[zb * sx + i], 2),
+        ];
+        (g, [(line, above_x), (line, below_x), (ya, i), (yb, i), (za, i), (zb, i)])
+    }
+
+    /// The diagonal sinks of the rows of x-line `line` into `out` (length n_x; 0 on inactive rows).
+    pub fn line_sink_values(&self, line: usize, out: &mut [f64]) {
+        let sx = self.shape[0];
+        let mut sinks = self.line_sinks(line);
+        for (o, &byte) in out.iter_mut().zip(&self.links[line * sx..(line + 1) * sx]) {
+            *o = if byte & ACTIVE != 0 { self.sink(byte, &mut sinks) } else { 0.0 };
+        }
+    }
+
+    /// The x-lines next to x-line `line` along y and z: `[y below, y above, z below, z above]` (None across a
+    /// non-periodic boundary).
+    pub fn neighbour_lines(&self, line: usize) -> [Option<usize>; 4] {
+        let [_, sy, sz] = self.shape;
+        let (j, k) = (line % sy, line / sy);
+        let step = |idx: usize, size: usize, up: bool, per: bool| -> Option<usize> {
+            if up {
+                if idx + 1 < size {
+                    Some(idx + 1)
+                } else if per && size > 1 {
+                    Some(0)
+                } else {
+                    None
+                }
+            } else if idx > 0 {
+                Some(idx - 1)
+            } else if per && size > 1 {
+                Some(size - 1)
+            } else {
+                None
+            }
+        };
+        let periodic = self.periodic;
+        [
+            step(j, sy, false, periodic[1]).map(|jj| jj + sy * k),
+            step(j, sy, true, periodic[1]).map(|jj| jj + sy * k),
+            step(k, sz, false, periodic[2]).map(|kk| j + sy * kk),
+            step(k, sz, true, periodic[2]).map(|kk| j + sy * kk),
+        ]
+    }
+
+    /// Calls `link(line_q, i_q, G)` for every coupled link of row `i` of x-line `line` (link byte `byte`, neighbour
+    /// lines from [`Self::neighbour_lines`]): the upper then the lower neighbour along x, y and z. Links join
+    /// unknowns only, so the neighbour is always an unknown.
+    #[inline(always)]
+    pub fn for_each_link(
+        &self,
+        line: usize,
+        i: usize,
+        byte: u8,
+        lines: &[Option<usize>; 4],
+        mut link: impl FnMut(usize, usize, f64),
+    ) {
+        let sx = self.shape[0];
+        let gx = self.upper(byte, 0);
+        if gx != 0.0 {
+            link(line, if i + 1 < sx { i + 1 } else { 0 }, gx);
+        }
+        let lower_x = if i > 0 {
+            Some(i - 1)
+        } else if self.periodic[0] && sx > 1 {
+            Some(sx - 1)
+        } else {
+            None
+        };
+        if let Some(q) = lower_x {
+            let gq = self.upper(self.links[line * sx + q], 0);
+            if gq != 0.0 {
+                link(line, q, gq);
+            }
+        }
+        for a in 1..3 {
+            let (lo, hi) = (lines[2 * a - 2], lines[2 * a - 1]);
+            let ga = self.upper(byte, a);
+            if ga != 0.0 {
+                if let Some(l) = hi {
+                    link(l, i, ga);
+                }
+            }
+            if let Some(l) = lo {
+                let gq = self.upper(self.links[l * sx + i], a);
+                if gq != 0.0 {
+                    link(l, i, gq);
+                }
+            }
+        }
     }
 
     /// `p_high − p_low` across unknown `ijk` of component c (0 beyond a chamber face).

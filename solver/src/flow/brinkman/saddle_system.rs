@@ -29,6 +29,7 @@
 use super::assemble_momentum::MomentumBlock;
 use super::momentum_rows::{MomentumRows, PressureStencil};
 use super::pressure_gradient::PressureCoupling;
+use super::velocity_multigrid::{VelocityMultigrid, VelocityWork};
 use crate::linalg::multigrid::{Multigrid, MultigridWork};
 use crate::linalg::real::Real;
 use crate::linalg::{
@@ -48,15 +49,16 @@ pub struct SaddleSystem {
     pub effective_viscosity: f64,
     offsets: [usize; 4],
     rows: [MomentumRows; 3],
-    velocity_mg: [Multigrid; 3],
+    velocity_mg: [VelocityMultigrid; 3],
     pressure_mg: Multigrid,
-    /// Viscous part of the Schur approximation per pressure cell: `1 / (s² Σ_f h⁴ / D_f)`.
-    viscous_inverse: Vec<f64>,
+    /// Viscous part of the Schur approximation per pressure cell: `1 / (s² Σ_f h⁴ / D_f)` (f32, as the rest of
+    /// the preconditioner).
+    viscous_inverse: Vec<f32>,
 }
 
 /// Work vectors of one preconditioner application on vectors of type T (f64 or f32).
 pub struct PreconditionerWork<T = f64> {
-    velocity: [MultigridWork; 3],
+    velocity: [VelocityWork; 3],
     pressure: MultigridWork,
     /// `r_u − s G z_p` of one component at a time.
     gradient: Vec<T>,
@@ -72,36 +74,35 @@ impl SaddleSystem {
         effective_viscosity: f64,
         resistivity: f64,
         params: &MultigridParams,
+        finest_from_rows: bool,
     ) -> Option<Self> {
         let h = coupling.grid.spacing;
         let scale = 6.0 * effective_viscosity / h + resistivity * h;
-        let sizes = [blocks[0].rhs.len(), blocks[1].rhs.len(), blocks[2].rhs.len(), coupling.grid.len()];
+        let sizes = [0, 1, 2].map(|c| blocks[c].operator.active.len());
+        let sizes = [sizes[0], sizes[1], sizes[2], coupling.grid.len()];
         let offsets = [0, sizes[0], sizes[0] + sizes[1], sizes[0] + sizes[1] + sizes[2]];
         let viscous_inverse = viscous_schur_inverse(&blocks, &coupling, resistivity, scale);
-        // The four hierarchies are independent: build them side by side.
-        let (built, pressure_mg) = rayon::join(
-            || {
-                blocks
-                    .par_iter_mut()
-                    .map(|block| {
-                        let rows = MomentumRows::new(block, effective_viscosity, resistivity, h);
-                        let mg = Multigrid::new(&block.operator, AdvectionScheme::Central, params.clone());
-                        let op = &mut block.operator;
-                        op.conductance = Default::default();
-                        op.flux = Default::default();
-                        op.sink = Vec::new();
-                        rows.map(|r| (r, mg))
-                    })
-                    .collect::<Option<Vec<_>>>()
-            },
-            || {
-                let pressure_operator = pressure_poisson(&coupling);
-                Multigrid::new(&pressure_operator, AdvectionScheme::Central, params.clone())
-            },
-        );
-        let (rows, velocity_mg): (Vec<MomentumRows>, Vec<Multigrid>) = built?.into_iter().unzip();
+        // The velocity hierarchies first, each releasing its block's face arrays, then the pressure one: the
+        // face arrays of all four never coexist.
+        let built = blocks
+            .par_iter_mut()
+            .map(|block| {
+                let rows = MomentumRows::new(block, effective_viscosity, resistivity, h)?;
+                let mg = VelocityMultigrid::new(&block.operator, &rows, params, finest_from_rows);
+                let op = &mut block.operator;
+                op.conductance = Default::default();
+                op.flux = Default::default();
+                op.sink = Vec::new();
+                Some((rows, mg))
+            })
+            .collect::<Option<Vec<_>>>();
+        let pressure_mg = {
+            let pressure_operator = pressure_poisson(&coupling);
+            Multigrid::new(&pressure_operator, AdvectionScheme::Central, params.clone())
+        };
+        let (rows, velocity_mg): (Vec<MomentumRows>, Vec<VelocityMultigrid>) = built?.into_iter().unzip();
         let rows: [MomentumRows; 3] = rows.try_into().ok()?;
-        let velocity_mg: [Multigrid; 3] = velocity_mg.try_into().ok()?;
+        let velocity_mg: [VelocityMultigrid; 3] = velocity_mg.try_into().ok()?;
         Some(SaddleSystem {
             blocks,
             coupling,
@@ -208,7 +209,7 @@ impl SaddleSystem {
 
     pub fn work<T: Real>(&self) -> PreconditionerWork<T> {
         PreconditionerWork {
-            velocity: [0, 1, 2].map(|c| self.velocity_mg[c].work()),
+            velocity: [0, 1, 2].map(|c| self.velocity_mg[c].work(&self.rows[c])),
             pressure: self.pressure_mg.work(),
             gradient: vec![T::ZERO; self.rows.iter().map(|r| r.len()).max().unwrap_or(0)],
             schur: vec![T::ZERO; self.coupling.grid.len()],
@@ -263,7 +264,7 @@ impl SaddleSystem {
             .zip(self.coupling.pressure_active.par_iter())
             .zip(self.viscous_inverse.par_iter())
             .for_each(|((((z, &r), &l), &a), &w)| {
-                *z = if a { T::from_f64(-(sigma_part * l.to_f64() + w * r.to_f64())) } else { r }
+                *z = if a { T::from_f64(-(sigma_part * l.to_f64() + w as f64 * r.to_f64())) } else { r }
             });
         // z_u = A⁻¹ (r_u − s G z_p), one V-cycle per component.
         let stencil = self.pressure_stencil();
@@ -271,7 +272,7 @@ impl SaddleSystem {
             let t = &mut work.gradient[..zc.len()];
             t.copy_from_slice(rs[c]);
             self.rows[c].apply(c, None, zp, stencil, t);
-            self.velocity_mg[c].precondition(t, zc, &mut work.velocity[c]);
+            self.velocity_mg[c].precondition(&self.rows[c], t, zc, &mut work.velocity[c]);
         }
     }
 
@@ -285,14 +286,18 @@ impl SaddleSystem {
                 b.operator.active.len() * 2 + 8 * b.rhs.len() + 16 * (b.known.len() + b.wall_links.len())
             })
             .sum();
-        let hierarchies: usize =
-            self.velocity_mg.iter().map(|m| m.memory_bytes() + m.work_bytes()).sum::<usize>()
-                + self.pressure_mg.memory_bytes()
-                + self.pressure_mg.work_bytes();
+        let hierarchies: usize = self
+            .velocity_mg
+            .iter()
+            .zip(&self.rows)
+            .map(|(m, r)| m.memory_bytes() + m.work_bytes(r.len()))
+            .sum::<usize>()
+            + self.pressure_mg.memory_bytes()
+            + self.pressure_mg.work_bytes();
         let coupling = self.coupling.velocity_active.iter().map(|v| v.len()).sum::<usize>()
             + self.coupling.pressure_active.len();
         let work = 4 * (self.rows.iter().map(|r| r.len()).max().unwrap_or(0) + self.coupling.grid.len());
-        rows + blocks + hierarchies + coupling + work + 8 * self.viscous_inverse.len()
+        rows + blocks + hierarchies + coupling + work + 4 * self.viscous_inverse.len()
     }
 }
 
@@ -373,7 +378,7 @@ fn viscous_schur_inverse(
     coupling: &PressureCoupling,
     resistivity: f64,
     scale: f64,
-) -> Vec<f64> {
+) -> Vec<f32> {
     let grid = &coupling.grid;
     let h = grid.spacing;
     let diagonals: Vec<Vec<f64>> = blocks.iter().map(|b| viscous_diagonal(b, resistivity, h)).collect();
@@ -396,7 +401,7 @@ fn viscous_schur_inverse(
                 }
             }
             if sum > 0.0 {
-                1.0 / (scale * scale * sum)
+                (1.0 / (scale * scale * sum)) as f32
             } else {
                 0.0
             }
