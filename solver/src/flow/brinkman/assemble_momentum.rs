@@ -166,33 +166,67 @@ pub fn assemble_momentum(
                 (hit != no_hit).then_some((p, hit))
             })
             .collect();
-        let mut next_hit = hits.iter().peekable();
-        let mut ijk = [0; 3];
-        for p in 0..n {
-            if p > 0 {
-                component.advance(&mut ijk);
+        let hit_of = |p: usize| match hits.binary_search_by_key(&p, |&(hp, _)| hp) {
+            Ok(i) => hits[i].1,
+            Err(_) => no_hit,
+        };
+        // The link from row p to its upper neighbour along a: (q, its face, whether it couples the two rows).
+        let link = |p: usize, ijk: [usize; 3]| {
+            let (q_ijk, face_along) = upper_of(ijk, a)?;
+            let q = component.index(q_ijk);
+            let coupled = active[p] && active[q] && q != p && (!near[p] || hit_of(p).from_start.is_none());
+            let mut f = ijk;
+            f[a] = face_along;
+            Some((q, face_index(f), coupled))
+        };
+        // Control-volume face area of links along a: halved across an outlet face's half volume.
+        let area_of = |p: usize| if a != axis && half_volume[p] { 0.5 * h * h } else { h * h };
+        // Coupled links, face by face in parallel: face f is the upper link of row f − ê_a (of the last row
+        // across a periodic axis for f_a = 0), of no row on a non-periodic chamber face.
+        conductance[a].par_chunks_mut(s[0]).enumerate().for_each(|(line, faces)| {
+            let (j, k) = (line % s[1], line / s[1]);
+            for (i, g) in faces.iter_mut().enumerate() {
+                let mut ijk = [i, j, k];
+                if ijk[a] >= 1 && ijk[a] < component.shape[a] {
+                    ijk[a] -= 1;
+                } else if ijk[a] == 0 && periodic[a] {
+                    ijk[a] = component.shape[a] - 1;
+                } else {
+                    continue;
+                }
+                let p = component.index(ijk);
+                if let Some((_, _, true)) = link(p, ijk) {
+                    *g = mu * area_of(p) / h;
+                }
             }
+        });
+        // Rows with a cut or open upper link or a tangential chamber face, in increasing p: their boundary terms
+        // are added in this order (as a sequential pass over every row would), so sums are the same bits.
+        let [sx, sy, _] = component.shape;
+        let tangential_side = a != axis && !periodic[a];
+        let events: Vec<usize> = (0..n / sx.max(1))
+            .into_par_iter()
+            .flat_map_iter(|line| {
+                let (j, k) = (line % sy, line / sy);
+                let (link, active, shape) = (&link, &active, component.shape);
+                (0..sx).filter_map(move |i| {
+                    let p = line * sx + i;
+                    let ijk = [i, j, k];
+                    let open = link(p, ijk)
+                        .is_some_and(|(q, _, coupled)| !coupled && q != p && (active[p] || active[q]));
+                    let tangential = tangential_side && active[p] && (ijk[a] == 0 || ijk[a] + 1 == shape[a]);
+                    (open || tangential).then_some(p)
+                })
+            })
+            .collect();
+        for &p in &events {
+            let ijk = component.ijk(p);
             let x = component.position(grid, ijk);
-            // Control-volume face area of links along a: halved across an outlet face's half volume.
-            let area = if a != axis && half_volume[p] { 0.5 * h * h } else { h * h };
-            // Link to the upper neighbour along a.
-            if let Some((q_ijk, face_along)) = upper_of(ijk, a) {
-                let q = component.index(q_ijk);
+            let area = area_of(p);
+            if let Some((q, _, coupled)) = link(p, ijk) {
                 let mut xq = x;
                 xq[a] += h;
-                let hit = match next_hit.peek() {
-                    Some(&&(hp, hit)) if hp == p => {
-                        next_hit.next();
-                        hit
-                    }
-                    _ => no_hit,
-                };
-                let coupled = active[p] && active[q] && q != p && hit.from_start.is_none();
-                if coupled {
-                    let mut f = ijk;
-                    f[a] = face_along;
-                    conductance[a][face_index(f)] = mu * area / h;
-                }
+                let hit = hit_of(p);
                 let ends = [(p, q, hit.from_start), (q, p, hit.from_end)];
                 let cut_ends = if coupled || q == p { &ends[..0] } else { &ends[..] };
                 for &(row, other, from) in cut_ends {
@@ -211,7 +245,7 @@ pub fn assemble_momentum(
                 }
             }
             // Tangential chamber faces (the normal direction's chamber faces are unknowns or known values).
-            if a != axis && !periodic[a] && active[p] {
+            if tangential_side && active[p] {
                 for side in 0..2 {
                     let at_face = if side == 0 { ijk[a] == 0 } else { ijk[a] == component.shape[a] - 1 };
                     if !at_face {
