@@ -67,6 +67,7 @@ fn check_stage_resources(summary: &str) {
         }
     }
     assert!(total <= r["total_s"].as_f64().expect("total_s") + 1e-6);
+    assert!(r.get("transport_far_field_s").is_none(), "no far-field faces, no far-field time");
     if scope == "stage" || scope == "since_start" {
         let status = std::fs::read_to_string("/proc/self/status").expect("/proc on Linux");
         assert!(status.contains("VmHWM"), "a meter that reads VmHWM");
@@ -135,6 +136,10 @@ fn no_flow_far_field_case_runs() {
     ]);
     let (out, output) = run(&text, "noflow");
     assert_eq!(output.status.code(), Some(0), "stderr: {}", String::from_utf8_lossy(&output.stderr));
+    let summary = std::fs::read_to_string(out.join("summary.json")).expect("summary.json");
+    let far_field = summary_number(&summary, &["resources", "transport_far_field_s"]);
+    let transport = summary_number(&summary, &["resources", "transport", "wall_s"]);
+    assert!(far_field > 0.0 && far_field <= transport, "far field {far_field} s of transport {transport} s");
     let csv = std::fs::read_to_string(out.join("cells.csv")).expect("cells.csv");
     // Without flow every cell reports zero local speed and zero drag.
     for line in csv.lines().skip(1) {

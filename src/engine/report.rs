@@ -135,8 +135,10 @@ pub fn write_outputs(
         measured_outlet_concentration: measured_outlet_concentration(case, solved),
         warnings,
     };
+    let mut resources = meter.resources(split.cost);
+    resources.transport_far_field_s = (solved.timing.far_field > 0.0).then_some(solved.timing.far_field);
     let sections = RunSections {
-        resources: meter.resources(split.cost),
+        resources,
         flow: FlowSummary {
             model: case.flow.medium.name().to_string(),
             mean_velocity: case.flow.mean_velocity,

@@ -51,6 +51,19 @@ impl StageProgress {
     }
 }
 
+/// Hands the free pages of the allocator's heaps back to the kernel. Arrays that glibc placed on its heaps
+/// (below its dynamic `mmap` threshold, up to 32 MiB each, so every grid array of a small case) stay resident
+/// after they are freed; a stage's arrays that the next stage no longer holds then still count in that stage's
+/// memory, and in what other processes cannot use. Not in sweeps, whose cases share the process and keep freed
+/// memory on purpose (`sweep::memory_reuse`).
+fn release_freed_heap() {
+    #[cfg(all(target_os = "linux", target_env = "gnu"))]
+    // SAFETY: `malloc_trim` only returns unused pages of glibc's heaps to the kernel, under its own locks.
+    unsafe {
+        libc::malloc_trim(0);
+    }
+}
+
 /// The stages whose wall time and peak resident memory `summary.json` → `resources` records.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub enum MeteredStage {
@@ -124,6 +137,9 @@ impl StageMeter {
     /// Ends the current stage (if any) and starts `stage`.
     pub fn begin(&mut self, stage: MeteredStage) {
         self.end();
+        if self.scope != PeakScope::Unavailable {
+            release_freed_heap();
+        }
         if self.scope == PeakScope::Stage && !meter::reset_peak_resident() {
             self.scope = PeakScope::SinceStart;
         }

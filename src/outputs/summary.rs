@@ -65,6 +65,9 @@ pub struct Resources {
     pub flow: Option<StageCost>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub transport: Option<StageCost>,
+    /// Part of `transport.wall_s`: the far-field faces' coefficients (steady runs with far-field faces only).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub transport_far_field_s: Option<f64>,
     /// Per-cell sensing and the mass balance.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub post: Option<StageCost>,
@@ -129,6 +132,7 @@ impl Resources {
 /// that per chosen cell (one time integration each) and `transport_s` the time loop without them.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct SplitCost {
+    /// The split's own preparation (the facets of each cell); the operator and hierarchy are the total solve's.
     pub setup_s: f64,
     pub solve_s: f64,
     pub seconds_per_right_hand_side: f64,

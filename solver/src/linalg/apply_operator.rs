@@ -537,12 +537,14 @@ impl PackedOperator {
                     apply_line_dispatch::<UPWIND>(wide, flux, &faces, &coefficients, x, yl, &mut scratch.qx);
                 } else {
                     scratch.load(&faces, irregular);
+                    // Most lines with irregular cells (cut cells, chamber faces) have no inactive cell: no mask pass.
+                    let masked = irregular.iter().any(|cell| !cell.active);
                     let LineScratch { x: gx, sides, sink, active, qx } = &mut *scratch;
                     let coefficients = LineCoefficients {
                         x: gx,
                         sides: [&sides[0], &sides[1], &sides[2], &sides[3]],
                         sink,
-                        active: Some(active),
+                        active: masked.then_some(&active[..]),
                     };
                     apply_line_dispatch::<UPWIND>(wide, flux, &faces, &coefficients, x, yl, qx);
                     scratch.unload(self, &faces, irregular);
@@ -624,34 +626,31 @@ impl LineScratch {
     }
 }
 
-/// Zeroes conductance and flux on every coupling face (interior or periodic) that touches an inactive cell.
+/// Zeroes conductance and flux on every coupling face (interior or periodic) that touches an inactive cell: the
+/// faces below and above each inactive cell along each axis (the wrap-around face 0 at a periodic end).
 pub(crate) fn decouple_inactive_cells(op: &mut FaceCoupledOperator) {
     let shape = op.shape;
-    let [nx, ny, nz] = shape;
-    let stride = [1, nx, nx * ny];
-    for axis in 0..3 {
-        let na = shape[axis];
-        if na < 2 {
-            continue;
-        }
-        for k in 0..nz {
-            for j in 0..ny {
-                for i in 0..nx {
-                    let upper = i + nx * (j + ny * k);
-                    let coord = [i, j, k][axis];
-                    let lower = if coord > 0 {
-                        upper - stride[axis]
-                    } else if op.periodic[axis] {
-                        upper + (na - 1) * stride[axis]
-                    } else {
-                        continue;
-                    };
-                    if !op.active[lower] || !op.active[upper] {
-                        let f = face_index(shape, axis, i, j, k);
-                        op.conductance[axis][f] = 0.0;
-                        op.flux[axis][f] = 0.0;
-                    }
-                }
+    let [nx, ny, _] = shape;
+    for p in (0..op.active.len()).filter(|&p| !op.active[p]) {
+        let cell = [p % nx, (p / nx) % ny, p / (nx * ny)];
+        for axis in 0..3 {
+            let (na, coord) = (shape[axis], cell[axis]);
+            if na < 2 {
+                continue;
+            }
+            let wraps = op.periodic[axis];
+            let at = |c: usize| {
+                let mut index = cell;
+                index[axis] = c;
+                face_index(shape, axis, index[0], index[1], index[2])
+            };
+            // Face `coord` lies below the cell (face 0 only when it wraps); the face above is `coord + 1`, or
+            // face 0 at the upper end of a periodic axis.
+            let below = (coord > 0 || wraps).then(|| at(coord));
+            let above = if coord + 1 < na { Some(at(coord + 1)) } else { wraps.then(|| at(0)) };
+            for f in [below, above].into_iter().flatten() {
+                op.conductance[axis][f] = 0.0;
+                op.flux[axis][f] = 0.0;
             }
         }
     }
@@ -887,6 +886,59 @@ mod tests {
                 assert_eq!(bits(unpacked), bits(given), "{shape:?} axis {a}");
             }
             assert_eq!(bits(&sink), bits(&op.sink), "{shape:?}");
+        }
+    }
+
+    /// Decoupling zeroes exactly the coupling faces (interior and wrap-around) with an inactive cell on either
+    /// side, checked face by face against both cells of each face, for every periodicity.
+    #[test]
+    fn decoupling_zeroes_exactly_the_faces_of_inactive_cells() {
+        for (shape, periodic) in [
+            ([6, 5, 4], [false, false, false]),
+            ([6, 5, 4], [true, true, true]),
+            ([2, 7, 3], [true, false, true]),
+            ([1, 4, 4], [true, true, false]),
+        ] {
+            let mut op = random_operator(shape, periodic, 41);
+            let n = op.sink.len();
+            for p in [0, 3, 10, n / 2, n - 1] {
+                op.active[p] = false;
+            }
+            let given = op.clone();
+            decouple_inactive_cells(&mut op);
+            let [nx, ny, _] = shape;
+            for axis in 0..3 {
+                let mut faces = shape;
+                faces[axis] += 1;
+                for k in 0..faces[2] {
+                    for j in 0..faces[1] {
+                        for i in 0..faces[0] {
+                            let f = face_index(shape, axis, i, j, k);
+                            let (na, c) = (shape[axis], [i, j, k][axis]);
+                            let cell = |c: usize| {
+                                let mut at = [i, j, k];
+                                at[axis] = c;
+                                at[0] + nx * (at[1] + ny * at[2])
+                            };
+                            let pair = if na < 2 || c == na || (c == 0 && !periodic[axis]) {
+                                None
+                            } else if c == 0 {
+                                Some((cell(na - 1), cell(0)))
+                            } else {
+                                Some((cell(c - 1), cell(c)))
+                            };
+                            let cut = pair.is_some_and(|(l, u)| !given.active[l] || !given.active[u]);
+                            let want = |v: f64| if cut { 0.0 } else { v };
+                            assert_eq!(
+                                op.conductance[axis][f],
+                                want(given.conductance[axis][f]),
+                                "{shape:?} {axis} {f}"
+                            );
+                            assert_eq!(op.flux[axis][f], want(given.flux[axis][f]), "{shape:?} {axis} {f}");
+                        }
+                    }
+                }
+            }
         }
     }
 

@@ -15,29 +15,33 @@
 
 use super::operator::{AdvectionScheme, FaceCoupledOperator};
 use super::real::Real;
-use super::stencil::{face_coefficients, face_index, min_lines, LineNeighbours};
+use super::stencil::{face_coefficients, face_index, min_lines};
 use rayon::prelude::*;
 
 /// A level vector in split layout: `[red, black]`, `lines · half` slots each.
 pub(crate) type Split<T> = [Vec<T>; 2];
 
-/// The coefficients of one colour: `(A x)_P = diag·x_P + Σ lower[a]·x_{P−e_a} + upper[a]·x_{P+e_a}`.
+/// The coefficients of one colour: `(A x)_P = diag·x_P + Σ lower[a]·x_{P−e_a} + upper[a]·x_{P+e_a}`. The
+/// off-diagonals are stored as [`Real::Coefficient`] (bfloat16 for an f32 level), and the diagonal absorbs their
+/// rounding, `diag = a_PP + Σ (a_PN − stored a_PN)`, so each row keeps the row sum of the exact row: rounding
+/// then perturbs the couplings by a relative 2⁻⁹ like a slightly different conductance, instead of shifting the
+/// near-null smooth modes (which a rounded diagonal alone would do).
 #[derive(Clone, Debug)]
-struct ColourCoefficients<T> {
+struct ColourCoefficients<T: Real> {
     diag: Vec<T>,
-    lower: [Vec<T>; 3],
-    upper: [Vec<T>; 3],
+    lower: [Vec<T::Coefficient>; 3],
+    upper: [Vec<T::Coefficient>; 3],
 }
 
 /// Off-diagonal slices of one line of one colour.
-struct LineCoefficients<'a, T> {
-    lower: [&'a [T]; 3],
-    upper: [&'a [T]; 3],
+struct LineCoefficients<'a, T: Real> {
+    lower: [&'a [T::Coefficient]; 3],
+    upper: [&'a [T::Coefficient]; 3],
 }
 
 /// `scale · A` of one level (inactive rows `scale · identity`), stored per colour.
 #[derive(Clone, Debug)]
-pub(crate) struct ColouredStencil<T> {
+pub(crate) struct ColouredStencil<T: Real> {
     shape: [usize; 3],
     periodic: [bool; 3],
     half: usize,
@@ -192,8 +196,8 @@ impl<T: Real> ColouredStencil<T> {
         let build = |colour: usize| {
             let mut c = ColourCoefficients {
                 diag: vec![T::ONE; len],
-                lower: [vec![T::ZERO; len], vec![T::ZERO; len], vec![T::ZERO; len]],
-                upper: [vec![T::ZERO; len], vec![T::ZERO; len], vec![T::ZERO; len]],
+                lower: std::array::from_fn(|_| vec![T::to_coefficient(0.0); len]),
+                upper: std::array::from_fn(|_| vec![T::to_coefficient(0.0); len]),
             };
             let [l0, l1, l2] = &mut c.lower;
             let [u0, u1, u2] = &mut c.upper;
@@ -215,13 +219,15 @@ impl<T: Real> ColouredStencil<T> {
                     let rows = LineRows::new(op, scheme, line);
                     for m in 0..slots(nx, first) {
                         let (diag, lower, upper) = rows.row(first + 2 * m);
-                        d[m] = T::from_f64(scale * diag);
-                        l0[m] = T::from_f64(scale * lower[0]);
-                        l1[m] = T::from_f64(scale * lower[1]);
-                        l2[m] = T::from_f64(scale * lower[2]);
-                        u0[m] = T::from_f64(scale * upper[0]);
-                        u1[m] = T::from_f64(scale * upper[1]);
-                        u2[m] = T::from_f64(scale * upper[2]);
+                        let mut rounding = 0.0;
+                        let mut store = |a: f64| {
+                            let stored = T::to_coefficient(scale * a);
+                            rounding += scale * a - T::from_coefficient(stored).to_f64();
+                            stored
+                        };
+                        (l0[m], l1[m], l2[m]) = (store(lower[0]), store(lower[1]), store(lower[2]));
+                        (u0[m], u1[m], u2[m]) = (store(upper[0]), store(upper[1]), store(upper[2]));
+                        d[m] = T::from_f64(scale * diag + rounding);
                     }
                 });
             c
@@ -261,7 +267,7 @@ impl<T: Real> ColouredStencil<T> {
 
     /// Bytes held by the coefficient arrays.
     pub fn memory_bytes(&self) -> usize {
-        2 * 7 * self.half * self.lines() * std::mem::size_of::<T>()
+        2 * self.half * self.lines() * (std::mem::size_of::<T>() + 6 * std::mem::size_of::<T::Coefficient>())
     }
 
     /// True when a periodic y or z axis of odd size puts wrap-around neighbours in the same colour: colour
@@ -312,15 +318,47 @@ impl<T: Real> ColouredStencil<T> {
         other_all: &'a [T],
         scratch: &'a mut [Vec<T>; 4],
     ) -> [&'a [T]; 4] {
-        let ln = LineNeighbours::new(self.shape, self.periodic, line);
-        let nx = self.shape[0];
-        let ny = self.shape[1];
+        let [_, ny, nz] = self.shape;
         let h = self.half;
-        let targets = [ln.y[0] / nx, ln.y[1] / nx, ln.z[0] / nx, ln.z[1] / nx];
-        let parity = |l: usize| (l % ny + l / ny) % 2;
-        let mut same = [false; 4];
+        let (j, k) = (line % ny, line / ny);
+        let wraps = |a: usize| self.periodic[a] && self.shape[a] > 1;
+        // Neighbour lines by index arithmetic (this runs once per line and colour sweep): one step in j or k
+        // changes the colour parity, a wrap-around keeps it when the axis has odd size; a missing neighbour is
+        // the line itself.
+        let (y_odd, z_odd) = (ny % 2 == 1, nz % 2 == 1);
+        let [y_lo, y_hi, z_lo, z_hi] = [
+            if j > 0 {
+                (line - 1, false)
+            } else if wraps(1) {
+                (line + ny - 1, y_odd)
+            } else {
+                (line, false)
+            },
+            if j + 1 < ny {
+                (line + 1, false)
+            } else if wraps(1) {
+                (line + 1 - ny, y_odd)
+            } else {
+                (line, false)
+            },
+            if k > 0 {
+                (line - ny, false)
+            } else if wraps(2) {
+                (line + ny * (nz - 1), z_odd)
+            } else {
+                (line, false)
+            },
+            if k + 1 < nz {
+                (line + ny, false)
+            } else if wraps(2) {
+                (line - ny * (nz - 1), z_odd)
+            } else {
+                (line, false)
+            },
+        ];
+        let targets = [y_lo.0, y_hi.0, z_lo.0, z_hi.0];
+        let same = [y_lo.1, y_hi.1, z_lo.1, z_hi.1];
         for (s, &t) in targets.iter().enumerate() {
-            same[s] = t != line && parity(t) == parity(line);
             if same[s] {
                 scratch[s].clear();
                 scratch[s].extend_from_slice(&own_all[t * h..(t + 1) * h]);
@@ -383,12 +421,13 @@ impl<T: Real> ColouredStencil<T> {
             } else {
                 T::ZERO
             };
-            co.lower[0][m] * xl
-                + co.upper[0][m] * xu
-                + co.lower[1][m] * neighbours[0][m]
-                + co.upper[1][m] * neighbours[1][m]
-                + co.lower[2][m] * neighbours[2][m]
-                + co.upper[2][m] * neighbours[3][m]
+            let c = |stored: &[T::Coefficient]| T::from_coefficient(stored[m]);
+            c(co.lower[0]) * xl
+                + c(co.upper[0]) * xu
+                + c(co.lower[1]) * neighbours[0][m]
+                + c(co.upper[1]) * neighbours[1][m]
+                + c(co.lower[2]) * neighbours[2][m]
+                + c(co.upper[2]) * neighbours[3][m]
         };
         let m_lo = if first == 0 { 1 } else { 0 };
         let last_is_edge = first + 2 * (count - 1) == nx - 1;
@@ -407,13 +446,14 @@ impl<T: Real> ColouredStencil<T> {
             let (n0, n1) = (&neighbours[0][r.clone()], &neighbours[1][r.clone()]);
             let (n2, n3) = (&neighbours[2][r.clone()], &neighbours[3][r.clone()]);
             let out = &mut off[r];
+            let c = T::from_coefficient;
             for q in 0..len {
-                out[q] = lx[q] * xl[q]
-                    + ux[q] * xu[q]
-                    + ly[q] * n0[q]
-                    + uy[q] * n1[q]
-                    + lz[q] * n2[q]
-                    + uz[q] * n3[q];
+                out[q] = c(lx[q]) * xl[q]
+                    + c(ux[q]) * xu[q]
+                    + c(ly[q]) * n0[q]
+                    + c(uy[q]) * n1[q]
+                    + c(lz[q]) * n2[q]
+                    + c(uz[q]) * n3[q];
             }
         }
         if last_is_edge && count > m_lo {

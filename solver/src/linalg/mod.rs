@@ -5,7 +5,7 @@
 //! - [`apply_operator`]: the matrix-free product straight from the face arrays (the exact f64 system), also in
 //!   a packed form that stores only the conductances and sinks of irregular cells ([`PackedOperator`]).
 //! - [`coarsen`], [`transfer`], [`smooth`], [`dense_lu`], [`multigrid`]: the cell-centred multigrid
-//!   preconditioner (f32 levels, stored per red–black colour by `coloured_stencil`).
+//!   preconditioner (f32 levels with bfloat16 off-diagonals, stored per red–black colour by `coloured_stencil`).
 //! - [`krylov`]: the Krylov methods (BiCGSTAB in f64 or f32, flexible GMRES, mixed-precision refinement) behind
 //!   the [`LinearOperator`] trait, on the fixed-order vector kernels of `vector` (the same bits at any thread
 //!   count).

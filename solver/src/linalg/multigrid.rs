@@ -4,7 +4,9 @@
 //! level has at most `coarsest_size` cells, which is solved by dense LU. The finest level uses the system's
 //! advection scheme, coarse levels use upwinding (the coarse cell Péclet number doubles per level; upwinding
 //! keeps coarse operators M-matrices). Levels are stored and cycled in f32, scaled by `1/max diag`, so that
-//! any SI magnitude stays well inside the f32 range; the Krylov method around it works in f64.
+//! any SI magnitude stays well inside the f32 range, with their off-diagonal coefficients in bfloat16 and the
+//! rounding folded into the diagonal (row sums kept; see `coloured_stencil`); the Krylov method around it works in
+//! f64.
 
 use super::coarsen::coarsen_operator;
 use super::coloured_stencil::{ColouredStencil, Split};

@@ -42,13 +42,22 @@ pub trait Real:
 {
     const ZERO: Self;
     const ONE: Self;
+    /// How a multigrid level at this precision stores its off-diagonal coefficients: f64 as itself (exact), f32
+    /// as bfloat16 (the upper half of the f32 bits), because the smoothing sweeps stream the coefficients from
+    /// memory and a preconditioner needs only a few digits of them.
+    type Coefficient: Copy + Send + Sync + Default + std::fmt::Debug + 'static;
     fn from_f64(value: f64) -> Self;
     fn to_f64(self) -> f64;
+    /// `value` rounded to the coefficient storage (to nearest, ties to even).
+    fn to_coefficient(value: f64) -> Self::Coefficient;
+    /// A stored coefficient, exactly.
+    fn from_coefficient(stored: Self::Coefficient) -> Self;
 }
 
 impl Real for f64 {
     const ZERO: Self = 0.0;
     const ONE: Self = 1.0;
+    type Coefficient = f64;
     #[inline]
     fn from_f64(value: f64) -> Self {
         value
@@ -57,11 +66,20 @@ impl Real for f64 {
     fn to_f64(self) -> f64 {
         self
     }
+    #[inline]
+    fn to_coefficient(value: f64) -> f64 {
+        value
+    }
+    #[inline]
+    fn from_coefficient(stored: f64) -> f64 {
+        stored
+    }
 }
 
 impl Real for f32 {
     const ZERO: Self = 0.0;
     const ONE: Self = 1.0;
+    type Coefficient = u16;
     #[inline]
     fn from_f64(value: f64) -> Self {
         value as f32
@@ -69,5 +87,16 @@ impl Real for f32 {
     #[inline]
     fn to_f64(self) -> f64 {
         self as f64
+    }
+    /// bfloat16 of the f32 nearest to `value` (finite coefficients only; 8 significant bits).
+    #[inline]
+    fn to_coefficient(value: f64) -> u16 {
+        let bits = (value as f32).to_bits();
+        let rounded = bits.wrapping_add(0x7fff + ((bits >> 16) & 1));
+        (rounded >> 16) as u16
+    }
+    #[inline]
+    fn from_coefficient(stored: u16) -> f32 {
+        f32::from_bits((stored as u32) << 16)
     }
 }

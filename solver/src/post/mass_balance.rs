@@ -2,7 +2,9 @@
 //! `secreted = outflow + uptake + decay (+ accumulation)`, evaluated with exactly the discrete fluxes of the
 //! assembled system, so it closes to the solver tolerance, not merely to truncation error.
 
+use crate::transport::decay::decay_sinks;
 use crate::transport::TransportTerms;
+use mesh::EmbeddedGeometry;
 
 /// Terms of the balance (molecules/s).
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -17,10 +19,11 @@ pub struct MassBalance {
     pub relative_error: f64,
 }
 
-pub fn mass_balance(assembly: &TransportTerms, c: &[f64]) -> MassBalance {
+/// The balance of the solution `c` of the terms `assembly` on `geometry`.
+pub fn mass_balance(assembly: &TransportTerms, geometry: &EmbeddedGeometry, c: &[f64]) -> MassBalance {
     let secreted: f64 = assembly.facets.iter().map(|f| f.secretion).sum();
     let uptake: f64 = assembly.facets.iter().map(|f| f.uptake.evaluate(c)).sum();
-    let decay: f64 = assembly.decay.iter().zip(c).map(|(k, c)| k * c).sum();
+    let decay: f64 = decay_sinks(geometry, assembly.decay_rate).zip(c).map(|(k, c)| k * c).sum();
     let mut outflow = 0.0;
     let mut gross_inflow = 0.0;
     for b in &assembly.boundary {

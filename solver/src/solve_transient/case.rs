@@ -132,7 +132,7 @@ pub fn solve_transient_case(
         concentration: steady.concentration.clone(),
     };
     let steady_balance_error =
-        crate::post::mass_balance(&steady.assembly, &steady.concentration).relative_error;
+        crate::post::mass_balance(&steady.assembly, &geometry, &steady.concentration).relative_error;
     drop(steady);
     let t_steady = t2.elapsed().as_secs_f64();
 

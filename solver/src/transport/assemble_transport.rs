@@ -20,24 +20,28 @@ pub struct TransportAssembly {
     /// Decay sink per grid cell (m^3/s): decay rate · fluid volume.
     pub decay: Vec<f64>,
     pub peclet: PecletReport,
+    /// Wall time of the far-field faces' coefficients (s; 0 without such faces): measured, not a result.
+    pub far_field_seconds: f64,
 }
 
 /// The per-term forms of an assembly that post-processing evaluates on the solution (mass balance, sensing,
 /// the self/neighbour split's right-hand sides): everything but the operator and the right-hand side, which the
-/// solve consumes.
+/// solve consumes, and the decay sinks, which follow from the geometry (`decay::decay_sinks`).
 pub struct TransportTerms {
     pub facets: Vec<FacetExchange>,
     pub boundary: Vec<BoundaryExchange>,
-    /// Decay sink per grid cell (m^3/s): decay rate · fluid volume.
-    pub decay: Vec<f64>,
+    /// Bulk decay rate (1/s) of the decay sinks.
+    pub decay_rate: f64,
     pub peclet: PecletReport,
+    /// Wall time of the far-field faces' coefficients (s; 0 without such faces): measured, not a result.
+    pub far_field_seconds: f64,
 }
 
 impl TransportAssembly {
     /// The system and right-hand side for a solver, and the forms kept for post-processing.
-    pub fn into_parts(self) -> (LinearSystem, Vec<f64>, TransportTerms) {
-        let TransportAssembly { system, rhs, facets, boundary, decay, peclet } = self;
-        (system, rhs, TransportTerms { facets, boundary, decay, peclet })
+    pub fn into_parts(self, decay_rate: f64) -> (LinearSystem, Vec<f64>, TransportTerms) {
+        let TransportAssembly { system, rhs, facets, boundary, peclet, far_field_seconds, .. } = self;
+        (system, rhs, TransportTerms { facets, boundary, decay_rate, peclet, far_field_seconds })
     }
 }
 
@@ -53,7 +57,7 @@ pub fn assemble_transport(problem: &TransportProblem) -> TransportAssembly {
     let mut sink = decay.clone();
     let mut rhs = vec![0.0; n];
 
-    let boundary = boundary_exchanges(
+    let (boundary, far_field_seconds) = boundary_exchanges(
         geometry,
         problem.layout,
         &problem.boundaries,
@@ -106,5 +110,6 @@ pub fn assemble_transport(problem: &TransportProblem) -> TransportAssembly {
         boundary,
         decay,
         peclet,
+        far_field_seconds,
     }
 }

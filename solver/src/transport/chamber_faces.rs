@@ -21,6 +21,7 @@ use super::far_field_sources::{FarFieldMedium, FarFieldPoint, FarFieldSumParams,
 use crate::problem::{ChamberBoundaries, ChamberFace, LigandParameters};
 use mesh::{Axis, EmbeddedGeometry, Layout};
 use rayon::prelude::*;
+use std::time::Instant;
 
 /// The outward flux through one boundary grid face.
 #[derive(Clone, Copy, Debug)]
@@ -91,8 +92,8 @@ pub fn far_field_coefficient(face: &OpenChamberFace, diffusivity: f64, beta: f64
     (face.q_out - diffusivity * face.area * beta) * to_face
 }
 
-/// All boundary-face exchanges of the chamber. The far-field coefficients are evaluated in parallel (their cost
-/// is faces × cells with `FarFieldSources::Cells`).
+/// All boundary-face exchanges of the chamber, and the wall time of the far-field coefficients (s). Those are
+/// evaluated in parallel (their cost is faces × cells with `FarFieldSources::Cells`, or the patch sums').
 pub fn boundary_exchanges(
     geometry: &EmbeddedGeometry,
     layout: &Layout,
@@ -100,11 +101,12 @@ pub fn boundary_exchanges(
     ligand: &LigandParameters,
     face_flux: &[Vec<f64>; 3],
     far_field_speed: f64,
-) -> Vec<BoundaryExchange> {
+) -> (Vec<BoundaryExchange>, f64) {
     let h = geometry.grid.spacing;
     let d = ligand.diffusivity;
     let faces: Vec<OpenChamberFace> = open_chamber_faces(geometry, boundaries, face_flux).collect();
     let far_field = faces.iter().any(|f| f.kind == ChamberFace::FarField);
+    let started = Instant::now();
     let sources = far_field.then(|| PointSources::new(geometry, layout, boundaries.far_field_sources, None));
     let medium = FarFieldMedium::new(far_field_speed, d, ligand.decay_rate, h);
     let far_points: Vec<FarFieldPoint> = faces
@@ -118,11 +120,12 @@ pub fn boundary_exchanges(
             s.steady_log_gradients(&medium, &far_points, &FarFieldSumParams::default())
         })
         .into_iter();
+    let far_field_seconds = if far_field { started.elapsed().as_secs_f64() } else { 0.0 };
     let beta_of_face: Vec<f64> = faces
         .iter()
         .map(|f| if f.kind == ChamberFace::FarField { far_betas.next().unwrap_or(0.0) } else { 0.0 })
         .collect();
-    faces
+    let exchanges = faces
         .par_iter()
         .zip(&beta_of_face)
         .map(|(face, &beta)| {
@@ -150,5 +153,6 @@ pub fn boundary_exchanges(
                 }
             }
         })
-        .collect()
+        .collect();
+    (exchanges, far_field_seconds)
 }

@@ -432,16 +432,19 @@ mod tests {
                 }
             }
         }
-        for (count, speed, decay, tolerance, degree) in
-            [(200, 0.0, 0.0, 1e-9, 12), (300, 3e-5, 1e-2, 1e-9, 12), (300, 1e-5, 0.0, 1e-5, 6)]
-        {
+        for (count, speed, decay, tolerance, degree) in [
+            (200, 0.0, 0.0, 1e-9, 12),
+            (300, 3e-5, 1e-2, 1e-9, 12),
+            (300, 1e-5, 0.0, 1e-5, 6),
+            (400, 1e-6, 1e-4, 1e-8, 16),
+        ] {
             let cells: Vec<([f64; 3], f64)> =
                 (0..count).map(|_| ([next() * side, next() * side, next() * side], 0.2 + next())).collect();
             let s = sources(&cells, FarFieldSources::Cells);
             let m = FarFieldMedium::new(speed, 1e-10, decay, h);
             let params = FarFieldSumParams {
                 direct_below_pairs: 0.0,
-                patches: PatchSumParams { tolerance, degree, leaf_faces: 8 },
+                patches: PatchSumParams { tolerance, degree, ..PatchSumParams::default() },
             };
             for axis in 0..3 {
                 for outward in [-1.0, 1.0] {

@@ -51,7 +51,7 @@ pub fn solve_steady(
     problem: &TransportProblem,
     params: &TransportParams,
 ) -> Result<SteadyTransport, TransportError> {
-    let (system, rhs, assembly) = assemble_transport(problem).into_parts();
+    let (system, rhs, assembly) = assemble_transport(problem).into_parts(problem.ligand.decay_rate);
     // The solver takes the system (no second copy of the operator arrays) and is kept for further right-hand
     // sides; the right-hand side of the total is not needed after the solve.
     let solver = SteadySolver::new(system, params.multigrid.clone());

@@ -120,7 +120,7 @@ impl SphereInStream {
             peclet,
             radius_in_spacings: self.radius_in_spacings,
             sherwood: uptake / (2.0 * std::f64::consts::PI * RADIUS * diffusivity * FAR_CONCENTRATION),
-            mass_balance: mass_balance(&solved.assembly, c).relative_error,
+            mass_balance: mass_balance(&solved.assembly, &self.geometry, c).relative_error,
             max_cell_peclet: solved.assembly.peclet.max_cell_peclet,
             surface_peclet: solved.assembly.peclet.surface_peclet,
             drag_ratio: self.flow.drag[0][0] / (6.0 * std::f64::consts::PI * VISCOSITY * RADIUS * SPEED),
