@@ -350,8 +350,8 @@ mod tests {
     use mesh::{Cell, Grid, Layout};
     use std::sync::Arc;
 
-    /// One cycle with the finest level from the rows equals the cycle on the stored levels up to their storage
-    /// rounding (the same smoother, transfers and coarse levels), for each component of a chamber with an inlet, an outlet
+    /// One cycle with the finest level from the rows equals the cycle on the stored levels up to f32 rounding
+    /// (the same smoother, transfers and coarse levels), for each component of a chamber with an inlet, an outlet
     /// (half volumes), walls, an even periodic axis and two cut spheres; on one thread and on several alike.
     #[test]
     fn cycle_from_rows_matches_the_stored_cycle() {
@@ -393,11 +393,8 @@ mod tests {
             let z = cycle(&from_rows);
             let largest = expected.iter().fold(0.0f32, |m, v| m.max(v.abs()));
             assert!(largest > 0.0);
-            // The stored levels keep their off-diagonals in bfloat16 (unit roundoff 2⁻⁸, the rounding folded into
-            // the diagonal), so the two cycles agree to that storage precision; a wrong transfer or sweep would
-            // differ by O(1).
             let worst = z.iter().zip(&expected).fold(0.0f32, |m, (a, b)| m.max((a - b).abs()));
-            assert!(worst <= 2f32.powi(-8) * largest, "c {c}: largest difference {worst:e} of {largest:e}");
+            assert!(worst <= 1e-4 * largest, "c {c}: largest difference {worst:e} of {largest:e}");
             let single = rayon::ThreadPoolBuilder::new().num_threads(1).build().expect("pool");
             let z1 = single.install(|| cycle(&from_rows));
             assert!(z1.iter().zip(&z).all(|(a, b)| a.to_bits() == b.to_bits()), "c {c}: thread count");
