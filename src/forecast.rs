@@ -33,7 +33,7 @@ const VISCOUS_FLOW_BYTES_PER_GRID_CELL: f64 = 294.0;
 /// peak (facets, extrapolation stencils, exchange forms) and at the flow stage's (facets and stencils; the
 /// Brinkman/Stokes stage also its cut links), bytes.
 const BYTES_PER_SURFACE: f64 = 48.5e3;
-const FLOW_BYTES_PER_SURFACE: f64 = 28.8e3;
+const DARCY_FLOW_BYTES_PER_SURFACE: f64 = 28.8e3;
 const VISCOUS_FLOW_BYTES_PER_SURFACE: f64 = 24.7e3;
 /// Extra resident memory per grid cell for each thread beyond the first (per-thread work buffers; the split's
 /// parallel solves are held under the transport stage's peak), bytes.
@@ -109,7 +109,7 @@ impl Forecast {
         let (flow_bytes, flow_surface_bytes) = if viscous {
             (VISCOUS_FLOW_BYTES_PER_GRID_CELL, VISCOUS_FLOW_BYTES_PER_SURFACE)
         } else {
-            (DARCY_FLOW_BYTES_PER_GRID_CELL, FLOW_BYTES_PER_SURFACE)
+            (DARCY_FLOW_BYTES_PER_GRID_CELL, DARCY_FLOW_BYTES_PER_SURFACE)
         };
         forecast.memory_bytes = BASE_BYTES
             + (flow_bytes * n + flow_surface_bytes * surface)

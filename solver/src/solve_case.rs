@@ -130,7 +130,7 @@ pub fn solve_steady_case(
     let t1 = Instant::now();
     let (flow, flow_resolution) = solve_flow(&geometry, &stencils, case, case.flow.mean_velocity)?;
     let pressure_drops =
-        cell_pressure_drop(&geometry, &stencils, case.layout, &flow.velocity(case.grid), &flow.pressure);
+        cell_pressure_drop(&geometry, &stencils, case.layout, &flow.face_flux, &flow.pressure);
     let t_flow = t1.elapsed().as_secs_f64();
 
     on_stage(Stage::Transport);
@@ -163,7 +163,7 @@ pub fn solve_steady_case(
         case.layout,
         &transport.assembly.facets,
         &transport.concentration,
-        &flow.velocity(case.grid),
+        &flow.face_flux,
         &model,
     );
     let balance = mass_balance(&transport.assembly, &geometry, &transport.concentration);

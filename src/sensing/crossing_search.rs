@@ -25,7 +25,9 @@
 
 use super::student_t::{t_975, ReplicateSummary};
 
-#[derive(Clone, Copy, Debug, PartialEq)]
+/// A crossing search: the metric's `level`, the searched range (SI) and whether it runs in log space, the
+/// precision asked, and the budget.
+#[derive(Clone, Copy, Debug, PartialEq, serde::Serialize, serde::Deserialize)]
 pub struct SearchParams {
     pub level: f64,
     pub from: f64,

@@ -78,7 +78,7 @@ pub fn crossing_rows(record: &PlanRecord, table: &SweepTable) -> Option<(Vec<Str
             None => observations.push(Observation { x, values: vec![value] }),
         }
     }
-    let params = find.params();
+    let params = find.search;
     let rows = groups
         .iter()
         .zip(searching)
@@ -157,9 +157,9 @@ pub fn write_crossing(
         others,
         searched: &find.axis,
         searched_unit: record.axes[find.axis_index].unit.as_deref(),
-        log: find.log,
+        log: find.search.log,
         metric: &find.metric,
-        level: find.level,
+        level: find.search.level,
     };
     let file = dir.join("crossing.png");
     draw_crossing(&file, &figure, &rows).with_context(|| format!("cannot draw {}", file.display()))?;

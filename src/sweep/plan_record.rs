@@ -46,32 +46,12 @@ pub struct CaseRecord {
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct FindRecord {
     pub metric: String,
-    pub level: f64,
     /// The searched axis: its key and position among `axes`.
     pub axis: String,
     pub axis_index: usize,
-    /// The ends of the search (SI) and whether it runs in log space.
-    pub from: f64,
-    pub to: f64,
-    pub log: bool,
-    pub relative_precision: f64,
-    /// Cases per combination of the other axes, seeds included.
-    pub max_cases: usize,
-    pub seeds: usize,
-}
-
-impl FindRecord {
-    pub fn params(&self) -> SearchParams {
-        SearchParams {
-            level: self.level,
-            from: self.from,
-            to: self.to,
-            log: self.log,
-            relative_precision: self.relative_precision,
-            max_cases: self.max_cases,
-            seeds: self.seeds,
-        }
-    }
+    /// The level, the ends (SI) and the budget of the search, as it ran.
+    #[serde(flatten)]
+    pub search: SearchParams,
 }
 
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
@@ -110,20 +90,11 @@ impl PlanRecord {
                 values: c.values.iter().map(|v| ValueRecord { text: v.text.clone(), si: v.si }).collect(),
             })
             .collect();
-        let find = plan.sweep.find.as_ref().map(|f| {
-            let p = search_params(plan, f);
-            FindRecord {
-                metric: f.metric.clone(),
-                level: f.level,
-                axis: f.axis.clone(),
-                axis_index: f.axis_index,
-                from: p.from,
-                to: p.to,
-                log: p.log,
-                relative_precision: p.relative_precision,
-                max_cases: p.max_cases,
-                seeds: p.seeds,
-            }
+        let find = plan.sweep.find.as_ref().map(|f| FindRecord {
+            metric: f.metric.clone(),
+            axis: f.axis.clone(),
+            axis_index: f.axis_index,
+            search: search_params(plan, f),
         });
         PlanRecord {
             sweep_file: absolute(&plan.sweep.path),

@@ -107,11 +107,8 @@ fn box_faces(n: usize, h: f64) -> Vec<FarFieldPoint> {
 
 /// `count` secreting cells at seeded random positions in a cube of edge `side`, equal rates.
 fn random_sources(count: usize, side: f64) -> PointSources {
-    let mut state = 15u64;
-    let mut next = move || {
-        state = state.wrapping_mul(6364136223846793005).wrapping_add(1442695040888963407);
-        (state >> 11) as f64 / (1u64 << 53) as f64
-    };
+    let mut rng = numkit::Xoshiro256StarStar::seed_from_u64(15);
+    let mut next = move || rng.next_f64();
     let cells: Vec<Cell> = (0..count)
         .map(|id| Cell {
             id,

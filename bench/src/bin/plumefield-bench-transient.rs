@@ -262,7 +262,6 @@ fn run(cli: &Cli) -> Result<()> {
         diffusivity: case.ligand.diffusivity,
         integration_time: case.sensing.integration_time,
     };
-    let velocity = flow.velocity(&case.grid);
     let problem = TransientProblem {
         geometry: &geometry,
         stencils: &stencils,
@@ -272,7 +271,6 @@ fn run(cli: &Cli) -> Result<()> {
         phases: vec![FlowPhase {
             start: 0.0,
             face_flux: &flow.face_flux,
-            velocity: &velocity,
             mean_velocity: case.flow.mean_velocity,
         }],
         secretion_start: vec![0.0; case.layout.cells.len()],
@@ -283,7 +281,7 @@ fn run(cli: &Cli) -> Result<()> {
         &case.layout,
         &steady.assembly.facets,
         &steady.concentration,
-        &velocity,
+        &flow.face_flux,
         &sensing,
     );
     let reference = SteadyReference {

@@ -52,20 +52,30 @@ impl FlowField {
     /// Cell-centred superficial velocity components (m/s) from face fluxes: mean of the two face velocities
     /// (flux / full face area).
     pub fn cell_velocity(grid: &mesh::Grid, face_flux: &[Vec<f64>; 3]) -> [Vec<f64>; 3] {
-        let area = grid.face_area();
         mesh::Axis::ALL.map(|axis| {
-            let a = axis.index();
-            (0..grid.len())
-                .map(|n| {
-                    let [i, j, k] = grid.ijk(n);
-                    let mut hi = [i, j, k];
-                    hi[a] += 1;
-                    let lo = grid.face_index(axis, i, j, k);
-                    let up = grid.face_index(axis, hi[0], hi[1], hi[2]);
-                    0.5 * (face_flux[a][lo] + face_flux[a][up]) / area
-                })
-                .collect()
+            (0..grid.len()).map(|n| Self::cell_velocity_component(grid, face_flux, axis, n)).collect()
         })
+    }
+
+    /// The cell-centred superficial velocity of grid cell `n` (m/s), as [`FlowField::cell_velocity`] gives it:
+    /// for readers of a few grid cells, which need not hold the whole field.
+    pub fn cell_velocity_at(grid: &mesh::Grid, face_flux: &[Vec<f64>; 3], n: usize) -> [f64; 3] {
+        mesh::Axis::ALL.map(|axis| Self::cell_velocity_component(grid, face_flux, axis, n))
+    }
+
+    fn cell_velocity_component(
+        grid: &mesh::Grid,
+        face_flux: &[Vec<f64>; 3],
+        axis: mesh::Axis,
+        n: usize,
+    ) -> f64 {
+        let a = axis.index();
+        let [i, j, k] = grid.ijk(n);
+        let mut hi = [i, j, k];
+        hi[a] += 1;
+        let lo = grid.face_index(axis, i, j, k);
+        let up = grid.face_index(axis, hi[0], hi[1], hi[2]);
+        0.5 * (face_flux[a][lo] + face_flux[a][up]) / grid.face_area()
     }
 
     /// This flow's cell-centred superficial velocity components (m/s), see [`FlowField::cell_velocity`].

@@ -10,12 +10,13 @@ use super::local_flow::shell_mean_velocity;
 use crate::embedded::FacetStencils;
 use mesh::{EmbeddedGeometry, Layout};
 
-/// `p_upstream − p_downstream` per cell (Pa); zero where there is no local flow or no facet.
+/// `p_upstream − p_downstream` per cell (Pa), the local flow from the face fluxes (m³/s); zero where there is
+/// no local flow or no facet.
 pub fn cell_pressure_drop(
     geometry: &EmbeddedGeometry,
     stencils: &FacetStencils,
     layout: &Layout,
-    velocity: &[Vec<f64>; 3],
+    face_flux: &[Vec<f64>; 3],
     pressure: &[f64],
 ) -> Vec<f64> {
     let mut start = 0;
@@ -27,7 +28,7 @@ pub fn cell_pressure_drop(
             let facets = geometry.facets_of(owner);
             let first = start + geometry.facets[start..].partition_point(|f| f.owner < owner);
             start = first + facets.len();
-            let flow = shell_mean_velocity(geometry, velocity, cell);
+            let flow = shell_mean_velocity(geometry, face_flux, cell);
             let speed = flow.iter().map(|v| v * v).sum::<f64>().sqrt();
             if speed == 0.0 || facets.is_empty() {
                 return 0.0;

@@ -48,16 +48,16 @@ pub struct SensingModel {
     pub integration_time: f64,
 }
 
-/// Per-cell sensing from the solved concentration `c` and the cell-centred superficial velocity.
+/// Per-cell sensing from the solved concentration `c` and the flow's face fluxes (m³/s).
 pub fn cell_sensing(
     geometry: &EmbeddedGeometry,
     layout: &Layout,
     exchanges: &[FacetExchange],
     c: &[f64],
-    velocity: &[Vec<f64>; 3],
+    face_flux: &[Vec<f64>; 3],
     model: &SensingModel,
 ) -> Vec<CellSensing> {
-    let local_flow = local_flow_per_cell(geometry, layout, velocity);
+    let local_flow = local_flow_per_cell(geometry, layout, face_flux);
     cell_sensing_in_local_flow(geometry, layout, exchanges, c, &local_flow, model)
 }
 
@@ -66,9 +66,9 @@ pub fn cell_sensing(
 pub fn local_flow_per_cell(
     geometry: &EmbeddedGeometry,
     layout: &Layout,
-    velocity: &[Vec<f64>; 3],
+    face_flux: &[Vec<f64>; 3],
 ) -> Vec<[f64; 3]> {
-    layout.cells.iter().map(|cell| shell_mean_velocity(geometry, velocity, cell)).collect()
+    layout.cells.iter().map(|cell| shell_mean_velocity(geometry, face_flux, cell)).collect()
 }
 
 /// [`cell_sensing`] with the local flow of each cell given (from [`local_flow_per_cell`]).

@@ -4,10 +4,11 @@
 //! dipole disturbance integrates to zero over any spherical shell centred on the sphere; in crowded layouts it is
 //! the local mean flow the cell feels.
 
+use crate::flow::FlowField;
 use mesh::{Cell, EmbeddedGeometry};
 
-/// Shell-averaged superficial velocity around `cell` (m/s).
-pub fn shell_mean_velocity(geometry: &EmbeddedGeometry, velocity: &[Vec<f64>; 3], cell: &Cell) -> [f64; 3] {
+/// Shell-averaged superficial velocity around `cell` (m/s), from the flow's face fluxes (m³/s).
+pub fn shell_mean_velocity(geometry: &EmbeddedGeometry, face_flux: &[Vec<f64>; 3], cell: &Cell) -> [f64; 3] {
     let grid = &geometry.grid;
     let h = grid.spacing;
     let outer = 2.0 * cell.radius;
@@ -43,8 +44,9 @@ pub fn shell_mean_velocity(geometry: &EmbeddedGeometry, velocity: &[Vec<f64>; 3]
                 }
                 let n = grid.index(idx[0] as usize, idx[1] as usize, idx[2] as usize);
                 let w = geometry.volume_fraction[n];
+                let velocity = FlowField::cell_velocity_at(grid, face_flux, n);
                 for a in 0..3 {
-                    sum[a] += w * velocity[a][n];
+                    sum[a] += w * velocity[a];
                 }
                 weight += w;
             }

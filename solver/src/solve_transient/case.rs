@@ -80,17 +80,10 @@ pub fn solve_transient_case(
         diffusivity: s.ligand.diffusivity,
         integration_time: s.integration_time,
     };
-    let velocities: Vec<[Vec<f64>; 3]> = flows.iter().map(|flow| flow.velocity(s.grid)).collect();
     let phases: Vec<FlowPhase> = speeds
         .iter()
         .zip(&flows)
-        .zip(&velocities)
-        .map(|((&(start, mean_velocity), flow), velocity)| FlowPhase {
-            start,
-            face_flux: &flow.face_flux,
-            velocity,
-            mean_velocity,
-        })
+        .map(|(&(start, mean_velocity), flow)| FlowPhase { start, face_flux: &flow.face_flux, mean_velocity })
         .collect();
     let problem = TransientProblem {
         geometry: &geometry,
@@ -123,7 +116,7 @@ pub fn solve_transient_case(
         s.layout,
         &steady.assembly.facets,
         &steady.concentration,
-        last.velocity,
+        last.face_flux,
         &sensing,
     );
     let reference = SteadyReference {

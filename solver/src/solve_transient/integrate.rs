@@ -86,7 +86,7 @@ impl<'a> PhaseSystem<'a> {
             decay: assembly.decay,
             far_field,
             boundary_rhs,
-            local_flow: local_flow_per_cell(problem.geometry, problem.layout, phase.velocity),
+            local_flow: local_flow_per_cell(problem.geometry, problem.layout, phase.face_flux),
         }
     }
 }

@@ -40,8 +40,6 @@ pub struct FlowPhase<'a> {
     pub start: f64,
     /// Signed volumetric face fluxes (m³/s).
     pub face_flux: &'a [Vec<f64>; 3],
-    /// Cell-centred superficial velocity (m/s), for the local flow direction of each cell.
-    pub velocity: &'a [Vec<f64>; 3],
     /// Undisturbed superficial speed along +x (m/s), for the far-field faces.
     pub mean_velocity: f64,
 }

@@ -411,11 +411,8 @@ mod tests {
     /// bound of the direct sum on every face (relative error of β − (U/2D) ê_x·n ≤ 2ε/(1 − ε)).
     #[test]
     fn patch_sums_match_the_direct_sum_within_the_bound() {
-        let mut state = 7u64;
-        let mut next = move || {
-            state = state.wrapping_mul(6364136223846793005).wrapping_add(1442695040888963407);
-            (state >> 11) as f64 / (1u64 << 53) as f64
-        };
+        let mut rng = numkit::Xoshiro256StarStar::seed_from_u64(7);
+        let mut next = move || rng.next_f64();
         let (h, n) = (1e-6, 48usize);
         let side = n as f64 * h;
         let mut points = Vec::new();

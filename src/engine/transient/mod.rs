@@ -363,7 +363,7 @@ fn final_table(
         &solution.geometry,
         &stencils,
         &case.layout,
-        &flow.velocity(&case.grid),
+        &flow.face_flux,
         &flow.pressure,
     );
     columns.push(cell_pressure_drop_column(pressure_drops));

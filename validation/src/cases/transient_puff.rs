@@ -53,7 +53,6 @@ pub fn puff_errors(n: usize, step: f64) -> Result<(f64, f64), VerifyError> {
     let stencils = FacetStencils::build(&geometry);
     let mut flux = Axis::ALL.map(|axis| vec![0.0; grid.face_count(axis)]);
     flux[0].iter_mut().for_each(|q| *q = U * h * h);
-    let velocity = [vec![U; grid.len()], vec![0.0; grid.len()], vec![0.0; grid.len()]];
     let ligand = LigandParameters {
         diffusivity: D,
         decay_rate: 0.0,
@@ -79,7 +78,7 @@ pub fn puff_errors(n: usize, step: f64) -> Result<(f64, f64), VerifyError> {
         layout: &layout,
         boundaries: ChamberBoundaries::new([[ChamberFace::Periodic; 2]; 3]),
         ligand,
-        phases: vec![FlowPhase { start: 0.0, face_flux: &flux, velocity: &velocity, mean_velocity: U }],
+        phases: vec![FlowPhase { start: 0.0, face_flux: &flux, mean_velocity: U }],
         secretion_start: Vec::new(),
         sensing: SensingModel { uptake: SurfaceUptake::None, diffusivity: D, integration_time: 1.0 },
     };
